@@ -1,0 +1,8 @@
+//! mirrorpick: choose discrete bipolar current-mirror designs that meet a spec.
+//!
+//! Data flows one way: files -> validated requirement and catalog (`input`) -> candidate
+//! designs -> solved circuits (`circuit`, on `device` and `solve`) -> checks and verdicts
+//! (`check`) -> ranking (`rank`) -> board BOM (`bom`) -> output (`report`).
+//! The core works in SI numbers; units and °C live at the edges.
+
+pub mod model;

@@ -1,0 +1,21 @@
+//! Plain, validated data the whole engine works on: part classes, resistor classes, the
+//! catalog, a requirement and the topology descriptions.
+//!
+//! Everything here is in SI base units (V, A, ohm, W, K, K/W, fractions rather than
+//! percent). Types here are produced by `input/` (which owns parsing, units and located
+//! errors) or built directly by tests; this module must not parse files or print.
+
+mod catalog;
+mod requirement;
+mod resistor;
+mod topology;
+mod transistor;
+
+pub use catalog::Catalog;
+pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
+pub use resistor::{ResistorClass, Series};
+pub use topology::{Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES};
+pub use transistor::{BjtParams, Matching, Polarity, Ratings, Thermal, TransistorClass};
+
+/// 0 °C in kelvin (exact by the definition of the Celsius scale).
+pub const ZERO_CELSIUS_K: f64 = 273.15;

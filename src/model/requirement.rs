@@ -1,0 +1,96 @@
+//! One current source or sink the user needs, validated and in SI units.
+
+use super::Polarity;
+
+/// A closed interval `[min, max]` with `min <= max`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Range {
+    pub min: f64,
+    pub max: f64,
+}
+
+/// Sink (NPN, mirror rail negative) or source (PNP, mirror rail positive).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum MirrorKind {
+    Sink,
+    Source,
+}
+
+impl MirrorKind {
+    pub fn polarity(self) -> Polarity {
+        match self {
+            MirrorKind::Sink => Polarity::Npn,
+            MirrorKind::Source => Polarity::Pnp,
+        }
+    }
+    pub fn as_str(self) -> &'static str {
+        match self {
+            MirrorKind::Sink => "sink",
+            MirrorKind::Source => "source",
+        }
+    }
+}
+
+/// What the mirror's output drives; it selects the cautions shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub enum LoadKind {
+    #[default]
+    General,
+    Led,
+    Laser,
+    Sensor,
+    Bias,
+}
+
+impl LoadKind {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            LoadKind::General => "general",
+            LoadKind::Led => "led",
+            LoadKind::Laser => "laser",
+            LoadKind::Sensor => "sensor",
+            LoadKind::Bias => "bias",
+        }
+    }
+}
+
+/// Allow/deny lists of topology names and class ids. Empty `allow` means "all".
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Filters {
+    pub allow: Vec<String>,
+    pub deny: Vec<String>,
+}
+
+impl Filters {
+    pub fn permits(&self, name: &str) -> bool {
+        (self.allow.is_empty() || self.allow.iter().any(|a| a == name))
+            && !self.deny.iter().any(|d| d == name)
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Requirement {
+    pub name: String,
+    pub kind: MirrorKind,
+    /// Magnitude of the voltage from the mirror rail to the opposite rail.
+    pub supply_v: f64,
+    pub input_current_a: Range,
+    /// Intended I_out / I_in (1 unless stated).
+    pub ratio: f64,
+    /// Output voltage magnitude measured from the mirror rail.
+    pub output_voltage_v: Range,
+    pub ambient_k: Range,
+    /// Largest allowed |error| as a fraction (0.01 = 1 %).
+    pub accuracy: f64,
+    /// k in `systematic + k * random <= accuracy` (default 3).
+    pub confidence_sigma: f64,
+    pub min_yield: Option<f64>,
+    pub min_output_resistance_ohm: Option<f64>,
+    pub input_voltage_max_v: Option<f64>,
+    pub max_cost: Option<f64>,
+    /// How many identical mirrors are built (default 1).
+    pub quantity: u32,
+    pub load: LoadKind,
+    pub topologies: Filters,
+    pub classes: Filters,
+}
