@@ -338,7 +338,11 @@ pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
             .map(|(_, m)| (*m, Dimension::Resistance))
     };
     let (mult, found) = parse_suffix(suffix)
-        .or_else(|| (dimension == Dimension::Resistance).then(prefix_only).flatten())
+        .or_else(|| {
+            (dimension == Dimension::Resistance)
+                .then(prefix_only)
+                .flatten()
+        })
         .ok_or_else(not_a)?;
     if found != dimension {
         return Err(QuantityError::WrongUnit {
@@ -530,7 +534,10 @@ mod tests {
         assert!(close(parse("2 MΩ", Dimension::Resistance).unwrap(), 2e6));
         assert!(close(parse("2 mV", Dimension::Voltage).unwrap(), 2e-3));
         assert!(close(parse("20 fA", Dimension::Current).unwrap(), 20e-15));
-        assert!(close(parse("1.5e-3 A", Dimension::Current).unwrap(), 1.5e-3));
+        assert!(close(
+            parse("1.5e-3 A", Dimension::Current).unwrap(),
+            1.5e-3
+        ));
     }
 
     #[test]
@@ -577,7 +584,10 @@ mod tests {
             parse("-40 °C", Dimension::Temperature).unwrap(),
             233.15
         ));
-        assert!(close(parse("85 C", Dimension::Temperature).unwrap(), 358.15));
+        assert!(close(
+            parse("85 C", Dimension::Temperature).unwrap(),
+            358.15
+        ));
         assert!(close(
             parse("300.15 K", Dimension::Temperature).unwrap(),
             300.15
@@ -615,7 +625,10 @@ mod tests {
         let f = Field::new("programming current", Dimension::Current, 1e-12, 1.0);
         let e = parse_field("1 MA", &f).unwrap_err();
         let msg = e.to_string();
-        assert!(msg.contains("`1 MA` is out of range for programming current"), "{msg}");
+        assert!(
+            msg.contains("`1 MA` is out of range for programming current"),
+            "{msg}"
+        );
         assert!(msg.contains("`M` means mega"), "{msg}");
         assert!(msg.contains("`1 mA`"), "{msg}");
         let r = Field::new("resistance", Dimension::Resistance, 0.1, 1e8);
@@ -636,8 +649,14 @@ mod tests {
         assert_eq!(format_quantity(20e-15, Dimension::Current), "20.0 fA");
         assert_eq!(format_quantity(298.15, Dimension::Temperature), "25.0 °C");
         assert_eq!(format_quantity(0.01, Dimension::Fraction), "1.00 %");
-        assert_eq!(format_quantity(1e-4, Dimension::TempCoefficient), "100 ppm/K");
-        assert_eq!(format_quantity(625.0, Dimension::ThermalResistance), "625 K/W");
+        assert_eq!(
+            format_quantity(1e-4, Dimension::TempCoefficient),
+            "100 ppm/K"
+        );
+        assert_eq!(
+            format_quantity(625.0, Dimension::ThermalResistance),
+            "625 K/W"
+        );
         assert_eq!(format_quantity(0.0, Dimension::Voltage), "0 V");
         assert_eq!(format_quantity(-0.65, Dimension::Voltage), "-650 mV");
     }

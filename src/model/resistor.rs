@@ -46,8 +46,8 @@ impl Series {
     /// digits, with one exception in E192 (920 where the formula gives 919).
     pub fn decade_digits(self) -> Vec<u16> {
         const E24: [u16; 24] = [
-            10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68,
-            75, 82, 91,
+            10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68, 75,
+            82, 91,
         ];
         if self == Series::E24 {
             return E24.to_vec();
@@ -144,8 +144,8 @@ mod tests {
         assert_eq!(
             Series::E24.decade_digits(),
             vec![
-                10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62,
-                68, 75, 82, 91
+                10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68,
+                75, 82, 91
             ]
         );
         // The eight entries that differ from round(10 * 10^(i/24)).
