@@ -440,7 +440,7 @@ pub fn format_quantity(si: f64, dimension: Dimension) -> String {
         Dimension::Temperature => format!("{} °C", sig3(si - ZERO_CELSIUS_K)),
         Dimension::TempCoefficient => format!("{} ppm/K", sig3(si * 1e6)),
         Dimension::Fraction => format!("{} %", sig3(si * 100.0)),
-        Dimension::Number => sig3(si),
+        Dimension::Number => plain3(si),
         d if d.takes_prefix() => format_prefixed(si, d.symbol()),
         d => format!("{} {}", sig3(si), d.symbol()),
     }
@@ -471,6 +471,20 @@ pub fn format_prefixed(si: f64, unit: &str) -> String {
         _ => return format!("{si:.3e} {unit}"),
     };
     format!("{} {prefix}{unit}", sig3(mantissa))
+}
+
+/// A plain number rounded to 3 significant digits, without trailing zeros (`5`, `5000`,
+/// `0.125`), falling back to `sig3` for very large or small magnitudes.
+fn plain3(x: f64) -> String {
+    let r = round_sig3(x);
+    if r == 0.0 || (1e-3..1e6).contains(&r.abs()) {
+        let s = format!("{r}");
+        // `{}` of a rounded value can still print binary noise (0.30000000000000004).
+        if s.len() <= 8 {
+            return s;
+        }
+    }
+    sig3(x)
 }
 
 fn round_sig3(x: f64) -> f64 {

@@ -24,7 +24,14 @@ impl Position {
 #[derive(Debug, Default)]
 pub struct Positions {
     map: HashMap<String, Position>,
+    /// Where the document, with every alias expanded, first grows past
+    /// [`EXPANSION_LIMIT`] nodes (an alias bomb), if it does.
+    pub bomb_at: Option<Position>,
 }
+
+/// Largest number of nodes a document may have once aliases are expanded. Real catalogs
+/// have a few thousand; a "billion laughs" document has hundreds of millions.
+pub const EXPANSION_LIMIT: u64 = 100_000;
 
 impl Positions {
     /// Walk `text`. A document that fails to scan yields an empty map (the caller has
@@ -33,7 +40,10 @@ impl Positions {
         let mut walker = Walker::default();
         let mut parser = Parser::new_from_str(text);
         let _ = parser.load(&mut walker, false);
-        Positions { map: walker.map }
+        Positions {
+            map: walker.map,
+            bomb_at: walker.bomb_at,
+        }
     }
 
     /// The position of `path`, or of its nearest recorded ancestor, or the start.
@@ -65,9 +75,29 @@ enum Frame {
 struct Walker {
     stack: Vec<Frame>,
     map: HashMap<String, Position>,
+    /// Expanded node count of each open collection, with its anchor id (0 = none).
+    sizes: Vec<(u64, usize)>,
+    /// Expanded node count of each anchored node.
+    anchors: HashMap<usize, u64>,
+    total: u64,
+    bomb_at: Option<Position>,
 }
 
 impl Walker {
+    /// Count `n` expanded nodes at `mark`, into the open collection if any.
+    fn count(&mut self, n: u64, mark: Marker) {
+        self.total = self.total.saturating_add(n);
+        if let Some((size, _)) = self.sizes.last_mut() {
+            *size = size.saturating_add(n);
+        }
+        if self.total > EXPANSION_LIMIT && self.bomb_at.is_none() {
+            self.bomb_at = Some(Position {
+                line: mark.line(),
+                col: mark.col() + 1,
+            });
+        }
+    }
+
     fn path(&self) -> String {
         let mut s = String::new();
         for f in &self.stack {
@@ -116,6 +146,35 @@ impl Walker {
 
 impl MarkedEventReceiver for Walker {
     fn on_event(&mut self, ev: Event, mark: Marker) {
+        // Expansion count, to catch alias bombs without expanding anything.
+        match &ev {
+            Event::Scalar(_, _, anchor, _) => {
+                if *anchor > 0 {
+                    self.anchors.insert(*anchor, 1);
+                }
+                self.count(1, mark);
+            }
+            Event::Alias(id) => {
+                let n = self.anchors.get(id).copied().unwrap_or(1);
+                self.count(n, mark);
+            }
+            Event::MappingStart(anchor, _) | Event::SequenceStart(anchor, _) => {
+                self.sizes.push((1, *anchor));
+            }
+            Event::MappingEnd | Event::SequenceEnd => {
+                if let Some((size, anchor)) = self.sizes.pop() {
+                    if anchor > 0 {
+                        self.anchors.insert(anchor, size);
+                    }
+                    // The collection's nodes were counted into `total` as they came;
+                    // only the parent's running size needs them now.
+                    if let Some((parent, _)) = self.sizes.last_mut() {
+                        *parent = parent.saturating_add(size);
+                    }
+                }
+            }
+            _ => {}
+        }
         match ev {
             Event::Scalar(value, ..) => {
                 if self.expecting_key() {
@@ -180,5 +239,22 @@ mod tests {
         assert_eq!(p.get("list[1].x"), Position { line: 5, col: 8 });
         // Unknown paths fall back to the nearest ancestor.
         assert_eq!(p.get("list[1].z"), p.get("list[1]"));
+        assert_eq!(p.bomb_at, None);
+    }
+
+    #[test]
+    fn alias_bomb_is_found_without_expanding_it() {
+        let mut text = String::from("a: &a [x, x, x, x, x, x, x, x, x, x]\n");
+        let mut prev = 'a';
+        for name in "bcdefghij".chars() {
+            let refs = vec![format!("*{prev}"); 10].join(", ");
+            text.push_str(&format!("{name}: &{name} [{refs}]\n"));
+            prev = name;
+        }
+        let p = Positions::of(&text);
+        // 10^5 nodes are reached on line 5 (anchor `e`).
+        assert_eq!(p.bomb_at.map(|b| b.line), Some(5));
+        // A few aliases are fine.
+        assert_eq!(Positions::of("a: &x 1\nb: *x\nc: *x\n").bomb_at, None);
     }
 }

@@ -24,7 +24,7 @@
 use serde_yaml::{Mapping, Value};
 
 use super::raw::{RawKind, RawLoad, RawRange, RawRequirement};
-use super::{deserialize, did_you_mean, Ctx, InputError, Problem};
+use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
     Catalog, Filters, LoadKind, MirrorKind, Range, Requirement, Topology, ALL_TOPOLOGIES,
 };
@@ -168,14 +168,7 @@ pub fn load_requirement(
                     expected.extend(c.transistors.iter().map(|t| t.id.clone()));
                     expected.extend(c.resistors.iter().map(|r| r.id.clone()));
                 }
-                return Err(cx.error(
-                    &path,
-                    Problem::UnknownName {
-                        value: n.clone(),
-                        suggestion: did_you_mean(n, expected.iter().map(String::as_str)),
-                        expected,
-                    },
-                ));
+                return Err(cx.error(&path, unknown_value(&path, n, &expected)));
             };
             if is_allow {
                 filters.allow.push(name);
