@@ -160,6 +160,32 @@ mod formats {
         }
     }
 
+    /// The first ```yaml block after `heading` in README.md.
+    fn readme_block(heading: &str) -> String {
+        let readme =
+            std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md"))
+                .unwrap();
+        let after = &readme[readme.find(heading).unwrap()..];
+        let start = after.find("```yaml\n").unwrap() + "```yaml\n".len();
+        let end = start + after[start..].find("```").unwrap();
+        after[start..end].to_string()
+    }
+
+    #[test]
+    fn readme_examples_are_valid_files() {
+        let cat = input::load_catalog("README.md", &readme_block("## Catalog file")).unwrap();
+        assert_eq!(cat.transistors.len(), 1);
+        let default = input::load_default_catalog().unwrap();
+        let r = input::load_requirement(
+            "README.md",
+            &readme_block("## Requirement file"),
+            Some(&default),
+        )
+        .unwrap();
+        assert_eq!(r.quantity, 4);
+        assert_eq!(r.min_output_resistance_ohm, Some(1e6));
+    }
+
     #[test]
     fn every_shipped_example_passes_spec_lint() {
         let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("requirements-examples");
