@@ -425,6 +425,11 @@ fn range_hint(text: &str, value: f64, field: &Field) -> String {
     {
         return "; a bare number is a fraction (0.01 = 1 %); write `%` for percent".to_string();
     }
+    if field.dimension == Dimension::TempCoefficient
+        && split_number(t).is_some_and(|(_, r)| r.trim().is_empty())
+    {
+        return "; a bare number is per kelvin; write `ppm/K` for parts per million".to_string();
+    }
     if field.dimension == Dimension::Temperature
         && split_number(t).is_some_and(|(_, r)| r.trim().is_empty())
     {

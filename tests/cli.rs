@@ -295,6 +295,14 @@ mod bad_input {
     }
 
     #[test]
+    fn duplicate_key() {
+        assert_eq!(
+            located(&catalog_error("duplicate-key.yaml")),
+            "duplicate-key.yaml:4:1: duplicate field `currency`; expected each key once per mapping"
+        );
+    }
+
+    #[test]
     fn duplicate_id() {
         assert_eq!(
             located(&catalog_error("duplicate-id.yaml")),

@@ -9,7 +9,7 @@
 //! | `ratio` | 0.001 to 1000 (default 1) |
 //! | `output_voltage.min/max` | 0 V to 1000 V, min <= max, max < `supply` |
 //! | `ambient.min/max` | -60 °C to 200 °C, min <= max |
-//! | `accuracy` | 0.0001 % to 50 % |
+//! | `accuracy` | 0.001 % to 50 % |
 //! | `confidence_sigma` | 0.5 to 10 (default 3) |
 //! | `min_yield` | 0 % to 100 % |
 //! | `min_output_resistance` | 1 Ω to 1 TΩ |
@@ -51,7 +51,7 @@ pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
     ),
     (
         "accuracy",
-        Field::new("an accuracy", D::Fraction, 1e-6, 0.5),
+        Field::new("an accuracy", D::Fraction, 1e-5, 0.5),
     ),
     (
         "confidence_sigma",
