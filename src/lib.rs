@@ -5,6 +5,7 @@
 //! (`check`) -> ranking (`rank`) -> board BOM (`bom`) -> output (`report`).
 //! The core works in SI numbers; units and °C live at the edges.
 
+pub mod app;
 pub mod circuit;
 pub mod device;
 pub mod model;

@@ -331,10 +331,12 @@ impl Netlist {
             v[r.slot] = i_e * sys.res_ohm[k];
             known[r.slot] = true;
         }
-        let vbe = |i: usize| -> f64 {
+        let mut vbe_at = [0.0; MAX_TRANSISTORS];
+        for i in 0..self.n_tr {
             let d: &BjtAtT = &sys.at[i];
-            d.vbe_for_current(cur[i])
-        };
+            vbe_at[i] = d.vbe_for_current(cur[i]);
+        }
+        let vbe = |i: usize| vbe_at[i];
         for _ in 0..MAX_TRANSISTORS {
             for i in 0..self.n_tr {
                 let t = &self.tr[i];
