@@ -390,6 +390,11 @@ impl Netlist {
         x
     }
 
+    #[cfg(test)]
+    pub(super) fn start_point_for_tests(&self, sys: &CircuitSystem) -> Vector {
+        self.start_point(sys)
+    }
+
     /// Solves at one operating point.
     pub fn solve(
         &self,
