@@ -150,6 +150,19 @@ impl BjtAtT {
         self.vt * (i / self.is).ln()
     }
 
+    /// Like `vbe_for_current`, for a collector current `i_a` at `v_ce`: the transport
+    /// current is `i_a` divided by the Early factor.
+    #[inline]
+    pub fn vbe_for_current_at(&self, i_a: f64, v_ce: f64) -> f64 {
+        let early = 1.0 + v_ce * self.vaf_inv;
+        self.vbe_for_current(if early > 0.0 { i_a / early } else { i_a })
+    }
+
+    /// True when the device has a finite Early voltage.
+    pub fn has_early_effect(&self) -> bool {
+        self.vaf_inv != 0.0
+    }
+
     /// The voltage above which SPICE-style junction limiting applies:
     /// `V_T ln(V_T / (sqrt(2) IS))`.
     #[inline]
