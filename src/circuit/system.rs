@@ -25,7 +25,6 @@ pub(super) struct CircuitSystem<'n> {
     pub op: OperatingPoint,
     /// Devices at the ambient temperature (the isothermal solve).
     pub at: [BjtAtT; super::MAX_TRANSISTORS],
-    v_crit: [f64; super::MAX_TRANSISTORS],
     pub res_ohm: [f64; 2],
     res_g: [f64; 2],
     /// Junction temperatures are unknowns.
@@ -38,14 +37,12 @@ impl<'n> CircuitSystem<'n> {
     pub fn new(net: &'n Netlist, op: OperatingPoint) -> Self {
         let at0 = net.tr[0].bjt.at(op.t_amb_k);
         let mut at = [at0; super::MAX_TRANSISTORS];
-        let mut v_crit = [0.0; super::MAX_TRANSISTORS];
         for i in 0..net.n_tr {
             // Devices built from equal parameters share one temperature evaluation.
             at[i] = match (0..i).find(|&j| net.tr[j].bjt == net.tr[i].bjt) {
                 Some(j) => at[j],
                 None => net.tr[i].bjt.at(op.t_amb_k),
             };
-            v_crit[i] = at[i].critical_voltage();
         }
         let mut res_ohm = [0.0; 2];
         let mut res_g = [0.0; 2];
@@ -58,7 +55,6 @@ impl<'n> CircuitSystem<'n> {
             net,
             op,
             at,
-            v_crit,
             res_ohm,
             res_g,
             thermal: false,
@@ -78,6 +74,15 @@ impl<'n> CircuitSystem<'n> {
             self.net.tr[i].bjt.at(x[self.net.n_nodes + i])
         } else {
             self.at[i]
+        }
+    }
+
+    /// V_T of device `i` at its current temperature.
+    fn device_vt(&self, i: usize, x: &Vector) -> f64 {
+        if self.thermal {
+            crate::device::thermal_voltage(x[self.net.n_nodes + i])
+        } else {
+            self.at[i].vt
         }
     }
 
@@ -277,15 +282,20 @@ impl NonlinearSystem for CircuitSystem<'_> {
         let mut alpha = 1.0f64;
         for i in 0..net.n_tr {
             let t = &net.tr[i];
-            let (vt, v_crit) = if self.thermal {
-                let d = self.device(i, x);
-                (d.vt, d.critical_voltage())
-            } else {
-                (self.at[i].vt, self.v_crit[i])
-            };
+            let vt = self.at[i].vt;
             for (a, b) in [(t.b, t.e), (t.b, t.c)] {
                 let old = v_old[a] - v_old[b];
                 let new = v_new[a] - v_new[b];
+                // Steps within 2 V_T are never limited; skip the logarithm for them.
+                if (new - old).abs() <= 2.0 * vt {
+                    continue;
+                }
+                let v_crit = if self.thermal {
+                    self.device(i, x).critical_voltage()
+                } else {
+                    self.at[i].critical_voltage()
+                };
+                let vt = self.device_vt(i, x);
                 let lim = limit_junction(new, old, vt, v_crit);
                 if lim != new {
                     alpha = alpha.min((lim - old) / (new - old));
