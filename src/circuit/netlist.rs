@@ -526,7 +526,14 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<f64, SolveFailure> {
         let (_, sys, x) = self.solve_full(op, opts)?;
-        Ok(sys.output_resistance(&x))
+        let r = sys.output_resistance(&x);
+        // Infinite is a true answer (no Early effect); NaN would be an untrusted number.
+        if r.is_nan() {
+            return Err(SolveFailure::Invalid {
+                reason: format!("singular circuit Jacobian at the solution, {op:?}"),
+            });
+        }
+        Ok(r)
     }
 }
 
