@@ -522,12 +522,29 @@ impl Netlist {
     ) -> Result<u32, SolveFailure> {
         let nn = self.n_nodes;
         let iso = *x;
-        // Start the temperatures where the isothermal powers put them.
+        // Start the temperatures where the isothermal powers put them, and the node
+        // voltages where the circuit settles with the devices frozen at those temperatures
+        // (a cheap electrical solve that leaves the coupled Newton little to do).
         let p = sys.powers(x);
-        sys.thermal = true;
+        let mut t_start = [0.0; MAX_TRANSISTORS];
         for i in 0..self.n_tr {
-            x[nn + i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+            t_start[i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
         }
+        let ambient_devices = sys.at;
+        let mut predictor_iterations = 0;
+        if t_start[..self.n_tr].iter().all(|&t| t < MAX_JUNCTION_K) {
+            for i in 0..self.n_tr {
+                sys.at[i] = self.tr[i].bjt.at(t_start[i]);
+            }
+            let c = solve::solve(&*sys, x, newton);
+            predictor_iterations = c.iterations();
+            if !c.is_converged() {
+                *x = iso;
+            }
+            sys.at = ambient_devices;
+        }
+        sys.thermal = true;
+        x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
         let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
             topology: self.topology,
             part: self.part.clone(),
@@ -535,7 +552,7 @@ impl Netlist {
             t_max_k,
         };
         let out = solve::solve_with_continuation(&*sys, x, newton, 1e-3);
-        let mut iterations = out.iterations;
+        let mut iterations = predictor_iterations + out.iterations;
         if !out.convergence.is_converged() {
             // Walk the thermal coupling up from zero: if the isothermal circuit solves but
             // the coupled one cannot be reached, the thermal loop has no fixed point.
