@@ -9,8 +9,12 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
+use mirrorpick::app::solve::SolveArgs;
 use mirrorpick::app::{CatalogSource, Command as AppCommand, Config};
+use mirrorpick::input::REQUIREMENT_FIELDS;
+use mirrorpick::model::Topology;
 use mirrorpick::report::{Format, Style};
+use mirrorpick::units::{self, Dimension, Field};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -46,6 +50,113 @@ pub enum Command {
         after_help = "Example:\n  mirrorpick spec lint requirements-examples/ltp-tail-sink.yaml"
     )]
     Spec(SpecCommand),
+    /// Solve one design at one operating point and report every node and transistor.
+    #[command(
+        after_help = "Values take engineering units (100uA, 4k7, 12 V, 85 °C). Voltages are magnitudes \
+from the mirror rail; a PNP class is solved as a source.\n\nExit status: 0 solved, 1 the engine \
+could not give a trusted answer (no convergence, thermal runaway), 2 bad input.\n\nExample:\n  \
+mirrorpick solve --topology simple --part npn-dual-prematched --iin 1mA --vout 10V --self-heating\n  \
+mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 --iin 100uA --vout 5V --supply 12V --format json"
+    )]
+    Solve(SolveCli),
+}
+
+#[derive(Debug, Args)]
+pub struct SolveCli {
+    /// simple, beta-helper, wilson, wilson4, cascode or widlar.
+    #[arg(long, value_parser = topology)]
+    pub topology: Topology,
+    /// Transistor class of the matched pair(s), as `catalog list` shows it.
+    #[arg(long)]
+    pub part: String,
+    /// Single-device class for helper transistors (default: the cheapest single).
+    #[arg(long)]
+    pub helper: Option<String>,
+    /// RE1 (e.g. 220, 4k7); 0 = none.
+    #[arg(long, value_parser = resistance, default_value = "0")]
+    pub re1: f64,
+    /// RE2; 0 = none.
+    #[arg(long, value_parser = resistance, default_value = "0")]
+    pub re2: f64,
+    /// Programming current I_in (e.g. 100uA).
+    #[arg(long, value_parser = current)]
+    pub iin: f64,
+    /// Output voltage from the mirror rail (e.g. 5V).
+    #[arg(long, value_parser = voltage)]
+    pub vout: f64,
+    /// Supply from the mirror rail to the opposite rail; defaults to --vout.
+    #[arg(long, value_parser = voltage)]
+    pub supply: Option<f64>,
+    /// Ambient temperature (e.g. 25C, -40 °C).
+    #[arg(long, value_parser = temperature, default_value = "25 °C", allow_hyphen_values = true)]
+    pub ambient: f64,
+    /// Include self-heating (electrothermal fixed point).
+    #[arg(long)]
+    pub self_heating: bool,
+    /// V_BE offset of Q2 against Q1 (e.g. 1mV).
+    #[arg(long, value_parser = offset, default_value = "0", allow_hyphen_values = true)]
+    pub dvbe: f64,
+    /// Relative beta deviation of Q2 against Q1 (e.g. 0.02 or 2 %).
+    #[arg(long, value_parser = fraction, default_value = "0", allow_hyphen_values = true)]
+    pub dbeta: f64,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = TableOrJson::Table)]
+    pub format: TableOrJson,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TableOrJson {
+    Table,
+    Json,
+}
+
+/// A command-line value read like the same field of a requirement file: unit checked,
+/// implausible magnitudes (`1 MA` as a programming current) rejected with a hint.
+fn requirement_field(text: &str, name: &str) -> Result<f64, String> {
+    let (_, field) = REQUIREMENT_FIELDS
+        .iter()
+        .find(|(n, _)| *n == name)
+        .expect("field names below are requirement fields");
+    units::parse_field(text, field).map_err(|e| e.to_string())
+}
+fn current(t: &str) -> Result<f64, String> {
+    requirement_field(t, "input_current")
+}
+fn voltage(t: &str) -> Result<f64, String> {
+    requirement_field(t, "output_voltage")
+}
+fn temperature(t: &str) -> Result<f64, String> {
+    requirement_field(t, "ambient")
+}
+fn resistance(t: &str) -> Result<f64, String> {
+    units::parse_field(
+        t,
+        &Field::new("an emitter resistor", Dimension::Resistance, 0.0, 10e6),
+    )
+    .map_err(|e| e.to_string())
+}
+fn offset(t: &str) -> Result<f64, String> {
+    units::parse_field(
+        t,
+        &Field::new("a V_BE offset", Dimension::Voltage, -0.1, 0.1),
+    )
+    .map_err(|e| e.to_string())
+}
+fn fraction(t: &str) -> Result<f64, String> {
+    units::parse_field(
+        t,
+        &Field::new("a beta deviation", Dimension::Fraction, -0.9, 10.0),
+    )
+    .map_err(|e| e.to_string())
+}
+fn topology(t: &str) -> Result<Topology, String> {
+    Topology::from_name(t).ok_or_else(|| {
+        let names: Vec<&str> = mirrorpick::model::ALL_TOPOLOGIES
+            .iter()
+            .map(|t| t.name())
+            .collect();
+        format!("unknown topology; expected one of {}", names.join(", "))
+    })
 }
 
 #[derive(Debug, Subcommand)]
@@ -125,6 +236,26 @@ impl Cli {
             },
             Command::Catalog(CatalogCommand::Lint { file }) => AppCommand::CatalogLint { file },
             Command::Spec(SpecCommand::Lint { file }) => AppCommand::SpecLint { file },
+            Command::Solve(a) => AppCommand::Solve {
+                format: match a.format {
+                    TableOrJson::Table => Format::Table,
+                    TableOrJson::Json => Format::Json,
+                },
+                args: SolveArgs {
+                    topology: a.topology,
+                    part: a.part,
+                    helper: a.helper,
+                    re1_ohm: a.re1,
+                    re2_ohm: a.re2,
+                    i_in_a: a.iin,
+                    v_out_v: a.vout,
+                    supply_v: a.supply,
+                    ambient_k: a.ambient,
+                    self_heating: a.self_heating,
+                    dvbe_v: a.dvbe,
+                    dbeta: a.dbeta,
+                },
+            },
         };
         Config {
             catalog: self

@@ -8,7 +8,10 @@
 //! configuration from the command line.
 
 pub mod app;
+pub mod circuit;
+pub mod device;
 pub mod input;
 pub mod model;
 pub mod report;
+pub mod solve;
 pub mod units;

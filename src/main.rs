@@ -26,7 +26,7 @@ fn main() -> ExitCode {
             // Drop buffered output so a failed command prints nothing half-done.
             let _ = out.into_parts();
             eprintln!("error: {}", chain(&e));
-            ExitCode::from(2)
+            ExitCode::from(e.exit_code())
         }
     }
 }

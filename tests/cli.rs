@@ -385,6 +385,7 @@ mod commands {
             vec!["catalog", "show", "--help"],
             vec!["catalog", "lint", "--help"],
             vec!["spec", "lint", "--help"],
+            vec!["solve", "--help"],
         ] {
             mirrorpick()
                 .args(&args)
@@ -578,5 +579,115 @@ mod snapshots {
             "catalog-show.csv",
             &["catalog", "show", "test-resistor", "--format", "csv"],
         );
+    }
+}
+
+mod solve_command {
+    use super::*;
+
+    const POINT: [&str; 9] = [
+        "solve",
+        "--topology",
+        "simple",
+        "--part",
+        "npn-dual-prematched",
+        "--iin",
+        "1mA",
+        "--vout",
+        "10V",
+    ];
+
+    #[test]
+    fn table_reports_figures_and_transistors() {
+        mirrorpick()
+            .args(POINT)
+            .args(["--self-heating"])
+            .assert()
+            .success()
+            .stdout(predicate::str::contains("output current"))
+            .stdout(predicate::str::contains("pair1-mirror"))
+            .stdout(predicate::str::contains(
+                "typical of the class, not guaranteed",
+            ));
+    }
+
+    #[test]
+    fn json_has_the_documented_keys() {
+        let out = mirrorpick()
+            .args(POINT)
+            .args(["--format", "json"])
+            .output()
+            .unwrap();
+        assert!(out.status.success());
+        let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        for key in [
+            "i_in",
+            "i_out",
+            "error",
+            "r_out",
+            "v_in",
+            "balance_voltage",
+            "nodes",
+            "transistors",
+            "iterations",
+        ] {
+            assert!(v.get(key).is_some(), "missing key {key}");
+        }
+        assert_eq!(v["i_in"].as_f64(), Some(1e-3));
+        assert_eq!(v["nodes"]["out"].as_f64(), Some(10.0));
+        let q2 = &v["transistors"][1];
+        for key in [
+            "name",
+            "role",
+            "v_be",
+            "v_ce",
+            "i_c",
+            "i_b",
+            "t_junction_c",
+            "region",
+        ] {
+            assert!(q2.get(key).is_some(), "missing transistor key {key}");
+        }
+    }
+
+    #[test]
+    fn bad_values_exit_2_with_a_reason() {
+        // `M` is mega: 1 MA is no programming current.
+        mirrorpick()
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
+            .args(["--iin", "1MA", "--vout", "5V"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("for milli write `m`"));
+        mirrorpick()
+            .args(["solve", "--topology", "simple", "--part", "npn-dual-genral"])
+            .args(["--iin", "1mA", "--vout", "5V"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("did you mean `npn-dual-general`?"));
+        mirrorpick()
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
+            .args(["--iin", "1mA", "--vout", "12V", "--supply", "5V"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("supply"));
+        mirrorpick()
+            .args(["solve", "--topology", "wilsn", "--part", "npn-dual-general"])
+            .args(["--iin", "1mA", "--vout", "5V"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("expected one of simple"));
     }
 }

@@ -9,6 +9,8 @@
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
+pub mod solve;
+
 use crate::input::{self, InputError};
 use crate::model::{Catalog, Polarity, Requirement};
 use crate::report::{self, Format, Style};
@@ -24,7 +26,7 @@ pub enum CatalogSource {
 }
 
 /// One command, with everything it needs resolved.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Command {
     CatalogList {
         format: Format,
@@ -40,9 +42,14 @@ pub enum Command {
     SpecLint {
         file: PathBuf,
     },
+    /// One design at one operating point (`solve`).
+    Solve {
+        args: solve::SolveArgs,
+        format: Format,
+    },
 }
 
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Config {
     pub catalog: CatalogSource,
     pub command: Command,
@@ -80,11 +87,22 @@ pub enum AppError {
         suggestion: Option<String>,
         catalog: String,
     },
+    #[error(transparent)]
+    Solve(#[from] solve::SolveCommandError),
     #[error("cannot write the output: {0}")]
     Output(#[from] io::Error),
 }
 
 impl AppError {
+    /// 1 when the tool ran but the engine could not give a trusted answer (no convergence,
+    /// thermal runaway); 2 for bad input and I/O.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            AppError::Solve(e) if !e.is_input_error() => 1,
+            _ => 2,
+        }
+    }
+
     /// True when the output pipe was closed by the reader (`| head`): not worth a message.
     pub fn is_broken_pipe(&self) -> bool {
         matches!(self, AppError::Output(e) if e.kind() == io::ErrorKind::BrokenPipe)
@@ -155,6 +173,17 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
             let (catalog, _) = load_catalog(&cfg.catalog)?;
             let req = load_requirement(file, &catalog)?;
             writeln!(out, "{}: ok; {}", file.display(), requirement_summary(&req))?;
+        }
+        Command::Solve { args, format } => {
+            let (catalog, _) = load_catalog(&cfg.catalog)?;
+            let report = solve::solve_command(&catalog, args)?;
+            match format {
+                Format::Json => {
+                    serde_json::to_writer_pretty(&mut *out, &report).map_err(io::Error::from)?;
+                    writeln!(out)?;
+                }
+                Format::Table | Format::Csv => solve::write_solve_table(&report, out)?,
+            }
         }
     }
     Ok(Outcome::Success)
