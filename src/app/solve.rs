@@ -382,8 +382,3 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         "Device values are typical of the class, not guaranteed; check ratings against the datasheet."
     )
 }
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-}
