@@ -5,4 +5,5 @@
 //! (`check`) -> ranking (`rank`) -> board BOM (`bom`) -> output (`report`).
 //! The core works in SI numbers; units and °C live at the edges.
 
+pub mod bom;
 pub mod model;
