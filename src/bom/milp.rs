@@ -4,8 +4,8 @@
 use std::collections::BTreeMap;
 
 use good_lp::{
-    variable, Expression, ProblemVariables, ResolutionError, Solution, SolverModel, Variable,
-    WithInitialSolution,
+    variable, Expression, ProblemVariables, ResolutionError, Solution, SolutionStatus, SolverModel,
+    Variable, WithInitialSolution,
 };
 
 use super::needs::{patterns, standalone_parts, Part, Prepared};
@@ -156,6 +156,12 @@ pub(crate) fn solve(
         z.insert(h, v);
     }
     for polarity in [crate::model::Polarity::Npn, crate::model::Polarity::Pnp] {
+        if !z
+            .keys()
+            .any(|&h| problem.transistors[h].polarity == polarity)
+        {
+            continue;
+        }
         let used: Expression = z
             .iter()
             .filter(|(&h, _)| problem.transistors[h].polarity == polarity)
@@ -255,6 +261,11 @@ pub(crate) fn solve(
         Err(ResolutionError::Infeasible) => return Ok(None),
         Err(e) => return Err(BomError::Solver(e.to_string())),
     };
+    if !matches!(sol.status(), SolutionStatus::Optimal) {
+        return Err(BomError::Solver(
+            "the solver stopped before proving the optimum".into(),
+        ));
+    }
     let int = |v: Variable| sol.value(v).round().max(0.0) as u32;
 
     let mut choice = vec![usize::MAX; problem.channels.len()];

@@ -179,3 +179,32 @@ pub fn optimise(problem: &BoardProblem) -> Result<BomOutcome, BomError> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn infeasibility_reads_as_a_sentence() {
+        let one = Infeasibility::NoCandidates {
+            channels: vec![("tail".into(), "accuracy fails by 2 %".into())],
+        };
+        assert_eq!(
+            one.to_string(),
+            "channel `tail` (accuracy fails by 2 %) has no feasible design"
+        );
+        let two = Infeasibility::NoCandidates {
+            channels: vec![("a".into(), "x".into()), ("b".into(), "y".into())],
+        };
+        assert_eq!(
+            two.to_string(),
+            "channels `a` (x), `b` (y) have no feasible design"
+        );
+        let limit = Infeasibility::LineItemLimit {
+            limit: 3,
+            smallest_feasible: 5,
+        };
+        assert!(limit.to_string().contains("max_line_items = 3"));
+        assert!(limit.to_string().contains("is 5"));
+    }
+}

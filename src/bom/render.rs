@@ -129,7 +129,7 @@ pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
         "copies",
         "topology",
         "pair class",
-        "helper",
+        "helper single",
         "R_E",
         "devices (package.device)",
         "governing check",

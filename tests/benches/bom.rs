@@ -143,5 +143,21 @@ fn bench(c: &mut Criterion) {
     });
 }
 
-criterion_group!(benches, bench);
+fn bench_limited(c: &mut Criterion) {
+    let mut p = board(100, 30, 7);
+    p.max_line_items = Some(20);
+    match optimise(&p).expect("valid board") {
+        BomOutcome::Optimal(plan) => eprintln!(
+            "100 x 30 board, at most 20 line items: total {:.2}, {} line items",
+            plan.total_cost,
+            plan.bom.len()
+        ),
+        BomOutcome::Infeasible(why) => eprintln!("{why}"),
+    }
+    c.bench_function("bom 100 channels x 30 candidates, line-item limit", |b| {
+        b.iter(|| optimise(std::hint::black_box(&p)).unwrap())
+    });
+}
+
+criterion_group!(benches, bench, bench_limited);
 criterion_main!(benches);

@@ -246,3 +246,10 @@ fn helper_of_the_wrong_polarity_is_rejected() {
     let err = optimise(&p).unwrap_err().to_string();
     assert!(err.contains("pair's polarity"), "{err}");
 }
+
+#[test]
+fn a_board_without_channels_costs_nothing() {
+    let plan = solve(&problem(vec![]));
+    assert!(plan.bom.is_empty());
+    assert_eq!(plan.total_cost, 0.0);
+}

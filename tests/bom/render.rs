@@ -71,3 +71,15 @@ fn table_shows_bom_assignment_totals_and_caution() {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }
 }
+
+#[test]
+fn table_snapshot() {
+    // Reviewed by hand: baseline = led quad 0.75 + 2 x 0.125 and bias dual 0.5 + single
+    // 0.125, i.e. 1.625 per board x 4 + 4 line items = 10.50.
+    let mut out = Vec::new();
+    write_table(&plan(), &mut out).unwrap();
+    assert_eq!(
+        String::from_utf8(out).unwrap(),
+        include_str!("snapshots/plan-table.txt")
+    );
+}
