@@ -27,11 +27,15 @@ pub(crate) struct Solved {
     pub choice: Vec<usize>,
     /// Per transistor class with devices_per_package >= 2: (pattern, packages using it).
     pub packages: BTreeMap<usize, Vec<(Vec<u32>, u32)>>,
-    /// Per helper class: helpers placed in spare devices rather than bought as singles.
-    pub helpers_in_spares: BTreeMap<usize, u32>,
+    /// Per helper kind (single class, classes whose spares it may take), per array
+    /// class: helpers placed in spare devices rather than bought as singles.
+    pub helpers_in_spares: BTreeMap<HelperKind, BTreeMap<usize, u32>>,
     pub variables: usize,
     pub constraints: usize,
 }
+
+/// Loose helpers that are interchangeable: (single class, allowed spare classes).
+pub(crate) type HelperKind = (usize, Vec<usize>);
 
 struct ClassVars {
     d: u32,
@@ -69,7 +73,7 @@ pub(crate) fn solve(
     // Demand expressions, per build of one board.
     let mut block_demand: BTreeMap<(usize, u32), Expression> = BTreeMap::new();
     let mut single_demand: Vec<Expression> = vec![Expression::from(0.0); nt];
-    let mut helper_demand: BTreeMap<usize, Expression> = BTreeMap::new();
+    let mut helper_demand: BTreeMap<HelperKind, Expression> = BTreeMap::new();
     let mut resistor_qty: Vec<Expression> = vec![Expression::from(0.0); prep.resistor_items.len()];
     // Upper bounds for big-M: every copy takes the option that needs most of the item.
     let mut block_bound = vec![0u32; nt];
@@ -96,7 +100,7 @@ pub(crate) fn solve(
             singles_here[n.pair_class] += n.pair_singles;
             if let Some(h) = n.helper_class {
                 *helper_demand
-                    .entry(h)
+                    .entry((h, n.helper_spares.clone()))
                     .or_insert_with(|| Expression::from(0.0)) +=
                     c * n.loose_helpers as f64 * w[g][j];
                 singles_here[h] += n.loose_helpers;
@@ -148,35 +152,37 @@ pub(crate) fn solve(
         constraints.push(supplied.eq(demand.clone()));
     }
 
-    // Helpers in spare devices (z) and singles bought (n).
-    let mut z: BTreeMap<usize, Variable> = BTreeMap::new();
-    for (&h, demand) in &helper_demand {
-        let v = vars.add(variable().integer().min(0).max(single_bound[h] as f64));
-        constraints.push(Expression::from(v).leq(demand.clone()));
-        z.insert(h, v);
-    }
-    for polarity in [crate::model::Polarity::Npn, crate::model::Polarity::Pnp] {
-        if !z
-            .keys()
-            .any(|&h| problem.transistors[h].polarity == polarity)
-        {
+    // Helpers in spare devices (z, per helper kind and array class) and singles (n).
+    let spare_of = |cv: &ClassVars| -> Expression {
+        cv.patterns
+            .iter()
+            .map(|(p, v)| (cv.d - p.iter().sum::<u32>()) as f64 * *v)
+            .sum()
+    };
+    let mut z: BTreeMap<HelperKind, BTreeMap<usize, Variable>> = BTreeMap::new();
+    for (kind, demand) in &helper_demand {
+        let per_class: BTreeMap<usize, Variable> = kind
+            .1
+            .iter()
+            .filter(|c| classes.contains_key(c))
+            .map(|&c| {
+                let bound = single_bound[kind.0] as f64;
+                (c, vars.add(variable().integer().min(0).max(bound)))
+            })
+            .collect();
+        if per_class.is_empty() {
             continue;
         }
-        let used: Expression = z
-            .iter()
-            .filter(|(&h, _)| problem.transistors[h].polarity == polarity)
-            .map(|(_, &v)| Expression::from(v))
-            .sum();
-        let spare: Expression = classes
-            .iter()
-            .filter(|(&t, _)| problem.transistors[t].polarity == polarity)
-            .flat_map(|(_, cv)| {
-                cv.patterns
-                    .iter()
-                    .map(|(p, v)| (cv.d - p.iter().sum::<u32>()) as f64 * *v)
-            })
-            .sum();
-        constraints.push(used.leq(spare));
+        let placed: Expression = per_class.values().map(|&v| Expression::from(v)).sum();
+        constraints.push(placed.leq(demand.clone()));
+        z.insert(kind.clone(), per_class);
+    }
+    for (&c, cv) in &classes {
+        let used: Vec<Variable> = z.values().filter_map(|m| m.get(&c).copied()).collect();
+        if !used.is_empty() {
+            let used: Expression = used.into_iter().map(Expression::from).sum();
+            constraints.push(used.leq(spare_of(cv)));
+        }
     }
     let mut singles: BTreeMap<usize, Variable> = BTreeMap::new();
     for t in 0..nt {
@@ -185,8 +191,11 @@ pub(crate) fn solve(
         }
         let n = vars.add(variable().integer().min(0).max(single_bound[t] as f64));
         let mut need = single_demand[t].clone();
-        if let (Some(d), Some(&zv)) = (helper_demand.get(&t), z.get(&t)) {
-            need += d.clone() - zv;
+        for (kind, demand) in helper_demand.iter().filter(|(k, _)| k.0 == t) {
+            need += demand.clone();
+            for &v in z.get(kind).into_iter().flat_map(|m| m.values()) {
+                need -= v;
+            }
         }
         constraints.push(Expression::from(n).geq(need));
         singles.insert(t, n);
@@ -297,7 +306,10 @@ pub(crate) fn solve(
             (t, used)
         })
         .collect();
-    let helpers_in_spares = z.iter().map(|(&h, &v)| (h, int(v))).collect();
+    let helpers_in_spares = z
+        .iter()
+        .map(|(kind, m)| (kind.clone(), m.iter().map(|(&c, &v)| (c, int(v))).collect()))
+        .collect();
     Ok(Some(Solved {
         choice,
         packages,

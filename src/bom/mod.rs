@@ -36,13 +36,16 @@
 //!   the packing exact: for each class `c` and block size `s`,
 //!   `sum_P mult_s(P) * y[c][P] = sum_{g,j} count_g * blocks_s(g,j) * w[g][j]`.
 //!   The spare devices of class `c` are `spare_c = sum_P (d_c - |P|) * y[c][P]`.
-//! * `z[s]` integer >= 0: loose helpers bought as single class `s` that instead take a
-//!   spare device. `z[s] <= H[s]` (the loose helpers of class `s`) and, per polarity,
-//!   `sum_{s of that polarity} z[s] <= sum_{c of that polarity} spare_c`: helpers first
-//!   use spare devices of packages already bought (never a package bought for helpers
+//! * `z[k][c]` integer >= 0: loose helpers of kind `k` that take a spare device of array
+//!   class `c` instead of being bought as singles. A kind is (single class `s`, the
+//!   classes whose spares it may take: `helper_spare_classes`, by default every array
+//!   class of the helper's polarity — a helper placed in another class's package should
+//!   be one the ranking checked the ratings of). `sum_c z[k][c] <= H[k]` (the loose
+//!   helpers of kind `k`) and, per class, `sum_k z[k][c] <= spare_c`: helpers first use
+//!   spare devices of packages already bought (never a package bought for helpers
 //!   alone), then singles.
 //! * `n[s]` integer >= 0: singles of class `s`,
-//!   `n[s] >= (2p-singles of pairs in class s) + H[s] - z[s]`.
+//!   `n[s] >= 2p (pairs built from singles of s) + sum_{k of s} (H[k] - sum_c z[k][c])`.
 //! * Resistors need no variable: the count of item `(class, value)` per board is
 //!   `q[r] = sum_{g,j} count_g * uses_r(g,j) * w[g][j]`.
 //! * `u[i]` binary per line item `i` (a transistor class or a resistor `(class, value)`),
@@ -60,7 +63,7 @@
 //! **Reductions, and why they are safe.**
 //! * Dominated options: option `a` is dropped in favour of `b` only when both put the
 //!   same blocks in the same class and `a` needs no fewer of every other part (singles,
-//!   helpers of the same class, each resistor item). Swapping `a` for `b` in any board
+//!   helpers of the same kind, each resistor item). Swapping `a` for `b` in any board
 //!   leaves every package as it was and frees parts, so no optimum is lost. Options that
 //!   merely need fewer blocks are *not* dropped: emptying a package can strand helpers
 //!   that used its spare devices. Of options with equal needs, the one with the largest

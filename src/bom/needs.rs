@@ -21,6 +21,9 @@ pub(crate) struct Needs {
     /// exactly when `loose_helpers == 0`.
     pub helper_class: Option<usize>,
     pub loose_helpers: u32,
+    /// Array classes whose spare devices may take these helpers, ascending; empty when
+    /// there are no loose helpers.
+    pub helper_spares: Vec<usize>,
     /// (resistor item index, count), sorted by item.
     pub resistors: Vec<(usize, u32)>,
 }
@@ -96,6 +99,23 @@ impl Prepared {
                 } else {
                     None
                 };
+                let mut helper_spares: Vec<usize> = match (helper_class, &o.helper_spare_classes) {
+                    (None, _) => Vec::new(),
+                    (Some(h), None) => (0..problem.transistors.len())
+                        .filter(|&t| {
+                            let tp = &problem.transistors[t];
+                            tp.devices_per_package > 1
+                                && tp.polarity == problem.transistors[h].polarity
+                        })
+                        .collect(),
+                    (Some(_), Some(list)) => list
+                        .iter()
+                        .map(|id| t_index(id))
+                        .filter(|&t| problem.transistors[t].devices_per_package > 1)
+                        .collect(),
+                };
+                helper_spares.sort_unstable();
+                helper_spares.dedup();
                 let mut res: BTreeMap<usize, u32> = BTreeMap::new();
                 for r in &o.resistors {
                     let class = problem
@@ -125,6 +145,7 @@ impl Prepared {
                     pair_singles,
                     helper_class,
                     loose_helpers: loose,
+                    helper_spares,
                     resistors: res.into_iter().collect(),
                 });
             }
@@ -156,7 +177,9 @@ pub(crate) fn dominates(a: &Needs, b: &Needs) -> bool {
         return false;
     }
     let helpers_ok = a.loose_helpers == 0
-        || (a.helper_class == b.helper_class && a.loose_helpers <= b.loose_helpers);
+        || (a.helper_class == b.helper_class
+            && a.helper_spares == b.helper_spares
+            && a.loose_helpers <= b.loose_helpers);
     helpers_ok
         && a.resistors.iter().all(|&(item, n)| {
             b.resistors
@@ -274,8 +297,7 @@ pub(crate) fn standalone_parts(problem: &BoardProblem, n: &Needs) -> Vec<(Part, 
         parts.push((Part::Transistor(n.pair_class), packages + n.pair_singles));
     }
     if let Some(h) = n.helper_class {
-        let same_polarity = problem.transistors[h].polarity == pair.polarity;
-        let in_spares = if same_polarity {
+        let in_spares = if n.helper_spares.contains(&n.pair_class) {
             spares.min(n.loose_helpers)
         } else {
             0
@@ -320,6 +342,7 @@ mod tests {
             pairs,
             helpers,
             helper_single_class: None,
+            helper_spare_classes: None,
             keep_together,
             resistors: vec![],
             governing_check: String::new(),
@@ -367,6 +390,7 @@ mod tests {
             pair_singles: 0,
             helper_class: None,
             loose_helpers: 0,
+            helper_spares: vec![],
             resistors: vec![],
         };
         let with_r = Needs {

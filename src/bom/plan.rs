@@ -227,20 +227,16 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
             let mut helper_devs: Vec<(usize, u32)> = devs.split_off(matched_count);
             for _ in 0..n.loose_helpers {
                 let h = n.helper_class.expect("loose helpers have a class");
-                let left = spares_left.entry(h).or_default();
-                let spare = if *left > 0 {
-                    let pol = problem.transistors[h].polarity;
-                    free_spare(problem, &pkgs[..arrays], pol)
-                } else {
-                    None
-                };
-                let slot = match spare {
-                    Some(s) => {
-                        *left -= 1;
-                        s
-                    }
-                    None => (new_single(&mut pkgs, h), 0),
-                };
+                let kind = (h, n.helper_spares.clone());
+                let spare = spares_left.get_mut(&kind).and_then(|per_class| {
+                    per_class
+                        .iter_mut()
+                        .filter(|(_, left)| **left > 0)
+                        .find_map(|(&c, left)| {
+                            free_spare(&pkgs[..arrays], c).inspect(|_| *left -= 1)
+                        })
+                });
+                let slot = spare.unwrap_or_else(|| (new_single(&mut pkgs, h), 0));
                 // Mark at once so the next helper does not take the same device.
                 pkgs[slot.0].devices[slot.1 as usize] = Some(Occupant {
                     channel: c,
@@ -433,10 +429,10 @@ fn new_single(pkgs: &mut Vec<Pkg>, class: usize) -> usize {
     pkgs.len() - 1
 }
 
-/// The first free device outside every block, in a package of the given polarity.
-fn free_spare(problem: &BoardProblem, arrays: &[Pkg], polarity: Polarity) -> Option<(usize, u32)> {
+/// The first free device outside every block, in a package of the given class.
+fn free_spare(arrays: &[Pkg], class: usize) -> Option<(usize, u32)> {
     arrays.iter().enumerate().find_map(|(i, p)| {
-        if problem.transistors[p.class].polarity != polarity {
+        if p.class != class {
             return None;
         }
         let in_blocks: u32 = p.blocks.iter().map(|b| b.0).sum();

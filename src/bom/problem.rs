@@ -81,6 +81,10 @@ pub struct DesignUsage {
     /// polarity is free. Required when `helpers > 0`; it must have the pair class's
     /// polarity, as every topology's helper does (MODEL.md).
     pub helper_single_class: Option<String>,
+    /// Classes whose spare devices may take a loose helper instead of a single: those
+    /// the ranking checked the helper's ratings with. `None` means any class of the
+    /// helper's polarity.
+    pub helper_spare_classes: Option<Vec<String>>,
     /// The copy was verified with its whole topology in one package when the pair class
     /// has room (MODEL.md, "packages"); keep it that way. When false, the pairs of a
     /// copy may sit in different packages and its helpers anywhere.
@@ -267,6 +271,15 @@ impl BoardProblem {
                 }
             }
             _ => {}
+        }
+        for id in o.helper_spare_classes.iter().flatten() {
+            let c = self.transistor(id).ok_or_else(|| unknown_t(id))?;
+            let pair_polarity = self.transistor(&o.pair_class).map(|t| t.polarity);
+            if Some(c.polarity) != pair_polarity {
+                return invalid(format!(
+                    "helper spare class `{id}` has the wrong polarity for a helper of this design"
+                ));
+            }
         }
         for r in &o.resistors {
             if self.resistor(&r.class).is_none() {

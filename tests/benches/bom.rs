@@ -96,6 +96,7 @@ pub fn board(channels: usize, options: usize, seed: u64) -> BoardProblem {
                         pairs,
                         helpers,
                         helper_single_class: (helpers > 0).then(|| single.to_string()),
+                        helper_spare_classes: None,
                         keep_together: true,
                         resistors,
                         governing_check: "accuracy".into(),

@@ -58,7 +58,8 @@ pub fn optimum(p: &BoardProblem) -> Option<f64> {
         let nt = p.transistors.len();
         let mut grp: Vec<Vec<u32>> = vec![vec![]; nt];
         let mut singles = vec![0u32; nt];
-        let mut helpers = vec![0u32; nt];
+        // Loose helpers by (single class, classes whose spare devices may take them).
+        let mut helpers: BTreeMap<(usize, Vec<usize>), u32> = BTreeMap::new();
         let mut resistors: BTreeMap<(String, u64), u32> = BTreeMap::new();
         for (ch, &k) in p.channels.iter().zip(&pick) {
             let o = &ch.options[k as usize];
@@ -68,7 +69,18 @@ pub fn optimum(p: &BoardProblem) -> Option<f64> {
                 grp[c].extend(g);
                 singles[c] += s;
                 if h > 0 {
-                    helpers[class(o.helper_single_class.as_deref().unwrap())] += h;
+                    let single = class(o.helper_single_class.as_deref().unwrap());
+                    let allowed: Vec<usize> = (0..nt)
+                        .filter(|&t| {
+                            let tp = &p.transistors[t];
+                            tp.devices_per_package > 1
+                                && match &o.helper_spare_classes {
+                                    None => tp.polarity == p.transistors[single].polarity,
+                                    Some(list) => list.contains(&tp.id),
+                                }
+                        })
+                        .collect();
+                    *helpers.entry((single, allowed)).or_default() += h;
                 }
                 for r in &o.resistors {
                     *resistors
@@ -87,27 +99,34 @@ pub fn optimum(p: &BoardProblem) -> Option<f64> {
             .collect();
         let mut count: Vec<u32> = ranges.iter().map(|r| r.0).collect();
         loop {
-            let mut spares = BTreeMap::new();
-            for c in 0..nt {
-                let d = p.transistors[c].devices_per_package;
-                let used: u32 = grp[c].iter().sum();
-                *spares.entry(p.transistors[c].polarity).or_insert(0u32) += d * count[c] - used;
-            }
-            // Every split of helpers between spare devices and singles.
-            let helper_classes: Vec<usize> = (0..nt).filter(|&c| helpers[c] > 0).collect();
-            let mut z = vec![0u32; helper_classes.len()];
+            let spares: Vec<u32> = (0..nt)
+                .map(|c| {
+                    let d = p.transistors[c].devices_per_package;
+                    d * count[c] - grp[c].iter().sum::<u32>()
+                })
+                .collect();
+            // Every split of helpers between allowed spare devices and singles: one
+            // counter per (helper kind, allowed class) route.
+            let kinds: Vec<(&(usize, Vec<usize>), &u32)> = helpers.iter().collect();
+            let routes: Vec<(usize, usize)> = kinds
+                .iter()
+                .enumerate()
+                .flat_map(|(k, ((_, allowed), _))| allowed.iter().map(move |&c| (k, c)))
+                .collect();
+            let mut z = vec![0u32; routes.len()];
             loop {
-                let mut taken = BTreeMap::new();
-                for (i, &c) in helper_classes.iter().enumerate() {
-                    *taken.entry(p.transistors[c].polarity).or_insert(0u32) += z[i];
+                let mut per_kind = vec![0u32; kinds.len()];
+                let mut per_class = vec![0u32; nt];
+                for (r, &(k, c)) in routes.iter().enumerate() {
+                    per_kind[k] += z[r];
+                    per_class[c] += z[r];
                 }
-                let fits = taken
-                    .iter()
-                    .all(|(pol, n)| *n <= *spares.get(pol).unwrap_or(&0));
+                let fits = (0..kinds.len()).all(|k| per_kind[k] <= *kinds[k].1)
+                    && (0..nt).all(|c| per_class[c] <= spares[c]);
                 if fits {
                     let mut qty: Vec<u32> = (0..nt).map(|c| count[c] + singles[c]).collect();
-                    for (i, &c) in helper_classes.iter().enumerate() {
-                        qty[c] += helpers[c] - z[i];
+                    for (k, ((single, _), n)) in kinds.iter().enumerate() {
+                        qty[*single] += **n - per_kind[k];
                     }
                     let mut parts = 0.0;
                     let mut items = 0u32;
@@ -126,7 +145,7 @@ pub fn optimum(p: &BoardProblem) -> Option<f64> {
                         best = Some(total);
                     }
                 }
-                if !odometer(&mut z, |i| helpers[helper_classes[i]]) {
+                if !odometer(&mut z, |r| *kinds[routes[r].0].1) {
                     break;
                 }
             }

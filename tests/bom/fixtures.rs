@@ -65,6 +65,7 @@ pub fn design(pair_class: &str, pairs: u32, helpers: u32) -> DesignUsage {
         pairs,
         helpers,
         helper_single_class,
+        helper_spare_classes: None,
         keep_together: true,
         resistors: vec![],
         governing_check: "accuracy".into(),
@@ -159,6 +160,11 @@ pub fn assert_consistent(problem: &BoardProblem, plan: &BoardPlan) {
                         .polarity
                 };
                 assert_eq!(pol(class), pol(o.helper_single_class.as_deref().unwrap()));
+                let in_own_block = o.keep_together && d >= 2 * o.pairs + o.helpers;
+                if let (Some(allowed), false) = (&o.helper_spare_classes, in_own_block) {
+                    let single = o.helper_single_class.as_deref().unwrap();
+                    assert!(class == single || allowed.iter().any(|a| a == class));
+                }
             }
         }
     }

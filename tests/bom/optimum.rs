@@ -253,3 +253,17 @@ fn a_board_without_channels_costs_nothing() {
     assert!(plan.bom.is_empty());
     assert_eq!(plan.total_cost, 0.0);
 }
+
+#[test]
+fn helper_only_takes_spares_of_the_classes_allowed() {
+    // Same board as `helper_takes_a_spare_device_before_a_single`, but the Wilson's helper
+    // was only checked as a spare of the matched dual's class: it becomes a single.
+    let mut wilson = design("npn-dual", 1, 1);
+    wilson.helper_spare_classes = Some(vec!["npn-dual".into()]);
+    let p = problem(vec![
+        channel("wilson", 1, vec![wilson]),
+        channel("cascode", 1, vec![design("npn-array5", 2, 0)]),
+    ]);
+    let plan = solve(&p);
+    assert!(transistor_lines(&plan).contains(&("npn-single".to_string(), 1)));
+}

@@ -22,6 +22,15 @@ fn random_design(rng: &mut ChaCha8Rng) -> DesignUsage {
     let class = CLASSES[rng.gen_range(0..CLASSES.len())];
     let mut d = design(class, rng.gen_range(1..=2), rng.gen_range(0..=1));
     d.keep_together = rng.gen_bool(0.7);
+    // Sometimes only some classes' spare devices may take the helper.
+    if d.helpers > 0 && rng.gen_bool(0.3) {
+        let same: Vec<&str> = CLASSES
+            .iter()
+            .copied()
+            .filter(|c| c.starts_with(&class[..3]) && rng.gen_bool(0.5))
+            .collect();
+        d.helper_spare_classes = Some(same.into_iter().map(String::from).collect());
+    }
     for _ in 0..rng.gen_range(0..=2) {
         let class = ["res-1pc", "res-0p1pc"][rng.gen_range(0..2)];
         let value = [100.0, 220.0, 470.0][rng.gen_range(0..3)];
