@@ -232,16 +232,22 @@ pub(crate) fn solve(
         line_items += ui;
         u.insert(part, ui);
     }
-    // Tightening (valid, not needed for correctness): an option that needs a part forces
-    // that part's line item. The big-M rows above alone give a weak relaxation.
+    // Tightening (valid, not needed for correctness): the channels of a group that use
+    // options needing a part force that part's line item,
+    // `sum_{j needs i} w[g][j] <= |g| u[i]`. The big-M rows above alone give a weak
+    // relaxation; one row per (group, part) is also stronger than one per option.
     for (g, group) in prep.groups.iter().enumerate() {
         let m = group.channels.len() as f64;
+        let mut users: BTreeMap<Part, Expression> = BTreeMap::new();
         for (j, n) in group.options.iter().enumerate() {
             let mut parts = vec![Part::Transistor(n.pair_class)];
             parts.extend(n.resistors.iter().map(|&(r, _)| Part::Resistor(r)));
             for p in parts {
-                constraints.push(Expression::from(w[g][j]).leq(m * u[&p]));
+                *users.entry(p).or_insert_with(|| Expression::from(0.0)) += w[g][j];
             }
+        }
+        for (p, sum) in users {
+            constraints.push(sum.leq(m * u[&p]));
         }
     }
     match goal {

@@ -52,9 +52,10 @@
 //!   linked by `qty_i <= M_i * u[i]`, where `qty_i` is the packages of the class
 //!   (`sum_P y + n`) or `q[r]`, and `M_i` is the most that item can ever need: every copy
 //!   taking the option that needs most of it (a package holds at least one block, so
-//!   packages never exceed blocks). The valid inequalities `w[g][j] <= |g| * u[i]` for
-//!   the items option `j` cannot do without (its pair class and resistors) tighten the
-//!   relaxation.
+//!   packages never exceed blocks). The valid inequalities
+//!   `sum_{j needs i} w[g][j] <= |g| * u[i]`, over the options of group `g` that cannot
+//!   do without item `i` (their pair class and resistors; not helper singles, which
+//!   spare devices may replace), tighten the relaxation a great deal.
 //! * `sum_i u[i] <= max_line_items` when a limit is given.
 //!
 //! **Objective** (cost per build):
