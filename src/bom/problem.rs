@@ -7,7 +7,7 @@
 
 use thiserror::Error;
 
-use crate::model::{Polarity, ResistorClass, TransistorClass};
+use crate::model::{Catalog, Polarity, ResistorClass, TransistorClass};
 
 /// What the integer program needs to know about one transistor class.
 #[derive(Debug, Clone, PartialEq)]
@@ -160,6 +160,18 @@ fn finite_non_negative(x: f64) -> bool {
 }
 
 impl BoardProblem {
+    /// Every transistor and resistor class of a catalog, in the form the program needs.
+    pub fn parts_from(catalog: &Catalog) -> (Vec<TransistorPart>, Vec<ResistorPart>) {
+        (
+            catalog
+                .transistors
+                .iter()
+                .map(TransistorPart::from)
+                .collect(),
+            catalog.resistors.iter().map(ResistorPart::from).collect(),
+        )
+    }
+
     /// Reject what the integer program cannot represent, naming the culprit.
     pub(crate) fn validate(&self) -> Result<(), BomError> {
         let bad = |s: String| Err(BomError::InvalidProblem(s));

@@ -89,7 +89,8 @@ fn percent(tol: f64) -> String {
     }
 }
 
-/// The plan as tables for a person: BOM, assignment, totals, cautions.
+/// The plan as tables for a person: BOM, assignment, totals. Cautions are written apart
+/// by [`write_cautions`].
 pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
     let cur = &plan.currency;
     writeln!(
@@ -206,6 +207,12 @@ pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
         },
         plan.saving()
     )?;
+    Ok(())
+}
+
+/// Cautions about a plan, one per line (for stderr, beside whichever format goes to
+/// stdout): packages shared between copies, whose mutual heating no check covered.
+pub fn write_cautions(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
     for s in &plan.shared_packages {
         let who = s
             .occupants

@@ -1,6 +1,6 @@
 //! The three renderers on one small fixed plan.
 
-use mirrorpick::bom::render::{write_csv, write_json, write_table};
+use mirrorpick::bom::render::{write_cautions, write_csv, write_json, write_table};
 use mirrorpick::bom::{optimise, BoardPlan, BomOutcome};
 
 use crate::fixtures::*;
@@ -66,10 +66,18 @@ fn table_shows_bom_assignment_totals_and_caution() {
         "#1: U2.1 U2.2",
         "helper U2.3",
         "Total per build: 9.00 EUR",
-        "Caution: U2 is shared",
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }
+    assert!(!text.contains("Caution"));
+    let mut out = Vec::new();
+    write_cautions(&plan(), &mut out).unwrap();
+    let text = String::from_utf8(out).unwrap();
+    assert!(
+        text.starts_with("Caution: U2 is shared by led #1, bias #1;"),
+        "{text}"
+    );
+    assert!(text.contains("datasheet"), "{text}");
 }
 
 #[test]
