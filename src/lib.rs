@@ -8,6 +8,7 @@
 //! configuration from the command line.
 
 pub mod app;
+pub mod bom;
 pub mod circuit;
 pub mod device;
 pub mod input;
