@@ -6,3 +6,4 @@
 //! The core works in SI numbers; units and °C live at the edges.
 
 pub mod model;
+pub mod fit;
