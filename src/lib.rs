@@ -8,8 +8,11 @@
 //! configuration from the command line.
 
 pub mod app;
+pub mod circuit;
+pub mod device;
 pub mod fit;
 pub mod input;
 pub mod model;
 pub mod report;
+pub mod solve;
 pub mod units;
