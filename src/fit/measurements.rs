@@ -12,15 +12,16 @@
 //! * the first other line is the header. Required columns `i_in`, `v_out`, `i_out`;
 //!   optional `t_ambient`. Names are matched without regard to case and surrounding
 //!   blanks; other columns (notes, instrument ranges) are ignored;
-//! * a value is an engineering quantity (`100uA`, `2.5 V`, `25 °C`). A bare number in a
-//!   current or voltage column is read in SI base units (amperes, volts). A bare number
-//!   in `t_ambient` is refused, because bench logs write both kelvin and degrees Celsius:
-//!   write the unit, or name the column `t_ambient_c` or `t_ambient_k`, which fixes the
-//!   unit of bare numbers in that column.
+//! * a value is an engineering quantity (`100uA`, `2.5 V`, `25 °C`) read by the project's
+//!   quantity parser (`units`), so the rules are those of the YAML files: a bare number in
+//!   a current or voltage column is in amperes or volts, and in `t_ambient` in degrees
+//!   Celsius. A column named `t_ambient_k` reads bare numbers as kelvin instead (for logs
+//!   from instruments that write kelvin); `t_ambient_c` is a synonym of `t_ambient`.
+//!   Column names may also carry the SI unit the house CSV output uses (`i_in_a`,
+//!   `v_out_v`, `i_out_a`), so a file written by the project reads back.
 
-use std::fmt;
-
-use crate::model::ZERO_CELSIUS_K;
+use crate::input::did_you_mean;
+use crate::units::{self, Dimension, Field};
 
 /// One measured point: the mirror's programming current, the output voltage the load
 /// held, the output current read, and (when logged) the ambient temperature.
@@ -42,27 +43,16 @@ pub struct MeasurementSet {
     pub points: Vec<Measurement>,
 }
 
-/// A located problem in a measurement file: `file:line:col: what; expected`.
-#[derive(Debug, Clone, PartialEq, Eq)]
+/// A located problem in a measurement file: `file:line:col: what is wrong; expected`.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("{file}:{line}:{col}: {message}")]
 pub struct CsvError {
     pub file: String,
     pub line: usize,
     pub col: usize,
-    pub problem: String,
-    pub expected: String,
+    /// What is wrong and what was expected.
+    pub message: String,
 }
-
-impl fmt::Display for CsvError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(
-            f,
-            "{}:{}:{}: {}; {}",
-            self.file, self.line, self.col, self.problem, self.expected
-        )
-    }
-}
-
-impl std::error::Error for CsvError {}
 
 /// What a column holds, which fixes the unit its values must carry.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -76,7 +66,6 @@ enum Column {
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum BareTemperature {
-    Refused,
     Celsius,
     Kelvin,
 }
@@ -87,8 +76,7 @@ impl Column {
             "i_in" | "i_in_a" => Some(Column::InputCurrent),
             "v_out" | "v_out_v" => Some(Column::OutputVoltage),
             "i_out" | "i_out_a" => Some(Column::OutputCurrent),
-            "t_ambient" => Some(Column::Ambient(BareTemperature::Refused)),
-            "t_ambient_c" => Some(Column::Ambient(BareTemperature::Celsius)),
+            "t_ambient" | "t_ambient_c" => Some(Column::Ambient(BareTemperature::Celsius)),
             "t_ambient_k" => Some(Column::Ambient(BareTemperature::Kelvin)),
             _ => None,
         }
@@ -108,19 +96,21 @@ const REQUIRED: [&str; 3] = ["i_in", "v_out", "i_out"];
 
 /// One field of a line and the 1-based character column it starts at.
 #[derive(Debug)]
-struct Field {
+struct CsvField {
     text: String,
     col: usize,
 }
 
 /// Reads a measurement file from its text. `source` names it in messages.
 pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, CsvError> {
-    let err = |line: usize, col: usize, problem: String, expected: &str| CsvError {
+    let located = |line: usize, col: usize, message: String| CsvError {
         file: source.to_string(),
         line,
         col,
-        problem,
-        expected: expected.to_string(),
+        message,
+    };
+    let err = |line: usize, col: usize, problem: String, expected: &str| {
+        located(line, col, format!("{problem}; expected {expected}"))
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let mut lines = text
@@ -150,7 +140,7 @@ pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, Cs
     })?;
     // slot -> (index in the row, column kind)
     let mut slots: [Option<(usize, Column)>; 4] = [None; 4];
-    let mut unknown: Vec<&Field> = Vec::new();
+    let mut unknown: Vec<&CsvField> = Vec::new();
     for (idx, f) in header_fields.iter().enumerate() {
         match Column::from_header(&f.text) {
             Some(c) => {
@@ -174,12 +164,13 @@ pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, Cs
     }
     for (slot, name) in REQUIRED.iter().enumerate() {
         if slots[slot].is_none() {
-            let hint = unknown
+            let lowered: Vec<String> = unknown
                 .iter()
-                .map(|f| (edit_distance(&f.text.trim().to_ascii_lowercase(), name), f))
-                .filter(|(d, _)| *d <= 2)
-                .min_by_key(|(d, _)| *d)
-                .map(|(_, f)| format!(" (is `{}` meant to be `{}`?)", f.text.trim(), name))
+                .map(|f| f.text.trim().to_ascii_lowercase())
+                .collect();
+            let hint = did_you_mean(name, lowered.iter().map(String::as_str))
+                .and_then(|l| lowered.iter().position(|x| *x == l))
+                .map(|k| format!(" (is `{}` meant to be `{name}`?)", unknown[k].text.trim()))
                 .unwrap_or_default();
             return Err(err(
                 header_line,
@@ -220,9 +211,8 @@ pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, Cs
         let mut values = [None; 4];
         for (idx, column) in slots.iter().flatten() {
             let f = &fields[*idx];
-            let v = parse_value(&f.text, *column).map_err(|(problem, expected)| {
-                err(line_no, f.col + leading_blanks(&f.text), problem, &expected)
-            })?;
+            let v = parse_value(&f.text, *column)
+                .map_err(|message| located(line_no, f.col + leading_blanks(&f.text), message))?;
             values[column.slot()] = Some(v);
         }
         let [Some(i_in_a), Some(v_out_v), Some(i_out_a), t_amb_k] = values else {
@@ -255,7 +245,7 @@ fn leading_blanks(s: &str) -> usize {
 }
 
 /// Splits one line into fields. Errors carry the 1-based column and the problem.
-fn split_fields(line: &str) -> Result<Vec<Field>, (usize, String)> {
+fn split_fields(line: &str) -> Result<Vec<CsvField>, (usize, String)> {
     let chars: Vec<char> = line.chars().collect();
     let mut fields = Vec::new();
     let mut i = 0;
@@ -295,7 +285,7 @@ fn split_fields(line: &str) -> Result<Vec<Field>, (usize, String)> {
                 }
                 i += 1;
             }
-            fields.push(Field {
+            fields.push(CsvField {
                 text,
                 col: open + 2,
             });
@@ -307,7 +297,7 @@ fn split_fields(line: &str) -> Result<Vec<Field>, (usize, String)> {
                 text.push(*c);
                 i += 1;
             }
-            fields.push(Field {
+            fields.push(CsvField {
                 text,
                 col: start + 1,
             });
@@ -318,7 +308,7 @@ fn split_fields(line: &str) -> Result<Vec<Field>, (usize, String)> {
         i += 1; // the comma
         if i == chars.len() {
             // A trailing comma ends the line with one empty field.
-            fields.push(Field {
+            fields.push(CsvField {
                 text: String::new(),
                 col: i + 1,
             });
@@ -328,187 +318,53 @@ fn split_fields(line: &str) -> Result<Vec<Field>, (usize, String)> {
     Ok(fields)
 }
 
-/// Parses one value for a column into SI (A, V or K). Errors are (problem, expected).
-fn parse_value(raw: &str, column: Column) -> Result<f64, (String, String)> {
-    let text = raw.trim();
-    let (article, what, example) = match column {
-        Column::InputCurrent => (
-            "a",
-            "programming current `i_in`",
-            "`100uA`, `1.5 mA` or `2e-4`",
-        ),
-        Column::OutputVoltage => ("an", "output voltage `v_out`", "`2.5 V`, `500mV` or `12`"),
-        Column::OutputCurrent => ("an", "output current `i_out`", "`101.3uA` or `1.013e-4`"),
-        Column::Ambient(_) => ("an", "ambient temperature", "`25 °C`, `-40 C` or `298.15 K`"),
+/// Parses one value for a column into SI (A, V or K) with the project's quantity parser.
+fn parse_value(raw: &str, column: Column) -> Result<f64, String> {
+    let (name, field) = match column {
+        Column::InputCurrent => ("i_in", &I_IN),
+        Column::OutputVoltage => ("v_out", &V_OUT),
+        Column::OutputCurrent => ("i_out", &I_OUT),
+        Column::Ambient(_) => ("t_ambient", &T_AMBIENT),
     };
-    if text.is_empty() {
-        return Err((
-            format!("the {what} is empty"),
-            format!("a value like {example}"),
+    if raw.trim().is_empty() {
+        return Err(format!(
+            "`{name}` is empty; expected {}, written like {}",
+            field.dimension.noun(),
+            field.dimension.example()
         ));
     }
-    let Some((number, rest)) = split_number(text) else {
-        return Err((
-            format!("`{text}` is not a number with a unit"),
-            format!("{article} {what} written like {example}"),
-        ));
-    };
-    let rest = rest.trim();
-    let value = match column {
-        Column::InputCurrent | Column::OutputCurrent | Column::OutputVoltage => {
-            let unit = if column == Column::OutputVoltage {
-                "V"
-            } else {
-                "A"
-            };
-            let scale = if rest.is_empty() {
-                1.0
-            } else {
-                match rest.strip_suffix(unit).map(str::trim_end) {
-                    Some(prefix) => si_prefix(prefix).ok_or_else(|| {
-                        (
-                            format!("`{prefix}` in `{text}` is not an SI prefix"),
-                            "one of f p n u µ m k M (or Meg) G before the unit, like `100uA`"
-                                .to_string(),
-                        )
-                    })?,
-                    None => {
-                        return Err((
-                            format!("`{text}` is not in {}", unit_name(unit)),
-                            format!("{article} {what} written like {example}"),
-                        ))
-                    }
-                }
-            };
-            let v = number * scale;
-            let (lo, hi, hint) = if unit == "A" {
-                (
-                    0.0,
-                    10.0,
-                    "between 0 and 10 A (note `m` is milli, `M` is mega)",
-                )
-            } else {
-                (0.0, 1000.0, "between 0 and 1000 V, measured from the mirror rail (magnitudes: a source's voltages are entered as positive)")
-            };
-            let positive_needed = unit == "A";
-            if !v.is_finite() || v > hi || v < lo || (positive_needed && v == 0.0) {
-                let why = if positive_needed && v <= 0.0 {
-                    format!("the {what} `{text}` is not above zero")
-                } else {
-                    format!("the {what} `{text}` is out of range")
-                };
-                return Err((why, format!("a value {hint}")));
-            }
-            v
-        }
-        Column::Ambient(bare) => {
-            let kelvin = match rest {
-                "" => match bare {
-                    BareTemperature::Celsius => number + ZERO_CELSIUS_K,
-                    BareTemperature::Kelvin => number,
-                    BareTemperature::Refused => {
-                        return Err((
-                            format!("the ambient temperature `{text}` has no unit"),
-                            "a unit, like `25 °C` or `298.15 K` (or name the column `t_ambient_c` or `t_ambient_k`)".to_string(),
-                        ))
-                    }
-                },
-                "°C" | "C" | "degC" | "℃" => number + ZERO_CELSIUS_K,
-                "K" => number,
-                _ => {
-                    return Err((
-                        format!("`{text}` is not a temperature"),
-                        format!("{article} {what} written like {example}"),
-                    ))
-                }
-            };
-            if !(kelvin > 73.15 && kelvin < 573.15) {
-                return Err((
-                    format!("the ambient temperature `{text}` is out of range"),
-                    "a bench temperature between -200 °C and 300 °C".to_string(),
+    let text = raw.trim();
+    if column == Column::Ambient(BareTemperature::Kelvin) {
+        if let Ok(k) = units::parse(text, Dimension::Number) {
+            if !(T_AMBIENT.min..=T_AMBIENT.max).contains(&k) {
+                return Err(format!(
+                    "`t_ambient_k`: `{text}` is out of range for a bench ambient temperature: \
+                     expected {} K to {} K (this column reads bare numbers as kelvin)",
+                    T_AMBIENT.min, T_AMBIENT.max
                 ));
             }
-            kelvin
+            return Ok(k);
         }
-    };
-    Ok(value)
+    }
+    units::parse_field(text, field).map_err(|e| format!("`{name}`: {e}"))
 }
 
-fn unit_name(unit: &str) -> &'static str {
-    if unit == "A" {
-        "amperes"
-    } else {
-        "volts"
-    }
-}
-
-/// SI prefixes (SI Brochure, 9th edition, table 7) as engineers type them.
-fn si_prefix(p: &str) -> Option<f64> {
-    Some(match p {
-        "" => 1.0,
-        "f" => 1e-15,
-        "p" => 1e-12,
-        "n" => 1e-9,
-        "u" | "µ" | "μ" => 1e-6,
-        "m" => 1e-3,
-        "k" => 1e3,
-        "M" | "Meg" | "meg" => 1e6,
-        "G" => 1e9,
-        _ => return None,
-    })
-}
-
-/// Splits a leading decimal number (sign, digits, point, exponent) from the rest.
-fn split_number(s: &str) -> Option<(f64, &str)> {
-    let b = s.as_bytes();
-    let mut i = 0;
-    if i < b.len() && (b[i] == b'+' || b[i] == b'-') {
-        i += 1;
-    }
-    let digits_start = i;
-    while i < b.len() && b[i].is_ascii_digit() {
-        i += 1;
-    }
-    if i < b.len() && b[i] == b'.' {
-        i += 1;
-        while i < b.len() && b[i].is_ascii_digit() {
-            i += 1;
-        }
-    }
-    if i == digits_start || (i == digits_start + 1 && b[digits_start] == b'.') {
-        return None;
-    }
-    // An exponent only when digits follow, so `5e` is not eaten from a unit.
-    if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
-        let mut j = i + 1;
-        if j < b.len() && (b[j] == b'+' || b[j] == b'-') {
-            j += 1;
-        }
-        if j < b.len() && b[j].is_ascii_digit() {
-            while j < b.len() && b[j].is_ascii_digit() {
-                j += 1;
-            }
-            i = j;
-        }
-    }
-    let n: f64 = s[..i].parse().ok()?;
-    Some((n, &s[i..]))
-}
-
-/// Levenshtein distance, for did-you-mean hints on header names.
-fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut prev: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut cur = vec![i + 1; b.len() + 1];
-        for (j, cb) in b.iter().enumerate() {
-            let sub = prev[j] + usize::from(ca != *cb);
-            cur[j + 1] = sub.min(prev[j + 1] + 1).min(cur[j] + 1);
-        }
-        prev = cur;
-    }
-    prev[b.len()]
-}
+/// Plausible ranges of the columns. Currents must be above zero (magnitudes in the sink
+/// form, MODEL.md); voltages are magnitudes from the mirror rail.
+const I_IN: Field = Field::new("a programming current", Dimension::Current, 1e-12, 1.0);
+const I_OUT: Field = Field::new("an output current", Dimension::Current, 1e-12, 1.0);
+const V_OUT: Field = Field::new(
+    "an output voltage (magnitude from the mirror rail)",
+    Dimension::Voltage,
+    0.0,
+    1000.0,
+);
+const T_AMBIENT: Field = Field::new(
+    "a bench ambient temperature",
+    Dimension::Temperature,
+    173.15,
+    473.15,
+);
 
 #[cfg(test)]
 mod tests {
@@ -549,79 +405,40 @@ mod tests {
 
     #[test]
     fn located_errors_name_line_column_problem_and_expectation() {
-        assert_eq!(
-            read("i_in,v_out,i_out\n100uA,2.5V,101uV\n").unwrap_err(),
-            "bench.csv:2:12: `101uV` is not in amperes; \
-             an output current `i_out` written like `101.3uA` or `1.013e-4`"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n100uA, 2.5 Q,101uA\n").unwrap_err(),
-            "bench.csv:2:8: `2.5 Q` is not in volts; \
-             an output voltage `v_out` written like `2.5 V`, `500mV` or `12`"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_ot\n").unwrap_err(),
-            "bench.csv:1:1: the header has no `i_out` column (is `i_ot` meant to be `i_out`?); \
-             a header with at least `i_in`, `v_out` and `i_out` (and optionally `t_ambient`)"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n1mA,2\n").unwrap_err(),
-            "bench.csv:2:6: this row has 2 fields but the header has 3; \
-             one value per header column"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out,t_ambient\n1mA,2,1mA,25\n").unwrap_err(),
-            "bench.csv:2:11: the ambient temperature `25` has no unit; a unit, like `25 °C` \
-             or `298.15 K` (or name the column `t_ambient_c` or `t_ambient_k`)"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n2MA,2,1mA\n").unwrap_err(),
-            "bench.csv:2:1: the programming current `i_in` `2MA` is out of range; \
-             a value between 0 and 10 A (note `m` is milli, `M` is mega)"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n-1mA,2,1mA\n").unwrap_err(),
-            "bench.csv:2:1: the programming current `i_in` `-1mA` is not above zero; \
-             a value between 0 and 10 A (note `m` is milli, `M` is mega)"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n1mA,\"2,1mA\n").unwrap_err(),
-            "bench.csv:2:5: this quote is never closed; \
-             comma-separated values, quotes closed on the same line"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n1mA,,1mA\n").unwrap_err(),
-            "bench.csv:2:5: the output voltage `v_out` is empty; \
-             a value like `2.5 V`, `500mV` or `12`"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out,I_IN\n").unwrap_err(),
-            "bench.csv:1:18: column `I_IN` repeats column 1 (`i_in`); each quantity in one column only"
-        );
-        assert_eq!(
-            read("# only a note\n\n").unwrap_err(),
-            "bench.csv:1:1: the file has no header line; \
-             a first line naming the columns, like `i_in,v_out,i_out,t_ambient`"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n").unwrap_err(),
-            "bench.csv:2:1: the file has a header but no measurements; \
-             one row per measured point below the header"
-        );
-        assert_eq!(
-            read("i_in,v_out,i_out\n1xA,2,1mA\n").unwrap_err(),
-            "bench.csv:2:1: `x` in `1xA` is not an SI prefix; \
-             one of f p n u µ m k M (or Meg) G before the unit, like `100uA`"
-        );
-    }
-
-    #[test]
-    fn numbers_split_from_units_without_eating_them() {
-        assert_eq!(split_number("5e-3A"), Some((5e-3, "A")));
-        assert_eq!(split_number("2.5 V"), Some((2.5, " V")));
-        assert_eq!(split_number("1e"), Some((1.0, "e")));
-        assert_eq!(split_number(".5"), Some((0.5, "")));
-        assert_eq!(split_number("."), None);
-        assert_eq!(split_number("V"), None);
+        let cases = [
+            "i_in,v_out,i_out\n100uA,2.5V,101uV\n",
+            "i_in,v_out,i_out\n100uA, 2.5 Q,101uA\n",
+            "i_in,v_out,i_ot\n",
+            "i_in,v_out,i_out\n1mA,2\n",
+            "i_in,v_out,i_out\n2MA,2,1mA\n",
+            "i_in,v_out,i_out\n-1mA,2,1mA\n",
+            "i_in,v_out,i_out\n1mA,\"2,1mA\n",
+            "i_in,v_out,i_out\n1mA,,1mA\n",
+            "i_in,v_out,i_out,I_IN\n",
+            "# only a note\n\n",
+            "i_in,v_out,i_out\n",
+            "i_in,v_out,i_out\n1xA,2,1mA\n",
+            "i_in,v_out,i_out,t_ambient_k\n1mA,2,1mA,25\n",
+            "i_in,v_out,i_out\n1mA,2,\"1mA\"x\n",
+        ];
+        let expected = [
+            "bench.csv:2:12: `i_out`: `101uV` is a voltage, but a current was expected here; write it like `100 uA` or `1.5 mA`",
+            "bench.csv:2:8: `v_out`: `2.5 Q` is not a voltage; write it like `12 V` or `650 mV`",
+            "bench.csv:1:1: the header has no `i_out` column (is `i_ot` meant to be `i_out`?); expected a header with at least `i_in`, `v_out` and `i_out` (and optionally `t_ambient`)",
+            "bench.csv:2:6: this row has 2 fields but the header has 3; expected one value per header column",
+            "bench.csv:2:1: `i_in`: `2MA` is out of range for a programming current: expected 1.00 pA to 1.00 A; `M` means mega (10^6); for milli write `m`, as in `2mA`",
+            "bench.csv:2:1: `i_in`: `-1mA` is out of range for a programming current: expected 1.00 pA to 1.00 A",
+            "bench.csv:2:5: this quote is never closed; expected comma-separated values, quotes closed on the same line",
+            "bench.csv:2:5: `v_out` is empty; expected a voltage, written like `12 V` or `650 mV`",
+            "bench.csv:1:18: column `I_IN` repeats column 1 (`i_in`); expected each quantity in one column only",
+            "bench.csv:1:1: the file has no header line; expected a first line naming the columns, like `i_in,v_out,i_out,t_ambient`",
+            "bench.csv:2:1: the file has a header but no measurements; expected one row per measured point below the header",
+            "bench.csv:2:1: `i_in`: `1xA` is not a current; write it like `100 uA` or `1.5 mA`",
+            "bench.csv:2:11: `t_ambient_k`: `25` is out of range for a bench ambient temperature: expected 173.15 K to 473.15 K (this column reads bare numbers as kelvin)",
+            "bench.csv:2:12: unexpected `x` after a closing quote; expected comma-separated values, quotes closed on the same line",
+        ];
+        for (c, e) in cases.iter().zip(expected) {
+            assert_eq!(read(c).unwrap_err(), e);
+        }
     }
 }
