@@ -36,10 +36,16 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// List, show or check the catalog of part classes.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+    )]
     Catalog(CatalogCommand),
     /// Check requirement files.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick spec lint requirements-examples/ltp-tail-sink.yaml"
+    )]
     Spec(SpecCommand),
     /// Fit BF, VAF and the pair's V_BE offset to bench measurements of a mirror.
     #[command(after_help = FIT_HELP)]

@@ -33,7 +33,7 @@ use std::collections::HashMap;
 use serde_yaml::{Mapping, Value};
 
 use super::raw::{RawCatalog, RawPolarity, RawQty};
-use super::{deserialize, did_you_mean, Ctx, InputError, Problem};
+use super::{deserialize, unknown_value, Ctx, InputError, Problem};
 use crate::model::{
     BjtParams, Catalog, Matching, Polarity, Ratings, ResistorClass, Series, Thermal,
     TransistorClass,
@@ -232,14 +232,7 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
         let id = check_id(&cx, p("id"), &r.id)?;
         let series = Series::from_name(&r.series).ok_or_else(|| {
             let names: Vec<String> = Series::ALL.iter().map(|s| s.as_str().to_string()).collect();
-            cx.error(
-                &p("series"),
-                Problem::UnknownName {
-                    value: r.series.clone(),
-                    suggestion: did_you_mean(&r.series, names.iter().map(String::as_str)),
-                    expected: names.clone(),
-                },
-            )
+            cx.error(&p("series"), unknown_value(&p("series"), &r.series, &names))
         })?;
         resistors.push(ResistorClass {
             id,

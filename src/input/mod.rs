@@ -31,7 +31,8 @@ pub struct InputError {
     /// The file name as the user gave it.
     pub file: String,
     pub position: Position,
-    pub problem: Problem,
+    /// Boxed: errors travel through many `Result`s and should stay small.
+    pub problem: Box<Problem>,
 }
 
 /// What is wrong with a file. Messages read "what is wrong; what was expected".
@@ -63,6 +64,10 @@ pub enum Problem {
         suggestion: Option<String>,
         expected: Vec<String>,
     },
+    #[error("{0}; expected each key once per mapping")]
+    DuplicateKey(String),
+    #[error("the file holds more than one YAML document; expected a single document (remove the `---` separators)")]
+    MultipleDocuments,
     #[error("missing field `{0}`; expected it in this mapping")]
     MissingField(String),
     #[error("`{path}`: {error}")]
@@ -143,10 +148,32 @@ fn deserialize<T: serde::de::DeserializeOwned>(
         return Err(InputError {
             file: file.to_string(),
             position: Position::START,
-            problem: Problem::Empty(what),
+            problem: Box::new(Problem::Empty(what)),
+        });
+    }
+    let positions = positions::Positions::of(text);
+    if let Some(position) = positions.bomb_at {
+        return Err(InputError {
+            file: file.to_string(),
+            position,
+            problem: Box::new(Problem::AliasBomb(format!(
+                "more than {} nodes once aliases are expanded",
+                positions::EXPANSION_LIMIT
+            ))),
         });
     }
     serde_yaml::from_str(text).map_err(|e| {
+        let problem = serde_problem(&e.to_string());
+        // serde_yaml gives no position for a repeated key; the event walk has it.
+        if let (Problem::DuplicateKey(_), Some((_, position))) =
+            (&problem, &positions.duplicate_key)
+        {
+            return InputError {
+                file: file.to_string(),
+                position: *position,
+                problem: Box::new(problem),
+            };
+        }
         let position = e
             .location()
             .map(|l| Position {
@@ -157,7 +184,7 @@ fn deserialize<T: serde::de::DeserializeOwned>(
         InputError {
             file: file.to_string(),
             position,
-            problem: serde_problem(&e.to_string()),
+            problem: Box::new(problem),
         }
     })
 }
@@ -235,7 +262,16 @@ fn serde_problem(raw: &str) -> Problem {
             };
         }
     }
+    if body.starts_with("duplicate field") || body.starts_with("duplicate entry") {
+        return Problem::DuplicateKey(format!("{prefix}{body}"));
+    }
+    if body.contains("more than one document") {
+        return Problem::MultipleDocuments;
+    }
     if body.starts_with("invalid type") || body.starts_with("invalid value") {
+        let body = body
+            .replace("expected u32", "expected a whole number")
+            .replace("expected a string", "expected text");
         return Problem::Syntax(format!("{prefix}{body}"));
     }
     Problem::Syntax(format!(
@@ -243,33 +279,15 @@ fn serde_problem(raw: &str) -> Problem {
     ))
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn suggestions() {
-        assert_eq!(
-            did_you_mean("bff", ["is", "bf", "br", "vaf"]),
-            Some("bf".into())
-        );
-        assert_eq!(did_you_mean("zzzzzz", ["is", "bf"]), None);
-        assert_eq!(
-            did_you_mean("npn-dual-genral", ["npn-dual-general", "pnp-dual-general"]),
-            Some("npn-dual-general".into())
-        );
-        assert_eq!(
-            list(&["a".into(), "b".into(), "c".into()]),
-            "`a`, `b` or `c`"
-        );
-    }
-
-    #[test]
-    fn strips_serde_marks() {
-        assert_eq!(
-            strip_marks("bad thing at line 3 column 7, while parsing at line 1 column 1"),
-            "bad thing, while parsing"
-        );
+/// An unknown name at `path`, with the nearest valid one.
+fn unknown_value(path: &str, value: &str, expected: &[String]) -> Problem {
+    Problem::Invalid {
+        path: path.to_string(),
+        what: format!(
+            "unknown value `{value}`{}",
+            did_you_mean_text(&did_you_mean(value, expected.iter().map(String::as_str)))
+        ),
+        expected: format!("one of {}", list(expected)),
     }
 }
 
@@ -291,7 +309,7 @@ impl<'a> Ctx<'a> {
         InputError {
             file: self.file.to_string(),
             position: self.positions.get(path),
-            problem,
+            problem: Box::new(problem),
         }
     }
 
@@ -362,5 +380,35 @@ impl<'a> Ctx<'a> {
 impl fmt::Display for Position {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(f, "{}:{}", self.line, self.col)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn suggestions() {
+        assert_eq!(
+            did_you_mean("bff", ["is", "bf", "br", "vaf"]),
+            Some("bf".into())
+        );
+        assert_eq!(did_you_mean("zzzzzz", ["is", "bf"]), None);
+        assert_eq!(
+            did_you_mean("npn-dual-genral", ["npn-dual-general", "pnp-dual-general"]),
+            Some("npn-dual-general".into())
+        );
+        assert_eq!(
+            list(&["a".into(), "b".into(), "c".into()]),
+            "`a`, `b` or `c`"
+        );
+    }
+
+    #[test]
+    fn strips_serde_marks() {
+        assert_eq!(
+            strip_marks("bad thing at line 3 column 7, while parsing at line 1 column 1"),
+            "bad thing, while parsing"
+        );
     }
 }

@@ -68,7 +68,10 @@ pub enum RawPolarity {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a transistor class: a mapping with `id`, `summary`, `polarity`, `model`, ..."
+)]
 pub struct RawTransistor {
     pub id: String,
     pub summary: String,
@@ -85,7 +88,10 @@ pub struct RawTransistor {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "model parameters: a mapping such as `{is: 12 fA, bf: 200, vaf: 90 V}`"
+)]
 pub struct RawModel {
     pub is: RawQty,
     pub bf: RawQty,
@@ -106,14 +112,20 @@ pub struct RawModel {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{vbe_offset_sigma: ..., beta_mismatch_sigma: ...}`"
+)]
 pub struct RawMatching {
     pub vbe_offset_sigma: RawQty,
     pub beta_mismatch_sigma: RawQty,
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{vceo: ..., ic_max: ..., power_per_package: ...}`"
+)]
 pub struct RawRatings {
     pub vceo: RawQty,
     pub ic_max: RawQty,
@@ -121,14 +133,20 @@ pub struct RawRatings {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{theta_self: ..., theta_mutual: ...}`"
+)]
 pub struct RawThermal {
     pub theta_self: RawQty,
     pub theta_mutual: RawQty,
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a resistor class: a mapping with `id`, `summary`, `series`, `tolerance`, ..."
+)]
 pub struct RawResistor {
     pub id: String,
     pub summary: String,
@@ -140,7 +158,10 @@ pub struct RawResistor {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a range: a mapping `{min: ..., max: ...}`"
+)]
 pub struct RawRange {
     pub min: RawQty,
     pub max: RawQty,
