@@ -6,6 +6,8 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod solve;
+
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 

@@ -14,6 +14,6 @@ mod newton;
 
 pub use lu::{lu_factor, lu_solve, Lu, Matrix, Vector, MAX_DIM};
 pub use newton::{
-    newton_step, solve, solve_with_continuation, Convergence, NewtonOptions, NonlinearSystem,
-    Outcome, StepReport, Tolerance,
+    newton_step, solve, solve_damped, solve_with_continuation, Convergence, NewtonOptions,
+    NonlinearSystem, Outcome, StepReport, Tolerance,
 };
