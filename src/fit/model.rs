@@ -117,7 +117,7 @@ pub struct ParamValues {
 }
 
 impl ParamValues {
-    fn to_u(&self, k: ParamKind) -> f64 {
+    fn to_u(self, k: ParamKind) -> f64 {
         match k {
             ParamKind::Bf => self.bf.ln(),
             ParamKind::Vaf => self.vaf_v.map_or(0.0, |v| 100.0 / v),
@@ -390,7 +390,7 @@ pub fn fit_model(
         let loose: Vec<bool> = free
             .iter()
             .zip(&se_u)
-            .map(|(k, se)| singular || !(*se <= k.se_limit_u(trial.to_u(*k))))
+            .map(|(k, se)| singular || se.is_nan() || *se > k.se_limit_u(trial.to_u(*k)))
             .collect();
         if free.len() > 1 && loose.iter().any(|l| *l) && *free != [ParamKind::Ikf] {
             let weakest = &out.weakest_direction;
@@ -426,7 +426,7 @@ pub fn fit_model(
             let far = trial
                 .ikf_a
                 .is_none_or(|ikf| ikf > IKF_REACH * largest_current);
-            if far || se_u.is_none_or(|s| !(s < 1.0)) {
+            if far || se_u.is_none_or(|s| s.is_nan() || s >= 1.0) {
                 free.remove(i);
                 values.ikf_a = base.knee_current_a;
                 held.push(HeldParam {
