@@ -163,3 +163,48 @@ fn help_has_a_worked_example() {
     assert!(text.contains("Example"));
     assert!(text.contains("mirrorpick fit requirements-examples/bench-simple-mirror.csv"));
 }
+
+#[test]
+fn a_catalog_class_can_be_the_starting_point() {
+    let out = cmd()
+        .args([
+            "fit",
+            DEMO_CSV,
+            "--topology",
+            "simple",
+            "--re1",
+            "1k",
+            "--re2",
+            "1k",
+            "--ambient",
+            "27C",
+            "--part",
+            "npn-dual-general",
+            "--format",
+            "json",
+        ])
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert_eq!(v["base_class"], "npn-dual-general");
+    let err = cmd()
+        .args([
+            "fit",
+            DEMO_CSV,
+            "--topology",
+            "simple",
+            "--part",
+            "npn-dual-genral",
+        ])
+        .assert()
+        .code(2)
+        .get_output()
+        .stderr
+        .clone();
+    let err = String::from_utf8(err).unwrap();
+    assert!(err.contains("no class `npn-dual-genral`"), "{err}");
+    assert!(err.contains("did you mean `npn-dual-general`?"), "{err}");
+}
