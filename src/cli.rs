@@ -65,9 +65,9 @@ cannot tell a beta error from a V_BE offset).
 Exit status: 0 fitted, 1 no fit could be made (the report says why), 2 bad input.
 
 Example (synthetic demo data shipped with the project, a simple mirror with 1 kΩ emitter
-resistors measured at 10 uA, 100 uA and 1 mA from 1 V to 10 V):
+resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
   mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple \\
-      --re1 1k --re2 1k --ambient 27C --supply 12V --emit-class npn-dual-bench
+      --re1 1k --re2 1k --ambient 27C --supply 12V --self-heating --emit-class npn-dual-bench
   mirrorpick fit bench.csv --topology wilson --part npn-dual-general --format json";
 
 #[derive(Debug, Args)]

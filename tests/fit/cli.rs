@@ -26,6 +26,7 @@ fn fits_the_demo_file_as_json() {
             "27C",
             "--supply",
             "12V",
+            "--self-heating",
             "--format",
             "json",
         ])
@@ -62,6 +63,7 @@ fn table_with_an_emitted_class() {
             "27C",
             "--supply",
             "12V",
+            "--self-heating",
             "--emit-class",
             "npn-dual-bench",
         ])
@@ -178,6 +180,9 @@ fn a_catalog_class_can_be_the_starting_point() {
             "1k",
             "--ambient",
             "27C",
+            "--supply",
+            "12V",
+            "--self-heating",
             "--part",
             "npn-dual-general",
             "--format",
