@@ -477,3 +477,54 @@ fn self_heated_data_fit_back_with_self_heating_modelled() {
     );
     assert!(model(&r).rms_relative_residual > 5.0 * rms_heated);
 }
+
+/// The whole table of the demo fit with an emitted class. To change it on purpose, run
+/// with `UPDATE_SNAPSHOTS=1`, then review the diff of tests/snapshots/ before committing.
+#[test]
+fn demo_table_snapshot_and_json_layout() {
+    let mut cfg = config(Topology::Simple, DEGENERATED);
+    cfg.self_heating = true;
+    cfg.emit_class_id = Some("npn-dual-bench".into());
+    let mut set = demo_set();
+    set.source = DEMO_CSV.to_string();
+    let r = fit(&set, &cfg);
+    let mut out = Vec::new();
+    render::write_table(&r, Default::default(), &mut out).unwrap();
+    let got = String::from_utf8(out).unwrap();
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/snapshots/fit-demo.txt");
+    if std::env::var_os("UPDATE_SNAPSHOTS").is_some() {
+        std::fs::write(&path, &got).unwrap();
+    }
+    let want = std::fs::read_to_string(&path).expect("snapshot; run with UPDATE_SNAPSHOTS=1");
+    assert_eq!(got, want);
+
+    let mut out = Vec::new();
+    render::write_json(&r, &mut out).unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    let keys = |v: &serde_json::Value| {
+        let mut k: Vec<String> = v.as_object().unwrap().keys().cloned().collect();
+        k.sort();
+        k.join(",")
+    };
+    assert_eq!(
+        keys(&v),
+        "ambient_k,base_class,curves,date,emitted_class,model,model_failure,points_total,\
+         re1_ohm,re2_ohm,schema_version,self_heating,source,supply_v,topology,warnings"
+    );
+    assert_eq!(
+        keys(&v["curves"][0]),
+        "active_points,early_voltage_std_error_v,early_voltage_v,i_in_a,outcome,\
+         output_resistance_ohm,points,slope_a_per_v,t_ambient_k"
+    );
+    assert_eq!(
+        keys(&v["model"]),
+        "condition_number,converged,largest_relative_residual,largest_residual_line,\
+         parameters,points_used,rms_relative_residual"
+    );
+    assert_eq!(v["model"]["parameters"][0]["name"], "bf");
+    assert!(v["emitted_class"]
+        .as_str()
+        .unwrap()
+        .contains("- id: \"npn-dual-bench\""));
+}
