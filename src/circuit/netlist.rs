@@ -17,10 +17,10 @@ pub const MAX_TRANSISTORS: usize = 5;
 
 /// Where one transistor sits.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Placement {
+struct Placement {
     /// The device comes from the helper class (a single) rather than the pair class.
-    pub from_helper_class: bool,
-    pub package: u8,
+    from_helper_class: bool,
+    package: u8,
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -34,6 +34,7 @@ pub(super) struct Tr {
     pub e: usize,
     pub bjt: Bjt,
     pub package: u8,
+    pub helper_class: bool,
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -169,6 +170,7 @@ impl Netlist {
             e: R_SLOT,
             bjt: Bjt::new(&design.pair.model, 0.0, 0.0),
             package: 0,
+            helper_class: false,
         };
         let mut tr = [dummy; MAX_TRANSISTORS];
         let mut theta = [[0.0; MAX_TRANSISTORS]; MAX_TRANSISTORS];
@@ -202,6 +204,7 @@ impl Netlist {
                 e: slot_of(line.emitter),
                 bjt: Bjt::new(p, dvbe, dbeta),
                 package: placement[i].package,
+                helper_class: placement[i].from_helper_class,
             };
         }
         let n_tr = desc.transistors.len();
@@ -526,7 +529,14 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<f64, SolveFailure> {
         let (_, sys, x) = self.solve_full(op, opts)?;
-        Ok(sys.output_resistance(&x))
+        let r = sys.output_resistance(&x);
+        // Infinite is a true answer (no Early effect); NaN would be an untrusted number.
+        if r.is_nan() {
+            return Err(SolveFailure::Invalid {
+                reason: format!("singular circuit Jacobian at the solution, {op:?}"),
+            });
+        }
+        Ok(r)
     }
 }
 
@@ -571,6 +581,7 @@ impl CircuitSystem<'_> {
             region: Region::Cutoff,
             power_w: 0.0,
             package: 0,
+            helper_class: false,
         };
         let mut transistors = [blank; MAX_TRANSISTORS];
         let mut i_out = 0.0;
@@ -598,6 +609,7 @@ impl CircuitSystem<'_> {
                 region: Region::of(vbe, vbc),
                 power_w: vce * ev.ic + vbe * ev.ib,
                 package: t.package,
+                helper_class: t.helper_class,
             };
         }
         Solution {

@@ -3,7 +3,9 @@
 //! The step and the driver are separate so limiting and damping can be tested one step at
 //! a time; the driver only decides when to stop.
 
-use super::lu::{lu_factor, lu_solve, Matrix, Vector, MAX_DIM};
+use super::lu::{
+    lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, Matrix, Vector, MAX_DIM,
+};
 
 /// A square nonlinear system `F(x) = 0` of at most `MAX_DIM` unknowns.
 ///
@@ -145,14 +147,14 @@ fn step_inner<S: NonlinearSystem + ?Sized>(
         }
         polishing = true;
     }
-    let Some(lu) = lu_factor(jac, n) else {
+    let Some(piv) = lu_factor_in_place(jac, n) else {
         return StepReport::Singular;
     };
     let mut rhs = [0.0; MAX_DIM];
     for i in 0..n {
         rhs[i] = -f[i];
     }
-    let mut dx = lu_solve(&lu, &rhs);
+    let mut dx = lu_solve_in_place(jac, &piv, n, &rhs);
     sys.limit_step(x, &mut dx);
     for i in 0..n {
         if !dx[i].is_finite() {
