@@ -275,6 +275,20 @@ fn run_fit(cfg: &Config, args: &FitArgs, out: &mut dyn Write) -> Result<Outcome,
     let source = args.file.display().to_string();
     let text = read_file(&args.file)?;
     let set = fit::parse_measurements(&source, &text)?;
+    if let Some(supply) = supply_v {
+        if let Some(p) = set.points.iter().find(|p| p.v_out_v > supply) {
+            return Err(AppError::OptionValue {
+                option: "--supply",
+                problem: format!(
+                    "{} is below the output voltage {} on line {} of {source}",
+                    format_quantity(supply, D::Voltage),
+                    format_quantity(p.v_out_v, D::Voltage),
+                    p.line
+                ),
+                expected: "the bench supply, at least the largest V_out measured",
+            });
+        }
+    }
     let config = fit::FitConfig {
         topology,
         re1_ohm,

@@ -213,3 +213,19 @@ fn a_catalog_class_can_be_the_starting_point() {
     assert!(err.contains("no class `npn-dual-genral`"), "{err}");
     assert!(err.contains("did you mean `npn-dual-general`?"), "{err}");
 }
+
+#[test]
+fn a_supply_below_the_measured_voltages_is_a_usage_error() {
+    let err = cmd()
+        .args(["fit", DEMO_CSV, "--topology", "simple", "--supply", "5V"])
+        .assert()
+        .code(2)
+        .get_output()
+        .stderr
+        .clone();
+    let err = String::from_utf8(err).unwrap();
+    assert!(
+        err.contains("--supply: 5.00 V is below the output voltage 6.00 V on line 16 of requirements-examples/bench-simple-mirror.csv; expected the bench supply"),
+        "{err}"
+    );
+}
