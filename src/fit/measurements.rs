@@ -441,4 +441,30 @@ mod tests {
             assert_eq!(read(c).unwrap_err(), e);
         }
     }
+
+    proptest::proptest! {
+        /// Values written in plain SI with units, next to a quoted note holding commas and
+        /// quotes, read back exactly.
+        #[test]
+        fn written_rows_read_back(
+            rows in proptest::collection::vec(
+                (1e-9f64..1.0, 0.0f64..100.0, 1e-9f64..1.0, -50.0f64..150.0, "[a-z ,\"]{0,12}"),
+                1..20,
+            )
+        ) {
+            let mut text = String::from("note,i_in,v_out,i_out,t_ambient\n");
+            for (i_in, v, i_out, t, note) in &rows {
+                let quoted = format!("\"{}\"", note.replace('"', "\"\""));
+                text.push_str(&format!("{quoted},{i_in:e} A, {v} V,{i_out:e}A,{t} °C\n"));
+            }
+            let set = parse_measurements("p.csv", &text).unwrap();
+            proptest::prop_assert_eq!(set.points.len(), rows.len());
+            for (p, (i_in, v, i_out, t, _)) in set.points.iter().zip(&rows) {
+                proptest::prop_assert_eq!(p.i_in_a, *i_in);
+                proptest::prop_assert_eq!(p.v_out_v, *v);
+                proptest::prop_assert_eq!(p.i_out_a, *i_out);
+                proptest::prop_assert!((p.t_amb_k.unwrap() - (t + 273.15)).abs() < 1e-9);
+            }
+        }
+    }
 }

@@ -24,6 +24,7 @@ pub use model::{
 };
 
 use crate::model::{Topology, TransistorClass};
+use crate::units::{format_quantity, Dimension};
 
 /// The version of the report's JSON layout; bumped on any incompatible change.
 pub const FIT_SCHEMA_VERSION: u32 = 1;
@@ -75,6 +76,13 @@ pub enum FitWarning {
     /// Self-heating is off while the output transistor dissipates enough (V_out I_out of
     /// 2 mW or more) to shift its V_BE by about a millivolt.
     SelfHeatingLikely { largest_power_w: f64 },
+    /// The bench ran the output transistor near a rating of the base class (80 % of
+    /// VCEO, half the package power): a caution, since the class's ratings are typical.
+    NearRating {
+        what: &'static str,
+        measured: String,
+        rating: String,
+    },
 }
 
 impl fmt::Display for FitWarning {
@@ -141,6 +149,14 @@ impl fmt::Display for FitWarning {
                 f,
                 "{count} curve{} too short or too flat for an Early-voltage intercept",
                 if *count == 1 { " is" } else { "s are" }
+            ),
+            FitWarning::NearRating {
+                what,
+                measured,
+                rating,
+            } => write!(
+                f,
+                "caution: the measurement reached {measured} against the base class's typical {what} of {rating}; ratings are typical, not guaranteed: check the part's datasheet and derating before measuring again"
             ),
             FitWarning::SelfHeatingLikely { largest_power_w } => write!(
                 f,
@@ -280,6 +296,27 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
                 largest_power_w: p_max,
             });
         }
+    }
+    let v_max = points.iter().map(|p| p.v_out_v).fold(0.0, f64::max);
+    let p_out_max = points
+        .iter()
+        .map(|p| p.v_out_v * p.i_out_a)
+        .fold(0.0, f64::max);
+    let ratings = &cfg.base.ratings;
+    // 0.8 x VCEO is the project's derating (MODEL.md, ratings; common practice).
+    if v_max > 0.8 * ratings.vceo_v {
+        warnings.push(FitWarning::NearRating {
+            what: "VCEO",
+            measured: format_quantity(v_max, Dimension::Voltage),
+            rating: format_quantity(ratings.vceo_v, Dimension::Voltage),
+        });
+    }
+    if p_out_max > 0.5 * ratings.power_per_package_w {
+        warnings.push(FitWarning::NearRating {
+            what: "package power rating",
+            measured: format_quantity(p_out_max, Dimension::Power),
+            rating: format_quantity(ratings.power_per_package_w, Dimension::Power),
+        });
     }
     let emitted_class = match (&cfg.emit_class_id, &model) {
         (Some(id), Ok(m)) => Some(emit::fitted_class(id, &set.source, &cfg.date, cfg, m)),

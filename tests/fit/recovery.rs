@@ -528,3 +528,30 @@ fn demo_table_snapshot_and_json_layout() {
         .unwrap()
         .contains("- id: \"npn-dual-bench\""));
 }
+
+#[test]
+fn measurements_near_the_class_ratings_bring_a_caution() {
+    // 35 V on a 40 V class: above the 0.8 derating. (The point is moved by hand: only the
+    // caution is checked here, not the fit.)
+    let mut set = measure(
+        &TRUTH,
+        Topology::Simple,
+        DEGENERATED,
+        &[100e-6],
+        &[5.0, 8.0, 11.0],
+        &[AMBIENT_K],
+        0.0,
+        1,
+    );
+    set.points[2].v_out_v = 35.0;
+    let mut cfg = config(Topology::Simple, DEGENERATED);
+    cfg.supply_v = Some(40.0);
+    let r = fit(&set, &cfg);
+    let text: Vec<String> = r.warnings.iter().map(|w| w.to_string()).collect();
+    assert!(
+        text.iter().any(|t| t.starts_with(
+            "caution: the measurement reached 35.0 V against the base class's typical VCEO of 40.0 V"
+        ) && t.contains("datasheet")),
+        "{text:?}"
+    );
+}
