@@ -101,7 +101,7 @@ impl fmt::Display for FitWarning {
                 ),
                 Unidentified::Confounded { with, condition } => write!(
                     f,
-                    "{} is not identified: its effect on these data is nearly matched by {}{}; it is held at the base class's value{}",
+                    "{} is not identified: its effect on these data is nearly matched by {}{}; it is held at the base class's value and the other values assume it{}",
                     h.kind.name(),
                     list(with),
                     if condition.is_finite() {
@@ -115,6 +115,14 @@ impl fmt::Display for FitWarning {
                     f,
                     "IKF is not identified: the largest current measured ({}) is far below any knee the data could show; it is held at the base class's value (measure up to the currents where beta falls)",
                     crate::units::format_prefixed(*largest_current_a, "A")
+                ),
+                Unidentified::CurvedValley { with, ratio } => write!(
+                    f,
+                    "{} is not identified: along a curved valley with {} the misfit hardly changes (2 standard errors away it grows by {:.2} s^2 instead of 4), so its linear standard error would understate the doubt; it is held at the base class's value and the other values assume it{}",
+                    h.kind.name(),
+                    list(with),
+                    ratio,
+                    confound_advice(h.kind, with)
                 ),
                 Unidentified::NoSlope => write!(
                     f,
@@ -235,7 +243,9 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
     if without > 0 {
         warnings.push(FitWarning::CurvesWithoutIntercept { count: without });
     }
-    // Start VAF from the curves' median intercept: the closest thing to a measured value.
+    // Start VAF from the curves' median intercept where that intercept is the device's
+    // (a simple mirror without emitter resistors, see `curves`); elsewhere it is the
+    // whole circuit's and the base class's VAF is the better start.
     let mut intercepts: Vec<f64> = curves
         .iter()
         .filter_map(|c| match &c.outcome {
@@ -244,7 +254,12 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
         })
         .collect();
     intercepts.sort_by(f64::total_cmp);
-    let vaf_start = intercepts.get(intercepts.len() / 2).copied();
+    let device_intercepts =
+        cfg.topology == Topology::Simple && cfg.re1_ohm == 0.0 && cfg.re2_ohm == 0.0;
+    let vaf_start = intercepts
+        .get(intercepts.len() / 2)
+        .copied()
+        .filter(|_| device_intercepts);
 
     let setup = FitSetup {
         topology: cfg.topology,
