@@ -23,7 +23,7 @@ mod system;
 
 use crate::device::Region;
 use crate::model::{Role, Topology, TransistorClass};
-pub use netlist::{Netlist, MAX_NODES, MAX_TRANSISTORS};
+pub use netlist::{Netlist, MAX_JUNCTION_K, MAX_NODES, MAX_TRANSISTORS};
 
 /// A candidate design: topology, part classes and emitter resistors (nominal values).
 #[derive(Debug, Clone, Copy)]

@@ -296,7 +296,7 @@ pub fn solve_damped<S: NonlinearSystem + ?Sized>(
 }
 
 /// `F(x) + g (x - x_ref)`: every unknown tied to a reference point through a conductance
-/// `g` (`x_ref = 0`: to the rail, as SPICE's gmin stepping does). Large `g` makes the
+/// `g` (`x_ref = 0`: to the rail, as gmin stepping in circuit simulation does). Large `g` makes the
 /// system nearly linear; `g -> 0` recovers `F`.
 struct Gmin<'a, S: ?Sized> {
     inner: &'a S,
