@@ -29,6 +29,9 @@
 //! share in the weakest direction is held at its base value, named in a warning with the
 //! parameters it is confounded with, and the fit repeated. IKF is also held when the data
 //! stay well below it (its fitted value beyond [`IKF_REACH`] times the largest current).
+//! Last, a profile check ([`PROFILE_MIN`]) holds a parameter whose misfit valley is too
+//! curved for its linear standard error to mean anything (the Wilson mirrors, where only
+//! BF x VAF is seen through noise). Held parameters take the base class's value.
 //! Noiseless data therefore identify what is mathematically identifiable; noisy data
 //! only what the noise leaves identifiable.
 
