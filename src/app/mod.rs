@@ -113,7 +113,7 @@ pub enum AppError {
         suggestion: Option<String>,
     },
     #[error("{option}: {error}")]
-    Option {
+    BadOption {
         option: &'static str,
         error: crate::units::QuantityError,
     },
@@ -220,7 +220,7 @@ fn run_fit(cfg: &Config, args: &FitArgs, out: &mut dyn Write) -> Result<Outcome,
         })?;
     let quantity = |option: &'static str, text: &Option<String>, field: &Field, default: f64| {
         text.as_deref().map_or(Ok(default), |t| {
-            parse_field(t, field).map_err(|error| AppError::Option { option, error })
+            parse_field(t, field).map_err(|error| AppError::BadOption { option, error })
         })
     };
     let re1_ohm = quantity("--re1", &args.re1, &FIT_RE, 0.0)?;
