@@ -10,9 +10,9 @@ use std::path::PathBuf;
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
 use mirrorpick::app::solve::SolveArgs;
-use mirrorpick::app::{CatalogSource, Command as AppCommand, Config};
+use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs};
 use mirrorpick::input::REQUIREMENT_FIELDS;
-use mirrorpick::model::Topology;
+use mirrorpick::model::{Polarity, Topology};
 use mirrorpick::report::{Format, Style};
 use mirrorpick::units::{self, Dimension, Field};
 
@@ -59,6 +59,9 @@ mirrorpick solve --topology simple --part npn-dual-prematched --iin 1mA --vout 1
 mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 --iin 100uA --vout 5V --supply 12V --format json"
     )]
     Solve(SolveCli),
+    /// Fit BF, VAF and the pair's V_BE offset to bench measurements of a mirror.
+    #[command(after_help = FIT_HELP)]
+    Fit(FitCommand),
 }
 
 #[derive(Debug, Args)]
@@ -159,6 +162,75 @@ fn topology(t: &str) -> Result<Topology, String> {
     })
 }
 
+const FIT_HELP: &str = "\
+The CSV file has a header naming at least `i_in`, `v_out` and `i_out` (optionally
+`t_ambient`), one measured point per row; values may carry units (`100uA`, `2.5 V`,
+`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes.
+Each programming current gives one curve: its straight line in the active region meets
+the voltage axis at -VAF_eff. The model fit solves the stated circuit for every point
+and reports standard errors, residuals and warnings for anything the data cannot pin
+down (no V_out variation leaves VAF open; a simple mirror without emitter resistors
+cannot tell a beta error from a V_BE offset).
+
+Exit status: 0 fitted, 1 no fit could be made (the report says why), 2 bad input.
+
+Example (synthetic demo data shipped with the project, a simple mirror with 1 kΩ emitter
+resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
+  mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple \\
+      --re1 1k --re2 1k --ambient 27C --supply 12V --self-heating --emit-class npn-dual-bench
+  mirrorpick fit bench.csv --topology wilson --part npn-dual-general --format json";
+
+#[derive(Debug, Args)]
+pub struct FitCommand {
+    /// Measurements (CSV): i_in, v_out, i_out and optionally t_ambient per row.
+    pub file: PathBuf,
+    /// Topology of the measured mirror: simple, beta-helper, wilson, wilson4, cascode, widlar.
+    #[arg(long)]
+    pub topology: String,
+    /// Emitter resistor of the input side (RE1), as fitted on the bench, e.g. `1k`.
+    #[arg(long, value_name = "R")]
+    pub re1: Option<String>,
+    /// Emitter resistor of the output side (RE2).
+    #[arg(long, value_name = "R")]
+    pub re2: Option<String>,
+    /// Ambient of rows without a t_ambient value [default: 25 °C].
+    #[arg(long, value_name = "T")]
+    pub ambient: Option<String>,
+    /// Bench supply (the helper's collector rail) [default: the largest V_out].
+    #[arg(long, value_name = "V")]
+    pub supply: Option<String>,
+    /// Catalog class to start from (IS, temperature rules, ratings); a generic class when absent.
+    #[arg(long, value_name = "CLASS")]
+    pub part: Option<String>,
+    /// Polarity of the generic starting class (ignored with --part).
+    #[arg(long, value_enum, default_value_t = PolarityChoice::Npn)]
+    pub polarity: PolarityChoice,
+    /// Fit the high-current knee IKF too (needs data up to where beta falls).
+    #[arg(long)]
+    pub ikf: bool,
+    /// Model self-heating with the class's thermal resistances.
+    #[arg(long)]
+    pub self_heating: bool,
+    /// Print a ready-to-paste catalog class with this id.
+    #[arg(long, value_name = "ID")]
+    pub emit_class: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FitFormat::Table)]
+    pub format: FitFormat,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PolarityChoice {
+    Npn,
+    Pnp,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FitFormat {
+    Table,
+    Json,
+}
+
 #[derive(Debug, Subcommand)]
 pub enum CatalogCommand {
     /// List every transistor and resistor class in the catalog.
@@ -256,6 +328,24 @@ impl Cli {
                     dbeta: a.dbeta,
                 },
             },
+            Command::Fit(f) => AppCommand::Fit(FitArgs {
+                file: f.file,
+                topology: f.topology,
+                re1: f.re1,
+                re2: f.re2,
+                ambient: f.ambient,
+                supply: f.supply,
+                part: f.part,
+                polarity: match f.polarity {
+                    PolarityChoice::Npn => Polarity::Npn,
+                    PolarityChoice::Pnp => Polarity::Pnp,
+                },
+                fit_ikf: f.ikf,
+                self_heating: f.self_heating,
+                emit_class: f.emit_class,
+                json: f.format == FitFormat::Json,
+                date: today_utc(),
+            }),
         };
         Config {
             catalog: self
@@ -266,6 +356,15 @@ impl Cli {
             style: Style { color },
         }
     }
+}
+
+/// Today's date (UTC) for provenance lines.
+fn today_utc() -> String {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs() as i64)
+        .unwrap_or(0);
+    mirrorpick::fit::emit::utc_date(secs)
 }
 
 #[cfg(test)]

@@ -11,6 +11,7 @@ pub mod app;
 pub mod bom;
 pub mod circuit;
 pub mod device;
+pub mod fit;
 pub mod input;
 pub mod model;
 pub mod report;

@@ -6,15 +6,16 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod solve;
+
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
-pub mod solve;
-
+use crate::fit;
 use crate::input::{self, InputError};
-use crate::model::{Catalog, Polarity, Requirement};
+use crate::model::{Catalog, Polarity, Requirement, Topology, ZERO_CELSIUS_K};
 use crate::report::{self, Format, Style};
-use crate::units::{format_quantity, Dimension as D};
+use crate::units::{format_quantity, parse_field, Dimension as D, Field};
 
 /// Where the catalog comes from.
 #[derive(Debug, Clone, PartialEq, Eq, Default)]
@@ -47,6 +48,28 @@ pub enum Command {
         args: solve::SolveArgs,
         format: Format,
     },
+    Fit(FitArgs),
+}
+
+/// `fit` settings as typed (quantities still text: they are parsed here with located
+/// messages, so the CLI layer stays free of units).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct FitArgs {
+    pub file: PathBuf,
+    pub topology: String,
+    pub re1: Option<String>,
+    pub re2: Option<String>,
+    pub ambient: Option<String>,
+    pub supply: Option<String>,
+    /// Catalog class to start from; the generic class of `polarity` when absent.
+    pub part: Option<String>,
+    pub polarity: Polarity,
+    pub fit_ikf: bool,
+    pub self_heating: bool,
+    pub emit_class: Option<String>,
+    pub json: bool,
+    /// `YYYY-MM-DD` of the run, for provenance.
+    pub date: String,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -89,6 +112,24 @@ pub enum AppError {
     },
     #[error(transparent)]
     Solve(#[from] solve::SolveCommandError),
+    #[error(transparent)]
+    Measurements(#[from] crate::fit::CsvError),
+    #[error("unknown topology `{name}`{}; expected one of {}", suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default(), crate::input::list(&crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name().to_string()).collect::<Vec<_>>()))]
+    UnknownTopology {
+        name: String,
+        suggestion: Option<String>,
+    },
+    #[error("{option}: {error}")]
+    BadOption {
+        option: &'static str,
+        error: crate::units::QuantityError,
+    },
+    #[error("{option}: {problem}; expected {expected}")]
+    OptionValue {
+        option: &'static str,
+        problem: String,
+        expected: &'static str,
+    },
     #[error("cannot write the output: {0}")]
     Output(#[from] io::Error),
 }
@@ -185,8 +226,119 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
                 Format::Table | Format::Csv => solve::write_solve_table(&report, out)?,
             }
         }
+        Command::Fit(args) => return run_fit(cfg, args, out),
     }
     Ok(Outcome::Success)
+}
+
+/// Plausible ranges of the `fit` options.
+const FIT_RE: Field = Field::new("an emitter resistor", D::Resistance, 0.0, 1e7);
+const FIT_AMBIENT: Field = Field::new("a bench ambient", D::Temperature, 173.15, 473.15);
+const FIT_SUPPLY: Field = Field::new("a bench supply", D::Voltage, 0.1, 1000.0);
+
+fn run_fit(cfg: &Config, args: &FitArgs, out: &mut dyn Write) -> Result<Outcome, AppError> {
+    let topology =
+        Topology::from_name(&args.topology).ok_or_else(|| AppError::UnknownTopology {
+            name: args.topology.clone(),
+            suggestion: input::did_you_mean(
+                &args.topology,
+                crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name()),
+            ),
+        })?;
+    let quantity = |option: &'static str, text: &Option<String>, field: &Field, default: f64| {
+        text.as_deref().map_or(Ok(default), |t| {
+            parse_field(t, field).map_err(|error| AppError::BadOption { option, error })
+        })
+    };
+    let re1_ohm = quantity("--re1", &args.re1, &FIT_RE, 0.0)?;
+    let re2_ohm = quantity("--re2", &args.re2, &FIT_RE, 0.0)?;
+    if !topology.desc().has_re1 && re1_ohm > 0.0 {
+        return Err(AppError::OptionValue {
+            option: "--re1",
+            problem: format!("the {} topology has no RE1", topology.name()),
+            expected: "only --re2 for this topology",
+        });
+    }
+    let ambient_k = quantity(
+        "--ambient",
+        &args.ambient,
+        &FIT_AMBIENT,
+        ZERO_CELSIUS_K + 25.0,
+    )?;
+    let supply_v = match &args.supply {
+        Some(_) => Some(quantity("--supply", &args.supply, &FIT_SUPPLY, 0.0)?),
+        None => None,
+    };
+    if let Some(id) = &args.emit_class {
+        if id.is_empty()
+            || id
+                .chars()
+                .any(|c| c.is_whitespace() || c == ':' || c == '#')
+        {
+            return Err(AppError::OptionValue {
+                option: "--emit-class",
+                problem: format!("`{id}` is not usable as a class id"),
+                expected: "an id without blanks, `:` or `#`, like `npn-dual-bench-lot7`",
+            });
+        }
+    }
+    let base = match &args.part {
+        Some(id) => {
+            let (catalog, name) = load_catalog(&cfg.catalog)?;
+            catalog
+                .transistor(id)
+                .cloned()
+                .ok_or_else(|| AppError::UnknownClass {
+                    id: id.clone(),
+                    suggestion: input::did_you_mean(
+                        id,
+                        catalog.transistors.iter().map(|t| t.id.as_str()),
+                    ),
+                    catalog: name,
+                })?
+        }
+        None => fit::generic_class(args.polarity),
+    };
+    let source = args.file.display().to_string();
+    let text = read_file(&args.file)?;
+    let set = fit::parse_measurements(&source, &text)?;
+    if let Some(supply) = supply_v {
+        if let Some(p) = set.points.iter().find(|p| p.v_out_v > supply) {
+            return Err(AppError::OptionValue {
+                option: "--supply",
+                problem: format!(
+                    "{} is below the output voltage {} on line {} of {source}",
+                    format_quantity(supply, D::Voltage),
+                    format_quantity(p.v_out_v, D::Voltage),
+                    p.line
+                ),
+                expected: "the bench supply, at least the largest V_out measured",
+            });
+        }
+    }
+    let config = fit::FitConfig {
+        topology,
+        re1_ohm,
+        re2_ohm,
+        ambient_k,
+        supply_v,
+        self_heating: args.self_heating,
+        fit_ikf: args.fit_ikf,
+        base,
+        emit_class_id: args.emit_class.clone(),
+        date: args.date.clone(),
+    };
+    let report = fit::fit(&set, &config);
+    if args.json {
+        fit::render::write_json(&report, out)?;
+    } else {
+        fit::render::write_table(&report, cfg.style, out)?;
+    }
+    Ok(if report.fitted() {
+        Outcome::Success
+    } else {
+        Outcome::NothingPasses
+    })
 }
 
 fn count(n: usize, one: &str, many: &str) -> String {
