@@ -9,10 +9,13 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
+use mirrorpick::app::rank::{CheaperArgs, CheckArgs, DesignArgs, RankArgs};
 use mirrorpick::app::solve::SolveArgs;
 use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs};
+use mirrorpick::check::MonteCarlo;
 use mirrorpick::input::REQUIREMENT_FIELDS;
 use mirrorpick::model::{Polarity, Topology};
+use mirrorpick::rank::Prefer;
 use mirrorpick::report::{Format, Style};
 use mirrorpick::units::{self, Dimension, Field};
 
@@ -62,6 +65,144 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
     /// Fit BF, VAF and the pair's V_BE offset to bench measurements of a mirror.
     #[command(after_help = FIT_HELP)]
     Fit(FitCommand),
+    /// Rank every design that meets a requirement, cheapest first.
+    #[command(
+        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+    )]
+    Rank(RankCli),
+    /// Verify one named design against a requirement: every check with its margin.
+    #[command(
+        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check board.yaml --part npn-dual-general --topology wilson --corners --format json"
+    )]
+    Check(CheckCli),
+    /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
+    #[command(
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
+    )]
+    Cheaper(CheaperCli),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PreferChoice {
+    /// Cheapest first; equal cost goes to the larger accuracy margin.
+    Cost,
+    /// Largest accuracy margin first.
+    Accuracy,
+    /// Smallest cost/cheapest + error/accuracy: the knee of the cost/error front.
+    Balanced,
+}
+
+#[derive(Debug, Args)]
+pub struct MonteCarloArgs {
+    /// Seed of the Monte Carlo yield (same seed, same numbers).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Monte Carlo builds per design.
+    #[arg(long, default_value_t = 1000)]
+    pub samples: u32,
+}
+
+#[derive(Debug, Args)]
+pub struct RankCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    /// Rows to show.
+    #[arg(long, default_value_t = 10)]
+    pub top: usize,
+    /// How to order the feasible designs.
+    #[arg(long, value_enum, default_value_t = PreferChoice::Cost)]
+    pub prefer: PreferChoice,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+    /// Verify every candidate fully instead of skipping hopeless ones (slower, same result).
+    #[arg(long)]
+    pub exhaustive: bool,
+    /// Print the full reasoning for row K (1 = the first).
+    #[arg(long, value_name = "K")]
+    pub explain: Option<usize>,
+}
+
+#[derive(Debug, Args)]
+pub struct DesignCli {
+    /// Transistor class of the matched pair(s).
+    #[arg(long, value_name = "CLASS")]
+    pub part: String,
+    /// Topology: simple, beta-helper, wilson, wilson4, cascode or widlar.
+    #[arg(long, value_name = "T")]
+    pub topology: String,
+    /// Emitter resistor RE1 (`100`, `4k7`, `1.5 kΩ`); RE2 follows the ratio. For a
+    /// Widlar it is RE2, and without it RE2 is sized for the ratio.
+    #[arg(long, value_name = "R")]
+    pub re: Option<String>,
+    /// Resistor class of the emitter resistors.
+    #[arg(long, value_name = "CLASS")]
+    pub resistor: Option<String>,
+}
+
+#[derive(Debug, Args)]
+pub struct CheckCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    #[command(flatten)]
+    pub design: DesignCli,
+    /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+    #[arg(long, value_name = "CLASS")]
+    pub helper: Option<String>,
+    /// Also print the table of every corner.
+    #[arg(long)]
+    pub corners: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct CheaperCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    #[command(flatten)]
+    pub design: DesignCli,
+    /// List every other transistor class that still passes, at any cost.
+    #[arg(long)]
+    pub second_source: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+impl From<PreferChoice> for Prefer {
+    fn from(p: PreferChoice) -> Prefer {
+        match p {
+            PreferChoice::Cost => Prefer::Cost,
+            PreferChoice::Accuracy => Prefer::Accuracy,
+            PreferChoice::Balanced => Prefer::Balanced,
+        }
+    }
+}
+
+impl From<MonteCarloArgs> for MonteCarlo {
+    fn from(m: MonteCarloArgs) -> MonteCarlo {
+        MonteCarlo {
+            seed: m.seed,
+            samples: m.samples,
+        }
+    }
+}
+
+impl DesignCli {
+    fn into_args(self, helper: Option<String>) -> DesignArgs {
+        DesignArgs {
+            part: self.part,
+            topology: self.topology,
+            helper,
+            re: self.re,
+            resistor: self.resistor,
+        }
+    }
 }
 
 #[derive(Debug, Args)]
@@ -345,6 +486,29 @@ impl Cli {
                 emit_class: f.emit_class,
                 json: f.format == FitFormat::Json,
                 date: today_utc(),
+            }),
+            Command::Rank(a) => AppCommand::Rank(RankArgs {
+                file: a.file,
+                top: a.top,
+                prefer: a.prefer.into(),
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+                exhaustive: a.exhaustive,
+                explain: a.explain,
+            }),
+            Command::Check(a) => AppCommand::Check(CheckArgs {
+                file: a.file,
+                design: a.design.into_args(a.helper),
+                corners: a.corners,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+            }),
+            Command::Cheaper(a) => AppCommand::Cheaper(CheaperArgs {
+                file: a.file,
+                design: a.design.into_args(None),
+                second_source: a.second_source,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
             }),
         };
         Config {

@@ -9,11 +9,13 @@
 
 pub mod app;
 pub mod bom;
+pub mod check;
 pub mod circuit;
 pub mod device;
 pub mod fit;
 pub mod input;
 pub mod model;
+pub mod rank;
 pub mod report;
 pub mod solve;
 pub mod units;

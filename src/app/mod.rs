@@ -6,6 +6,7 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod rank;
 pub mod solve;
 
 use std::io::{self, Write};
@@ -49,6 +50,9 @@ pub enum Command {
         format: Format,
     },
     Fit(FitArgs),
+    Rank(rank::RankArgs),
+    Check(rank::CheckArgs),
+    Cheaper(rank::CheaperArgs),
 }
 
 /// `fit` settings as typed (quantities still text: they are parsed here with located
@@ -130,6 +134,11 @@ pub enum AppError {
         problem: String,
         expected: &'static str,
     },
+    #[error(transparent)]
+    Rank(#[from] crate::rank::RankError),
+    /// A command-line value that makes no sense (unknown name, bad quantity).
+    #[error("{0}")]
+    Usage(String),
     #[error("cannot write the output: {0}")]
     Output(#[from] io::Error),
 }
@@ -227,6 +236,9 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
             }
         }
         Command::Fit(args) => return run_fit(cfg, args, out),
+        Command::Rank(a) => return rank::run_rank(cfg, a, out),
+        Command::Check(a) => return rank::run_check(cfg, a, out),
+        Command::Cheaper(a) => return rank::run_cheaper(cfg, a, out),
     }
     Ok(Outcome::Success)
 }
