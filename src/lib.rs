@@ -5,4 +5,7 @@
 //! (`check`) -> ranking (`rank`) -> board BOM (`bom`) -> output (`report`).
 //! The core works in SI numbers; units and °C live at the edges.
 
+pub mod atomic_file;
+pub mod curves;
 pub mod model;
+pub mod report;

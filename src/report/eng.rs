@@ -1,0 +1,137 @@
+//! Engineering notation for printed figures (4.70 kΩ, 1.02 mA, 25 °C).
+//!
+//! Only for human-facing output; JSON and CSV keep plain SI numbers. The ASCII form is
+//! for files that some tools read byte-wise (SPICE decks), the Unicode form for pages.
+
+/// Which characters a formatted value may use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Charset {
+    /// `u` for micro, `ohm`, `degC`.
+    Ascii,
+    /// `µ`, `Ω`, `°C`.
+    Unicode,
+}
+
+/// `value` with an SI prefix chosen so the mantissa lies in [1, 1000), three
+/// significant digits. `unit` is the plain unit symbol ("A", "V", "ohm", "W").
+pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
+    let unit = match (unit, charset) {
+        ("ohm", Charset::Unicode) => "Ω",
+        (u, _) => u,
+    };
+    if value.is_nan() {
+        return "n/a".to_string();
+    }
+    if value.is_infinite() {
+        let inf = if charset == Charset::Ascii {
+            "inf"
+        } else {
+            "∞"
+        };
+        let sign = if value < 0.0 { "-" } else { "" };
+        return format!("{sign}{inf} {unit}");
+    }
+    if value == 0.0 {
+        return format!("0 {unit}");
+    }
+    const PREFIXES: [(&str, &str); 9] = [
+        ("f", "f"),
+        ("p", "p"),
+        ("n", "n"),
+        ("u", "µ"),
+        ("m", "m"),
+        ("", ""),
+        ("k", "k"),
+        ("M", "M"),
+        ("G", "G"),
+    ];
+    let exp3 = ((value.abs().log10() / 3.0).floor() as i32).clamp(-5, 3);
+    let mut mantissa = value / 10f64.powi(exp3 * 3);
+    let mut idx = (exp3 + 5) as usize;
+    // Rounding can carry the mantissa to 1000 (999.96 -> "1000"); step up a prefix.
+    if fmt3(mantissa).trim_start_matches('-').starts_with("1000") && idx + 1 < PREFIXES.len() {
+        mantissa /= 1000.0;
+        idx += 1;
+    }
+    let prefix = match charset {
+        Charset::Ascii => PREFIXES[idx].0,
+        Charset::Unicode => PREFIXES[idx].1,
+    };
+    format!("{} {prefix}{unit}", fmt3(mantissa))
+}
+
+/// Three significant digits for a mantissa in [1, 1000), trailing zeros kept (4.70).
+fn fmt3(m: f64) -> String {
+    let a = m.abs();
+    if a >= 100.0 {
+        format!("{m:.0}")
+    } else if a >= 10.0 {
+        format!("{m:.1}")
+    } else {
+        format!("{m:.2}")
+    }
+}
+
+/// A temperature given in kelvin, printed in degrees Celsius (nearest 0.1 degree).
+pub fn celsius(t_k: f64, charset: Charset) -> String {
+    let c = t_k - crate::model::ZERO_CELSIUS_K;
+    let c = if c.abs() < 0.05 { 0.0 } else { c };
+    let text = if (c - c.round()).abs() < 0.05 {
+        format!("{c:.0}")
+    } else {
+        format!("{c:.1}")
+    };
+    match charset {
+        Charset::Ascii => format!("{text} degC"),
+        Charset::Unicode => format!("{text} °C"),
+    }
+}
+
+/// A fraction as a percentage with three significant digits (0.0123 -> "1.23 %").
+pub fn percent(fraction: f64) -> String {
+    let p = fraction * 100.0;
+    if !p.is_finite() {
+        return "n/a".to_string();
+    }
+    let a = p.abs();
+    if a == 0.0 {
+        "0 %".to_string()
+    } else if a >= 100.0 {
+        format!("{p:.0} %")
+    } else if a >= 10.0 {
+        format!("{p:.1} %")
+    } else if a >= 1.0 {
+        format!("{p:.2} %")
+    } else if a >= 0.1 {
+        format!("{p:.3} %")
+    } else {
+        format!("{p:.2e} %")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn engineering_notation() {
+        assert_eq!(eng(4700.0, "ohm", Charset::Unicode), "4.70 kΩ");
+        assert_eq!(eng(1.0234e-3, "A", Charset::Unicode), "1.02 mA");
+        assert_eq!(eng(100e-6, "A", Charset::Ascii), "100 uA");
+        assert_eq!(eng(100e-6, "A", Charset::Unicode), "100 µA");
+        assert_eq!(eng(999.96, "V", Charset::Ascii), "1.00 kV");
+        assert_eq!(eng(12.0, "V", Charset::Ascii), "12.0 V");
+        assert_eq!(eng(0.0, "V", Charset::Ascii), "0 V");
+        assert_eq!(eng(-2.5e-3, "V", Charset::Ascii), "-2.50 mV");
+    }
+
+    #[test]
+    fn temperatures_and_percentages() {
+        assert_eq!(celsius(298.15, Charset::Unicode), "25 °C");
+        assert_eq!(celsius(233.15, Charset::Ascii), "-40 degC");
+        assert_eq!(celsius(300.0, Charset::Ascii), "26.9 degC");
+        assert_eq!(percent(0.0123), "1.23 %");
+        assert_eq!(percent(0.5), "50.0 %");
+        assert_eq!(percent(0.00123), "0.123 %");
+    }
+}
