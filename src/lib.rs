@@ -3,9 +3,14 @@
 //! Data flows one way: files -> validated requirement and catalog (`input`) -> candidate
 //! designs -> solved circuits (`circuit`, on `device` and `solve`) -> checks and verdicts
 //! (`check`) -> ranking (`rank`) -> board BOM (`bom`) -> output (`report`).
-//! The core works in SI numbers; units and °C live at the edges.
+//! The core works in SI numbers; units and °C live at the edges (`units`).
+//! `app` runs commands from a plain configuration; the binary's `cli.rs` builds that
+//! configuration from the command line.
 
+pub mod app;
 pub mod atomic_file;
 pub mod curves;
+pub mod input;
 pub mod model;
 pub mod report;
+pub mod units;

@@ -18,6 +18,107 @@ impl Series {
             Series::E192 => "E192",
         }
     }
+
+    /// All series, coarsest first.
+    pub const ALL: [Series; 4] = [Series::E24, Series::E48, Series::E96, Series::E192];
+
+    pub fn from_name(name: &str) -> Option<Series> {
+        Series::ALL
+            .into_iter()
+            .find(|s| s.as_str().eq_ignore_ascii_case(name))
+    }
+
+    /// Number of values per decade.
+    pub fn per_decade(self) -> usize {
+        match self {
+            Series::E24 => 24,
+            Series::E48 => 48,
+            Series::E96 => 96,
+            Series::E192 => 192,
+        }
+    }
+
+    /// The values of one decade as integers with the series' significant digits:
+    /// `10..=91` for E24 (two digits), `100..=988` for E48/E96/E192 (three digits).
+    ///
+    /// IEC 60063: E24 is a fixed table (eight entries differ from the rounded geometric
+    /// value: 27 30 33 36 39 43 47 82); E48, E96 and E192 are `round(10^(i/N))` to three
+    /// digits, with one exception in E192 (920 where the formula gives 919).
+    pub fn decade_digits(self) -> Vec<u16> {
+        const E24: [u16; 24] = [
+            10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68, 75,
+            82, 91,
+        ];
+        if self == Series::E24 {
+            return E24.to_vec();
+        }
+        let n = self.per_decade();
+        (0..n)
+            .map(|i| {
+                let v = (100.0 * 10f64.powf(i as f64 / n as f64)).round() as u16;
+                if self == Series::E192 && v == 919 {
+                    920
+                } else {
+                    v
+                }
+            })
+            .collect()
+    }
+
+    /// The values of one decade as mantissas in `[1, 10)` (1.0, 1.1, ... for E24).
+    pub fn decade_values(self) -> Vec<f64> {
+        let scale = if self == Series::E24 { 10.0 } else { 100.0 };
+        self.decade_digits()
+            .into_iter()
+            .map(|d| f64::from(d) / scale)
+            .collect()
+    }
+
+    /// Every preferred value in `[lo, hi]` (ohms), ascending. Empty when `lo > hi` or
+    /// either bound is not a positive finite number.
+    pub fn values_between(self, lo: f64, hi: f64) -> Vec<f64> {
+        if !(lo > 0.0 && hi.is_finite() && lo <= hi) {
+            return Vec::new();
+        }
+        let mantissas = self.decade_values();
+        let first_decade = lo.log10().floor() as i32 - 1;
+        let last_decade = hi.log10().floor() as i32 + 1;
+        let mut out = Vec::new();
+        for d in first_decade..=last_decade {
+            for m in &mantissas {
+                let v = snap(m * 10f64.powi(d));
+                // A relative slack so 4.7e3 computed as 4699.999... still counts.
+                if v >= lo * (1.0 - 1e-12) && v <= hi * (1.0 + 1e-12) {
+                    out.push(v);
+                }
+            }
+        }
+        out
+    }
+
+    /// The preferred value nearest to `x` on a logarithmic scale (ties go up).
+    pub fn nearest(self, x: f64) -> Option<f64> {
+        if !(x > 0.0 && x.is_finite()) {
+            return None;
+        }
+        self.values_between(x / 1.2, x * 1.2)
+            .into_iter()
+            .min_by(|a, b| {
+                let da = (a / x).ln().abs();
+                let db = (b / x).ln().abs();
+                da.total_cmp(&db).then(b.total_cmp(a))
+            })
+    }
+}
+
+/// Remove the binary noise of `mantissa * 10^d` (4.7 * 1000 = 4700.000000000001).
+fn snap(v: f64) -> f64 {
+    let digits = 12 - v.abs().log10().floor() as i32;
+    if !(0..=300).contains(&digits) {
+        return v;
+    }
+    let s = format!("{v:.*}", digits as usize);
+    s.parse().unwrap_or(v)
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -31,4 +132,77 @@ pub struct ResistorClass {
     pub tcr_per_k: f64,
     pub unit_cost: f64,
     pub provenance: String,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn e24_is_the_iec_60063_table() {
+        // IEC 60063, E24 series (a fixed table, not the rounded geometric values).
+        assert_eq!(
+            Series::E24.decade_digits(),
+            vec![
+                10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68,
+                75, 82, 91
+            ]
+        );
+        // The eight entries that differ from round(10 * 10^(i/24)).
+        let differ: Vec<u16> = Series::E24
+            .decade_digits()
+            .into_iter()
+            .enumerate()
+            .filter(|(i, v)| (10.0 * 10f64.powf(*i as f64 / 24.0)).round() as u16 != *v)
+            .map(|(_, v)| v)
+            .collect();
+        assert_eq!(differ, vec![27, 30, 33, 36, 39, 43, 47, 82]);
+    }
+
+    #[test]
+    fn e48_matches_the_iec_60063_list() {
+        // IEC 60063, E48 series as published.
+        assert_eq!(
+            Series::E48.decade_digits(),
+            vec![
+                100, 105, 110, 115, 121, 127, 133, 140, 147, 154, 162, 169, 178, 187, 196, 205,
+                215, 226, 237, 249, 261, 274, 287, 301, 316, 332, 348, 365, 383, 402, 422, 442,
+                464, 487, 511, 536, 562, 590, 619, 649, 681, 715, 750, 787, 825, 866, 909, 953
+            ]
+        );
+    }
+
+    #[test]
+    fn e96_and_e192_follow_iec_60063() {
+        // IEC 60063: E96 has no exception; every second E96 value is an E48 value and
+        // every second E192 value an E96 value.
+        let e96 = Series::E96.decade_digits();
+        let e192 = Series::E192.decade_digits();
+        assert_eq!(e96.len(), 96);
+        assert_eq!(e192.len(), 192);
+        assert_eq!(&e96[..4], &[100, 102, 105, 107]);
+        assert_eq!(e96[95], 976);
+        let every_other = |v: &[u16]| v.iter().step_by(2).copied().collect::<Vec<_>>();
+        assert_eq!(every_other(&e96), Series::E48.decade_digits());
+        assert_eq!(every_other(&e192), e96);
+        // The one E192 exception: 920 where the formula gives 919.
+        assert!(e192.contains(&920) && !e192.contains(&919));
+        assert_eq!(e192[185], 920);
+        assert_eq!(e192[191], 988);
+        assert!(e192.windows(2).all(|w| w[0] < w[1]));
+    }
+
+    #[test]
+    fn values_between_spans_decades() {
+        let v = Series::E24.values_between(3.9e3, 5.6e3);
+        assert_eq!(v, vec![3900.0, 4300.0, 4700.0, 5100.0, 5600.0]);
+        let v = Series::E96.values_between(1.0, 1000.0);
+        assert_eq!(v.len(), 3 * 96 + 1);
+        assert_eq!(v[0], 1.0);
+        assert_eq!(*v.last().unwrap(), 1000.0);
+        assert!(Series::E24.values_between(10.0, 1.0).is_empty());
+        assert_eq!(Series::E24.nearest(4.6e3), Some(4700.0));
+        assert_eq!(Series::E96.nearest(4.7e3), Some(4750.0));
+        assert_eq!(Series::from_name("e96"), Some(Series::E96));
+    }
 }

@@ -1,10 +1,15 @@
-//! Human-facing output written from finished results: the decision page (HTML and
-//! Markdown), SVG plots, and the SPICE export.
+//! Output: finished results -> tables, JSON, CSV (written to any `io::Write`), and the
+//! human-facing documents: the decision page (HTML and Markdown), SVG plots and the
+//! SPICE export.
 //!
-//! Every renderer here is a pure function from finished data to text; nothing here
-//! solves circuits or decides anything, and nothing here touches the file system
-//! (files go through `atomic_file`).
+//! Tables and pages use engineering notation (4.70 kΩ); JSON and CSV carry plain SI
+//! numbers with the unit in the field or column name (`vaf_v`). A CSV header and its rows
+//! come from one column list. Every renderer is a pure function from finished data to
+//! text; this module must not read files, solve circuits or decide exit codes (files go
+//! through `atomic_file`).
 
+pub mod catalog;
+pub mod csv;
 pub mod eng;
 pub mod html;
 pub mod markdown;
@@ -15,7 +20,43 @@ pub mod spice;
 #[cfg(test)]
 pub(crate) mod fixtures;
 
+use comfy_table::{presets, Attribute, Cell, ContentArrangement, Table};
 use sha2::{Digest, Sha256};
+
+/// How results are printed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Format {
+    #[default]
+    Table,
+    Json,
+    Csv,
+}
+
+/// Presentation choices made at the edge (terminal or not, NO_COLOR).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Style {
+    /// Bold headers and other terminal styling; never on when writing to a file.
+    pub color: bool,
+}
+
+/// A table with the house look: condensed UTF-8 borders, bold header when styled.
+pub fn new_table(style: Style, header: &[&str]) -> Table {
+    let mut t = Table::new();
+    t.load_preset(presets::UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Disabled);
+    if style.color {
+        t.enforce_styling();
+        t.set_header(
+            header
+                .iter()
+                .map(|h| Cell::new(h).add_attribute(Attribute::Bold)),
+        );
+    } else {
+        t.force_no_tty();
+        t.set_header(header.iter().map(Cell::new));
+    }
+    t
+}
 
 /// Where the numbers came from: echoed in every exported file.
 #[derive(Debug, Clone, PartialEq)]

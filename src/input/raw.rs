@@ -1,0 +1,220 @@
+//! Raw serde mirrors of the file formats: exactly what the user wrote, before units and
+//! ranges are checked. Private to `input`; nothing outside sees these types.
+
+use std::fmt;
+
+use serde::de::{self, Deserializer, Visitor};
+use serde::Deserialize;
+
+/// A quantity as written: a YAML number or a string with a unit (`20 fA`, `4k7`).
+#[derive(Debug, Clone, PartialEq)]
+pub enum RawQty {
+    Number(f64),
+    Text(String),
+}
+
+impl RawQty {
+    /// The text the user wrote, for messages.
+    pub fn text(&self) -> String {
+        match self {
+            RawQty::Number(v) => format!("{v}"),
+            RawQty::Text(t) => t.clone(),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for RawQty {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl Visitor<'_> for V {
+            type Value = RawQty;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a number or a quantity with its unit, such as `150` or `100 V`")
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v as f64))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v as f64))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawQty, E> {
+                Ok(RawQty::Text(v.to_string()))
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a catalog: a mapping with `currency`, `reference_quantity`, `transistor_classes` and `resistor_classes`"
+)]
+pub struct RawCatalog {
+    pub currency: String,
+    pub reference_quantity: u32,
+    pub transistor_classes: Vec<RawTransistor>,
+    pub resistor_classes: Vec<RawResistor>,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy)]
+#[serde(rename_all = "lowercase")]
+pub enum RawPolarity {
+    Npn,
+    Pnp,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a transistor class: a mapping with `id`, `summary`, `polarity`, `model`, ..."
+)]
+pub struct RawTransistor {
+    pub id: String,
+    pub summary: String,
+    pub polarity: RawPolarity,
+    pub devices_per_package: u32,
+    pub package: String,
+    pub model: RawModel,
+    #[serde(default)]
+    pub matching: Option<RawMatching>,
+    pub ratings: RawRatings,
+    pub thermal: RawThermal,
+    pub unit_cost: RawQty,
+    pub provenance: String,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "model parameters: a mapping such as `{is: 12 fA, bf: 200, vaf: 90 V}`"
+)]
+pub struct RawModel {
+    pub is: RawQty,
+    pub bf: RawQty,
+    #[serde(default)]
+    pub br: Option<RawQty>,
+    #[serde(default)]
+    pub vaf: Option<RawQty>,
+    #[serde(default)]
+    pub ikf: Option<RawQty>,
+    #[serde(default)]
+    pub xti: Option<RawQty>,
+    #[serde(default)]
+    pub eg: Option<RawQty>,
+    #[serde(default)]
+    pub xtb: Option<RawQty>,
+    #[serde(default)]
+    pub tnom: Option<RawQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{vbe_offset_sigma: ..., beta_mismatch_sigma: ...}`"
+)]
+pub struct RawMatching {
+    pub vbe_offset_sigma: RawQty,
+    pub beta_mismatch_sigma: RawQty,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{vceo: ..., ic_max: ..., power_per_package: ...}`"
+)]
+pub struct RawRatings {
+    pub vceo: RawQty,
+    pub ic_max: RawQty,
+    pub power_per_package: RawQty,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping `{theta_self: ..., theta_mutual: ...}`"
+)]
+pub struct RawThermal {
+    pub theta_self: RawQty,
+    pub theta_mutual: RawQty,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a resistor class: a mapping with `id`, `summary`, `series`, `tolerance`, ..."
+)]
+pub struct RawResistor {
+    pub id: String,
+    pub summary: String,
+    pub series: String,
+    pub tolerance: RawQty,
+    pub tcr: RawQty,
+    pub unit_cost: RawQty,
+    pub provenance: String,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a range: a mapping `{min: ..., max: ...}`"
+)]
+pub struct RawRange {
+    pub min: RawQty,
+    pub max: RawQty,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy)]
+#[serde(rename_all = "lowercase")]
+pub enum RawKind {
+    Sink,
+    Source,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy)]
+#[serde(rename_all = "lowercase")]
+pub enum RawLoad {
+    General,
+    Led,
+    Laser,
+    Sensor,
+    Bias,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a requirement: a mapping with `name`, `kind`, `supply`, `input_current`, `output_voltage`, `ambient` and `accuracy`"
+)]
+pub struct RawRequirement {
+    pub name: String,
+    pub kind: RawKind,
+    pub supply: RawQty,
+    pub input_current: RawRange,
+    #[serde(default)]
+    pub ratio: Option<RawQty>,
+    pub output_voltage: RawRange,
+    pub ambient: RawRange,
+    pub accuracy: RawQty,
+    #[serde(default)]
+    pub confidence_sigma: Option<RawQty>,
+    #[serde(default)]
+    pub min_yield: Option<RawQty>,
+    #[serde(default)]
+    pub min_output_resistance: Option<RawQty>,
+    #[serde(default)]
+    pub input_voltage_max: Option<RawQty>,
+    #[serde(default)]
+    pub max_cost: Option<RawQty>,
+    #[serde(default)]
+    pub quantity: Option<u32>,
+    #[serde(default)]
+    pub load: Option<RawLoad>,
+    #[serde(default)]
+    pub allow: Vec<String>,
+    #[serde(default)]
+    pub deny: Vec<String>,
+}
