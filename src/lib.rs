@@ -9,8 +9,11 @@
 
 pub mod app;
 pub mod atomic_file;
+pub mod circuit;
 pub mod curves;
+pub mod device;
 pub mod input;
 pub mod model;
 pub mod report;
+pub mod solve;
 pub mod units;

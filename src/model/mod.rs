@@ -14,7 +14,9 @@ mod transistor;
 pub use catalog::Catalog;
 pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
 pub use resistor::{ResistorClass, Series};
-pub use topology::{Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES};
+pub use topology::{
+    Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
+};
 pub use transistor::{BjtParams, Matching, Polarity, Ratings, Thermal, TransistorClass};
 
 /// 0 °C in kelvin (exact by the definition of the Celsius scale).

@@ -61,6 +61,160 @@ pub struct TopologyDesc {
     pub allows_degeneration: bool,
     /// Number of matched pairs (1 or 2).
     pub matched_pairs: u8,
+    /// Per transistor (same order as `transistors`): which current it nominally carries.
+    /// The solver uses this only for its start point.
+    pub branches: &'static [Branch],
+    /// Closed-form textbook estimates for screening and explanations.
+    pub estimates: Estimates,
+}
+
+/// The current a transistor nominally carries, for the solver's start point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Branch {
+    /// About `I_in`.
+    Input,
+    /// About the output current.
+    Output,
+    /// About the matched pair's base currents (a beta helper).
+    BaseCurrents,
+}
+
+/// What the closed-form estimates need: one device's typical figures at the operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EstimateInputs {
+    pub beta: f64,
+    /// `None` = no Early effect (infinite output resistance from `r_o`).
+    pub early_voltage_v: Option<f64>,
+    pub i_in_a: f64,
+    pub thermal_voltage_v: f64,
+    /// A typical V_BE at the operating current.
+    pub vbe_v: f64,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+}
+
+impl EstimateInputs {
+    /// The ratio the emitter resistors set (RE1/RE2), 1 when undegenerated.
+    pub fn resistor_ratio(&self) -> f64 {
+        if self.re1_ohm > 0.0 && self.re2_ohm > 0.0 {
+            self.re1_ohm / self.re2_ohm
+        } else {
+            1.0
+        }
+    }
+
+    /// `r_o = VAF / I_C` of a device carrying `i_a`.
+    fn r_o(&self, i_a: f64) -> f64 {
+        self.early_voltage_v.map_or(f64::INFINITY, |v| v / i_a)
+    }
+
+    /// `r_o (1 + g_m R_E')`, `R_E' = R_E || r_pi`: an emitter-degenerated output
+    /// (Gray, Hurst, Lewis & Meyer, ch. 4).
+    fn degenerated_r_o(&self, i_a: f64, re_ohm: f64) -> f64 {
+        let gm = i_a / self.thermal_voltage_v;
+        let r_pi = self.beta / gm;
+        let re = if re_ohm > 0.0 {
+            re_ohm * r_pi / (re_ohm + r_pi)
+        } else {
+            0.0
+        };
+        self.r_o(i_a) * (1.0 + gm * re)
+    }
+}
+
+/// Closed-form estimates of one topology (functions of `EstimateInputs`).
+#[derive(Clone, Copy)]
+pub struct Estimates {
+    /// `I_out / I_in`.
+    pub ratio: fn(&EstimateInputs) -> f64,
+    /// Output resistance, ohm.
+    pub output_resistance_ohm: fn(&EstimateInputs) -> f64,
+    /// Lowest V_out with every V_CB >= 0, volts from the mirror rail.
+    pub compliance_voltage_v: fn(&EstimateInputs) -> f64,
+    /// V(in), volts from the mirror rail.
+    pub input_voltage_v: fn(&EstimateInputs) -> f64,
+}
+
+impl std::fmt::Debug for Estimates {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("Estimates")
+    }
+}
+
+impl PartialEq for Estimates {
+    fn eq(&self, other: &Self) -> bool {
+        std::ptr::fn_addr_eq(self.ratio, other.ratio)
+            && std::ptr::fn_addr_eq(self.output_resistance_ohm, other.output_resistance_ohm)
+            && std::ptr::fn_addr_eq(self.compliance_voltage_v, other.compliance_voltage_v)
+            && std::ptr::fn_addr_eq(self.input_voltage_v, other.input_voltage_v)
+    }
+}
+
+// The estimates below are the textbook first-order results (Gray, Hurst, Lewis & Meyer,
+// *Analysis and Design of Analog Integrated Circuits*, ch. 4; Sedra & Smith,
+// *Microelectronic Circuits*, current-mirror chapter), generalised to a resistor ratio n
+// where the book gives n = 1.
+
+fn simple_ratio(e: &EstimateInputs) -> f64 {
+    // n BF / (BF + 1 + n): BF/(BF+2) at n = 1.
+    let n = e.resistor_ratio();
+    n / (1.0 + (1.0 + n) / e.beta)
+}
+fn simple_r_out(e: &EstimateInputs) -> f64 {
+    e.degenerated_r_o(e.i_in_a * simple_ratio(e), e.re2_ohm)
+}
+fn simple_compliance(e: &EstimateInputs) -> f64 {
+    e.vbe_v + e.i_in_a * e.re1_ohm
+}
+fn one_vbe_input(e: &EstimateInputs) -> f64 {
+    e.vbe_v + e.i_in_a * e.re1_ohm
+}
+fn two_vbe(e: &EstimateInputs) -> f64 {
+    2.0 * e.vbe_v + e.i_in_a * e.re1_ohm
+}
+fn helper_ratio(e: &EstimateInputs) -> f64 {
+    // 1 / (1 + 2/(BF(BF+1))) at n = 1.
+    let n = e.resistor_ratio();
+    n / (1.0 + (1.0 + n) / (e.beta * (e.beta + 1.0)))
+}
+fn wilson_ratio(e: &EstimateInputs) -> f64 {
+    let b = e.beta;
+    e.resistor_ratio() * (1.0 - 2.0 / (b * b + 2.0 * b + 2.0))
+}
+fn half_beta_r_o(e: &EstimateInputs) -> f64 {
+    // R_o ~ BF r_o / 2 (Wilson and bipolar cascode mirrors).
+    e.beta * e.r_o(e.i_in_a * e.resistor_ratio()) / 2.0
+}
+fn cascode_ratio(e: &EstimateInputs) -> f64 {
+    // Q4 passes I_C2 BF/(BF+1); the input also feeds Q1's, Q2's and Q4's bases.
+    let b = e.beta;
+    let n = e.resistor_ratio();
+    n * (b / (b + 1.0)) / (1.0 + (1.0 + n) / b + n / (b + 1.0))
+}
+fn widlar_ratio(e: &EstimateInputs) -> f64 {
+    // I_out RE2 = V_T ln(I_in / I_out), solved by Newton in u = I_out / I_in.
+    let k = e.i_in_a * e.re2_ohm / e.thermal_voltage_v;
+    if k <= 0.0 {
+        return simple_ratio(e);
+    }
+    let mut u: f64 = (1.0 / (1.0 + k)).max(1e-12);
+    for _ in 0..60 {
+        let g = k * u + u.ln();
+        let step = g / (k + 1.0 / u);
+        let next = (u - step).max(u * 0.1);
+        if (next - u).abs() <= 1e-15 * u {
+            u = next;
+            break;
+        }
+        u = next;
+    }
+    u
+}
+fn widlar_r_out(e: &EstimateInputs) -> f64 {
+    e.degenerated_r_o(e.i_in_a * widlar_ratio(e), e.re2_ohm)
+}
+fn widlar_vbe(e: &EstimateInputs) -> f64 {
+    e.vbe_v
 }
 
 const fn q(
@@ -79,6 +233,8 @@ const fn q(
     }
 }
 
+use Branch::{BaseCurrents as BC, Input as IN, Output as OUT};
+
 const P1A: Role = Role::Matched { pair: 0, member: 0 };
 const P1B: Role = Role::Matched { pair: 0, member: 1 };
 const P2A: Role = Role::Matched { pair: 1, member: 0 };
@@ -96,6 +252,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        branches: &[IN, OUT],
+        estimates: Estimates {
+            ratio: simple_ratio,
+            output_resistance_ohm: simple_r_out,
+            compliance_voltage_v: simple_compliance,
+            input_voltage_v: one_vbe_input,
+        },
     },
     TopologyDesc {
         topology: Topology::BetaHelper,
@@ -109,6 +272,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        branches: &[IN, OUT, BC],
+        estimates: Estimates {
+            ratio: helper_ratio,
+            output_resistance_ohm: simple_r_out,
+            compliance_voltage_v: simple_compliance,
+            input_voltage_v: two_vbe,
+        },
     },
     TopologyDesc {
         topology: Topology::Wilson,
@@ -122,6 +292,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        branches: &[IN, OUT, OUT],
+        estimates: Estimates {
+            ratio: wilson_ratio,
+            output_resistance_ohm: half_beta_r_o,
+            compliance_voltage_v: two_vbe,
+            input_voltage_v: two_vbe,
+        },
     },
     TopologyDesc {
         topology: Topology::Wilson4,
@@ -136,6 +313,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 2,
+        branches: &[IN, IN, OUT, OUT],
+        estimates: Estimates {
+            ratio: wilson_ratio,
+            output_resistance_ohm: half_beta_r_o,
+            compliance_voltage_v: two_vbe,
+            input_voltage_v: two_vbe,
+        },
     },
     TopologyDesc {
         topology: Topology::Cascode,
@@ -150,6 +334,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 2,
+        branches: &[IN, IN, OUT, OUT],
+        estimates: Estimates {
+            ratio: cascode_ratio,
+            output_resistance_ohm: half_beta_r_o,
+            compliance_voltage_v: two_vbe,
+            input_voltage_v: two_vbe,
+        },
     },
     TopologyDesc {
         topology: Topology::Widlar,
@@ -162,6 +353,13 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: false,
         allows_degeneration: false,
         matched_pairs: 1,
+        branches: &[IN, OUT],
+        estimates: Estimates {
+            ratio: widlar_ratio,
+            output_resistance_ohm: widlar_r_out,
+            compliance_voltage_v: widlar_vbe,
+            input_voltage_v: widlar_vbe,
+        },
     },
 ];
 
@@ -187,6 +385,45 @@ impl Topology {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn inputs(beta: f64) -> EstimateInputs {
+        EstimateInputs {
+            beta,
+            early_voltage_v: Some(100.0),
+            i_in_a: 1e-3,
+            thermal_voltage_v: 0.025852,
+            vbe_v: 0.65,
+            re1_ohm: 0.0,
+            re2_ohm: 0.0,
+        }
+    }
+
+    #[test]
+    fn closed_form_estimates() {
+        // Gray, Hurst, Lewis & Meyer, ch. 4; Sedra & Smith, current-mirror chapter.
+        let e = inputs(100.0);
+        let r = |t: Topology| (t.desc().estimates.ratio)(&e);
+        assert!((r(Topology::Simple) - 100.0 / 102.0).abs() < 1e-12);
+        assert!((r(Topology::BetaHelper) - 1.0 / (1.0 + 2.0 / (100.0 * 101.0))).abs() < 1e-12);
+        assert!((r(Topology::Wilson) - (1.0 - 2.0 / 10202.0)).abs() < 1e-12);
+        // Wilson output resistance ~ BF r_o / 2 = 100 * 100 kOhm / 2.
+        let ro = (Topology::Wilson.desc().estimates.output_resistance_ohm)(&e);
+        assert!((ro - 5e6).abs() < 1.0);
+        // Widlar: I_out RE2 = V_T ln(I_in/I_out).
+        let w = EstimateInputs {
+            re2_ohm: 1000.0,
+            ..e
+        };
+        let u = (Topology::Widlar.desc().estimates.ratio)(&w);
+        assert!((1e-3 * u * 1000.0 - 0.025852 * (1.0 / u).ln()).abs() < 1e-12);
+    }
+
+    #[test]
+    fn every_description_has_one_branch_per_transistor() {
+        for t in ALL_TOPOLOGIES {
+            assert_eq!(t.desc().branches.len(), t.desc().transistors.len());
+        }
+    }
 
     #[test]
     fn descriptions_are_indexed_by_topology() {

@@ -1,0 +1,276 @@
+//! Solved circuits: a topology description + part classes + emitter resistors, compiled
+//! into an index-based netlist and solved at one operating point, optionally with
+//! self-heating (the electrothermal fixed point of MODEL.md).
+//!
+//! Owns: package layout (which die sits in which package), netlist compilation, the
+//! circuit's `NonlinearSystem` (KCL per unknown node, one thermal equation per junction),
+//! the start point, failure classification (no convergence vs thermal runaway), and the
+//! solved small-signal figures (output resistance, balance voltage).
+//! Must not: match on the topology (descriptions are data), parse input or print.
+//!
+//! Package layout: when one package of the pair class holds every transistor of the
+//! topology (a 4- or 5-device array), all of them sit in it, coupled by `theta_mutual`.
+//! Otherwise each matched pair takes one package (a dual holds one pair; a single-device
+//! class puts each member in its own package), helpers use spare devices of a package
+//! already placed, and failing that each helper is a single of the helper class in its
+//! own package (no coupling). There is no coupling across packages.
+
+// Numeric kernels index several parallel fixed-size arrays with one loop variable.
+#![allow(clippy::needless_range_loop)]
+
+mod netlist;
+mod system;
+
+use crate::device::Region;
+use crate::model::{Role, Topology, TransistorClass};
+pub use netlist::{Netlist, Placement, MAX_NODES, MAX_TRANSISTORS};
+
+/// A candidate design: topology, part classes and emitter resistors (nominal values).
+#[derive(Debug, Clone, Copy)]
+pub struct Design<'a> {
+    pub topology: Topology,
+    /// The class of the matched pairs (and of helpers when it has spare devices).
+    pub pair: &'a TransistorClass,
+    /// The single-device class used for helpers without a spare device.
+    pub helper: Option<&'a TransistorClass>,
+    /// RE1 (ignored by topologies without RE1); 0 = short.
+    pub re1_ohm: f64,
+    /// RE2; 0 = short.
+    pub re2_ohm: f64,
+    /// Resistor temperature coefficient, per kelvin, about 25 °C.
+    pub re_tcr_per_k: f64,
+}
+
+impl Design<'_> {
+    /// The intended ratio n: RE1/RE2 on degenerated designs, the closed-form Widlar ratio at
+    /// `i_in_a` for a design without RE1, otherwise 1.
+    pub fn intended_ratio(&self, i_in_a: f64) -> f64 {
+        let desc = self.topology.desc();
+        if !desc.has_re1 && self.re2_ohm > 0.0 {
+            let p = &self.pair.model;
+            let vt = crate::device::thermal_voltage(p.t_nom_k);
+            let inputs = crate::model::EstimateInputs {
+                beta: f64::INFINITY,
+                early_voltage_v: None,
+                i_in_a,
+                thermal_voltage_v: vt,
+                vbe_v: vt * (i_in_a / p.saturation_current_a).ln(),
+                re1_ohm: 0.0,
+                re2_ohm: self.re2_ohm,
+            };
+            (desc.estimates.ratio)(&inputs)
+        } else if desc.has_re1 && self.re1_ohm > 0.0 && self.re2_ohm > 0.0 {
+            self.re1_ohm / self.re2_ohm
+        } else {
+            1.0
+        }
+    }
+}
+
+/// One operating point, magnitudes from the mirror rail.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OperatingPoint {
+    pub i_in_a: f64,
+    pub v_out_v: f64,
+    pub supply_v: f64,
+    pub t_amb_k: f64,
+}
+
+/// Deviations from nominal. Index 0 is the pair Q1,Q2 and index 1 the pair Q3,Q4; the
+/// offset applies to the pair's second device (MODEL.md). `dre*` are relative resistor
+/// deviations (0.01 = +1 %).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Mismatch {
+    pub dvbe_v: [f64; 2],
+    pub dbeta: [f64; 2],
+    pub dre1: f64,
+    pub dre2: f64,
+}
+
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct SolveOptions {
+    pub self_heating: bool,
+}
+
+/// One transistor of a solved circuit (magnitudes, NPN form).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TransistorState {
+    pub name: &'static str,
+    pub role: Role,
+    pub v_be: f64,
+    pub v_ce: f64,
+    pub i_c: f64,
+    pub i_b: f64,
+    pub t_junction_k: f64,
+    pub region: Region,
+    /// `V_CE I_C + V_BE I_B`, watts.
+    pub power_w: f64,
+    /// Package index (see the module docs for the layout).
+    pub package: u8,
+}
+
+/// A node voltage of a solved circuit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NodeVoltage {
+    pub name: &'static str,
+    pub volts: f64,
+}
+
+/// A converged, residual-checked operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Solution {
+    pub i_out_a: f64,
+    pub v_in_v: f64,
+    /// Current drawn from the opposite rail (helper collectors), amperes.
+    pub supply_current_a: f64,
+    /// Unknown nodes, then `out`, then `S` when the netlist uses it. See `nodes()`.
+    pub nodes: [NodeVoltage; MAX_NODES + 2],
+    pub node_count: usize,
+    /// In the topology description's order. See `transistors()`.
+    pub transistors: [TransistorState; MAX_TRANSISTORS],
+    pub transistor_count: usize,
+    /// Newton iterations, continuation and electrothermal solve included.
+    pub iterations: u32,
+}
+
+impl Solution {
+    pub fn nodes(&self) -> &[NodeVoltage] {
+        &self.nodes[..self.node_count]
+    }
+
+    pub fn transistors(&self) -> &[TransistorState] {
+        &self.transistors[..self.transistor_count]
+    }
+
+    /// MODEL.md error `e = I_out / (n I_in) - 1`.
+    pub fn error(&self, ratio: f64, i_in_a: f64) -> f64 {
+        self.i_out_a / (ratio * i_in_a) - 1.0
+    }
+
+    pub fn node(&self, name: &str) -> Option<f64> {
+        self.nodes()
+            .iter()
+            .find(|n| n.name == name)
+            .map(|n| n.volts)
+    }
+}
+
+/// Why a design could not be solved at a point. A failure is a result to explain, never a
+/// number.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SolveFailure {
+    #[error(
+        "{} with {part} did not converge at I_in = {} A, V_out = {} V, supply = {} V, {} K \
+         after {iterations} iterations (largest KCL residual {residual:e})",
+        topology.name(), point.i_in_a, point.v_out_v, point.supply_v, point.t_amb_k
+    )]
+    NoConvergence {
+        topology: Topology,
+        part: String,
+        point: OperatingPoint,
+        iterations: u32,
+        residual: f64,
+    },
+    #[error(
+        "{} with {part} has no stable electrothermal operating point (thermal runaway) at \
+         I_in = {} A, V_out = {} V, {} K ambient",
+        topology.name(), point.i_in_a, point.v_out_v, point.t_amb_k
+    )]
+    ThermalRunaway {
+        topology: Topology,
+        part: String,
+        point: OperatingPoint,
+        /// The hottest junction temperature reached while searching, kelvin.
+        t_max_k: f64,
+    },
+    #[error(
+        "{} needs a helper transistor and {part} has no spare device; name a single-device class",
+        topology.name()
+    )]
+    HelperMissing { topology: Topology, part: String },
+    #[error("invalid design or operating point: {reason}")]
+    Invalid { reason: String },
+}
+
+/// Solves one design at one operating point. Compiles the netlist first; callers that
+/// solve one design at many points should compile once with `Netlist::compile`.
+pub fn solve_point(
+    design: &Design,
+    op: &OperatingPoint,
+    mm: &Mismatch,
+    opts: &SolveOptions,
+) -> Result<Solution, SolveFailure> {
+    Netlist::compile(design, mm)?.solve(op, opts)
+}
+
+/// `dV_out / dI_out` of the solved circuit: the derivative of the converged solution with
+/// respect to the output voltage (implicit differentiation of the circuit equations,
+/// self-heating included when enabled). Infinite when the output current does not depend
+/// on V_out.
+pub fn output_resistance(
+    design: &Design,
+    op: &OperatingPoint,
+    mm: &Mismatch,
+    opts: &SolveOptions,
+) -> Result<f64, SolveFailure> {
+    Netlist::compile(design, mm)?.output_resistance(op, opts)
+}
+
+/// The output voltage within `V(in) ... supply` at which the solved error crosses zero (the
+/// Early effect cancelling the base-current error, as found by sweeping the output on the
+/// bench), or `None` when it does not cross there or a point fails to solve. `op.v_out_v`
+/// is ignored.
+pub fn balance_voltage(
+    design: &Design,
+    op: &OperatingPoint,
+    mm: &Mismatch,
+    opts: &SolveOptions,
+) -> Option<f64> {
+    let net = Netlist::compile(design, mm).ok()?;
+    let n = design.intended_ratio(op.i_in_a);
+    let err = |v: f64| -> Option<f64> {
+        let p = OperatingPoint { v_out_v: v, ..*op };
+        net.solve(&p, opts).ok().map(|s| s.error(n, op.i_in_a))
+    };
+    let base = net.solve(op, opts).ok()?;
+    let (mut a, mut b) = (base.v_in_v.max(0.0), op.supply_v);
+    if b <= a {
+        return None;
+    }
+    let (mut fa, mut fb) = (err(a)?, err(b)?);
+    if fa == 0.0 {
+        return Some(a);
+    }
+    if fa.signum() == fb.signum() {
+        return None;
+    }
+    // Illinois regula falsi: the error is close to linear in V_out in forward-active
+    // operation, so this converges in a handful of solves.
+    let mut side = 0i8;
+    for _ in 0..100 {
+        let c = (a * fb - b * fa) / (fb - fa);
+        let fc = err(c)?;
+        if fc == 0.0 || (b - a).abs() < 1e-9 * op.supply_v.max(1.0) {
+            return Some(c);
+        }
+        if fc.signum() == fb.signum() {
+            b = c;
+            fb = fc;
+            if side == -1 {
+                fa *= 0.5;
+            }
+            side = -1;
+        } else {
+            a = c;
+            fa = fc;
+            if side == 1 {
+                fb *= 0.5;
+            }
+            side = 1;
+        }
+        if (b - a).abs() < 1e-7 {
+            return Some(0.5 * (a + b));
+        }
+    }
+    Some(0.5 * (a + b))
+}

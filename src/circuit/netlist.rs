@@ -1,0 +1,602 @@
+//! Compilation of a topology description into an index-based netlist, and the solve
+//! driver (isothermal first, then the coupled electrothermal system).
+
+use super::system::{CircuitSystem, OUT_SLOT, R_SLOT, S_SLOT};
+use super::{
+    Design, Mismatch, NodeVoltage, OperatingPoint, Solution, SolveFailure, SolveOptions,
+    TransistorState,
+};
+use crate::device::{Bjt, BjtAtT, Region};
+use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass};
+use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
+
+/// Most unknown node voltages of any topology.
+pub const MAX_NODES: usize = 6;
+/// Most transistors of any topology.
+pub const MAX_TRANSISTORS: usize = 5;
+
+/// Where one transistor sits.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Placement {
+    /// The device comes from the helper class (a single) rather than the pair class.
+    pub from_helper_class: bool,
+    pub package: u8,
+}
+
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Tr {
+    pub name: &'static str,
+    pub role: Role,
+    pub branch: Branch,
+    /// Slots: 0 = R, 1 = S, 2 = out, 3.. = unknown nodes.
+    pub c: usize,
+    pub b: usize,
+    pub e: usize,
+    pub bjt: Bjt,
+    pub package: u8,
+}
+
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Res {
+    /// The slot the resistor joins to R.
+    pub slot: usize,
+    /// Resistance at 25 °C with its deviation applied.
+    pub ohm_25c: f64,
+}
+
+/// A design compiled for solving: unknown nodes by index, devices with their mismatch,
+/// the thermal coupling matrix. Cheap to solve at many operating points.
+#[derive(Debug, Clone)]
+pub struct Netlist {
+    pub(super) topology: Topology,
+    pub(super) part: String,
+    pub(super) node_names: [&'static str; MAX_NODES],
+    pub(super) n_nodes: usize,
+    pub(super) in_slot: usize,
+    pub(super) uses_supply: bool,
+    pub(super) tr: [Tr; MAX_TRANSISTORS],
+    pub(super) n_tr: usize,
+    pub(super) res: [Res; 2],
+    pub(super) n_res: usize,
+    pub(super) tcr_per_k: f64,
+    pub(super) theta: [[f64; MAX_TRANSISTORS]; MAX_TRANSISTORS],
+    /// A typical beta of the pair class at its nominal temperature, for the start point.
+    beta_nom: f64,
+}
+
+fn layout(design: &Design) -> Result<[Placement; MAX_TRANSISTORS], SolveFailure> {
+    let desc = design.topology.desc();
+    let n = desc.transistors.len();
+    let dpp = design.pair.devices_per_package.max(1) as usize;
+    let mut out = [Placement {
+        from_helper_class: false,
+        package: 0,
+    }; MAX_TRANSISTORS];
+    if dpp >= n {
+        return Ok(out);
+    }
+    // Fill packages of the pair class pair by pair, then helpers into spare slots.
+    let mut used: Vec<usize> = Vec::new(); // devices used per package
+    let mut pkg_of_pair = [usize::MAX; 2];
+    for (i, line) in desc.transistors.iter().enumerate() {
+        if let Role::Matched { pair, .. } = line.role {
+            let p = pair as usize;
+            let pkg = if dpp == 1 {
+                used.push(1);
+                used.len() - 1
+            } else if pkg_of_pair[p] != usize::MAX {
+                pkg_of_pair[p]
+            } else {
+                let k = match used.iter().position(|&u| u + 2 <= dpp) {
+                    Some(k) => k,
+                    None => {
+                        used.push(0);
+                        used.len() - 1
+                    }
+                };
+                used[k] += 2;
+                pkg_of_pair[p] = k;
+                k
+            };
+            out[i].package = pkg as u8;
+        }
+    }
+    for (i, line) in desc.transistors.iter().enumerate() {
+        if line.role == Role::Helper {
+            if let Some(k) = used.iter().position(|&u| u < dpp) {
+                used[k] += 1;
+                out[i].package = k as u8;
+            } else {
+                if design.helper.is_none() {
+                    return Err(SolveFailure::HelperMissing {
+                        topology: design.topology,
+                        part: design.pair.id.clone(),
+                    });
+                }
+                used.push(dpp); // a single: nothing spare
+                out[i] = Placement {
+                    from_helper_class: true,
+                    package: (used.len() - 1) as u8,
+                };
+            }
+        }
+    }
+    Ok(out)
+}
+
+fn positive_finite(x: f64) -> bool {
+    x.is_finite() && x > 0.0
+}
+
+impl Netlist {
+    /// Compiles a design with its deviations. Fails when a helper is needed and none is
+    /// given, or when a value is out of its domain.
+    pub fn compile(design: &Design, mm: &Mismatch) -> Result<Netlist, SolveFailure> {
+        let desc = design.topology.desc();
+        let invalid = |reason: String| Err(SolveFailure::Invalid { reason });
+        for (what, v) in [("RE1", design.re1_ohm), ("RE2", design.re2_ohm)] {
+            if !(v.is_finite() && v >= 0.0) {
+                return invalid(format!("{what} must be a finite resistance >= 0, got {v}"));
+            }
+        }
+        let placement = layout(design)?;
+        let mut node_names = [""; MAX_NODES];
+        let mut n_nodes = 0usize;
+        let mut slot_of = |name: &'static str| -> usize {
+            match name {
+                "R" => R_SLOT,
+                "S" => S_SLOT,
+                "out" => OUT_SLOT,
+                "e1" if !(desc.has_re1 && design.re1_ohm > 0.0) => R_SLOT,
+                "e2" if design.re2_ohm <= 0.0 => R_SLOT,
+                _ => {
+                    if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
+                        3 + k
+                    } else {
+                        node_names[n_nodes] = name;
+                        n_nodes += 1;
+                        3 + n_nodes - 1
+                    }
+                }
+            }
+        };
+        let dummy = Tr {
+            name: "",
+            role: Role::Helper,
+            branch: Branch::Input,
+            c: R_SLOT,
+            b: R_SLOT,
+            e: R_SLOT,
+            bjt: Bjt::new(&design.pair.model, 0.0, 0.0),
+            package: 0,
+        };
+        let mut tr = [dummy; MAX_TRANSISTORS];
+        let mut theta = [[0.0; MAX_TRANSISTORS]; MAX_TRANSISTORS];
+        let mut classes: [&TransistorClass; MAX_TRANSISTORS] = [design.pair; MAX_TRANSISTORS];
+        for (i, line) in desc.transistors.iter().enumerate() {
+            let class = if placement[i].from_helper_class {
+                design.helper.unwrap_or(design.pair)
+            } else {
+                design.pair
+            };
+            classes[i] = class;
+            let (dvbe, dbeta) = match line.role {
+                Role::Matched { pair, member: 1 } => {
+                    (mm.dvbe_v[pair as usize], mm.dbeta[pair as usize])
+                }
+                _ => (0.0, 0.0),
+            };
+            let p = &class.model;
+            if !(positive_finite(p.saturation_current_a) && positive_finite(p.beta_forward)) {
+                return invalid(format!("class {} needs IS > 0 and BF > 0", class.id));
+            }
+            if !(dbeta > -1.0 && dvbe.is_finite()) {
+                return invalid(format!("mismatch out of range: dvbe {dvbe}, dbeta {dbeta}"));
+            }
+            tr[i] = Tr {
+                name: line.name,
+                role: line.role,
+                branch: desc.branches[i],
+                c: slot_of(line.collector),
+                b: slot_of(line.base),
+                e: slot_of(line.emitter),
+                bjt: Bjt::new(p, dvbe, dbeta),
+                package: placement[i].package,
+            };
+        }
+        let n_tr = desc.transistors.len();
+        for i in 0..n_tr {
+            for j in 0..n_tr {
+                if placement[i].package == placement[j].package {
+                    theta[i][j] = if i == j {
+                        classes[i].thermal.theta_self_k_per_w
+                    } else {
+                        classes[i].thermal.theta_mutual_k_per_w
+                    };
+                }
+            }
+        }
+        let mut res = [Res {
+            slot: R_SLOT,
+            ohm_25c: 0.0,
+        }; 2];
+        let mut n_res = 0;
+        for (name, ohm, dev) in [
+            ("e1", design.re1_ohm, mm.dre1),
+            ("e2", design.re2_ohm, mm.dre2),
+        ] {
+            if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
+                res[n_res] = Res {
+                    slot: 3 + k,
+                    ohm_25c: ohm * (1.0 + dev),
+                };
+                if res[n_res].ohm_25c <= 0.0 {
+                    return invalid(format!(
+                        "{name} resistor deviation {dev} leaves no resistance"
+                    ));
+                }
+                n_res += 1;
+            }
+        }
+        let in_slot = 3 + node_names[..n_nodes]
+            .iter()
+            .position(|&n| n == "in")
+            .expect("every topology has an input node");
+        let uses_supply = tr[..n_tr].iter().any(|t| t.c == S_SLOT);
+        Ok(Netlist {
+            topology: design.topology,
+            part: design.pair.id.clone(),
+            node_names,
+            n_nodes,
+            in_slot,
+            uses_supply,
+            tr,
+            n_tr,
+            res,
+            n_res,
+            tcr_per_k: design.re_tcr_per_k,
+            theta,
+            beta_nom: design.pair.model.beta_forward,
+        })
+    }
+
+    fn check_point(&self, op: &OperatingPoint) -> Result<(), SolveFailure> {
+        let ok = positive_finite(op.i_in_a)
+            && op.v_out_v.is_finite()
+            && op.v_out_v >= 0.0
+            && op.supply_v.is_finite()
+            && op.supply_v >= op.v_out_v
+            && positive_finite(op.t_amb_k);
+        if ok {
+            Ok(())
+        } else {
+            Err(SolveFailure::Invalid {
+                reason: format!(
+                    "operating point needs I_in > 0, 0 <= V_out <= supply, T > 0 K; got {op:?}"
+                ),
+            })
+        }
+    }
+
+    fn no_convergence(&self, op: &OperatingPoint, c: solve::Convergence) -> SolveFailure {
+        let residual = match c {
+            solve::Convergence::MaxIterations { residual, .. } => residual,
+            _ => f64::NAN,
+        };
+        SolveFailure::NoConvergence {
+            topology: self.topology,
+            part: self.part.clone(),
+            point: *op,
+            iterations: c.iterations(),
+            residual,
+        }
+    }
+
+    /// The start point of MODEL.md: each junction at `V_T ln(I/IS(T))` for the current it
+    /// nominally carries, node voltages built up from the rail through the netlist.
+    fn start_point(&self, sys: &CircuitSystem) -> Vector {
+        let op = &sys.op;
+        let desc = self.topology.desc();
+        let inputs = EstimateInputs {
+            beta: self.beta_nom,
+            early_voltage_v: None,
+            i_in_a: op.i_in_a,
+            thermal_voltage_v: sys.at[0].vt,
+            vbe_v: 0.0,
+            re1_ohm: sys.res_ohm_for("e1", self),
+            re2_ohm: sys.res_ohm_for("e2", self),
+        };
+        let ratio = (desc.estimates.ratio)(&inputs);
+        let mut v = [0.0; MAX_DIM + 3];
+        let mut known = [false; MAX_DIM + 3];
+        v[S_SLOT] = op.supply_v;
+        v[OUT_SLOT] = op.v_out_v;
+        known[R_SLOT] = true;
+        known[S_SLOT] = true;
+        known[OUT_SLOT] = true;
+        let mut cur = [0.0; MAX_TRANSISTORS];
+        for i in 0..self.n_tr {
+            cur[i] = match self.tr[i].branch {
+                Branch::Input => op.i_in_a,
+                Branch::Output => op.i_in_a * ratio,
+                Branch::BaseCurrents => op.i_in_a * (1.0 + ratio) / self.beta_nom,
+            };
+        }
+        for k in 0..self.n_res {
+            let r = &self.res[k];
+            let i_e: f64 = (0..self.n_tr)
+                .filter(|&i| self.tr[i].e == r.slot)
+                .map(|i| cur[i])
+                .sum();
+            v[r.slot] = i_e * sys.res_ohm[k];
+            known[r.slot] = true;
+        }
+        let vbe = |i: usize| -> f64 {
+            let d: &BjtAtT = &sys.at[i];
+            d.vbe_for_current(cur[i])
+        };
+        for _ in 0..MAX_TRANSISTORS {
+            for i in 0..self.n_tr {
+                let t = &self.tr[i];
+                if known[t.e] && !known[t.b] {
+                    v[t.b] = v[t.e] + vbe(i);
+                    known[t.b] = true;
+                } else if known[t.b] && !known[t.e] {
+                    v[t.e] = v[t.b] - vbe(i);
+                    known[t.e] = true;
+                }
+            }
+        }
+        for i in 0..self.n_tr {
+            let t = &self.tr[i];
+            if !known[t.c] {
+                v[t.c] = v[t.b];
+                known[t.c] = true;
+            }
+        }
+        // Below compliance a fixed collector pins its base: no junction may start forward
+        // biased beyond the V_BE of its nominal current (e^(V/V_T) would overflow).
+        let free = |slot: usize| slot >= 3;
+        for _ in 0..2 * MAX_TRANSISTORS {
+            let mut changed = false;
+            for i in 0..self.n_tr {
+                let t = &self.tr[i];
+                let lim = vbe(i).max(0.0) + 1e-9;
+                if v[t.b] - v[t.c] > lim {
+                    if free(t.b) {
+                        v[t.b] = v[t.c] + lim;
+                    } else if free(t.c) {
+                        v[t.c] = v[t.b] - lim;
+                    }
+                    changed = true;
+                }
+                if v[t.b] - v[t.e] > lim {
+                    if free(t.e) {
+                        v[t.e] = v[t.b] - lim;
+                    } else if free(t.b) {
+                        v[t.b] = v[t.e] + lim;
+                    }
+                    changed = true;
+                }
+            }
+            if !changed {
+                break;
+            }
+        }
+        let mut x = [0.0; MAX_DIM];
+        x[..self.n_nodes].copy_from_slice(&v[3..3 + self.n_nodes]);
+        x
+    }
+
+    /// Solves at one operating point.
+    pub fn solve(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+    ) -> Result<Solution, SolveFailure> {
+        self.solve_full(op, opts).map(|(sol, _, _)| sol)
+    }
+
+    /// The solution, the system it was solved with and the unknown vector.
+    fn solve_full<'n>(
+        &'n self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+    ) -> Result<(Solution, CircuitSystem<'n>, Vector), SolveFailure> {
+        self.check_point(op)?;
+        let newton = NewtonOptions::default();
+        let mut sys = CircuitSystem::new(self, *op);
+        let mut x = self.start_point(&sys);
+        let g_start = 100.0 * op.i_in_a / sys.at[0].vt;
+        let out = solve::solve_with_continuation(&sys, &mut x, &newton, g_start);
+        if !out.convergence.is_converged() {
+            return Err(self.no_convergence(op, out.convergence));
+        }
+        let mut iterations = out.iterations;
+        if opts.self_heating {
+            iterations += self.solve_thermal(&mut sys, &mut x, op, &newton)?;
+        }
+        Ok((sys.solution(&x, iterations), sys, x))
+    }
+
+    /// Extends a converged isothermal solution to the electrothermal fixed point.
+    fn solve_thermal(
+        &self,
+        sys: &mut CircuitSystem,
+        x: &mut Vector,
+        op: &OperatingPoint,
+        newton: &NewtonOptions,
+    ) -> Result<u32, SolveFailure> {
+        let nn = self.n_nodes;
+        let iso = *x;
+        // Start the temperatures where the isothermal powers put them.
+        let p = sys.powers(x);
+        sys.thermal = true;
+        for i in 0..self.n_tr {
+            x[nn + i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+        }
+        let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
+            topology: self.topology,
+            part: self.part.clone(),
+            point: *op,
+            t_max_k,
+        };
+        let out = solve::solve_with_continuation(&*sys, x, newton, 1e-3);
+        let mut iterations = out.iterations;
+        if !out.convergence.is_converged() {
+            // Walk the thermal coupling up from zero: if the isothermal circuit solves but
+            // the coupled one cannot be reached, the thermal loop has no fixed point.
+            *x = iso;
+            for i in 0..self.n_tr {
+                x[nn + i] = op.t_amb_k;
+            }
+            let mut lambda = 0.0f64;
+            let mut step = 0.25f64;
+            let mut accepted = *x;
+            let mut t_max = op.t_amb_k;
+            while lambda < 1.0 {
+                let next = (lambda + step).min(1.0);
+                sys.theta_scale = next;
+                *x = accepted;
+                let c = solve::solve(&*sys, x, newton);
+                iterations += c.iterations();
+                if c.is_converged() && sys.thermally_stable(x) {
+                    accepted = *x;
+                    lambda = next;
+                    t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(t_max, f64::max);
+                    step *= 1.5;
+                } else {
+                    step *= 0.5;
+                    if step < 1e-4 {
+                        return Err(runaway(t_max));
+                    }
+                }
+            }
+            *x = accepted;
+            sys.theta_scale = 1.0;
+        }
+        let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+        if !sys.thermally_stable(x) {
+            return Err(runaway(t_max));
+        }
+        Ok(iterations)
+    }
+
+    /// `dV_out / dI_out` of the solved circuit at `op` (see `super::output_resistance`).
+    pub fn output_resistance(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+    ) -> Result<f64, SolveFailure> {
+        let (_, sys, x) = self.solve_full(op, opts)?;
+        Ok(sys.output_resistance(&x))
+    }
+}
+
+impl CircuitSystem<'_> {
+    /// Builds the reported solution from a converged unknown vector.
+    pub(super) fn solution(&self, x: &Vector, iterations: u32) -> Solution {
+        let net = self.net;
+        let v = self.slot_voltages(x);
+        let blank_node = NodeVoltage {
+            name: "",
+            volts: 0.0,
+        };
+        let mut nodes = [blank_node; MAX_NODES + 2];
+        let mut node_count = 0;
+        for k in 0..net.n_nodes {
+            nodes[node_count] = NodeVoltage {
+                name: net.node_names[k],
+                volts: v[3 + k],
+            };
+            node_count += 1;
+        }
+        nodes[node_count] = NodeVoltage {
+            name: "out",
+            volts: self.op.v_out_v,
+        };
+        node_count += 1;
+        if net.uses_supply {
+            nodes[node_count] = NodeVoltage {
+                name: "S",
+                volts: self.op.supply_v,
+            };
+            node_count += 1;
+        }
+        let blank = TransistorState {
+            name: "",
+            role: Role::Helper,
+            v_be: 0.0,
+            v_ce: 0.0,
+            i_c: 0.0,
+            i_b: 0.0,
+            t_junction_k: 0.0,
+            region: Region::Cutoff,
+            power_w: 0.0,
+            package: 0,
+        };
+        let mut transistors = [blank; MAX_TRANSISTORS];
+        let mut i_out = 0.0;
+        let mut i_s = 0.0;
+        for i in 0..net.n_tr {
+            let t = &net.tr[i];
+            let d = self.device(i, x);
+            let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
+            let ev = d.eval(vbe, vbc);
+            let vce = vbe - vbc;
+            if t.c == OUT_SLOT {
+                i_out += ev.ic;
+            }
+            if t.c == S_SLOT {
+                i_s += ev.ic;
+            }
+            transistors[i] = TransistorState {
+                name: t.name,
+                role: t.role,
+                v_be: vbe,
+                v_ce: vce,
+                i_c: ev.ic,
+                i_b: ev.ib,
+                t_junction_k: d.t_k,
+                region: Region::of(vbe, vbc),
+                power_w: vce * ev.ic + vbe * ev.ib,
+                package: t.package,
+            };
+        }
+        Solution {
+            i_out_a: i_out,
+            v_in_v: v[net.in_slot],
+            supply_current_a: i_s,
+            nodes,
+            node_count,
+            transistors,
+            transistor_count: net.n_tr,
+            iterations,
+        }
+    }
+
+    /// `1 / (dI_out/dV_out)` by implicit differentiation: the residual's entry past the last
+    /// unknown is I_out, and the Jacobian's extra row and column hold its derivatives.
+    pub(super) fn output_resistance(&self, x: &Vector) -> f64 {
+        use crate::solve::NonlinearSystem;
+        let n = self.dim();
+        let mut f = [0.0; MAX_DIM];
+        let mut s = [0.0; MAX_DIM];
+        let mut j = [[0.0; MAX_DIM]; MAX_DIM];
+        self.jacobian(x, &mut f, &mut s, &mut j);
+        let g_oo = j[n][n];
+        let mut col = [0.0; MAX_DIM];
+        for i in 0..n {
+            col[i] = j[i][n];
+        }
+        let Some(lu) = lu_factor(&j, n) else {
+            return f64::NAN;
+        };
+        let dx = lu_solve(&lu, &col);
+        let mut g = g_oo;
+        for i in 0..n {
+            g -= j[n][i] * dx[i];
+        }
+        1.0 / g
+    }
+}

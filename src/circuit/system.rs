@@ -1,0 +1,313 @@
+//! The circuit as a `NonlinearSystem`: KCL at every unknown node and, with self-heating,
+//! one thermal equation per junction `T_i - T_amb - sum_j theta_ij P_j = 0`.
+//!
+//! Unknown layout: node voltages `0..n_nodes`, then junction temperatures. The residual
+//! entry and the Jacobian row/column just past the last unknown describe the output node
+//! (its "residual" is I_out), which the solver ignores and the output resistance uses.
+
+use super::netlist::Netlist;
+use super::OperatingPoint;
+use crate::device::{limit_junction, BjtAtT};
+use crate::solve::{lu_factor, Matrix, NonlinearSystem, Vector, MAX_DIM};
+
+pub(super) const R_SLOT: usize = 0;
+pub(super) const S_SLOT: usize = 1;
+pub(super) const OUT_SLOT: usize = 2;
+pub(super) const NONE: usize = usize::MAX;
+
+/// Reference temperature of resistor TCRs (25 °C).
+const TCR_REFERENCE_K: f64 = 298.15;
+/// Largest junction-temperature change in one Newton step, kelvin.
+const MAX_DT_STEP_K: f64 = 25.0;
+
+pub(super) struct CircuitSystem<'n> {
+    pub net: &'n Netlist,
+    pub op: OperatingPoint,
+    /// Devices at the ambient temperature (the isothermal solve).
+    pub at: [BjtAtT; super::MAX_TRANSISTORS],
+    v_crit: [f64; super::MAX_TRANSISTORS],
+    pub res_ohm: [f64; 2],
+    res_g: [f64; 2],
+    /// Junction temperatures are unknowns.
+    pub thermal: bool,
+    /// Scales every theta (continuation in the thermal coupling).
+    pub theta_scale: f64,
+}
+
+impl<'n> CircuitSystem<'n> {
+    pub fn new(net: &'n Netlist, op: OperatingPoint) -> Self {
+        let at0 = net.tr[0].bjt.at(op.t_amb_k);
+        let mut at = [at0; super::MAX_TRANSISTORS];
+        let mut v_crit = [0.0; super::MAX_TRANSISTORS];
+        for i in 0..net.n_tr {
+            // Devices built from equal parameters share one temperature evaluation.
+            at[i] = match (0..i).find(|&j| net.tr[j].bjt == net.tr[i].bjt) {
+                Some(j) => at[j],
+                None => net.tr[i].bjt.at(op.t_amb_k),
+            };
+            v_crit[i] = at[i].critical_voltage();
+        }
+        let mut res_ohm = [0.0; 2];
+        let mut res_g = [0.0; 2];
+        for k in 0..net.n_res {
+            res_ohm[k] =
+                net.res[k].ohm_25c * (1.0 + net.tcr_per_k * (op.t_amb_k - TCR_REFERENCE_K));
+            res_g[k] = 1.0 / res_ohm[k];
+        }
+        CircuitSystem {
+            net,
+            op,
+            at,
+            v_crit,
+            res_ohm,
+            res_g,
+            thermal: false,
+            theta_scale: 1.0,
+        }
+    }
+
+    pub fn res_ohm_for(&self, name: &str, net: &Netlist) -> f64 {
+        (0..net.n_res)
+            .find(|&k| net.node_names[net.res[k].slot - 3] == name)
+            .map_or(0.0, |k| self.res_ohm[k])
+    }
+
+    #[inline]
+    pub fn device(&self, i: usize, x: &Vector) -> BjtAtT {
+        if self.thermal {
+            self.net.tr[i].bjt.at(x[self.net.n_nodes + i])
+        } else {
+            self.at[i]
+        }
+    }
+
+    #[inline]
+    pub fn slot_voltages(&self, x: &Vector) -> [f64; MAX_DIM + 3] {
+        let mut v = [0.0; MAX_DIM + 3];
+        v[S_SLOT] = self.op.supply_v;
+        v[OUT_SLOT] = self.op.v_out_v;
+        v[3..3 + self.net.n_nodes].copy_from_slice(&x[..self.net.n_nodes]);
+        v
+    }
+
+    #[inline]
+    fn index(&self, slot: usize) -> usize {
+        if slot >= 3 {
+            slot - 3
+        } else if slot == OUT_SLOT {
+            self.dim()
+        } else {
+            NONE
+        }
+    }
+
+    /// Transistor powers `V_CE I_C + V_BE I_B` at `x`.
+    pub fn powers(&self, x: &Vector) -> [f64; super::MAX_TRANSISTORS] {
+        let v = self.slot_voltages(x);
+        let mut p = [0.0; super::MAX_TRANSISTORS];
+        for (i, t) in self.net.tr[..self.net.n_tr].iter().enumerate() {
+            let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
+            let ev = self.device(i, x).eval(vbe, vbc);
+            p[i] = (vbe - vbc) * ev.ic + vbe * ev.ib;
+        }
+        p
+    }
+
+    /// The electrothermal loop is stable at `x` when `det(I - L) > 0`, L being the loop gain
+    /// from junction temperatures back to themselves; by the Schur complement that is
+    /// `det(J) / det(J_electrical)`. A fixed point past the fold (or none at all) is thermal
+    /// runaway.
+    pub fn thermally_stable(&self, x: &Vector) -> bool {
+        if !self.thermal {
+            return true;
+        }
+        let n = self.dim();
+        let mut f = [0.0; MAX_DIM];
+        let mut s = [0.0; MAX_DIM];
+        let mut j = [[0.0; MAX_DIM]; MAX_DIM];
+        self.jacobian(x, &mut f, &mut s, &mut j);
+        let (Some(full), Some(el)) = (lu_factor(&j, n), lu_factor(&j, self.net.n_nodes)) else {
+            return false;
+        };
+        let ratio = full.determinant() / el.determinant();
+        ratio.is_finite() && ratio > 0.0
+    }
+
+    fn eval(&self, x: &Vector, f: &mut Vector, scale: &mut Vector, mut jac: Option<&mut Matrix>) {
+        let net = self.net;
+        let nn = net.n_nodes;
+        let n = self.dim();
+        let v = self.slot_voltages(x);
+        f[..=n].fill(0.0);
+        scale[..=n].fill(0.0);
+        if let Some(j) = jac.as_deref_mut() {
+            for row in j.iter_mut().take(n + 1) {
+                row[..=n].fill(0.0);
+            }
+        }
+        let ii = net.in_slot - 3;
+        f[ii] -= self.op.i_in_a;
+        scale[ii] = self.op.i_in_a;
+        for k in 0..net.n_res {
+            let slot = net.res[k].slot;
+            let r = slot - 3;
+            let i = v[slot] * self.res_g[k];
+            f[r] += i;
+            scale[r] = scale[r].max(i.abs());
+            if let Some(j) = jac.as_deref_mut() {
+                j[r][r] += self.res_g[k];
+            }
+        }
+        let mut p = [0.0; super::MAX_TRANSISTORS];
+        let mut dp = [[0.0; 3]; super::MAX_TRANSISTORS];
+        let mut dpdt = [0.0; super::MAX_TRANSISTORS];
+        for i in 0..net.n_tr {
+            let t = &net.tr[i];
+            let d = self.device(i, x);
+            let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
+            let ev = d.eval(vbe, vbc);
+            let ie = ev.ic + ev.ib;
+            let rows = [self.index(t.c), self.index(t.b), self.index(t.e)];
+            let cur = [ev.ic, ev.ib, -ie];
+            for k in 0..3 {
+                let r = rows[k];
+                if r != NONE {
+                    f[r] += cur[k];
+                    scale[r] = scale[r].max(cur[k].abs());
+                }
+            }
+            // Derivatives with respect to (V_c, V_b, V_e).
+            let dic = [-ev.dic_dvbc, ev.dic_dvbe + ev.dic_dvbc, -ev.dic_dvbe];
+            let dib = [-ev.dib_dvbc, ev.dib_dvbe + ev.dib_dvbc, -ev.dib_dvbe];
+            if let Some(j) = jac.as_deref_mut() {
+                for m in 0..3 {
+                    let col = rows[m];
+                    if col == NONE {
+                        continue;
+                    }
+                    let (a, b) = (dic[m], dib[m]);
+                    if rows[0] != NONE {
+                        j[rows[0]][col] += a;
+                    }
+                    if rows[1] != NONE {
+                        j[rows[1]][col] += b;
+                    }
+                    if rows[2] != NONE {
+                        j[rows[2]][col] -= a + b;
+                    }
+                }
+                if self.thermal {
+                    let col = nn + i;
+                    if rows[0] != NONE {
+                        j[rows[0]][col] += ev.dic_dt;
+                    }
+                    if rows[1] != NONE {
+                        j[rows[1]][col] += ev.dib_dt;
+                    }
+                    if rows[2] != NONE {
+                        j[rows[2]][col] -= ev.dic_dt + ev.dib_dt;
+                    }
+                }
+            }
+            if self.thermal {
+                let vce = vbe - vbc;
+                p[i] = vce * ev.ic + vbe * ev.ib;
+                let own = [ev.ic, ev.ib, -ie];
+                for m in 0..3 {
+                    dp[i][m] = vce * dic[m] + vbe * dib[m] + own[m];
+                }
+                dpdt[i] = vce * ev.dic_dt + vbe * ev.dib_dt;
+            }
+        }
+        if self.thermal {
+            for i in 0..net.n_tr {
+                let row = nn + i;
+                let mut heat = 0.0;
+                for jj in 0..net.n_tr {
+                    heat += self.theta_scale * net.theta[i][jj] * p[jj];
+                }
+                f[row] = x[row] - self.op.t_amb_k - heat;
+                scale[row] = x[row].abs();
+                if let Some(j) = jac.as_deref_mut() {
+                    j[row][row] += 1.0;
+                    for jj in 0..net.n_tr {
+                        let coef = self.theta_scale * net.theta[i][jj];
+                        if coef == 0.0 {
+                            continue;
+                        }
+                        let t = &net.tr[jj];
+                        for (m, slot) in [t.c, t.b, t.e].into_iter().enumerate() {
+                            let col = self.index(slot);
+                            if col != NONE {
+                                j[row][col] -= coef * dp[jj][m];
+                            }
+                        }
+                        j[row][nn + jj] -= coef * dpdt[jj];
+                    }
+                }
+            }
+        }
+    }
+}
+
+impl NonlinearSystem for CircuitSystem<'_> {
+    fn dim(&self) -> usize {
+        self.net.n_nodes + if self.thermal { self.net.n_tr } else { 0 }
+    }
+
+    fn residual(&self, x: &Vector, f: &mut Vector, scale: &mut Vector) {
+        self.eval(x, f, scale, None);
+    }
+
+    fn jacobian(&self, x: &Vector, f: &mut Vector, scale: &mut Vector, jac: &mut Matrix) {
+        self.eval(x, f, scale, Some(jac));
+    }
+
+    /// Junction limiting on every V_BE and V_BC (scaling the whole step so its direction
+    /// is kept) and a cap on junction-temperature steps.
+    fn limit_step(&self, x: &Vector, dx: &mut Vector) {
+        let net = self.net;
+        let nn = net.n_nodes;
+        let v_old = self.slot_voltages(x);
+        let mut x_new = *x;
+        for i in 0..nn {
+            x_new[i] += dx[i];
+        }
+        let v_new = self.slot_voltages(&x_new);
+        let mut alpha = 1.0f64;
+        for i in 0..net.n_tr {
+            let t = &net.tr[i];
+            let (vt, v_crit) = if self.thermal {
+                let d = self.device(i, x);
+                (d.vt, d.critical_voltage())
+            } else {
+                (self.at[i].vt, self.v_crit[i])
+            };
+            for (a, b) in [(t.b, t.e), (t.b, t.c)] {
+                let old = v_old[a] - v_old[b];
+                let new = v_new[a] - v_new[b];
+                let lim = limit_junction(new, old, vt, v_crit);
+                if lim != new {
+                    alpha = alpha.min((lim - old) / (new - old));
+                }
+            }
+        }
+        if self.thermal {
+            for i in nn..self.dim() {
+                let d = dx[i].abs();
+                if d > MAX_DT_STEP_K {
+                    alpha = alpha.min(MAX_DT_STEP_K / d);
+                }
+                if x[i] + dx[i] < 0.5 * x[i] {
+                    alpha = alpha.min(0.5 * x[i] / -dx[i]);
+                }
+            }
+        }
+        if alpha < 1.0 {
+            let alpha = alpha.max(1e-3);
+            for d in dx.iter_mut().take(self.dim()) {
+                *d *= alpha;
+            }
+        }
+    }
+}

@@ -1,0 +1,6 @@
+//! Engine checks against published results: device model, solved topologies, self-heating,
+//! properties. One integration binary (fast links); modules by subject.
+
+mod fixtures;
+mod properties;
+mod reference;

@@ -1,0 +1,167 @@
+//! Property tests over the ranges of the engine issue: IS 1e-16...1e-12 A, BF 20...1000,
+//! VAF 10...500 V, I_in 1 nA...50 mA, V_out 0.3...100 V, T -40...125 °C, RE 0...100 kOhm,
+//! every topology, with and without self-heating.
+//!
+//! Two limits keep the cases physical: the drop across an emitter resistor is kept within
+//! 2 V (I_in RE <= 2 V; beyond that the input node would sit kilovolts above the rail),
+//! and with self-heating a case may end in `ThermalRunaway` (50 mA at 100 V is 5 W in a
+//! small package), which is the correct answer there; any other failure fails the test.
+
+use crate::fixtures::*;
+use mirrorpick::circuit::{solve_point, Design, OperatingPoint, Solution, SolveFailure};
+use mirrorpick::model::{BjtParams, Polarity, Topology, ALL_TOPOLOGIES};
+use proptest::prelude::*;
+
+#[derive(Debug, Clone)]
+struct Case {
+    topology: Topology,
+    is: f64,
+    bf: f64,
+    vaf: f64,
+    i_in: f64,
+    v_out: f64,
+    t_c: f64,
+    re: f64,
+}
+
+fn log_range(lo: f64, hi: f64) -> impl Strategy<Value = f64> {
+    (lo.ln()..hi.ln()).prop_map(f64::exp)
+}
+
+fn cases() -> impl Strategy<Value = Case> {
+    (
+        0..ALL_TOPOLOGIES.len(),
+        log_range(1e-16, 1e-12),
+        log_range(20.0, 1000.0),
+        log_range(10.0, 500.0),
+        log_range(1e-9, 50e-3),
+        log_range(0.3, 100.0),
+        -40.0..125.0f64,
+        prop_oneof![Just(0.0), log_range(1.0, 100e3)],
+    )
+        .prop_map(|(t, is, bf, vaf, i_in, v_out, t_c, re)| Case {
+            topology: ALL_TOPOLOGIES[t],
+            is,
+            bf,
+            vaf,
+            i_in,
+            v_out,
+            t_c,
+            re: re.min(2.0 / i_in),
+        })
+}
+
+fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoint, f64, f64) {
+    let cls = class(
+        "prop",
+        Polarity::Npn,
+        5,
+        BjtParams::new(c.is, c.bf, Some(c.vaf)),
+    );
+    let (re1, re2) = if c.topology == Topology::Widlar {
+        (0.0, c.re.max(1.0))
+    } else {
+        (c.re, c.re)
+    };
+    let d: Design = design(c.topology, &cls, re1, re2);
+    let p = OperatingPoint {
+        i_in_a: c.i_in,
+        v_out_v: c.v_out,
+        supply_v: c.v_out + 1.0,
+        t_amb_k: c.t_c + 273.15,
+    };
+    let opts = if heated_ { heated() } else { iso() };
+    (solve_point(&d, &p, &nominal(), &opts), p, re1, re2)
+}
+
+/// KCL at every node from the reported currents (independent of the solver's own check),
+/// and the power balance of Tellegen's theorem.
+fn check(c: &Case, s: &Solution, p: &OperatingPoint, re1: f64, re2: f64) -> Result<(), String> {
+    let desc = c.topology.desc();
+    let volts = |name: &str| -> f64 {
+        match name {
+            "R" => 0.0,
+            "e1" | "e2" => s.node(name).unwrap_or(0.0),
+            _ => s.node(name).expect("node reported"),
+        }
+    };
+    for node in s.nodes() {
+        if node.name == "out" || node.name == "S" {
+            continue;
+        }
+        let mut sum = 0.0;
+        let mut big = 0.0f64;
+        let mut add = |i: f64| {
+            sum += i;
+            big = big.max(i.abs());
+        };
+        if node.name == "in" {
+            add(-p.i_in_a);
+        }
+        if node.name == "e1" {
+            add(node.volts / re1);
+        }
+        if node.name == "e2" {
+            add(node.volts / re2);
+        }
+        for (line, q) in desc.transistors.iter().zip(s.transistors()) {
+            if line.collector == node.name {
+                add(q.i_c);
+            }
+            if line.base == node.name {
+                add(q.i_b);
+            }
+            if line.emitter == node.name {
+                add(-(q.i_c + q.i_b));
+            }
+        }
+        if sum.abs() > 1e-12 + 1e-9 * big {
+            return Err(format!(
+                "KCL at {}: {sum:e} (largest branch {big:e})",
+                node.name
+            ));
+        }
+    }
+    let delivered = p.i_in_a * s.v_in_v + p.v_out_v * s.i_out_a + p.supply_v * s.supply_current_a;
+    let mut dissipated = 0.0;
+    let mut scale = p.i_in_a * s.v_in_v.abs() + (p.v_out_v * s.i_out_a).abs();
+    scale += (p.supply_v * s.supply_current_a).abs();
+    for q in s.transistors() {
+        dissipated += q.power_w;
+        scale += (q.v_ce * q.i_c).abs() + (q.v_be * q.i_b).abs();
+    }
+    for (name, r) in [("e1", re1), ("e2", re2)] {
+        if let Some(v) = s.node(name) {
+            dissipated += v * v / r;
+            scale += v * v / r;
+        }
+    }
+    let _ = volts;
+    if (delivered - dissipated).abs() > 1e-9 * scale {
+        return Err(format!(
+            "power: delivered {delivered:e}, dissipated {dissipated:e}"
+        ));
+    }
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+    #[test]
+    fn isothermal_solves_converge_and_balance(c in cases()) {
+        let (r, p, re1, re2) = run(&c, false);
+        let s = r.map_err(|e| TestCaseError::fail(e.to_string()))?;
+        check(&c, &s, &p, re1, re2).map_err(TestCaseError::fail)?;
+    }
+
+    #[test]
+    fn self_heated_solves_converge_and_balance(c in cases()) {
+        let (r, p, re1, re2) = run(&c, true);
+        match r {
+            Ok(s) => check(&c, &s, &p, re1, re2).map_err(TestCaseError::fail)?,
+            Err(SolveFailure::ThermalRunaway { .. }) => {}
+            Err(e) => return Err(TestCaseError::fail(e.to_string())),
+        }
+    }
+}
