@@ -40,6 +40,80 @@ pub enum Command {
     /// Check requirement files.
     #[command(subcommand)]
     Spec(SpecCommand),
+    /// Output current against output voltage for several input currents, and the error
+    /// against the input current, of one named design.
+    #[command(
+        after_help = "Sweeps V_out from 0 V to the supply at I_in min, max and geometric steps between, \
+at 25 °C (and the ambient extremes with --extremes), nominal devices.\n\nExample:\n  \
+mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --svg tail.svg"
+    )]
+    Curves {
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        #[command(flatten)]
+        design: DesignOpts,
+        /// Also sweep at the requirement's ambient extremes.
+        #[arg(long)]
+        extremes: bool,
+        /// Solve with self-heating (junction temperatures from dissipation).
+        #[arg(long)]
+        self_heating: bool,
+        #[command(flatten)]
+        format: FormatArg,
+        /// Also draw the curves as an SVG file.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+    },
+    /// Export one named design for a circuit simulator.
+    #[command(
+        after_help = "Writes a SPICE subcircuit with Gummel-Poon .model cards, the requirement and the \
+catalog's provenance as comments, and a test bench sweeping V_out.\n\nExample:\n  \
+mirrorpick export --spice requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology wilson --out tail.cir"
+    )]
+    Export {
+        /// Write a SPICE netlist (the only export format so far).
+        #[arg(long, required = true)]
+        spice: bool,
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        #[command(flatten)]
+        design: DesignOpts,
+        /// Write to FILE (atomically) instead of standard output.
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+}
+
+/// One named design.
+#[derive(Debug, Args)]
+pub struct DesignOpts {
+    /// Transistor class of the matched pair(s), as `catalog list` shows it.
+    #[arg(long, value_name = "CLASS")]
+    pub part: String,
+    /// simple, beta-helper, wilson, wilson4, cascode or widlar.
+    #[arg(long, value_name = "T")]
+    pub topology: String,
+    /// Single-device class for helper transistors (default: the cheapest single).
+    #[arg(long, value_name = "CLASS")]
+    pub helper: Option<String>,
+    /// Emitter resistor, RE1 = RE2 (RE2 for widlar), like `100` or `4k7`; none when absent.
+    #[arg(long, value_name = "R")]
+    pub re: Option<String>,
+    /// Resistor class (tolerance, TCR); the cheapest when absent.
+    #[arg(long, value_name = "CLASS")]
+    pub resistor: Option<String>,
+}
+
+impl From<DesignOpts> for mirrorpick::app::DesignArgs {
+    fn from(d: DesignOpts) -> Self {
+        mirrorpick::app::DesignArgs {
+            part: d.part,
+            topology: d.topology,
+            helper: d.helper,
+            re: d.re,
+            resistor: d.resistor,
+        }
+    }
 }
 
 #[derive(Debug, Subcommand)]
@@ -119,6 +193,31 @@ impl Cli {
             },
             Command::Catalog(CatalogCommand::Lint { file }) => AppCommand::CatalogLint { file },
             Command::Spec(SpecCommand::Lint { file }) => AppCommand::SpecLint { file },
+            Command::Curves {
+                requirement,
+                design,
+                extremes,
+                self_heating,
+                format,
+                svg,
+            } => AppCommand::Curves {
+                requirement,
+                design: design.into(),
+                extremes,
+                self_heating,
+                format: format.format.into(),
+                svg,
+            },
+            Command::Export {
+                spice: _,
+                requirement,
+                design,
+                out,
+            } => AppCommand::ExportSpice {
+                requirement,
+                design: design.into(),
+                out,
+            },
         };
         Config {
             catalog: self

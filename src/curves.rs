@@ -3,10 +3,15 @@
 //! error against the programming current at the ends of the output window.
 //!
 //! Owns the grids (which currents, voltages and temperatures are swept) and the finished
-//! data. It does not solve circuits itself: the caller hands in a point solver, so the
-//! same sweep serves any design the circuit layer can solve. A point that does not
-//! converge is kept as a gap (`None`), never as a guessed number.
+//! data. The sweep itself takes any point solver ([`sweep`]); [`for_design`] runs it on
+//! a design through the circuit layer, nominal devices. A point that does not converge
+//! is kept as a gap (`None`), never as a guessed number.
 
+use serde::Serialize;
+
+use crate::circuit::{
+    balance_voltage, Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions,
+};
 use crate::model::{Range, Requirement};
 
 /// 25 °C in kelvin, the reference ambient of the curves.
@@ -34,7 +39,7 @@ impl Default for CurveOptions {
 }
 
 /// I_out against V_out at one programming current and ambient.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OutputCurve {
     pub i_in_a: f64,
     pub t_amb_k: f64,
@@ -44,7 +49,7 @@ pub struct OutputCurve {
 }
 
 /// Error `I_out / (n I_in) - 1` against I_in at one output voltage and ambient.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ErrorCurve {
     pub v_out_v: f64,
     pub t_amb_k: f64,
@@ -53,12 +58,13 @@ pub struct ErrorCurve {
 }
 
 /// Everything the curve plots and tables show, with the requirement's windows.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CurveSet {
     /// The intended ratio n.
     pub ratio: f64,
     pub supply_v: f64,
     /// The requirement's output voltage window (compliance range).
+    #[serde(serialize_with = "range_as_map")]
     pub v_out_window_v: Range,
     /// The requirement's accuracy (largest allowed |error|).
     pub accuracy: f64,
@@ -68,6 +74,14 @@ pub struct CurveSet {
     pub balance_voltage_v: Option<f64>,
     /// Points the solver could not converge on (gaps in the curves).
     pub failed_points: usize,
+}
+
+fn range_as_map<S: serde::Serializer>(r: &Range, s: S) -> Result<S::Ok, S::Error> {
+    use serde::ser::SerializeStruct;
+    let mut m = s.serialize_struct("Range", 2)?;
+    m.serialize_field("min", &r.min)?;
+    m.serialize_field("max", &r.max)?;
+    m.end()
 }
 
 impl OutputCurve {
@@ -195,6 +209,36 @@ where
     }
 }
 
+/// Sweeps the curves of `design` against `req` with nominal (matched) devices, with or
+/// without self-heating. The balance voltage is the solver's, at I_in max and 25 °C.
+/// Fails only when the design cannot be compiled (for example a missing helper class).
+pub fn for_design(
+    design: &Design,
+    req: &Requirement,
+    opts: &CurveOptions,
+    solve_opts: &SolveOptions,
+) -> Result<CurveSet, SolveFailure> {
+    let mm = Mismatch::default();
+    let net = Netlist::compile(design, &mm)?;
+    let point = |i_in_a, v_out_v, t_amb_k| OperatingPoint {
+        i_in_a,
+        v_out_v,
+        supply_v: req.supply_v,
+        t_amb_k,
+    };
+    let balance = balance_voltage(
+        design,
+        &point(req.input_current_a.max, 0.0, ROOM_K),
+        &mm,
+        solve_opts,
+    );
+    Ok(sweep(req, opts, balance, |i, v, t| {
+        net.solve(&point(i, v, t), solve_opts)
+            .ok()
+            .map(|s| s.i_out_a)
+    }))
+}
+
 /// Voltages where a curve's error changes sign, interpolated linearly between the two
 /// grid points around each crossing.
 pub fn zero_crossings(curve: &OutputCurve, ratio: f64) -> Vec<f64> {
@@ -259,7 +303,7 @@ mod tests {
         // A toy device: saturates below 0.2 V (no solution there), then rises with
         // slope 1/(50 V), crossing zero error at 2 V.
         let set = sweep(&req, &opts, Some(2.0), |i, v, _t| {
-            (v >= 0.2).then(|| i * (0.96 + 0.02 * v))
+            (v >= 0.2).then_some(i * (0.96 + 0.02 * v))
         });
         assert_eq!(set.output.len(), 3 * 3, "three currents at three ambients");
         assert_eq!(set.error.len(), 3 * 2);

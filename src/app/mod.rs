@@ -6,8 +6,12 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod outputs;
+
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
+
+pub use outputs::DesignArgs;
 
 use crate::input::{self, InputError};
 use crate::model::{Catalog, Polarity, Requirement};
@@ -39,6 +43,21 @@ pub enum Command {
     },
     SpecLint {
         file: PathBuf,
+    },
+    /// Curve family of one design; a plot when `svg` is given.
+    Curves {
+        requirement: PathBuf,
+        design: DesignArgs,
+        extremes: bool,
+        self_heating: bool,
+        format: Format,
+        svg: Option<PathBuf>,
+    },
+    /// One design as a SPICE deck, on stdout or into `out`.
+    ExportSpice {
+        requirement: PathBuf,
+        design: DesignArgs,
+        out: Option<PathBuf>,
     },
 }
 
@@ -82,6 +101,15 @@ pub enum AppError {
     },
     #[error("cannot write the output: {0}")]
     Output(#[from] io::Error),
+    /// A command-line value that does not fit (unknown topology, wrong polarity, ...).
+    #[error("{0}")]
+    Usage(String),
+    #[error(transparent)]
+    File(#[from] crate::atomic_file::OutputError),
+    #[error(transparent)]
+    Solve(#[from] crate::circuit::SolveFailure),
+    #[error(transparent)]
+    Plot(#[from] crate::report::plot::PlotError),
 }
 
 impl AppError {
@@ -156,6 +184,31 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
             let req = load_requirement(file, &catalog)?;
             writeln!(out, "{}: ok; {}", file.display(), requirement_summary(&req))?;
         }
+        Command::Curves {
+            requirement,
+            design,
+            extremes,
+            self_heating,
+            format,
+            svg,
+        } => {
+            return outputs::run_curves(
+                &cfg.catalog,
+                requirement,
+                design,
+                *extremes,
+                *self_heating,
+                *format,
+                svg,
+                cfg.style,
+                out,
+            )
+        }
+        Command::ExportSpice {
+            requirement,
+            design,
+            out: path,
+        } => return outputs::run_export_spice(&cfg.catalog, requirement, design, path, out),
     }
     Ok(Outcome::Success)
 }

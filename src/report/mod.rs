@@ -10,6 +10,7 @@
 
 pub mod catalog;
 pub mod csv;
+pub mod curves;
 pub mod eng;
 pub mod html;
 pub mod markdown;

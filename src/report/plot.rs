@@ -177,12 +177,27 @@ pub fn output_curves_svg(set: &CurveSet) -> Result<String, PlotError> {
             let mut first = true;
             for run in runs(&c.v_out_v, &ys, 0.0, i_top * scale) {
                 let s = chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
-                if first {
-                    s.label(curve_label(c.i_in_a, c.t_amb_k, several))
+                // One legend entry per current (the 25 °C curve); the extremes are the
+                // thin lines of the same colour, said once below.
+                let room = (c.t_amb_k - crate::curves::ROOM_K).abs() < 1e-9;
+                if first && (room || !several) {
+                    s.label(curve_label(c.i_in_a, c.t_amb_k, false))
                         .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], style));
                     first = false;
                 }
             }
+        }
+        if several {
+            let (lo, hi) = (temps[0], temps[temps.len() - 1]);
+            chart
+                .draw_series(std::iter::empty::<PathElement<(f64, f64)>>())
+                .map_err(&e)?
+                .label(format!(
+                    "thick: 25 °C; thin: {} and {}",
+                    celsius(lo, Charset::Unicode),
+                    celsius(hi, Charset::Unicode)
+                ))
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK));
         }
         chart
             .configure_series_labels()
@@ -194,7 +209,21 @@ pub fn output_curves_svg(set: &CurveSet) -> Result<String, PlotError> {
             .map_err(&e)?;
 
         // Bottom: error against V_out, the accuracy band and the balance voltage.
-        let lim = (set.accuracy * 3.0).max(0.005);
+        // Wide enough for every error inside the output window, at least 2.5 times the
+        // accuracy band, at most +-100 % (saturation near 0 V would flatten the rest).
+        let in_window = set
+            .output
+            .iter()
+            .flat_map(|c| {
+                c.v_out_v
+                    .iter()
+                    .zip(c.errors(set.ratio))
+                    .filter(|(v, _)| **v >= w.min && **v <= w.max)
+                    .filter_map(|(_, e)| e.map(f64::abs))
+                    .collect::<Vec<_>>()
+            })
+            .fold(0.0, f64::max);
+        let lim = (in_window * 1.15).max(set.accuracy * 2.5).clamp(0.005, 1.0);
         let mut chart = ChartBuilder::on(&bottom)
             .caption("Error against output voltage", (FONT, 18))
             .margin(12)
@@ -471,7 +500,7 @@ mod tests {
             ambient_extremes: true,
         };
         sweep(&req, &opts, Some(2.0), |i, v, t| {
-            (v >= 0.2).then(|| i * (0.96 + 0.02 * v) * (1.0 + (t - 298.15) * 1e-4))
+            (v >= 0.2).then_some(i * (0.96 + 0.02 * v) * (1.0 + (t - 298.15) * 1e-4))
         })
     }
 
@@ -482,10 +511,11 @@ mod tests {
         assert!(svg.starts_with("<svg"), "{}", &svg[..80]);
         assert!(svg.contains("V_out from the mirror rail (V)"));
         assert!(svg.contains("I_out (mA)"));
-        assert!(
-            svg.contains("I_in 100 µA, -40 °C"),
-            "legend names each curve"
-        );
+        for i in ["I_in 100 µA", "I_in 316 µA", "I_in 1.00 mA"] {
+            let line = format!("\n{i}\n");
+            assert!(svg.contains(&line), "legend names each current: {i}");
+        }
+        assert!(svg.contains("thick: 25 °C; thin: -40 °C and 85 °C"));
         assert!(svg.contains("balance voltage 2.00 V"));
         assert!(svg.contains("accuracy ±1.00 %"));
         assert!(svg.contains("required V_out window"));

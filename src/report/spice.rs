@@ -51,6 +51,17 @@ fn num(x: f64) -> String {
     format!("{x:e}")
 }
 
+/// A bench value: six significant digits are plenty and read better than binary noise.
+fn bench(x: f64) -> String {
+    let short: f64 = format!("{x:.5e}").parse().unwrap_or(x);
+    num(short)
+}
+
+/// Parts per million per kelvin, for comments.
+fn ppm(tcr_per_k: f64) -> String {
+    format!("{}", (tcr_per_k * 1e6 * 1e3).round() / 1e3)
+}
+
 /// User text on a comment line: ASCII only, no line breaks.
 fn comment_text(s: &str) -> String {
     s.chars()
@@ -197,7 +208,7 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
                 r.id,
                 r.series.as_str(),
                 percent(r.tolerance),
-                r.tcr_per_k * 1e6,
+                ppm(r.tcr_per_k),
                 r.summary
             ),
         );
@@ -245,7 +256,7 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         if ohm > 0.0 {
             let tcr = design
                 .resistor
-                .map(|r| format!(", TCR {} ppm/K", r.tcr_per_k * 1e6))
+                .map(|r| format!(", TCR {} ppm/K", ppm(r.tcr_per_k)))
                 .unwrap_or_default();
             let _ = writeln!(
                 o,
@@ -282,9 +293,9 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
     match design.pair.polarity {
         Polarity::Npn => {
             o.push_str("* Sink: mirror rail at ground, opposite rail at +V_S.\n");
-            let _ = writeln!(o, "VS vs 0 DC {}", num(vs));
-            let _ = writeln!(o, "IIN vs in DC {}", num(i_min));
-            let _ = writeln!(o, "VOUT out 0 DC {}", num(req.output_voltage_v.max));
+            let _ = writeln!(o, "VS vs 0 DC {}", bench(vs));
+            let _ = writeln!(o, "IIN vs in DC {}", bench(i_min));
+            let _ = writeln!(o, "VOUT out 0 DC {}", bench(req.output_voltage_v.max));
             let _ = writeln!(o, "X1 in out 0 vs {subckt}");
         }
         Polarity::Pnp => {
@@ -292,9 +303,9 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
             o.push_str(
                 "* current is drawn out of 'in' and V_out is measured down from the rail.\n",
             );
-            let _ = writeln!(o, "VS rail 0 DC {}", num(vs));
-            let _ = writeln!(o, "IIN in 0 DC {}", num(i_min));
-            let _ = writeln!(o, "VOUT rail out DC {}", num(req.output_voltage_v.max));
+            let _ = writeln!(o, "VS rail 0 DC {}", bench(vs));
+            let _ = writeln!(o, "IIN in 0 DC {}", bench(i_min));
+            let _ = writeln!(o, "VOUT rail out DC {}", bench(req.output_voltage_v.max));
             let _ = writeln!(o, "X1 in out rail 0 {subckt}");
         }
     }
@@ -303,14 +314,14 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         let _ = writeln!(
             o,
             ".dc VOUT 0 {} {} IIN {} {} {}",
-            num(vs),
-            num(step),
-            num(i_min),
-            num(i_max),
-            num(i_max - i_min)
+            bench(vs),
+            bench(step),
+            bench(i_min),
+            bench(i_max),
+            bench(i_max - i_min)
         );
     } else {
-        let _ = writeln!(o, ".dc VOUT 0 {} {}", num(vs), num(step));
+        let _ = writeln!(o, ".dc VOUT 0 {} {}", bench(vs), bench(step));
     }
     let _ = writeln!(
         o,
