@@ -7,6 +7,7 @@
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
 pub mod outputs;
+pub mod solve;
 
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};

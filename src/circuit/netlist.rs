@@ -322,38 +322,69 @@ impl Netlist {
                 Branch::BaseCurrents => op.i_in_a * (1.0 + ratio) / self.beta_nom,
             };
         }
-        for k in 0..self.n_res {
-            let r = &self.res[k];
-            let i_e: f64 = (0..self.n_tr)
-                .filter(|&i| self.tr[i].e == r.slot)
-                .map(|i| cur[i])
-                .sum();
-            v[r.slot] = i_e * sys.res_ohm[k];
-            known[r.slot] = true;
+        // The transistor whose collector takes the input current carries it less the base
+        // currents drawn from the input node.
+        let drawn: f64 = (0..self.n_tr)
+            .filter(|&i| self.tr[i].b == self.in_slot)
+            .map(|i| cur[i] / self.beta_nom)
+            .sum();
+        for i in 0..self.n_tr {
+            if self.tr[i].c == self.in_slot && self.tr[i].branch == Branch::Input {
+                cur[i] = (op.i_in_a - drawn).max(0.5 * op.i_in_a);
+            }
         }
-        let vbe = |i: usize| -> f64 {
+        let mut vbe_at = [0.0; MAX_TRANSISTORS];
+        for i in 0..self.n_tr {
             let d: &BjtAtT = &sys.at[i];
-            d.vbe_for_current(cur[i])
-        };
-        for _ in 0..MAX_TRANSISTORS {
+            vbe_at[i] = d.vbe_for_current(cur[i]);
+        }
+        // Two passes: the second puts each junction at the V_BE that gives its current with
+        // the Early factor of the first pass's V_CE, which saves a Newton iteration.
+        for pass in 0..2 {
+            if pass == 1 {
+                if !sys.at[..self.n_tr].iter().any(|d| d.has_early_effect()) {
+                    break;
+                }
+                for i in 0..self.n_tr {
+                    let t = &self.tr[i];
+                    let v_ce = (v[t.c] - v[t.e]).max(0.0);
+                    vbe_at[i] = sys.at[i].vbe_for_current_at(cur[i], v_ce);
+                }
+                known = [false; MAX_DIM + 3];
+                known[R_SLOT] = true;
+                known[S_SLOT] = true;
+                known[OUT_SLOT] = true;
+            }
+            for k in 0..self.n_res {
+                let r = &self.res[k];
+                let i_e: f64 = (0..self.n_tr)
+                    .filter(|&i| self.tr[i].e == r.slot)
+                    .map(|i| cur[i] * (1.0 + 1.0 / self.beta_nom))
+                    .sum();
+                v[r.slot] = i_e * sys.res_ohm[k];
+                known[r.slot] = true;
+            }
+            for _ in 0..MAX_TRANSISTORS {
+                for i in 0..self.n_tr {
+                    let t = &self.tr[i];
+                    if known[t.e] && !known[t.b] {
+                        v[t.b] = v[t.e] + vbe_at[i];
+                        known[t.b] = true;
+                    } else if known[t.b] && !known[t.e] {
+                        v[t.e] = v[t.b] - vbe_at[i];
+                        known[t.e] = true;
+                    }
+                }
+            }
             for i in 0..self.n_tr {
                 let t = &self.tr[i];
-                if known[t.e] && !known[t.b] {
-                    v[t.b] = v[t.e] + vbe(i);
-                    known[t.b] = true;
-                } else if known[t.b] && !known[t.e] {
-                    v[t.e] = v[t.b] - vbe(i);
-                    known[t.e] = true;
+                if !known[t.c] {
+                    v[t.c] = v[t.b];
+                    known[t.c] = true;
                 }
             }
         }
-        for i in 0..self.n_tr {
-            let t = &self.tr[i];
-            if !known[t.c] {
-                v[t.c] = v[t.b];
-                known[t.c] = true;
-            }
-        }
+        let vbe = |i: usize| vbe_at[i];
         // Below compliance a fixed collector pins its base: no junction may start forward
         // biased beyond the V_BE of its nominal current (e^(V/V_T) would overflow).
         let free = |slot: usize| slot >= 3;
@@ -361,7 +392,8 @@ impl Netlist {
             let mut changed = false;
             for i in 0..self.n_tr {
                 let t = &self.tr[i];
-                let lim = vbe(i).max(0.0) + 1e-9;
+                // A few V_T of slack: small differences between devices are Newton's job.
+                let lim = vbe(i).max(0.0) + 4.0 * sys.at[i].vt;
                 if v[t.b] - v[t.c] > lim {
                     if free(t.b) {
                         v[t.b] = v[t.c] + lim;
@@ -386,6 +418,11 @@ impl Netlist {
         let mut x = [0.0; MAX_DIM];
         x[..self.n_nodes].copy_from_slice(&v[3..3 + self.n_nodes]);
         x
+    }
+
+    #[cfg(test)]
+    pub(super) fn start_point_for_tests(&self, sys: &CircuitSystem) -> Vector {
+        self.start_point(sys)
     }
 
     /// Solves at one operating point.

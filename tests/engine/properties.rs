@@ -78,13 +78,6 @@ fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoi
 /// and the power balance of Tellegen's theorem.
 fn check(c: &Case, s: &Solution, p: &OperatingPoint, re1: f64, re2: f64) -> Result<(), String> {
     let desc = c.topology.desc();
-    let volts = |name: &str| -> f64 {
-        match name {
-            "R" => 0.0,
-            "e1" | "e2" => s.node(name).unwrap_or(0.0),
-            _ => s.node(name).expect("node reported"),
-        }
-    };
     for node in s.nodes() {
         if node.name == "out" || node.name == "S" {
             continue;
@@ -136,7 +129,6 @@ fn check(c: &Case, s: &Solution, p: &OperatingPoint, re1: f64, re2: f64) -> Resu
             scale += v * v / r;
         }
     }
-    let _ = volts;
     if (delivered - dissipated).abs() > 1e-9 * scale {
         return Err(format!(
             "power: delivered {delivered:e}, dissipated {dissipated:e}"
@@ -162,6 +154,40 @@ proptest! {
             Ok(s) => check(&c, &s, &p, re1, re2).map_err(TestCaseError::fail)?,
             Err(SolveFailure::ThermalRunaway { .. }) => {}
             Err(e) => return Err(TestCaseError::fail(e.to_string())),
+        }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 64, ..ProptestConfig::default() })]
+
+    /// MODEL.md conventions: a PNP design is the NPN design mirrored, so with equal
+    /// parameters every reported magnitude agrees to 1e-9 relative.
+    #[test]
+    fn pnp_equals_mirrored_npn(c in cases(), heat in any::<bool>()) {
+        let params = BjtParams::new(c.is, c.bf, Some(c.vaf));
+        let npn_cls = class("n", Polarity::Npn, 5, params.clone());
+        let pnp_cls = class("p", Polarity::Pnp, 5, params);
+        let (re1, re2) = if c.topology == Topology::Widlar { (0.0, c.re.max(1.0)) } else { (c.re, c.re) };
+        let p = OperatingPoint {
+            i_in_a: c.i_in,
+            v_out_v: c.v_out,
+            supply_v: c.v_out + 1.0,
+            t_amb_k: c.t_c + 273.15,
+        };
+        let opts = if heat { heated() } else { iso() };
+        let a = solve_point(&design(c.topology, &npn_cls, re1, re2), &p, &nominal(), &opts);
+        let b = solve_point(&design(c.topology, &pnp_cls, re1, re2), &p, &nominal(), &opts);
+        match (a, b) {
+            (Ok(a), Ok(b)) => {
+                prop_assert!((b.i_out_a / a.i_out_a - 1.0).abs() <= 1e-9);
+                for (x, y) in a.transistors().iter().zip(b.transistors()) {
+                    prop_assert!((x.v_be - y.v_be).abs() <= 1e-9 * x.v_be.abs().max(1e-3));
+                    prop_assert!((x.t_junction_k - y.t_junction_k).abs() <= 1e-9 * x.t_junction_k);
+                }
+            }
+            (Err(SolveFailure::ThermalRunaway { .. }), Err(SolveFailure::ThermalRunaway { .. })) => {}
+            (a, b) => prop_assert!(false, "NPN {a:?} vs PNP {b:?}"),
         }
     }
 }

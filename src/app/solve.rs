@@ -1,0 +1,465 @@
+//! The `solve` command: one design at one operating point, fully reported.
+//!
+//! Owns: resolving part ids against the catalog, checking the operating point, running the
+//! solver and the solved figures, the JSON wire type (`SolveReport`) and its table printer.
+//! Must not: parse command lines or files, or decide exit codes (see
+//! `SolveCommandError::is_input_error`).
+//!
+//! JSON wire format (SI units, temperatures in °C): `i_in`, `i_out`, `error`
+//! (`I_out/(n I_in) - 1`, n = RE1/RE2 on degenerated designs, the first-order Widlar ratio
+//! for widlar, else 1), `r_out` (ohm; null when infinite, i.e. no Early effect), `v_in`,
+//! `balance_voltage` (V, null when the error does not cross zero between V(in) and the
+//! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `name`,
+//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`) and `iterations`.
+
+use std::collections::BTreeMap;
+use std::io;
+
+use comfy_table::{presets::UTF8_FULL, ContentArrangement, Table};
+use serde::Serialize;
+
+use crate::circuit::{
+    balance_voltage, Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions,
+};
+use crate::model::{Catalog, Role, Topology, ZERO_CELSIUS_K};
+
+/// Everything the command needs, resolved to SI numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolveArgs {
+    pub topology: Topology,
+    pub part: String,
+    /// A single-device class for helper transistors; default: the catalog's cheapest
+    /// single of the part's polarity (used only when the part has no spare device).
+    pub helper: Option<String>,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+    pub i_in_a: f64,
+    pub v_out_v: f64,
+    /// Defaults to `v_out_v`.
+    pub supply_v: Option<f64>,
+    pub ambient_k: f64,
+    pub self_heating: bool,
+    /// V_BE offset of Q2 against Q1, volts.
+    pub dvbe_v: f64,
+    /// Relative beta deviation of Q2 against Q1.
+    pub dbeta: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SolveCommandError {
+    #[error("unknown transistor class `{id}`{}", did_you_mean(.suggestions))]
+    UnknownPart {
+        id: String,
+        suggestions: Vec<String>,
+    },
+    #[error("unknown helper class `{id}`{}", did_you_mean(.suggestions))]
+    UnknownHelper {
+        id: String,
+        suggestions: Vec<String>,
+    },
+    #[error("helper class `{helper}` is {helper_polarity} but `{part}` is {part_polarity}; use a helper of the same polarity")]
+    HelperPolarity {
+        helper: String,
+        helper_polarity: &'static str,
+        part: String,
+        part_polarity: &'static str,
+    },
+    #[error("{what} is {value}, expected {expected}")]
+    BadValue {
+        what: &'static str,
+        value: f64,
+        expected: &'static str,
+    },
+    /// The design needs a helper and the catalog has no single of that polarity.
+    #[error("{0}")]
+    NoHelper(SolveFailure),
+    /// The engine ran but could not give a trusted answer (no convergence, thermal runaway).
+    #[error("{0}")]
+    Failed(SolveFailure),
+}
+
+impl SolveCommandError {
+    /// Bad or impossible input (exit 2) as opposed to a failed solve (exit 1).
+    pub fn is_input_error(&self) -> bool {
+        !matches!(self, SolveCommandError::Failed(_))
+    }
+}
+
+fn did_you_mean(s: &[String]) -> String {
+    match s {
+        [] => String::new(),
+        [one] => format!("; did you mean `{one}`?"),
+        many => format!(
+            "; did you mean one of {}?",
+            many.iter()
+                .map(|m| format!("`{m}`"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+    }
+}
+
+/// Ids within edit distance 3 (or sharing a prefix), closest first, at most three.
+fn suggestions(catalog: &Catalog, id: &str) -> Vec<String> {
+    let mut scored: Vec<(usize, &str)> = catalog
+        .transistors
+        .iter()
+        .map(|t| (edit_distance(&t.id, id), t.id.as_str()))
+        .filter(|(d, t)| *d <= 3 || t.starts_with(id) || id.starts_with(t))
+        .collect();
+    scored.sort();
+    scored
+        .into_iter()
+        .take(3)
+        .map(|(_, t)| t.to_string())
+        .collect()
+}
+
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, cb) in b.iter().enumerate() {
+            cur[j + 1] = (prev[j] + usize::from(ca != *cb))
+                .min(prev[j + 1] + 1)
+                .min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// One transistor in the report.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TransistorReport {
+    pub name: String,
+    /// `pair1-ref`, `pair1-mirror`, `pair2-ref`, `pair2-mirror` or `helper`.
+    pub role: String,
+    pub v_be: f64,
+    pub v_ce: f64,
+    pub i_c: f64,
+    pub i_b: f64,
+    pub t_junction_c: f64,
+    pub region: String,
+}
+
+/// The `solve` command's finished result (the JSON wire type).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SolveReport {
+    pub i_in: f64,
+    pub i_out: f64,
+    pub error: f64,
+    pub r_out: Option<f64>,
+    pub v_in: f64,
+    pub balance_voltage: Option<f64>,
+    pub nodes: BTreeMap<String, f64>,
+    pub transistors: Vec<TransistorReport>,
+    pub iterations: u32,
+}
+
+fn role_name(role: Role) -> String {
+    match role {
+        Role::Matched { pair, member } => format!(
+            "pair{}-{}",
+            pair + 1,
+            if member == 0 { "ref" } else { "mirror" }
+        ),
+        Role::Helper => "helper".to_string(),
+    }
+}
+
+fn check(
+    what: &'static str,
+    value: f64,
+    ok: bool,
+    expected: &'static str,
+) -> Result<(), SolveCommandError> {
+    if ok && value.is_finite() {
+        Ok(())
+    } else {
+        Err(SolveCommandError::BadValue {
+            what,
+            value,
+            expected,
+        })
+    }
+}
+
+/// Runs the `solve` command.
+pub fn solve_command(
+    catalog: &Catalog,
+    args: &SolveArgs,
+) -> Result<SolveReport, SolveCommandError> {
+    let pair = catalog
+        .transistor(&args.part)
+        .ok_or_else(|| SolveCommandError::UnknownPart {
+            id: args.part.clone(),
+            suggestions: suggestions(catalog, &args.part),
+        })?;
+    let helper = match &args.helper {
+        Some(id) => {
+            let h = catalog
+                .transistor(id)
+                .ok_or_else(|| SolveCommandError::UnknownHelper {
+                    id: id.clone(),
+                    suggestions: suggestions(catalog, id),
+                })?;
+            if h.polarity != pair.polarity {
+                return Err(SolveCommandError::HelperPolarity {
+                    helper: h.id.clone(),
+                    helper_polarity: h.polarity.as_str(),
+                    part: pair.id.clone(),
+                    part_polarity: pair.polarity.as_str(),
+                });
+            }
+            Some(h)
+        }
+        None => catalog.cheapest_single(pair.polarity),
+    };
+    let supply = args.supply_v.unwrap_or(args.v_out_v);
+    check(
+        "the input current",
+        args.i_in_a,
+        args.i_in_a > 0.0,
+        "a current above 0 A",
+    )?;
+    check(
+        "the output voltage",
+        args.v_out_v,
+        args.v_out_v >= 0.0,
+        "a voltage >= 0 V from the mirror rail",
+    )?;
+    check(
+        "the supply",
+        supply,
+        supply >= args.v_out_v,
+        "a supply at or above the output voltage",
+    )?;
+    check(
+        "the ambient temperature",
+        args.ambient_k,
+        args.ambient_k > 0.0,
+        "a temperature above absolute zero",
+    )?;
+    check(
+        "RE1",
+        args.re1_ohm,
+        args.re1_ohm >= 0.0,
+        "a resistance >= 0 ohm",
+    )?;
+    check(
+        "RE2",
+        args.re2_ohm,
+        args.re2_ohm >= 0.0,
+        "a resistance >= 0 ohm",
+    )?;
+    if !args.topology.desc().has_re1 {
+        check(
+            "RE1",
+            args.re1_ohm,
+            args.re1_ohm == 0.0,
+            "no RE1 (this topology has RE2 only)",
+        )?;
+    }
+    check(
+        "the V_BE offset",
+        args.dvbe_v,
+        args.dvbe_v.abs() < 0.1,
+        "an offset within +-100 mV",
+    )?;
+    check(
+        "the beta deviation",
+        args.dbeta,
+        args.dbeta > -1.0,
+        "a relative deviation above -1",
+    )?;
+
+    let design = Design {
+        topology: args.topology,
+        pair,
+        helper,
+        re1_ohm: args.re1_ohm,
+        re2_ohm: args.re2_ohm,
+        re_tcr_per_k: 0.0,
+    };
+    let mm = Mismatch {
+        dvbe_v: [args.dvbe_v, 0.0],
+        dbeta: [args.dbeta, 0.0],
+        ..Mismatch::default()
+    };
+    let op = OperatingPoint {
+        i_in_a: args.i_in_a,
+        v_out_v: args.v_out_v,
+        supply_v: supply,
+        t_amb_k: args.ambient_k,
+    };
+    let opts = SolveOptions {
+        self_heating: args.self_heating,
+    };
+    let fail = |f: SolveFailure| match f {
+        SolveFailure::HelperMissing { .. } | SolveFailure::Invalid { .. } => {
+            SolveCommandError::NoHelper(f)
+        }
+        other => SolveCommandError::Failed(other),
+    };
+    let net = Netlist::compile(&design, &mm).map_err(fail)?;
+    let sol = net.solve(&op, &opts).map_err(fail)?;
+    let r_out = net.output_resistance(&op, &opts).map_err(fail)?;
+    let n = design.intended_ratio(op.i_in_a);
+    let mut nodes: BTreeMap<String, f64> = sol
+        .nodes()
+        .iter()
+        .map(|nv| (nv.name.to_string(), nv.volts))
+        .collect();
+    nodes.insert("R".to_string(), 0.0);
+    Ok(SolveReport {
+        i_in: op.i_in_a,
+        i_out: sol.i_out_a,
+        error: sol.error(n, op.i_in_a),
+        r_out: Some(r_out.abs()).filter(|r| r.is_finite()),
+        v_in: sol.v_in_v,
+        balance_voltage: balance_voltage(&design, &op, &mm, &opts),
+        nodes,
+        transistors: sol
+            .transistors()
+            .iter()
+            .map(|q| TransistorReport {
+                name: q.name.to_string(),
+                role: role_name(q.role),
+                v_be: q.v_be,
+                v_ce: q.v_ce,
+                i_c: q.i_c,
+                i_b: q.i_b,
+                t_junction_c: q.t_junction_k - ZERO_CELSIUS_K,
+                region: q.region.as_str().to_string(),
+            })
+            .collect(),
+        iterations: sol.iterations,
+    })
+}
+
+/// Engineering notation with an SI prefix: `eng(0.00102, "A")` = `1.02 mA`.
+fn eng(value: f64, unit: &str) -> String {
+    if !value.is_finite() {
+        return format!("{value} {unit}");
+    }
+    if value == 0.0 {
+        return format!("0 {unit}");
+    }
+    const PREFIXES: [(f64, &str); 9] = [
+        (1e9, "G"),
+        (1e6, "M"),
+        (1e3, "k"),
+        (1.0, ""),
+        (1e-3, "m"),
+        (1e-6, "µ"),
+        (1e-9, "n"),
+        (1e-12, "p"),
+        (1e-15, "f"),
+    ];
+    let a = value.abs();
+    let (scale, prefix) = PREFIXES
+        .iter()
+        .copied()
+        .find(|(s, _)| a >= *s * 0.9995)
+        .unwrap_or((1e-15, "f"));
+    let x = value / scale;
+    // Three significant figures.
+    let digits = if x.abs() >= 99.95 {
+        0
+    } else if x.abs() >= 9.995 {
+        1
+    } else {
+        2
+    };
+    format!("{x:.*} {prefix}{unit}", digits)
+}
+
+/// Writes the report as two tables: the figures, then one row per transistor.
+pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::Result<()> {
+    let mut figures = Table::new();
+    figures
+        .load_preset(UTF8_FULL)
+        .set_content_arrangement(ContentArrangement::Disabled)
+        .set_header(vec!["figure", "value"]);
+    figures.add_row(vec!["input current".to_string(), eng(report.i_in, "A")]);
+    figures.add_row(vec!["output current".to_string(), eng(report.i_out, "A")]);
+    figures.add_row(vec![
+        "error".to_string(),
+        format!("{:+.4} %", report.error * 100.0),
+    ]);
+    figures.add_row(vec![
+        "output resistance".to_string(),
+        report
+            .r_out
+            .map_or("infinite (no Early effect)".to_string(), |r| eng(r, "Ω")),
+    ]);
+    figures.add_row(vec!["input voltage".to_string(), eng(report.v_in, "V")]);
+    figures.add_row(vec![
+        "balance voltage".to_string(),
+        report
+            .balance_voltage
+            .map_or("none within V(in)..supply".to_string(), |v| eng(v, "V")),
+    ]);
+    for (name, v) in &report.nodes {
+        figures.add_row(vec![format!("V({name})"), eng(*v, "V")]);
+    }
+    figures.add_row(vec![
+        "Newton iterations".to_string(),
+        report.iterations.to_string(),
+    ]);
+    writeln!(out, "{figures}")?;
+    let mut devices = Table::new();
+    devices
+        .load_preset(UTF8_FULL)
+        .set_content_arrangement(ContentArrangement::Disabled)
+        .set_header(vec![
+            "transistor",
+            "role",
+            "V_BE",
+            "V_CE",
+            "I_C",
+            "I_B",
+            "T_j",
+            "region",
+        ]);
+    for q in &report.transistors {
+        devices.add_row(vec![
+            q.name.clone(),
+            q.role.clone(),
+            eng(q.v_be, "V"),
+            eng(q.v_ce, "V"),
+            eng(q.i_c, "A"),
+            eng(q.i_b, "A"),
+            format!("{:.2} °C", q.t_junction_c),
+            q.region.clone(),
+        ]);
+    }
+    writeln!(out, "{devices}")?;
+    writeln!(
+        out,
+        "Device values are typical of the class, not guaranteed; check ratings against the datasheet."
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn engineering_notation() {
+        assert_eq!(eng(0.00102, "A"), "1.02 mA");
+        assert_eq!(eng(4700.0, "Ω"), "4.70 kΩ");
+        assert_eq!(eng(-0.5, "V"), "-500 mV");
+        assert_eq!(eng(0.0, "V"), "0 V");
+        assert_eq!(eng(2.5e6, "Ω"), "2.50 MΩ");
+    }
+
+    #[test]
+    fn edit_distance_counts_edits() {
+        assert_eq!(edit_distance("npn-dual", "npn-duel"), 1);
+        assert_eq!(edit_distance("abc", "abc"), 0);
+        assert_eq!(edit_distance("", "ab"), 2);
+    }
+}
