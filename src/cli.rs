@@ -35,10 +35,16 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// List, show or check the catalog of part classes.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+    )]
     Catalog(CatalogCommand),
     /// Check requirement files.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick spec lint requirements-examples/ltp-tail-sink.yaml"
+    )]
     Spec(SpecCommand),
     /// Output current against output voltage for several input currents, and the error
     /// against the input current, of one named design.

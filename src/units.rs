@@ -272,8 +272,7 @@ fn parse_resistor_code(s: &str) -> Option<(f64, &str)> {
         if int_part.is_empty() { "0" } else { int_part },
         if frac_part.is_empty() { "0" } else { frac_part }
     );
-    let v: f64 = text.parse().ok()?;
-    Some((v * mult, &after[frac_len..]))
+    Some((scale(&text, exponent_of(mult)), &after[frac_len..]))
 }
 
 /// Read a unit suffix (after the number and optional spaces): prefix and unit.
@@ -300,9 +299,31 @@ fn parse_suffix(suffix: &str) -> Option<(f64, Dimension)> {
     None
 }
 
+/// The power of ten of a prefix multiplier (all of them are exact powers of ten).
+fn exponent_of(mult: f64) -> i32 {
+    mult.log10().round() as i32
+}
+
+/// `number_text * 10^exp10`, rounded once: the decimal is shifted in text and parsed, so
+/// `12 fA` is the double nearest 12e-15, as if the user had typed `12e-15`.
+fn scale(number_text: &str, exp10: i32) -> f64 {
+    let (mantissa, own_exp) = match number_text.find(['e', 'E']) {
+        Some(i) => (
+            &number_text[..i],
+            number_text[i + 1..].parse::<i32>().unwrap_or(0),
+        ),
+        None => (number_text, 0),
+    };
+    format!("{mantissa}e{}", own_exp.saturating_add(exp10))
+        .parse()
+        .unwrap_or(f64::NAN)
+}
+
 /// Parse `text` as a quantity of `dimension`, SI result. No plausibility check.
 pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
-    let t = text.trim();
+    // Text pasted from documents often carries U+2212 MINUS SIGN instead of `-`.
+    let normalised = text.trim().replace('\u{2212}', "-");
+    let t = normalised.as_str();
     let not_a = || QuantityError::NotAQuantity {
         text: text.to_string(),
         expected: dimension,
@@ -319,6 +340,7 @@ pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
         }
     }
     let (number, rest) = split_number(t).ok_or_else(not_a)?;
+    let number_text = &t[..t.len() - rest.len()];
     if !number.is_finite() {
         return Err(not_a());
     }
@@ -359,9 +381,9 @@ pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
                 number + ZERO_CELSIUS_K
             }
         }
-        Dimension::TempCoefficient => number * 1e-6,
-        Dimension::Fraction => number * 1e-2,
-        _ => number * mult,
+        Dimension::TempCoefficient => scale(number_text, -6),
+        Dimension::Fraction => scale(number_text, -2),
+        _ => scale(number_text, exponent_of(mult)),
     };
     Ok(si)
 }
@@ -424,6 +446,11 @@ fn range_hint(text: &str, value: f64, field: &Field) -> String {
     if field.dimension == Dimension::Fraction && split_number(t).is_some_and(|(_, r)| r.is_empty())
     {
         return "; a bare number is a fraction (0.01 = 1 %); write `%` for percent".to_string();
+    }
+    if field.dimension == Dimension::TempCoefficient
+        && split_number(t).is_some_and(|(_, r)| r.trim().is_empty())
+    {
+        return "; a bare number is per kelvin; write `ppm/K` for parts per million".to_string();
     }
     if field.dimension == Dimension::Temperature
         && split_number(t).is_some_and(|(_, r)| r.trim().is_empty())
@@ -552,6 +579,15 @@ mod tests {
             parse("1.5e-3 A", Dimension::Current).unwrap(),
             1.5e-3
         ));
+        // Prefixes shift the decimal point exactly: the same double as the literal.
+        assert_eq!(parse("12 fA", Dimension::Current).unwrap(), 12e-15);
+        assert_eq!(parse("4k7", Dimension::Resistance).unwrap(), 4.7e3);
+        assert_eq!(
+            parse("100 ppm/K", Dimension::TempCoefficient).unwrap(),
+            1e-4
+        );
+        assert_eq!(parse("0.1 %", Dimension::Fraction).unwrap(), 1e-3);
+        assert_eq!(parse("1.5e2 mV", Dimension::Voltage).unwrap(), 0.15);
     }
 
     #[test]
@@ -607,6 +643,10 @@ mod tests {
             300.15
         ));
         assert!(close(parse("25", Dimension::Temperature).unwrap(), 298.15));
+        assert!(close(
+            parse("\u{2212}40 °C", Dimension::Temperature).unwrap(),
+            233.15
+        ));
         assert!(close(parse("150", Dimension::Number).unwrap(), 150.0));
     }
 

@@ -84,7 +84,7 @@ mod formats {
         let cat = test_catalog();
         let r = input::load_requirement("valid.yaml", &read("requirement/valid.yaml"), Some(&cat))
             .unwrap();
-        assert_eq!(r.kind, MirrorKind::Source);
+        assert_eq!(r.kind, MirrorKind::Sink);
         assert_eq!(r.supply_v, 12.0);
         assert!((r.input_current_a.min - 10e-6).abs() < 1e-18);
         assert!((r.input_current_a.max - 1e-3).abs() < 1e-15);
@@ -158,6 +158,32 @@ mod formats {
             let vbe = vt * (1e-3 / is).ln();
             assert!((0.63..0.67).contains(&vbe), "{id}: {vbe}");
         }
+    }
+
+    /// The first ```yaml block after `heading` in README.md.
+    fn readme_block(heading: &str) -> String {
+        let readme =
+            std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md"))
+                .unwrap();
+        let after = &readme[readme.find(heading).unwrap()..];
+        let start = after.find("```yaml\n").unwrap() + "```yaml\n".len();
+        let end = start + after[start..].find("```").unwrap();
+        after[start..end].to_string()
+    }
+
+    #[test]
+    fn readme_examples_are_valid_files() {
+        let cat = input::load_catalog("README.md", &readme_block("## Catalog file")).unwrap();
+        assert_eq!(cat.transistors.len(), 1);
+        let default = input::load_default_catalog().unwrap();
+        let r = input::load_requirement(
+            "README.md",
+            &readme_block("## Requirement file"),
+            Some(&default),
+        )
+        .unwrap();
+        assert_eq!(r.quantity, 4);
+        assert_eq!(r.min_output_resistance_ohm, Some(1e6));
     }
 
     #[test]
@@ -257,7 +283,7 @@ mod bad_input {
     fn unknown_names_with_suggestion() {
         assert_eq!(
             located(&requirement_error("unknown-kind.yaml")),
-            "unknown-kind.yaml:3:7: `kind`: unknown value `sorce` (did you mean `source`?); expected one of `sink` or `source`"
+            "unknown-kind.yaml:3:7: `kind`: unknown value `sinc` (did you mean `sink`?); expected one of `sink` or `source`"
         );
         assert!(located(&requirement_error("unknown-name.yaml")).starts_with(
             "unknown-name.yaml:17:17: `allow[1]`: unknown value `wilsen` (did you mean `wilson`?); expected one of `simple`"
@@ -265,6 +291,14 @@ mod bad_input {
         assert_eq!(
             located(&catalog_error("unknown-series.yaml")),
             "unknown-series.yaml:32:13: `resistor_classes[0].series`: unknown value `E69`; expected one of `E24`, `E48`, `E96` or `E192`"
+        );
+    }
+
+    #[test]
+    fn duplicate_key() {
+        assert_eq!(
+            located(&catalog_error("duplicate-key.yaml")),
+            "duplicate-key.yaml:4:1: duplicate field `currency`; expected each key once per mapping"
         );
     }
 
@@ -293,6 +327,14 @@ mod bad_input {
         assert_eq!(
             located(&requirement_error("implausible-magnitude.yaml")),
             "implausible-magnitude.yaml:5:34: `input_current.max`: `1 MA` is out of range for a programming current: expected 1.00 pA to 1.00 A; `M` means mega (10^6); for milli write `m`, as in `1 mA`"
+        );
+    }
+
+    #[test]
+    fn class_of_the_wrong_polarity() {
+        assert_eq!(
+            located(&requirement_error("wrong-polarity.yaml")),
+            "wrong-polarity.yaml:17:17: `allow[1]`: `npn-test-dual` is an NPN class, but a source is built from PNP transistors; expected PNP classes in `allow` (or change `kind`)"
         );
     }
 
@@ -337,6 +379,8 @@ mod commands {
             )));
         for args in [
             vec!["--help"],
+            vec!["catalog", "--help"],
+            vec!["spec", "--help"],
             vec!["catalog", "list", "--help"],
             vec!["catalog", "show", "--help"],
             vec!["catalog", "lint", "--help"],
@@ -380,7 +424,7 @@ mod commands {
         let ncols = header.split(',').count();
         let first = lines.next().unwrap();
         assert!(first.starts_with("transistor,npn-dual-general,npn,2,SOT-363,"));
-        assert!(first.contains(",90,"), "{first}");
+        assert!(first.contains(",1.2e-14,200.0,90.0,"), "{first}");
         // Summaries with commas are quoted, so every row still has the header's columns.
         assert!(text.lines().count() >= 19);
         assert!(text.lines().skip(1).all(|l| !l.is_empty()));
@@ -482,5 +526,57 @@ mod commands {
             .unwrap();
         // Output is not a terminal here: no escape sequences.
         assert!(!out.stdout.contains(&0x1b));
+    }
+}
+
+/// Whole outputs of each format on the small test catalog. To change one on purpose, run
+/// with `UPDATE_SNAPSHOTS=1`, then review the diff of tests/snapshots/ before committing.
+mod snapshots {
+    use super::*;
+
+    fn check(name: &str, args: &[&str]) {
+        let out = mirrorpick()
+            .args(["--catalog", "tests/fixtures/catalog/valid.yaml"])
+            .args(args)
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let got = String::from_utf8(out.stdout).unwrap();
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/snapshots")
+            .join(name);
+        if std::env::var_os("UPDATE_SNAPSHOTS").is_some() {
+            std::fs::write(&path, &got).unwrap();
+        }
+        let want = std::fs::read_to_string(&path)
+            .unwrap_or_else(|_| panic!("missing snapshot {name}; run with UPDATE_SNAPSHOTS=1"));
+        assert_eq!(got, want, "output of {args:?} differs from {name}");
+    }
+
+    #[test]
+    fn catalog_list_in_every_format() {
+        check("catalog-list.txt", &["catalog", "list"]);
+        check(
+            "catalog-list.json",
+            &["catalog", "list", "--format", "json"],
+        );
+        check("catalog-list.csv", &["catalog", "list", "--format", "csv"]);
+    }
+
+    #[test]
+    fn catalog_show_in_every_format() {
+        check("catalog-show.txt", &["catalog", "show", "npn-test-dual"]);
+        check(
+            "catalog-show.json",
+            &["catalog", "show", "npn-test-dual", "--format", "json"],
+        );
+        check(
+            "catalog-show.csv",
+            &["catalog", "show", "test-resistor", "--format", "csv"],
+        );
     }
 }

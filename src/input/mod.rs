@@ -64,6 +64,10 @@ pub enum Problem {
         suggestion: Option<String>,
         expected: Vec<String>,
     },
+    #[error("{0}; expected each key once per mapping")]
+    DuplicateKey(String),
+    #[error("the file holds more than one YAML document; expected a single document (remove the `---` separators)")]
+    MultipleDocuments,
     #[error("missing field `{0}`; expected it in this mapping")]
     MissingField(String),
     #[error("`{path}`: {error}")]
@@ -147,7 +151,8 @@ fn deserialize<T: serde::de::DeserializeOwned>(
             problem: Box::new(Problem::Empty(what)),
         });
     }
-    if let Some(position) = positions::Positions::of(text).bomb_at {
+    let positions = positions::Positions::of(text);
+    if let Some(position) = positions.bomb_at {
         return Err(InputError {
             file: file.to_string(),
             position,
@@ -158,6 +163,17 @@ fn deserialize<T: serde::de::DeserializeOwned>(
         });
     }
     serde_yaml::from_str(text).map_err(|e| {
+        let problem = serde_problem(&e.to_string());
+        // serde_yaml gives no position for a repeated key; the event walk has it.
+        if let (Problem::DuplicateKey(_), Some((_, position))) =
+            (&problem, &positions.duplicate_key)
+        {
+            return InputError {
+                file: file.to_string(),
+                position: *position,
+                problem: Box::new(problem),
+            };
+        }
         let position = e
             .location()
             .map(|l| Position {
@@ -168,7 +184,7 @@ fn deserialize<T: serde::de::DeserializeOwned>(
         InputError {
             file: file.to_string(),
             position,
-            problem: Box::new(serde_problem(&e.to_string())),
+            problem: Box::new(problem),
         }
     })
 }
@@ -245,6 +261,12 @@ fn serde_problem(raw: &str) -> Problem {
                 Problem::Syntax(format!("{prefix}{p}"))
             };
         }
+    }
+    if body.starts_with("duplicate field") || body.starts_with("duplicate entry") {
+        return Problem::DuplicateKey(format!("{prefix}{body}"));
+    }
+    if body.contains("more than one document") {
+        return Problem::MultipleDocuments;
     }
     if body.starts_with("invalid type") || body.starts_with("invalid value") {
         let body = body

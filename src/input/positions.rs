@@ -5,7 +5,7 @@
 //! deserialising, so it looks positions up here. Built from yaml-rust2's event stream,
 //! which never expands aliases, so an alias bomb costs no more than its text.
 
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 
 use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
 use yaml_rust2::scanner::Marker;
@@ -27,6 +27,8 @@ pub struct Positions {
     /// Where the document, with every alias expanded, first grows past
     /// [`EXPANSION_LIMIT`] nodes (an alias bomb), if it does.
     pub bomb_at: Option<Position>,
+    /// The first key that repeats within one mapping, and where it repeats.
+    pub duplicate_key: Option<(String, Position)>,
 }
 
 /// Largest number of nodes a document may have once aliases are expanded. Real catalogs
@@ -43,6 +45,7 @@ impl Positions {
         Positions {
             map: walker.map,
             bomb_at: walker.bomb_at,
+            duplicate_key: walker.duplicate_key,
         }
     }
 
@@ -65,6 +68,7 @@ enum Frame {
     Map {
         key: Option<String>,
         expecting_key: bool,
+        seen: HashSet<String>,
     },
     Seq {
         index: usize,
@@ -81,6 +85,7 @@ struct Walker {
     anchors: HashMap<usize, u64>,
     total: u64,
     bomb_at: Option<Position>,
+    duplicate_key: Option<(String, Position)>,
 }
 
 impl Walker {
@@ -178,7 +183,21 @@ impl MarkedEventReceiver for Walker {
         match ev {
             Event::Scalar(value, ..) => {
                 if self.expecting_key() {
-                    if let Some(Frame::Map { key, expecting_key }) = self.stack.last_mut() {
+                    if let Some(Frame::Map {
+                        key,
+                        expecting_key,
+                        seen,
+                    }) = self.stack.last_mut()
+                    {
+                        if !seen.insert(value.clone()) && self.duplicate_key.is_none() {
+                            self.duplicate_key = Some((
+                                value.clone(),
+                                Position {
+                                    line: mark.line(),
+                                    col: mark.col() + 1,
+                                },
+                            ));
+                        }
                         *key = Some(value);
                         *expecting_key = false;
                     }
@@ -189,7 +208,10 @@ impl MarkedEventReceiver for Walker {
             }
             Event::Alias(_) => {
                 if self.expecting_key() {
-                    if let Some(Frame::Map { key, expecting_key }) = self.stack.last_mut() {
+                    if let Some(Frame::Map {
+                        key, expecting_key, ..
+                    }) = self.stack.last_mut()
+                    {
                         *key = Some("*alias".into());
                         *expecting_key = false;
                     }
@@ -201,7 +223,10 @@ impl MarkedEventReceiver for Walker {
             Event::MappingStart(..) | Event::SequenceStart(..) => {
                 if self.expecting_key() {
                     // A complex key: give it a name no field has.
-                    if let Some(Frame::Map { key, expecting_key }) = self.stack.last_mut() {
+                    if let Some(Frame::Map {
+                        key, expecting_key, ..
+                    }) = self.stack.last_mut()
+                    {
                         *key = Some("?complex".into());
                         *expecting_key = false;
                     }
@@ -211,6 +236,7 @@ impl MarkedEventReceiver for Walker {
                     Frame::Map {
                         key: None,
                         expecting_key: true,
+                        seen: HashSet::new(),
                     }
                 } else {
                     Frame::Seq { index: 0 }
@@ -240,6 +266,12 @@ mod tests {
         // Unknown paths fall back to the nearest ancestor.
         assert_eq!(p.get("list[1].z"), p.get("list[1]"));
         assert_eq!(p.bomb_at, None);
+        assert_eq!(p.duplicate_key, None);
+        let d = Positions::of("a: 1\nb:\n  c: 2\n  c: 3\n");
+        assert_eq!(
+            d.duplicate_key,
+            Some(("c".to_string(), Position { line: 4, col: 3 }))
+        );
     }
 
     #[test]

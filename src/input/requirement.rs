@@ -9,7 +9,7 @@
 //! | `ratio` | 0.001 to 1000 (default 1) |
 //! | `output_voltage.min/max` | 0 V to 1000 V, min <= max, max < `supply` |
 //! | `ambient.min/max` | -60 °C to 200 °C, min <= max |
-//! | `accuracy` | 0.0001 % to 50 % |
+//! | `accuracy` | 0.001 % to 50 % |
 //! | `confidence_sigma` | 0.5 to 10 (default 3) |
 //! | `min_yield` | 0 % to 100 % |
 //! | `min_output_resistance` | 1 Ω to 1 TΩ |
@@ -26,7 +26,7 @@ use serde_yaml::{Mapping, Value};
 use super::raw::{RawKind, RawLoad, RawRange, RawRequirement};
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
-    Catalog, Filters, LoadKind, MirrorKind, Range, Requirement, Topology, ALL_TOPOLOGIES,
+    Catalog, Filters, LoadKind, MirrorKind, Polarity, Range, Requirement, Topology, ALL_TOPOLOGIES,
 };
 use crate::units::{Dimension as D, Field};
 
@@ -51,7 +51,7 @@ pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
     ),
     (
         "accuracy",
-        Field::new("an accuracy", D::Fraction, 1e-6, 0.5),
+        Field::new("an accuracy", D::Fraction, 1e-5, 0.5),
     ),
     (
         "confidence_sigma",
@@ -152,9 +152,34 @@ pub fn load_requirement(
 
     let mut topologies = Filters::default();
     let mut classes = Filters::default();
+    let kind = match raw.kind {
+        RawKind::Sink => MirrorKind::Sink,
+        RawKind::Source => MirrorKind::Source,
+    };
     for (key, names, is_allow) in [("allow", &raw.allow, true), ("deny", &raw.deny, false)] {
         for (i, n) in names.iter().enumerate() {
             let path = format!("{key}[{i}]");
+            // Allowing only classes of the wrong polarity would leave nothing to try.
+            if let Some(t) = catalog.and_then(|c| c.transistor(n)).filter(|_| is_allow) {
+                if t.polarity != kind.polarity() {
+                    return Err(cx.invalid(
+                        &path,
+                        format!(
+                            "`{n}` is {} class, but a {} is built from {} transistors",
+                            match t.polarity {
+                                Polarity::Npn => "an NPN",
+                                Polarity::Pnp => "a PNP",
+                            },
+                            kind.as_str(),
+                            kind.polarity().as_str().to_uppercase()
+                        ),
+                        format!(
+                            "{} classes in `allow` (or change `kind`)",
+                            kind.polarity().as_str().to_uppercase()
+                        ),
+                    ));
+                }
+            }
             let (filters, name) = if Topology::from_name(n).is_some() {
                 (&mut topologies, n.clone())
             } else if catalog.is_none_or(|c| c.transistor(n).is_some() || c.resistor(n).is_some()) {
@@ -180,10 +205,7 @@ pub fn load_requirement(
 
     Ok(Requirement {
         name,
-        kind: match raw.kind {
-            RawKind::Sink => MirrorKind::Sink,
-            RawKind::Source => MirrorKind::Source,
-        },
+        kind,
         supply_v,
         input_current_a,
         ratio,

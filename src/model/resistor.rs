@@ -1,5 +1,7 @@
 //! Emitter resistor classes and the IEC 60063 preferred-number series.
 
+use std::sync::OnceLock;
+
 /// An IEC 60063 series of preferred values.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Series {
@@ -44,7 +46,13 @@ impl Series {
     /// IEC 60063: E24 is a fixed table (eight entries differ from the rounded geometric
     /// value: 27 30 33 36 39 43 47 82); E48, E96 and E192 are `round(10^(i/N))` to three
     /// digits, with one exception in E192 (920 where the formula gives 919).
-    pub fn decade_digits(self) -> Vec<u16> {
+    pub fn decade_digits(self) -> &'static [u16] {
+        static TABLES: OnceLock<[Vec<u16>; 4]> = OnceLock::new();
+        let tables = TABLES.get_or_init(|| Series::ALL.map(Series::compute_digits));
+        &tables[self as usize]
+    }
+
+    fn compute_digits(self) -> Vec<u16> {
         const E24: [u16; 24] = [
             10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68, 75,
             82, 91,
@@ -65,30 +73,37 @@ impl Series {
             .collect()
     }
 
+    /// Significant digits of the series (2 for E24, 3 otherwise).
+    fn digit_count(self) -> i32 {
+        if self == Series::E24 {
+            2
+        } else {
+            3
+        }
+    }
+
     /// The values of one decade as mantissas in `[1, 10)` (1.0, 1.1, ... for E24).
     pub fn decade_values(self) -> Vec<f64> {
-        let scale = if self == Series::E24 { 10.0 } else { 100.0 };
         self.decade_digits()
-            .into_iter()
-            .map(|d| f64::from(d) / scale)
+            .iter()
+            .map(|&d| scaled(d, 1 - self.digit_count()))
             .collect()
     }
 
     /// Every preferred value in `[lo, hi]` (ohms), ascending. Empty when `lo > hi` or
-    /// either bound is not a positive finite number.
+    /// either bound is not a positive finite number. Each value is the double nearest
+    /// its decimal form (`4.7e3` is exactly `4700.0`).
     pub fn values_between(self, lo: f64, hi: f64) -> Vec<f64> {
         if !(lo > 0.0 && hi.is_finite() && lo <= hi) {
             return Vec::new();
         }
-        let mantissas = self.decade_values();
         let first_decade = lo.log10().floor() as i32 - 1;
         let last_decade = hi.log10().floor() as i32 + 1;
         let mut out = Vec::new();
         for d in first_decade..=last_decade {
-            for m in &mantissas {
-                let v = snap(m * 10f64.powi(d));
-                // A relative slack so 4.7e3 computed as 4699.999... still counts.
-                if v >= lo * (1.0 - 1e-12) && v <= hi * (1.0 + 1e-12) {
+            for &digits in self.decade_digits() {
+                let v = scaled(digits, d + 1 - self.digit_count());
+                if v >= lo && v <= hi {
                     out.push(v);
                 }
             }
@@ -101,6 +116,7 @@ impl Series {
         if !(x > 0.0 && x.is_finite()) {
             return None;
         }
+        // Neighbouring E24 values are at most ~10 % apart, so 20 % either side suffices.
         self.values_between(x / 1.2, x * 1.2)
             .into_iter()
             .min_by(|a, b| {
@@ -111,14 +127,15 @@ impl Series {
     }
 }
 
-/// Remove the binary noise of `mantissa * 10^d` (4.7 * 1000 = 4700.000000000001).
-fn snap(v: f64) -> f64 {
-    let digits = 12 - v.abs().log10().floor() as i32;
-    if !(0..=300).contains(&digits) {
-        return v;
+/// `digits * 10^exp`, correctly rounded: multiplying or dividing an integer by an exact
+/// power of ten rounds once, so the result equals the decimal literal.
+fn scaled(digits: u16, exp: i32) -> f64 {
+    let d = f64::from(digits);
+    if exp >= 0 {
+        d * 10f64.powi(exp)
+    } else {
+        d / 10f64.powi(-exp)
     }
-    let s = format!("{v:.*}", digits as usize);
-    s.parse().unwrap_or(v)
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -142,7 +159,7 @@ mod tests {
     fn e24_is_the_iec_60063_table() {
         // IEC 60063, E24 series (a fixed table, not the rounded geometric values).
         assert_eq!(
-            Series::E24.decade_digits(),
+            Series::E24.decade_digits().to_vec(),
             vec![
                 10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68,
                 75, 82, 91
@@ -151,10 +168,10 @@ mod tests {
         // The eight entries that differ from round(10 * 10^(i/24)).
         let differ: Vec<u16> = Series::E24
             .decade_digits()
-            .into_iter()
+            .iter()
             .enumerate()
-            .filter(|(i, v)| (10.0 * 10f64.powf(*i as f64 / 24.0)).round() as u16 != *v)
-            .map(|(_, v)| v)
+            .filter(|(i, v)| (10.0 * 10f64.powf(*i as f64 / 24.0)).round() as u16 != **v)
+            .map(|(_, v)| *v)
             .collect();
         assert_eq!(differ, vec![27, 30, 33, 36, 39, 43, 47, 82]);
     }
@@ -163,7 +180,7 @@ mod tests {
     fn e48_matches_the_iec_60063_list() {
         // IEC 60063, E48 series as published.
         assert_eq!(
-            Series::E48.decade_digits(),
+            Series::E48.decade_digits().to_vec(),
             vec![
                 100, 105, 110, 115, 121, 127, 133, 140, 147, 154, 162, 169, 178, 187, 196, 205,
                 215, 226, 237, 249, 261, 274, 287, 301, 316, 332, 348, 365, 383, 402, 422, 442,
@@ -176,8 +193,8 @@ mod tests {
     fn e96_and_e192_follow_iec_60063() {
         // IEC 60063: E96 has no exception; every second E96 value is an E48 value and
         // every second E192 value an E96 value.
-        let e96 = Series::E96.decade_digits();
-        let e192 = Series::E192.decade_digits();
+        let e96 = Series::E96.decade_digits().to_vec();
+        let e192 = Series::E192.decade_digits().to_vec();
         assert_eq!(e96.len(), 96);
         assert_eq!(e192.len(), 192);
         assert_eq!(&e96[..4], &[100, 102, 105, 107]);
@@ -203,6 +220,13 @@ mod tests {
         assert!(Series::E24.values_between(10.0, 1.0).is_empty());
         assert_eq!(Series::E24.nearest(4.6e3), Some(4700.0));
         assert_eq!(Series::E96.nearest(4.7e3), Some(4750.0));
+        // Values equal their decimal literals, also below 1 ohm.
+        assert_eq!(Series::E192.values_between(0.4, 0.41), vec![0.402, 0.407]);
+        assert_eq!(Series::E24.values_between(0.47, 0.47), vec![0.47]);
+        assert_eq!(
+            Series::E96.values_between(1.0e5, 1.03e5),
+            vec![1.0e5, 1.02e5]
+        );
         assert_eq!(Series::from_name("e96"), Some(Series::E96));
     }
 }

@@ -169,11 +169,11 @@ fn list_columns<'a>() -> Vec<Column<Row<'a>>> {
         },
         Column {
             name: "is_a",
-            get: |r| t_or(r, |t| t.model.saturation_current_a.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.model.saturation_current_a)),
         },
         Column {
             name: "bf",
-            get: |r| t_or(r, |t| t.model.beta_forward.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.model.beta_forward)),
         },
         Column {
             name: "vaf_v",
@@ -189,23 +189,23 @@ fn list_columns<'a>() -> Vec<Column<Row<'a>>> {
         },
         Column {
             name: "vceo_v",
-            get: |r| t_or(r, |t| t.ratings.vceo_v.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.ratings.vceo_v)),
         },
         Column {
             name: "ic_max_a",
-            get: |r| t_or(r, |t| t.ratings.ic_max_a.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.ratings.ic_max_a)),
         },
         Column {
             name: "power_per_package_w",
-            get: |r| t_or(r, |t| t.ratings.power_per_package_w.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.ratings.power_per_package_w)),
         },
         Column {
             name: "theta_self_k_per_w",
-            get: |r| t_or(r, |t| t.thermal.theta_self_k_per_w.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.thermal.theta_self_k_per_w)),
         },
         Column {
             name: "theta_mutual_k_per_w",
-            get: |r| t_or(r, |t| t.thermal.theta_mutual_k_per_w.to_string()),
+            get: |r| t_or(r, |t| csv::num(t.thermal.theta_mutual_k_per_w)),
         },
         Column {
             name: "series",
@@ -213,17 +213,17 @@ fn list_columns<'a>() -> Vec<Column<Row<'a>>> {
         },
         Column {
             name: "tolerance",
-            get: |r| r_or(r, |x| x.tolerance.to_string()),
+            get: |r| r_or(r, |x| csv::num(x.tolerance)),
         },
         Column {
             name: "tcr_per_k",
-            get: |r| r_or(r, |x| x.tcr_per_k.to_string()),
+            get: |r| r_or(r, |x| csv::num(x.tcr_per_k)),
         },
         Column {
             name: "unit_cost",
             get: |r| match r {
-                Row::T(t) => t.unit_cost.to_string(),
-                Row::R(x) => x.unit_cost.to_string(),
+                Row::T(t) => csv::num(t.unit_cost),
+                Row::R(x) => csv::num(x.unit_cost),
             },
         },
         Column {

@@ -28,9 +28,15 @@ pub fn write<T>(columns: &[Column<T>], rows: &[T], out: &mut dyn Write) -> io::R
     Ok(())
 }
 
+/// A number as a CSV field: the shortest text that reads back to the same double
+/// (`1.2e-14`, `0.06`, `200.0`).
+pub fn num(v: f64) -> String {
+    format!("{v:?}")
+}
+
 /// An optional number as a CSV field: empty when absent.
 pub fn opt(v: Option<f64>) -> String {
-    v.map(|x| format!("{x}")).unwrap_or_default()
+    v.map(num).unwrap_or_default()
 }
 
 #[cfg(test)]
