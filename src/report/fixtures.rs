@@ -95,3 +95,96 @@ pub fn provenance() -> Provenance {
         tool_version: "0.1.0".into(),
     }
 }
+
+/// A complete page with every section filled, user text carrying markup.
+pub fn page() -> super::page::Page {
+    use super::page::*;
+    use super::plot::{self, BudgetBar};
+    use crate::curves::{sweep, CurveOptions};
+
+    let req = requirement();
+    let set = sweep(&req, &CurveOptions::default(), Some(2.0), |i, v, _| {
+        (v >= 0.2).then_some(i * (0.96 + 0.02 * v))
+    });
+    let budget = vec![
+        BudgetBar {
+            cause: "base current".into(),
+            value: -0.004,
+            random: false,
+        },
+        BudgetBar {
+            cause: "V_BE offset".into(),
+            value: 0.002,
+            random: true,
+        },
+    ];
+    let design = |rank: usize, title: &str| DesignView {
+        rank: Some(rank),
+        title: title.into(),
+        figures: vec![
+            Figure {
+                key: "error_total".into(),
+                label: "total error".into(),
+                raw: Some(0.0123),
+                text: "1.23 %".into(),
+            },
+            Figure {
+                key: "part".into(),
+                label: "part".into(),
+                raw: None,
+                text: "npn-dual-test <b>".into(),
+            },
+        ],
+        checks: vec![CheckRow {
+            name: "accuracy".into(),
+            value: "1.23 %".into(),
+            limit: "2.00 %".into(),
+            margin: 0.385,
+            pass: true,
+        }],
+        governing_check: "accuracy".into(),
+        governing_margin: 0.385,
+        cost: "0.16 EUR".into(),
+    };
+    Page {
+        title: "tail <script>alert(1)</script> & sink".into(),
+        verdict: "wilson with npn-dual-test meets every requirement".into(),
+        feasible: true,
+        requirement: vec![("name".into(), "tail <i>sink</i>".into())],
+        chosen: Some(design(1, "wilson · npn-dual-test <b>bold</b>")),
+        runners_up: vec![design(2, "simple · npn-dual-test")],
+        evaluated: 120,
+        feasible_count: 7,
+        rejected_by: vec![("accuracy".into(), 100), ("compliance".into(), 13)],
+        best_rejected: Some(Rejected {
+            design: design(0, "simple · cheap"),
+            check: "accuracy".into(),
+            margin: -0.2,
+        }),
+        budget_table: Table {
+            header: vec!["cause".into(), "error".into()],
+            rows: vec![vec!["base current".into(), "-0.400 %".into()]],
+        },
+        plots: vec![
+            Plot {
+                id: "budget".into(),
+                title: "Error budget".into(),
+                svg: plot::error_budget_svg(&budget, req.accuracy).unwrap(),
+                caption: "bars".into(),
+            },
+            Plot {
+                id: "curves".into(),
+                title: "Curve family".into(),
+                svg: plot::output_curves_svg(&set).unwrap(),
+                caption: "curves".into(),
+            },
+        ],
+        budget,
+        corners: Table {
+            header: vec!["I_in".into(), "error".into()],
+            rows: vec![vec!["100 µA".into(), "1.00 %".into()]],
+        },
+        assumptions: vec![("catalog".into(), "my <catalog>.yaml".into())],
+        cautions: vec!["catalog values are typical, not guaranteed".into()],
+    }
+}

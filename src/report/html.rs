@@ -278,3 +278,57 @@ fn figure(o: &mut String, p: &super::page::Plot) {
         escape(&p.caption)
     );
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::fixtures;
+
+    #[test]
+    fn page_is_well_formed_self_contained_and_escaped() {
+        let html = render(&fixtures::page());
+        let doc = scraper::Html::parse_document(&html);
+        assert!(doc.errors.is_empty(), "HTML5 parse errors: {:?}", doc.errors);
+        let count = |sel: &str| doc.select(&scraper::Selector::parse(sel).unwrap()).count();
+        assert_eq!(count("svg"), 2, "budget and curves inline");
+        assert_eq!(count("script"), 0);
+        assert_eq!(count("link"), 0);
+        assert_eq!(count("img"), 0);
+        for section in [
+            "requirement",
+            "decision",
+            "runners-up",
+            "rejected",
+            "budget",
+            "curves",
+            "corners",
+            "assumptions",
+            "cautions",
+        ] {
+            assert_eq!(count(&format!("section#{section}")), 1, "{section}");
+        }
+        // User text arrives as text, never as markup.
+        assert!(html.contains("tail &lt;script&gt;alert(1)&lt;/script&gt; &amp; sink"));
+        assert!(html.contains("npn-dual-test &lt;b&gt;bold&lt;/b&gt;"));
+        assert!(html.contains("my &lt;catalog&gt;.yaml"));
+        assert_eq!(count("i"), 0);
+        // No external references: the only URLs are XML namespace names.
+        for scheme in ["http://", "https://"] {
+            for (k, _) in html.match_indices(scheme) {
+                let url: String = html[k..].chars().take_while(|c| *c != '"').collect();
+                assert_eq!(url, "http://www.w3.org/2000/svg", "external reference");
+            }
+        }
+        // Raw figures are carried for programs that check the page against the JSON.
+        let cell = doc
+            .select(&scraper::Selector::parse("#chosen td[data-key=error_total]").unwrap())
+            .next()
+            .unwrap();
+        assert_eq!(cell.value().attr("data-value"), Some("1.23e-2"));
+    }
+
+    #[test]
+    fn escape_covers_the_metacharacters() {
+        assert_eq!(escape(r#"<a href="x">&'"#), "&lt;a href=&quot;x&quot;&gt;&amp;&#39;");
+    }
+}

@@ -222,3 +222,39 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     o.push('\n');
     (o, files)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::fixtures;
+
+    #[test]
+    fn same_sections_with_plots_as_side_files() {
+        let page = fixtures::page();
+        let (md, files) = render(&page, "tail report");
+        let names: Vec<&str> = files.iter().map(|f| f.0.as_str()).collect();
+        assert_eq!(names, ["tail report-budget.svg", "tail report-curves.svg"]);
+        assert!(md.contains("![Curve family](tail%20report-curves.svg)"));
+        for h in [
+            "## 1 Requirement",
+            "## 2 Chosen design",
+            "## 3 Runners-up",
+            "## 4 What was rejected and why",
+            "## 5 Error budget",
+            "## 6 Curves",
+            "## 7 Corners",
+            "## 8 Assumptions",
+            "## 9 Cautions",
+        ] {
+            assert!(md.contains(h), "{h}");
+        }
+        assert!(md.contains("tail &lt;script&gt;alert(1)&lt;/script&gt; &amp; sink"));
+        assert!(!md.contains("<svg"), "plots live in side files");
+        assert!(files.iter().all(|f| f.1.starts_with("<svg")));
+    }
+
+    #[test]
+    fn table_cells_cannot_break_the_table() {
+        assert_eq!(escape("a|b\nc *d*"), "a\\|b c \\*d\\*");
+    }
+}
