@@ -288,7 +288,11 @@ mod tests {
     fn page_is_well_formed_self_contained_and_escaped() {
         let html = render(&fixtures::page());
         let doc = scraper::Html::parse_document(&html);
-        assert!(doc.errors.is_empty(), "HTML5 parse errors: {:?}", doc.errors);
+        assert!(
+            doc.errors.is_empty(),
+            "HTML5 parse errors: {:?}",
+            doc.errors
+        );
         let count = |sel: &str| doc.select(&scraper::Selector::parse(sel).unwrap()).count();
         assert_eq!(count("svg"), 2, "budget and curves inline");
         assert_eq!(count("script"), 0);
@@ -329,6 +333,9 @@ mod tests {
 
     #[test]
     fn escape_covers_the_metacharacters() {
-        assert_eq!(escape(r#"<a href="x">&'"#), "&lt;a href=&quot;x&quot;&gt;&amp;&#39;");
+        assert_eq!(
+            escape(r#"<a href="x">&'"#),
+            "&lt;a href=&quot;x&quot;&gt;&amp;&#39;"
+        );
     }
 }

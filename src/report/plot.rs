@@ -406,7 +406,7 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
     let e = err(what);
     let mut svg = String::new();
     let n = bars.len().max(1);
-    let height = 90 + 30 * n as u32;
+    let height = 150 + 40 * n as u32;
     {
         let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
         root.fill(&WHITE).map_err(&e)?;
