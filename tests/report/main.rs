@@ -3,3 +3,4 @@
 
 mod cli;
 mod curves;
+mod snapshots;
