@@ -9,7 +9,10 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
-use mirrorpick::app::{CatalogSource, Command as AppCommand, Config};
+use mirrorpick::app::rank::{CheaperArgs, CheckArgs, DesignArgs, RankArgs};
+use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, ReportArgs};
+use mirrorpick::check::MonteCarlo;
+use mirrorpick::rank::Prefer;
 use mirrorpick::report::{Format, Style};
 
 #[derive(Debug, Parser)]
@@ -46,18 +49,36 @@ pub enum Command {
         after_help = "Example:\n  mirrorpick spec lint requirements-examples/ltp-tail-sink.yaml"
     )]
     Spec(SpecCommand),
+    /// Rank every design that meets a requirement, cheapest first.
+    #[command(
+        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+    )]
+    Rank(RankCli),
+    /// Verify one named design against a requirement: every check with its margin.
+    #[command(
+        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check board.yaml --part npn-dual-general --topology wilson --corners --format json"
+    )]
+    Check(CheckCli),
+    /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
+    #[command(
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
+    )]
+    Cheaper(CheaperCli),
     /// Output current against output voltage for several input currents, and the error
     /// against the input current, of one named design.
     #[command(
         after_help = "Sweeps V_out from 0 V to the supply at I_in min, max and geometric steps between, \
 at 25 °C (and the ambient extremes with --extremes), nominal devices.\n\nExample:\n  \
-mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --svg tail.svg"
+mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct --svg tail.svg"
     )]
     Curves {
         /// Requirement file (YAML).
         requirement: PathBuf,
         #[command(flatten)]
-        design: DesignOpts,
+        design: DesignCli,
+        /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+        #[arg(long, value_name = "CLASS")]
+        helper: Option<String>,
         /// Also sweep at the requirement's ambient extremes.
         #[arg(long)]
         extremes: bool,
@@ -66,9 +87,36 @@ mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prema
         self_heating: bool,
         #[command(flatten)]
         format: FormatArg,
-        /// Also draw the curves as an SVG file.
+        /// Also draw the curves as an SVG file (written whole or not at all).
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
+    },
+    /// Rank the requirement and write the decision record: one self-contained HTML page
+    /// and/or a Markdown file with its plots beside it.
+    #[command(
+        after_help = "Exit status: 0 when a design passes, 1 when none does (the record is still written), \
+2 on bad input or an unwritable path. Files are written whole or not at all. Without --out or \
+--markdown the HTML goes to standard output.\n\nExample:\n  \
+mirrorpick report requirements-examples/ltp-tail-sink.yaml --out tail.html\n  \
+mirrorpick report requirements-examples/led-string-sinks.yaml --markdown docs/led-sinks.md"
+    )]
+    Report {
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        /// Write the HTML page to FILE.
+        #[arg(long, value_name = "FILE.html")]
+        out: Option<PathBuf>,
+        /// Write the Markdown form to FILE, plots as <stem>-*.svg beside it.
+        #[arg(long, value_name = "FILE.md")]
+        markdown: Option<PathBuf>,
+        /// Designs shown: the chosen one and the runners-up.
+        #[arg(long, default_value_t = 5)]
+        top: usize,
+        #[command(flatten)]
+        mc: MonteCarloArgs,
+        /// Also draw the curves at the ambient extremes.
+        #[arg(long)]
+        extremes: bool,
     },
     /// Export one named design for a circuit simulator.
     #[command(
@@ -83,41 +131,135 @@ mirrorpick export --spice requirements-examples/ltp-tail-sink.yaml --part npn-du
         /// Requirement file (YAML).
         requirement: PathBuf,
         #[command(flatten)]
-        design: DesignOpts,
-        /// Write to FILE (atomically) instead of standard output.
+        design: DesignCli,
+        /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+        #[arg(long, value_name = "CLASS")]
+        helper: Option<String>,
+        /// Write to FILE (written whole or not at all) instead of standard output.
         #[arg(long, value_name = "FILE")]
         out: Option<PathBuf>,
     },
 }
 
-/// One named design.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PreferChoice {
+    /// Cheapest first; equal cost goes to the larger accuracy margin.
+    Cost,
+    /// Largest accuracy margin first.
+    Accuracy,
+    /// Smallest cost/cheapest + error/accuracy: the knee of the cost/error front.
+    Balanced,
+}
+
 #[derive(Debug, Args)]
-pub struct DesignOpts {
-    /// Transistor class of the matched pair(s), as `catalog list` shows it.
+pub struct MonteCarloArgs {
+    /// Seed of the Monte Carlo yield (same seed, same numbers).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Monte Carlo builds per design.
+    #[arg(long, default_value_t = 1000)]
+    pub samples: u32,
+}
+
+#[derive(Debug, Args)]
+pub struct RankCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    /// Rows to show.
+    #[arg(long, default_value_t = 10)]
+    pub top: usize,
+    /// How to order the feasible designs.
+    #[arg(long, value_enum, default_value_t = PreferChoice::Cost)]
+    pub prefer: PreferChoice,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+    /// Verify every candidate fully instead of skipping hopeless ones (slower, same result).
+    #[arg(long)]
+    pub exhaustive: bool,
+    /// Print the full reasoning for row K (1 = the first).
+    #[arg(long, value_name = "K")]
+    pub explain: Option<usize>,
+}
+
+#[derive(Debug, Args)]
+pub struct DesignCli {
+    /// Transistor class of the matched pair(s).
     #[arg(long, value_name = "CLASS")]
     pub part: String,
-    /// simple, beta-helper, wilson, wilson4, cascode or widlar.
+    /// Topology: simple, beta-helper, wilson, wilson4, cascode or widlar.
     #[arg(long, value_name = "T")]
     pub topology: String,
-    /// Single-device class for helper transistors (default: the cheapest single).
-    #[arg(long, value_name = "CLASS")]
-    pub helper: Option<String>,
-    /// Emitter resistor, RE1 = RE2 (RE2 for widlar), like `100` or `4k7`; none when absent.
+    /// Emitter resistor RE1 (`100`, `4k7`, `1.5 kΩ`); RE2 follows the ratio. For a
+    /// Widlar it is RE2, and without it RE2 is sized for the ratio.
     #[arg(long, value_name = "R")]
     pub re: Option<String>,
-    /// Resistor class (tolerance, TCR); the cheapest when absent.
+    /// Resistor class of the emitter resistors.
     #[arg(long, value_name = "CLASS")]
     pub resistor: Option<String>,
 }
 
-impl From<DesignOpts> for mirrorpick::app::DesignArgs {
-    fn from(d: DesignOpts) -> Self {
-        mirrorpick::app::DesignArgs {
-            part: d.part,
-            topology: d.topology,
-            helper: d.helper,
-            re: d.re,
-            resistor: d.resistor,
+#[derive(Debug, Args)]
+pub struct CheckCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    #[command(flatten)]
+    pub design: DesignCli,
+    /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+    #[arg(long, value_name = "CLASS")]
+    pub helper: Option<String>,
+    /// Also print the table of every corner.
+    #[arg(long)]
+    pub corners: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct CheaperCli {
+    /// Requirement file (YAML).
+    pub file: PathBuf,
+    #[command(flatten)]
+    pub design: DesignCli,
+    /// List every other transistor class that still passes, at any cost.
+    #[arg(long)]
+    pub second_source: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+impl From<PreferChoice> for Prefer {
+    fn from(p: PreferChoice) -> Prefer {
+        match p {
+            PreferChoice::Cost => Prefer::Cost,
+            PreferChoice::Accuracy => Prefer::Accuracy,
+            PreferChoice::Balanced => Prefer::Balanced,
+        }
+    }
+}
+
+impl From<MonteCarloArgs> for MonteCarlo {
+    fn from(m: MonteCarloArgs) -> MonteCarlo {
+        MonteCarlo {
+            seed: m.seed,
+            samples: m.samples,
+        }
+    }
+}
+
+impl DesignCli {
+    fn into_args(self, helper: Option<String>) -> DesignArgs {
+        DesignArgs {
+            part: self.part,
+            topology: self.topology,
+            helper,
+            re: self.re,
+            resistor: self.resistor,
         }
     }
 }
@@ -199,31 +341,71 @@ impl Cli {
             },
             Command::Catalog(CatalogCommand::Lint { file }) => AppCommand::CatalogLint { file },
             Command::Spec(SpecCommand::Lint { file }) => AppCommand::SpecLint { file },
+            Command::Rank(a) => AppCommand::Rank(RankArgs {
+                file: a.file,
+                top: a.top,
+                prefer: a.prefer.into(),
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+                exhaustive: a.exhaustive,
+                explain: a.explain,
+            }),
+            Command::Check(a) => AppCommand::Check(CheckArgs {
+                file: a.file,
+                design: a.design.into_args(a.helper),
+                corners: a.corners,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+            }),
             Command::Curves {
                 requirement,
                 design,
+                helper,
                 extremes,
                 self_heating,
                 format,
                 svg,
             } => AppCommand::Curves {
                 requirement,
-                design: design.into(),
+                design: design.into_args(helper),
                 extremes,
                 self_heating,
                 format: format.format.into(),
                 svg,
             },
+            Command::Report {
+                requirement,
+                out,
+                markdown,
+                top,
+                mc,
+                extremes,
+            } => AppCommand::Report(ReportArgs {
+                requirement,
+                html: out,
+                markdown,
+                top,
+                mc: mc.into(),
+                extremes,
+            }),
             Command::Export {
                 spice: _,
                 requirement,
                 design,
+                helper,
                 out,
             } => AppCommand::ExportSpice {
                 requirement,
-                design: design.into(),
+                design: design.into_args(helper),
                 out,
             },
+            Command::Cheaper(a) => AppCommand::Cheaper(CheaperArgs {
+                file: a.file,
+                design: a.design.into_args(None),
+                second_source: a.second_source,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+            }),
         };
         Config {
             catalog: self

@@ -9,11 +9,13 @@
 
 pub mod app;
 pub mod atomic_file;
+pub mod check;
 pub mod circuit;
 pub mod curves;
 pub mod device;
 pub mod input;
 pub mod model;
+pub mod rank;
 pub mod report;
 pub mod solve;
 pub mod units;

@@ -7,12 +7,15 @@
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
 pub mod outputs;
+pub mod rank;
+pub mod report_cmd;
 pub mod solve;
 
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
-pub use outputs::DesignArgs;
+pub use rank::DesignArgs;
+pub use report_cmd::ReportArgs;
 
 use crate::input::{self, InputError};
 use crate::model::{Catalog, Polarity, Requirement};
@@ -54,12 +57,17 @@ pub enum Command {
         format: Format,
         svg: Option<PathBuf>,
     },
+    /// Rank, then write the decision record.
+    Report(ReportArgs),
     /// One design as a SPICE deck, on stdout or into `out`.
     ExportSpice {
         requirement: PathBuf,
         design: DesignArgs,
         out: Option<PathBuf>,
     },
+    Rank(rank::RankArgs),
+    Check(rank::CheckArgs),
+    Cheaper(rank::CheaperArgs),
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -100,11 +108,13 @@ pub enum AppError {
         suggestion: Option<String>,
         catalog: String,
     },
-    #[error("cannot write the output: {0}")]
-    Output(#[from] io::Error),
-    /// A command-line value that does not fit (unknown topology, wrong polarity, ...).
+    #[error(transparent)]
+    Rank(#[from] crate::rank::RankError),
+    /// A command-line value that makes no sense (unknown name, bad quantity).
     #[error("{0}")]
     Usage(String),
+    #[error("cannot write the output: {0}")]
+    Output(#[from] io::Error),
     #[error(transparent)]
     File(#[from] crate::atomic_file::OutputError),
     #[error(transparent)]
@@ -205,11 +215,15 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
                 out,
             )
         }
+        Command::Report(args) => return report_cmd::run_report(&cfg.catalog, args, out),
         Command::ExportSpice {
             requirement,
             design,
             out: path,
         } => return outputs::run_export_spice(&cfg.catalog, requirement, design, path, out),
+        Command::Rank(a) => return rank::run_rank(cfg, a, out),
+        Command::Check(a) => return rank::run_check(cfg, a, out),
+        Command::Cheaper(a) => return rank::run_cheaper(cfg, a, out),
     }
     Ok(Outcome::Success)
 }

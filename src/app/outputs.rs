@@ -8,25 +8,15 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+use super::rank::{design_spec, DesignArgs};
 use super::{load_requirement, read_file, AppError, CatalogSource, Outcome};
 use crate::atomic_file::PendingFile;
+use crate::check;
 use crate::circuit::{Design, SolveOptions};
 use crate::curves::{self, CurveOptions};
 use crate::input;
-use crate::model::{Catalog, ResistorClass, Role, Topology, TransistorClass};
+use crate::model::{Catalog, ResistorClass, Topology, TransistorClass};
 use crate::report::{self, plot, spice, Format, Provenance, Style};
-use crate::units::{self, Dimension};
-
-/// A design named on the command line, as typed.
-#[derive(Debug, Clone, PartialEq, Eq, Default)]
-pub struct DesignArgs {
-    pub part: String,
-    pub topology: String,
-    pub helper: Option<String>,
-    /// Emitter resistor (RE1 = RE2; RE2 for widlar), as typed (`4k7`, `100 ohm`).
-    pub re: Option<String>,
-    pub resistor: Option<String>,
-}
 
 /// A design resolved against the catalog.
 #[derive(Debug, Clone, Copy)]
@@ -64,128 +54,33 @@ impl<'a> Resolved<'a> {
     }
 }
 
-fn unknown_class(catalog: &Catalog, name: &str, id: &str) -> AppError {
-    let ids = catalog
-        .transistors
-        .iter()
-        .map(|t| t.id.as_str())
-        .chain(catalog.resistors.iter().map(|r| r.id.as_str()));
-    AppError::UnknownClass {
-        id: id.to_string(),
-        suggestion: input::did_you_mean(id, ids),
-        catalog: name.to_string(),
-    }
-}
-
-/// Resolves `args` against `catalog` for a requirement of `req`'s kind.
+/// Resolves `args` against `catalog` for `req`, the same way `check` does (RE2 from the
+/// ratio, helpers as spare devices or singles), and confirms the polarity.
 pub fn resolve<'a>(
     args: &DesignArgs,
     catalog: &'a Catalog,
-    catalog_name: &str,
     req: &crate::model::Requirement,
 ) -> Result<Resolved<'a>, AppError> {
-    let topology = Topology::from_name(&args.topology).ok_or_else(|| {
-        let names = crate::model::ALL_TOPOLOGIES.map(|t| t.name());
-        AppError::Usage(format!(
-            "`{}` is not a topology; expected one of {}{}",
-            args.topology,
-            input::list(&names.map(String::from)),
-            input::did_you_mean(&args.topology, names.iter().copied())
-                .map(|s| format!(" (did you mean `{s}`?)"))
-                .unwrap_or_default()
-        ))
-    })?;
-    let pair = catalog
-        .transistor(&args.part)
-        .ok_or_else(|| unknown_class(catalog, catalog_name, &args.part))?;
+    let spec = design_spec(req, catalog, args)?;
+    let d = check::resolve(catalog, &spec).map_err(crate::rank::RankError::from)?;
     let polarity = req.kind.polarity();
-    if pair.polarity != polarity {
+    if d.pair.polarity != polarity {
         return Err(AppError::Usage(format!(
             "`{}` is {} but the requirement `{}` is a {} and needs {} transistors",
-            pair.id,
-            pair.polarity.as_str().to_uppercase(),
+            d.pair.id,
+            d.pair.polarity.as_str().to_uppercase(),
             req.name,
             req.kind.as_str(),
             polarity.as_str().to_uppercase()
         )));
     }
-    let desc = topology.desc();
-    let has_helper = desc.transistors.iter().any(|t| t.role == Role::Helper);
-    // Helpers use spare devices of the pair's package when one package holds the whole
-    // topology (MODEL.md, packages); otherwise a single of the helper class.
-    let spares = pair.devices_per_package as usize >= desc.transistors.len();
-    let helper = match &args.helper {
-        Some(id) => {
-            let h = catalog
-                .transistor(id)
-                .ok_or_else(|| unknown_class(catalog, catalog_name, id))?;
-            if h.polarity != polarity {
-                return Err(AppError::Usage(format!(
-                    "helper `{}` is {}; this {} needs {}",
-                    h.id,
-                    h.polarity.as_str().to_uppercase(),
-                    req.kind.as_str(),
-                    polarity.as_str().to_uppercase()
-                )));
-            }
-            Some(h)
-        }
-        None if has_helper && !spares => Some(catalog.cheapest_single(polarity).ok_or_else(
-            || {
-                AppError::Usage(format!(
-                    "{} needs a helper transistor and the catalog has no single-device {} class; name one with --helper",
-                    topology.name(),
-                    polarity.as_str().to_uppercase()
-                ))
-            },
-        )?),
-        None => None,
-    };
-    let helper = if has_helper && !spares { helper } else { None };
-    let re = match &args.re {
-        Some(text) => {
-            let r = units::parse(text, Dimension::Resistance)
-                .map_err(|e| AppError::Usage(format!("--re: {e}")))?;
-            if !(r.is_finite() && r >= 0.0) {
-                return Err(AppError::Usage(format!(
-                    "--re: `{text}` must be zero or a positive resistance, like `100` or `4k7`"
-                )));
-            }
-            r
-        }
-        None => 0.0,
-    };
-    let (re1_ohm, re2_ohm) = if !desc.has_re1 {
-        if re <= 0.0 {
-            return Err(AppError::Usage(format!(
-                "{} needs its emitter resistor RE2; give it with --re, like `--re 4k7`",
-                topology.name()
-            )));
-        }
-        (0.0, re)
-    } else {
-        (re, re / req.ratio)
-    };
-    let resistor = match &args.resistor {
-        Some(id) => Some(
-            catalog
-                .resistor(id)
-                .ok_or_else(|| unknown_class(catalog, catalog_name, id))?,
-        ),
-        // The cheapest class when resistors are fitted and none was named.
-        None if re1_ohm > 0.0 || re2_ohm > 0.0 => catalog
-            .resistors
-            .iter()
-            .min_by(|a, b| a.unit_cost.total_cmp(&b.unit_cost).then(a.id.cmp(&b.id))),
-        None => None,
-    };
     Ok(Resolved {
-        topology,
-        pair,
-        helper,
-        re1_ohm,
-        re2_ohm,
-        resistor,
+        topology: spec.topology,
+        pair: d.pair,
+        helper: d.helper,
+        re1_ohm: spec.re1_ohm,
+        re2_ohm: spec.re2_ohm,
+        resistor: d.resistor,
     })
 }
 
@@ -229,9 +124,9 @@ pub fn run_curves(
     style: Style,
     out: &mut dyn Write,
 ) -> Result<Outcome, AppError> {
-    let (catalog, name, _) = load_catalog_with_provenance(source)?;
+    let (catalog, _, _) = load_catalog_with_provenance(source)?;
     let req = load_requirement(req_path, &catalog)?;
-    let design = resolve(args, &catalog, &name, &req)?;
+    let design = resolve(args, &catalog, &req)?;
     let svg_file = pending(svg)?;
     let opts = CurveOptions {
         ambient_extremes: extremes,
@@ -286,9 +181,9 @@ pub fn run_export_spice(
     out_path: &Option<PathBuf>,
     out: &mut dyn Write,
 ) -> Result<Outcome, AppError> {
-    let (catalog, name, prov) = load_catalog_with_provenance(source)?;
+    let (catalog, _, prov) = load_catalog_with_provenance(source)?;
     let req = load_requirement(req_path, &catalog)?;
-    let design = resolve(args, &catalog, &name, &req)?;
+    let design = resolve(args, &catalog, &req)?;
     let file = pending(out_path)?;
     let deck = spice::render(&design.spice(), &req, &prov);
     match file {

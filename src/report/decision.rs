@@ -37,13 +37,25 @@ fn money(catalog: &Catalog, x: f64) -> String {
 /// A check's value or limit in the check's own unit.
 fn check_value(catalog: &Catalog, name: CheckName, x: f64) -> String {
     if !x.is_finite() {
-        return if x.is_nan() { "no solution".into() } else { eng(x, name.unit(), U) };
+        return if x.is_nan() {
+            "no solution".into()
+        } else {
+            eng(x, name.unit(), U)
+        };
     }
     match name {
         CheckName::Cost => money(catalog, x),
         CheckName::Accuracy | CheckName::Yield => percent(x),
         CheckName::ThermalRunaway | CheckName::NoConvergence => format!("{x}"),
-        _ => eng(x, if name.unit() == "Ω" { "ohm" } else { name.unit() }, U),
+        _ => eng(
+            x,
+            if name.unit() == "Ω" {
+                "ohm"
+            } else {
+                name.unit()
+            },
+            U,
+        ),
     }
 }
 
@@ -123,7 +135,12 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             c.error_total,
             percent(c.error_total),
         ),
-        num("yield", "Monte Carlo yield", c.yield_fraction, percent(c.yield_fraction)),
+        num(
+            "yield",
+            "Monte Carlo yield",
+            c.yield_fraction,
+            percent(c.yield_fraction),
+        ),
         num(
             "r_out_min_ohm",
             "smallest output resistance",
@@ -136,8 +153,46 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             c.compliance_v,
             eng(c.compliance_v, "V", U),
         ),
-        num("v_in_max", "input voltage (max)", c.v_in_max, eng(c.v_in_max, "V", U)),
+        num(
+            "v_in_max",
+            "input voltage (max)",
+            c.v_in_max,
+            eng(c.v_in_max, "V", U),
+        ),
     ];
+    let mut figures = figures;
+    // What each class is, in the catalog's own words (user text: escaped by the renderers).
+    let classes = [
+        (
+            "pair class",
+            catalog
+                .transistor(&c.part)
+                .map(|t| (&t.summary, &t.provenance)),
+        ),
+        (
+            "helper class",
+            c.helper
+                .as_deref()
+                .and_then(|h| catalog.transistor(h))
+                .map(|t| (&t.summary, &t.provenance)),
+        ),
+        (
+            "resistor class",
+            c.resistor
+                .as_deref()
+                .and_then(|r| catalog.resistor(r))
+                .map(|r| (&r.summary, &r.provenance)),
+        ),
+    ];
+    for (what, found) in classes {
+        if let Some((summary, provenance)) = found {
+            figures.push(text(
+                "",
+                &format!("{what}: catalog summary"),
+                format!("{summary} (provenance: {provenance})"),
+            ));
+        }
+    }
     let checks = c
         .checks
         .iter()
@@ -244,11 +299,14 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         .skip(1)
         .map(|c| view(catalog, c))
         .collect();
-    let best_rejected = inp.best_rejected.as_ref().map(|(row, check, margin)| Rejected {
-        design: view(catalog, row),
-        check: check.to_string(),
-        margin: *margin,
-    });
+    let best_rejected = inp
+        .best_rejected
+        .as_ref()
+        .map(|(row, check, margin)| Rejected {
+            design: view(catalog, row),
+            check: check.to_string(),
+            margin: *margin,
+        });
     let verdict = match (chosen_row, &inp.best_rejected) {
         (Some(c), _) => format!(
             "{} of {} candidate designs meet every requirement. Chosen ({} first): {}, {} per mirror, total error {} against {}; governing check {} with {} margin.",

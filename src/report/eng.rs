@@ -105,7 +105,9 @@ pub fn percent(fraction: f64) -> String {
     } else if a >= 0.1 {
         format!("{p:.3} %")
     } else {
-        format!("{p:.2e} %")
+        // Three significant digits in plain decimals (0.0158 %), down to 1e-6 %.
+        let decimals = (2 - a.log10().floor() as i32).clamp(3, 8) as usize;
+        format!("{p:.decimals$} %")
     }
 }
 
@@ -133,5 +135,7 @@ mod tests {
         assert_eq!(percent(0.0123), "1.23 %");
         assert_eq!(percent(0.5), "50.0 %");
         assert_eq!(percent(0.00123), "0.123 %");
+        assert_eq!(percent(-0.000158), "-0.0158 %");
+        assert_eq!(percent(2.5e-7), "0.0000250 %");
     }
 }

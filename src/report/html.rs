@@ -96,11 +96,20 @@ fn design(o: &mut String, d: &DesignView, id: &str) {
             .raw
             .map(|r| format!(" data-value=\"{r:e}\""))
             .unwrap_or_default();
+        let key = if f.key.is_empty() {
+            String::new()
+        } else {
+            format!(" data-key=\"{}\"", escape(&f.key))
+        };
+        let class = if f.raw.is_some() {
+            " class=\"num\""
+        } else {
+            ""
+        };
         let _ = writeln!(
             o,
-            "<tr><th>{}</th><td class=\"num\" data-key=\"{}\"{raw}>{}</td></tr>",
+            "<tr><th>{}</th><td{class}{key}{raw}>{}</td></tr>",
             escape(&f.label),
-            escape(&f.key),
             escape(&f.text)
         );
     }

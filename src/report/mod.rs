@@ -11,6 +11,7 @@
 pub mod catalog;
 pub mod csv;
 pub mod curves;
+pub mod decision;
 pub mod eng;
 pub mod html;
 pub mod markdown;

@@ -128,7 +128,7 @@ fn bad_design_arguments_exit_2_with_a_message() {
             "--topology",
             "simple",
         ])
-        .args(["--re", "4x7"])
+        .args(["--re", "4x7", "--resistor", "thick-film-1pct"])
         .assert()
         .code(2)
         .stderr(predicate::str::contains("--re"));

@@ -3,4 +3,5 @@
 
 mod cli;
 mod curves;
+mod report;
 mod snapshots;

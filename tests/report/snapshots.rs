@@ -47,6 +47,8 @@ fn spice_deck() {
             "wilson",
             "--re",
             "100",
+            "--resistor",
+            "test-resistor",
         ],
     );
 }

@@ -1,0 +1,306 @@
+//! The `rank`, `check` and `cheaper` commands: read the files, resolve the named design,
+//! run the library, write the report, and say whether anything passes.
+//!
+//! Cautions go under the table in table format, and to stderr in JSON and CSV so stdout
+//! stays machine-readable. The progress bar goes to stderr, only on a terminal and only
+//! once a run has taken about a second.
+
+use std::io::{self, IsTerminal, Write};
+use std::path::PathBuf;
+use std::sync::Mutex;
+use std::time::{Duration, Instant};
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+
+use super::{load_catalog, load_requirement, AppError, Config, Outcome};
+use crate::check::{DesignSpec, MonteCarlo};
+use crate::input::did_you_mean;
+use crate::model::{Catalog, Requirement, Topology, ALL_TOPOLOGIES};
+use crate::rank::{self, render, Caution, Prefer, Progress, RankOptions};
+use crate::report::Format;
+use crate::units::{self, Dimension};
+
+/// A design as typed on the command line (names and text, not yet resolved).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct DesignArgs {
+    pub part: String,
+    pub topology: String,
+    pub helper: Option<String>,
+    /// RE1 as typed (`4k7`, `100`, `1.5 kΩ`); RE2 for a Widlar.
+    pub re: Option<String>,
+    pub resistor: Option<String>,
+}
+
+/// Arguments of `rank`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RankArgs {
+    pub file: PathBuf,
+    pub top: usize,
+    pub prefer: Prefer,
+    pub format: Format,
+    pub mc: MonteCarlo,
+    pub exhaustive: bool,
+    pub explain: Option<usize>,
+}
+
+/// Arguments of `check`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct CheckArgs {
+    pub file: PathBuf,
+    pub design: DesignArgs,
+    pub corners: bool,
+    pub format: Format,
+    pub mc: MonteCarlo,
+}
+
+/// Arguments of `cheaper`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct CheaperArgs {
+    pub file: PathBuf,
+    pub design: DesignArgs,
+    pub second_source: bool,
+    pub format: Format,
+    pub mc: MonteCarlo,
+}
+
+fn inputs(cfg: &Config, file: &std::path::Path) -> Result<(Catalog, Requirement), AppError> {
+    let (catalog, _) = load_catalog(&cfg.catalog)?;
+    let req = load_requirement(file, &catalog)?;
+    Ok((catalog, req))
+}
+
+pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outcome, AppError> {
+    let (catalog, req) = inputs(cfg, &a.file)?;
+    let opts = RankOptions {
+        top: a.top,
+        prefer: a.prefer,
+        mc: a.mc,
+        exhaustive: a.exhaustive,
+        explain: a.explain,
+    };
+    let bar = Bar::new();
+    let run = rank::rank(&req, &catalog, &opts, &bar);
+    bar.finish();
+    let report = run?.report;
+    render::write_rank(out, &report, a.format, cfg.style)?;
+    let mut cautions = report.cautions.clone();
+    if let Some(e) = &report.explain {
+        cautions.extend(
+            e.cautions
+                .iter()
+                .filter(|c| !report.cautions.contains(c))
+                .cloned(),
+        );
+    }
+    write_cautions(a.format, out, &cautions)?;
+    Ok(if report.feasible > 0 {
+        Outcome::Success
+    } else {
+        Outcome::NothingPasses
+    })
+}
+
+pub fn run_check(cfg: &Config, a: &CheckArgs, out: &mut dyn Write) -> Result<Outcome, AppError> {
+    let (catalog, req) = inputs(cfg, &a.file)?;
+    let spec = design_spec(&req, &catalog, &a.design)?;
+    let report = rank::check_design(&req, &catalog, &spec, a.mc, a.corners)?;
+    render::write_check(out, &report, a.format, cfg.style)?;
+    write_cautions(a.format, out, &report.cautions)?;
+    Ok(if report.pass {
+        Outcome::Success
+    } else {
+        Outcome::NothingPasses
+    })
+}
+
+pub fn run_cheaper(
+    cfg: &Config,
+    a: &CheaperArgs,
+    out: &mut dyn Write,
+) -> Result<Outcome, AppError> {
+    let (catalog, req) = inputs(cfg, &a.file)?;
+    let spec = design_spec(&req, &catalog, &a.design)?;
+    let bar = Bar::new();
+    let report = rank::cheaper(&req, &catalog, &spec, a.mc, a.second_source, &bar);
+    bar.finish();
+    let report = report?;
+    render::write_cheaper(out, &report, a.format, cfg.style)?;
+    write_cautions(a.format, out, &report.cautions)?;
+    Ok(if report.alternatives.is_empty() {
+        Outcome::NothingPasses
+    } else {
+        Outcome::Success
+    })
+}
+
+fn write_cautions(
+    format: Format,
+    out: &mut dyn Write,
+    cautions: &[Caution],
+) -> Result<(), AppError> {
+    if format == Format::Table {
+        writeln!(out)?;
+        render::write_cautions(out, cautions)?;
+    } else {
+        // Best effort: a closed stderr must not fail the command.
+        let _ = render::write_cautions(&mut io::stderr().lock(), cautions);
+    }
+    Ok(())
+}
+
+/// Turn typed names and values into a design, with a did-you-mean for unknown names.
+pub fn design_spec(
+    req: &Requirement,
+    catalog: &Catalog,
+    a: &DesignArgs,
+) -> Result<DesignSpec, AppError> {
+    let topology = Topology::from_name(&a.topology).ok_or_else(|| {
+        let names: Vec<&str> = ALL_TOPOLOGIES.iter().map(|t| t.name()).collect();
+        AppError::Usage(format!(
+            "--topology `{}` is not a topology{}; expected one of {}",
+            a.topology,
+            hint(did_you_mean(&a.topology, names.iter().copied())),
+            names.join(", ")
+        ))
+    })?;
+    let known = |id: &str, what: &str, flag: &str| -> Result<(), AppError> {
+        if catalog.transistor(id).is_some() {
+            return Ok(());
+        }
+        Err(AppError::Usage(format!(
+            "{flag} `{id}` is not a {what} in the catalog{}; `mirrorpick catalog list` shows the ids",
+            hint(did_you_mean(id, catalog.transistors.iter().map(|t| t.id.as_str())))
+        )))
+    };
+    known(&a.part, "transistor class", "--part")?;
+    if let Some(h) = &a.helper {
+        known(h, "transistor class", "--helper")?;
+    }
+    let resistor =
+        match &a.resistor {
+            Some(id) => Some(catalog.resistor(id).ok_or_else(|| {
+                AppError::Usage(format!(
+                "--resistor `{id}` is not a resistor class in the catalog{}; expected one of {}",
+                hint(did_you_mean(id, catalog.resistors.iter().map(|r| r.id.as_str()))),
+                catalog.resistors.iter().map(|r| r.id.as_str()).collect::<Vec<_>>().join(", ")
+            ))
+            })?),
+            None => None,
+        };
+    let re = match &a.re {
+        Some(text) => Some(
+            units::parse(text, Dimension::Resistance)
+                .map_err(|e| AppError::Usage(format!("--re `{text}`: {e}")))?,
+        ),
+        None => None,
+    };
+    if let Some(r) = re {
+        if !(r >= 0.0 && r.is_finite()) {
+            return Err(AppError::Usage(format!(
+                "--re must be a resistance of 0 Ω or more; got `{}`",
+                a.re.as_deref().unwrap_or_default()
+            )));
+        }
+    }
+    let needs_resistor = re.is_some_and(|r| r > 0.0) || topology == Topology::Widlar;
+    let resistor = match (needs_resistor, resistor) {
+        (true, None) => {
+            return Err(AppError::Usage(format!(
+                "emitter resistors need a resistor class: add --resistor with one of {}",
+                catalog
+                    .resistors
+                    .iter()
+                    .map(|r| r.id.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )))
+        }
+        (_, r) => r,
+    };
+    let (re1, re2) = if topology == Topology::Widlar {
+        let r = resistor.expect("checked above");
+        let re2 = match re {
+            Some(v) => v,
+            None => rank::widlar_re2(req, r).ok_or_else(|| {
+                AppError::Usage("a Widlar needs a ratio below 1 or an explicit --re".into())
+            })?,
+        };
+        (0.0, re2)
+    } else {
+        let re1 = re.unwrap_or(0.0);
+        let n = req.ratio;
+        let re2 = if re1 == 0.0 || (n - 1.0).abs() < 1e-9 {
+            re1
+        } else {
+            resistor
+                .and_then(|r| r.series.nearest(re1 / n))
+                .unwrap_or(re1 / n)
+        };
+        (re1, re2)
+    };
+    Ok(DesignSpec {
+        topology,
+        pair: a.part.clone(),
+        helper: a.helper.clone(),
+        re1_ohm: re1,
+        re2_ohm: re2,
+        resistor: if re1 > 0.0 || re2 > 0.0 {
+            resistor.map(|r| r.id.clone())
+        } else {
+            None
+        },
+    })
+}
+
+fn hint(s: Option<String>) -> String {
+    s.map(|s| format!(" (did you mean `{s}`?)"))
+        .unwrap_or_default()
+}
+
+/// Progress on stderr: hidden unless stderr is a terminal, and drawn only once the run
+/// has taken about a second.
+struct Bar {
+    bar: ProgressBar,
+    started: Instant,
+    shown: Mutex<bool>,
+    terminal: bool,
+}
+
+impl Bar {
+    fn new() -> Self {
+        let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+        if let Ok(style) =
+            ProgressStyle::with_template("{spinner} {pos}/{len} candidates {wide_bar} {eta}")
+        {
+            bar.set_style(style);
+        }
+        Bar {
+            bar,
+            started: Instant::now(),
+            shown: Mutex::new(false),
+            terminal: io::stderr().is_terminal(),
+        }
+    }
+
+    fn finish(&self) {
+        self.bar.finish_and_clear();
+    }
+}
+
+impl Progress for Bar {
+    fn start(&self, total: u64) {
+        self.bar.set_length(total);
+    }
+
+    fn advance(&self, n: u64) {
+        self.bar.inc(n);
+        if self.terminal && self.started.elapsed() > Duration::from_secs(1) {
+            if let Ok(mut shown) = self.shown.lock() {
+                if !*shown {
+                    *shown = true;
+                    self.bar.set_draw_target(ProgressDrawTarget::stderr());
+                }
+            }
+        }
+    }
+}

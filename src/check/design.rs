@@ -1,0 +1,353 @@
+//! A named candidate design (topology, pair class, helper class, emitter resistors,
+//! resistor class), how its transistors sit in packages, and what one mirror costs.
+//!
+//! Packaging follows MODEL.md: each matched pair sits in one package of the pair class;
+//! helpers use spare devices of a package already placed, otherwise they are singles of
+//! the helper class in their own packages. Cost is parts only (packages at their unit
+//! cost plus one resistor per emitter resistor), per mirror.
+
+use thiserror::Error;
+
+use crate::model::{Catalog, ResistorClass, Role, Topology, TransistorClass};
+
+/// A candidate as a designer names it. `re1_ohm`/`re2_ohm` are 0 when absent.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DesignSpec {
+    pub topology: Topology,
+    /// Class id of the matched pair(s).
+    pub pair: String,
+    /// Class id of the separate helper transistor(s); `None` when the topology has no
+    /// helper or the pair's package has spare devices for it.
+    pub helper: Option<String>,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+    /// Resistor class id; `None` when the design has no resistor.
+    pub resistor: Option<String>,
+}
+
+impl DesignSpec {
+    pub fn resistor_count(&self) -> u32 {
+        u32::from(self.re1_ohm > 0.0) + u32::from(self.re2_ohm > 0.0)
+    }
+}
+
+/// One package on the board and the transistors (netlist names) it holds.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Package<'a> {
+    pub class: &'a TransistorClass,
+    pub members: Vec<&'static str>,
+}
+
+/// The design's classes looked up in the catalog.
+#[derive(Debug, Clone)]
+pub struct ResolvedDesign<'a> {
+    pub spec: DesignSpec,
+    pub pair: &'a TransistorClass,
+    pub helper: Option<&'a TransistorClass>,
+    pub resistor: Option<&'a ResistorClass>,
+    pub packages: Vec<Package<'a>>,
+    pub cost: f64,
+}
+
+impl ResolvedDesign<'_> {
+    /// The package (index) holding transistor `name`.
+    pub fn package_of(&self, name: &str) -> Option<usize> {
+        self.packages.iter().position(|p| p.members.contains(&name))
+    }
+
+    /// The class of transistor `name`.
+    pub fn class_of(&self, name: &str) -> Option<&TransistorClass> {
+        self.package_of(name).map(|i| self.packages[i].class)
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum DesignError {
+    #[error("no transistor class `{0}` in the catalog")]
+    UnknownPart(String),
+    #[error("no resistor class `{0}` in the catalog")]
+    UnknownResistor(String),
+    #[error("class `{class}` is {found}, but a {kind} needs {wanted} transistors")]
+    WrongPolarity {
+        class: String,
+        found: &'static str,
+        kind: &'static str,
+        wanted: &'static str,
+    },
+    #[error("the {topology} topology needs a helper transistor and the catalog has no single-device {polarity} class; name one with --helper")]
+    NoHelper {
+        topology: &'static str,
+        polarity: &'static str,
+    },
+    #[error("helper class `{0}` must be a single-device class")]
+    HelperNotSingle(String),
+    #[error("{0}")]
+    Resistors(String),
+}
+
+/// How many helper (unmatched) transistors the topology has.
+pub fn helper_count(topology: Topology) -> usize {
+    topology
+        .desc()
+        .transistors
+        .iter()
+        .filter(|t| t.role == Role::Helper)
+        .count()
+}
+
+/// Whether helpers fit in spare devices of the pair class's packages.
+pub fn helpers_fit_in_spares(topology: Topology, pair: &TransistorClass) -> bool {
+    let (_, spares) = pair_packages(topology, pair);
+    spares >= helper_count(topology)
+}
+
+/// Number of pair-class packages and spare devices left in them.
+fn pair_packages(topology: Topology, pair: &TransistorClass) -> (usize, usize) {
+    let pairs = usize::from(topology.desc().matched_pairs);
+    let dpp = pair.devices_per_package.max(1) as usize;
+    if dpp < 2 {
+        // A pair of singles: one package per device, no spares.
+        return (2 * pairs, 0);
+    }
+    let per_package = dpp / 2;
+    let n = pairs.div_ceil(per_package);
+    (n, n * dpp - 2 * pairs)
+}
+
+/// Look up the classes of `spec`, place the transistors in packages and price it.
+///
+/// `spec.helper` names the helper class when the topology needs one; when it is `None`
+/// and the pair's packages have no spare device, the catalog's cheapest single of the
+/// same polarity is used (and written back into the returned spec).
+pub fn resolve<'a>(
+    catalog: &'a Catalog,
+    spec: &DesignSpec,
+) -> Result<ResolvedDesign<'a>, DesignError> {
+    let pair = catalog
+        .transistor(&spec.pair)
+        .ok_or_else(|| DesignError::UnknownPart(spec.pair.clone()))?;
+    let resistor = match &spec.resistor {
+        Some(id) => Some(
+            catalog
+                .resistor(id)
+                .ok_or_else(|| DesignError::UnknownResistor(id.clone()))?,
+        ),
+        None => None,
+    };
+    if spec.resistor_count() > 0 && resistor.is_none() {
+        return Err(DesignError::Resistors(
+            "emitter resistors need a resistor class (--resistor)".into(),
+        ));
+    }
+    let topology = spec.topology;
+    let desc = topology.desc();
+    if spec.re1_ohm < 0.0 || spec.re2_ohm < 0.0 {
+        return Err(DesignError::Resistors(
+            "resistances must not be negative".into(),
+        ));
+    }
+    if !desc.has_re1 && spec.re1_ohm > 0.0 {
+        return Err(DesignError::Resistors(format!(
+            "the {} topology has no RE1",
+            desc.name
+        )));
+    }
+    if topology == Topology::Widlar && spec.re2_ohm <= 0.0 {
+        return Err(DesignError::Resistors(
+            "a Widlar mirror needs RE2 greater than zero".into(),
+        ));
+    }
+    let needs_helper = helper_count(topology) > 0 && !helpers_fit_in_spares(topology, pair);
+    let helper = match (&spec.helper, needs_helper || spec.helper.is_some()) {
+        (_, false) => None,
+        (Some(id), true) => {
+            let h = catalog
+                .transistor(id)
+                .ok_or_else(|| DesignError::UnknownPart(id.clone()))?;
+            if h.devices_per_package != 1 {
+                return Err(DesignError::HelperNotSingle(id.clone()));
+            }
+            if h.polarity != pair.polarity {
+                return Err(DesignError::WrongPolarity {
+                    class: id.clone(),
+                    found: h.polarity.as_str(),
+                    kind: if pair.polarity == crate::model::Polarity::Npn {
+                        "sink"
+                    } else {
+                        "source"
+                    },
+                    wanted: pair.polarity.as_str(),
+                });
+            }
+            Some(h)
+        }
+        (None, true) => Some(catalog.cheapest_single(pair.polarity).ok_or(
+            DesignError::NoHelper {
+                topology: desc.name,
+                polarity: pair.polarity.as_str(),
+            },
+        )?),
+    };
+    let packages = place(topology, pair, helper);
+    let cost = packages.iter().map(|p| p.class.unit_cost).sum::<f64>()
+        + resistor.map_or(0.0, |r| r.unit_cost * f64::from(spec.resistor_count()));
+    let mut spec = spec.clone();
+    spec.helper = helper.map(|h| h.id.clone());
+    Ok(ResolvedDesign {
+        spec,
+        pair,
+        helper,
+        resistor,
+        packages,
+        cost,
+    })
+}
+
+/// Place every transistor of the topology in a package.
+fn place<'a>(
+    topology: Topology,
+    pair: &'a TransistorClass,
+    helper: Option<&'a TransistorClass>,
+) -> Vec<Package<'a>> {
+    let desc = topology.desc();
+    let (n_pair_packages, _) = pair_packages(topology, pair);
+    let dpp = pair.devices_per_package.max(1) as usize;
+    let mut packages: Vec<Package<'a>> = (0..n_pair_packages)
+        .map(|_| Package {
+            class: pair,
+            members: Vec::new(),
+        })
+        .collect();
+    let pairs_per_package = (dpp / 2).max(1);
+    for line in desc.transistors {
+        if let Role::Matched { pair: p, member } = line.role {
+            let idx = if dpp < 2 {
+                2 * usize::from(p) + usize::from(member)
+            } else {
+                usize::from(p) / pairs_per_package
+            };
+            packages[idx].members.push(line.name);
+        }
+    }
+    for line in desc.transistors.iter().filter(|l| l.role == Role::Helper) {
+        match helper {
+            Some(h) => packages.push(Package {
+                class: h,
+                members: vec![line.name],
+            }),
+            None => {
+                let spare = packages
+                    .iter_mut()
+                    .find(|p| p.members.len() < dpp)
+                    .expect("helpers placed in spares only when spares exist");
+                spare.members.push(line.name);
+            }
+        }
+    }
+    packages
+}
+
+#[cfg(test)]
+pub(crate) mod tests {
+    use super::*;
+    use crate::model::{BjtParams, Matching, Polarity, Ratings, ResistorClass, Series, Thermal};
+
+    pub(crate) fn class(id: &str, dpp: u32, cost: f64) -> TransistorClass {
+        TransistorClass {
+            id: id.into(),
+            summary: String::new(),
+            polarity: Polarity::Npn,
+            devices_per_package: dpp,
+            package: "SOT-363".into(),
+            model: BjtParams::new(1e-14, 200.0, Some(100.0)),
+            matching: (dpp > 1).then_some(Matching {
+                vbe_offset_sigma_v: 1e-3,
+                beta_mismatch_sigma: 0.02,
+            }),
+            ratings: Ratings {
+                vceo_v: 45.0,
+                ic_max_a: 0.1,
+                power_per_package_w: 0.3,
+            },
+            thermal: Thermal {
+                theta_self_k_per_w: 625.0,
+                theta_mutual_k_per_w: 300.0,
+            },
+            unit_cost: cost,
+            provenance: String::new(),
+        }
+    }
+
+    pub(crate) fn catalog() -> Catalog {
+        Catalog {
+            currency: "EUR".into(),
+            reference_quantity: 1000,
+            transistors: vec![
+                class("dual", 2, 0.10),
+                class("quad", 4, 0.50),
+                class("single", 1, 0.02),
+            ],
+            resistors: vec![ResistorClass {
+                id: "thick-1".into(),
+                summary: String::new(),
+                series: Series::E96,
+                tolerance: 0.01,
+                tcr_per_k: 100e-6,
+                unit_cost: 0.005,
+                provenance: String::new(),
+            }],
+        }
+    }
+
+    fn spec(t: Topology, pair: &str, re: f64) -> DesignSpec {
+        DesignSpec {
+            topology: t,
+            pair: pair.into(),
+            helper: None,
+            re1_ohm: if t == Topology::Widlar { 0.0 } else { re },
+            re2_ohm: re,
+            resistor: (re > 0.0).then(|| "thick-1".into()),
+        }
+    }
+
+    #[test]
+    fn packages_and_cost_follow_model_md_placement() {
+        let cat = catalog();
+        // Wilson on a dual: the helper is a separate single.
+        let d = resolve(&cat, &spec(Topology::Wilson, "dual", 0.0)).unwrap();
+        assert_eq!(d.packages.len(), 2);
+        assert_eq!(d.spec.helper.as_deref(), Some("single"));
+        assert!((d.cost - 0.12).abs() < 1e-12);
+        // Wilson on a quad: the helper is a spare device, one package.
+        let d = resolve(&cat, &spec(Topology::Wilson, "quad", 100.0)).unwrap();
+        assert_eq!(d.packages.len(), 1);
+        assert_eq!(d.packages[0].members.len(), 3);
+        assert_eq!(d.spec.helper, None);
+        assert!((d.cost - 0.51).abs() < 1e-12);
+        // Cascode on duals: two packages, Q1/Q2 together and Q3/Q4 together.
+        let d = resolve(&cat, &spec(Topology::Cascode, "dual", 0.0)).unwrap();
+        assert_eq!(d.packages.len(), 2);
+        assert_eq!(d.package_of("Q1"), d.package_of("Q2"));
+        assert_eq!(d.package_of("Q3"), d.package_of("Q4"));
+        assert_ne!(d.package_of("Q1"), d.package_of("Q3"));
+        // A pair of singles: one package per device.
+        let d = resolve(&cat, &spec(Topology::Simple, "single", 0.0)).unwrap();
+        assert_eq!(d.packages.len(), 2);
+        assert_ne!(d.package_of("Q1"), d.package_of("Q2"));
+        // Widlar: only RE2 is a part.
+        let d = resolve(&cat, &spec(Topology::Widlar, "dual", 4700.0)).unwrap();
+        assert!((d.cost - 0.105).abs() < 1e-12);
+    }
+
+    #[test]
+    fn bad_names_are_errors() {
+        let cat = catalog();
+        assert!(matches!(
+            resolve(&cat, &spec(Topology::Simple, "nope", 0.0)),
+            Err(DesignError::UnknownPart(_))
+        ));
+        let mut s = spec(Topology::Simple, "dual", 100.0);
+        s.resistor = None;
+        assert!(matches!(resolve(&cat, &s), Err(DesignError::Resistors(_))));
+    }
+}

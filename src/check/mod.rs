@@ -1,0 +1,58 @@
+//! Verification of one candidate design against a requirement: the operating corners,
+//! the solved figures, ratings, error budget, Monte Carlo yield and the verdicts.
+//!
+//! Everything here is a function of (requirement, catalog, design) and the solver; it
+//! never prints, reads files or ranks. `evaluate` is the only file that calls the
+//! circuit solver; the other files judge solved states and can be tested on hand-made
+//! operating points.
+
+mod budget;
+mod corners;
+mod design;
+mod evaluate;
+mod montecarlo;
+mod ratings;
+mod verdict;
+
+use std::sync::atomic::AtomicU64;
+
+pub use budget::{
+    BudgetLine, ErrorBudget, RandomCause, Sensitivities, SystematicCause, RANDOM_INPUTS,
+};
+pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
+pub use design::{
+    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, ResolvedDesign,
+};
+pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use montecarlo::linear_yield;
+pub use ratings::{
+    derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
+};
+pub use verdict::{first_failure, governing, Check, CheckName};
+
+use crate::model::{Catalog, Requirement};
+
+/// Resolve `spec` in the catalog, confirm it fits the requirement's polarity, and verify
+/// it at `depth`. Returns the resolved spec (helper filled in) and the evaluation.
+/// `solves` counts solver calls.
+pub fn verify(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    depth: Depth,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+) -> Result<(DesignSpec, Evaluation), DesignError> {
+    let d = resolve(catalog, spec)?;
+    let want = req.kind.polarity();
+    if d.pair.polarity != want {
+        return Err(DesignError::WrongPolarity {
+            class: d.pair.id.clone(),
+            found: d.pair.polarity.as_str(),
+            kind: req.kind.as_str(),
+            wanted: want.as_str(),
+        });
+    }
+    let ev = Evaluator::new(req, &d, solves).evaluate(depth, mc);
+    Ok((d.spec.clone(), ev))
+}

@@ -1,0 +1,343 @@
+//! Ranking: enumerate the candidate space, verify it (with the pruning search or
+//! exhaustively), order the feasible designs, mark the Pareto front, and build the
+//! finished reports of `rank`, `check` and `cheaper`.
+//!
+//! Builds on `check` for every verdict; prints nothing (see `render` for the formats).
+
+mod order;
+pub mod render;
+mod report;
+mod search;
+mod space;
+
+use std::collections::BTreeMap;
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use rayon::prelude::*;
+use thiserror::Error;
+
+pub use order::{pareto, sort, Prefer};
+pub use report::{
+    cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
+    CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
+    SCHEMA_VERSION,
+};
+pub use search::{search, Goal, Progress, Silent, Verdicts};
+pub use space::{enumerate, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
+
+use crate::check::{
+    self, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator, MonteCarlo,
+};
+use crate::model::{Catalog, Requirement};
+
+/// How `rank` runs.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RankOptions {
+    pub top: usize,
+    pub prefer: Prefer,
+    pub mc: MonteCarlo,
+    pub exhaustive: bool,
+    /// 1-based row to explain.
+    pub explain: Option<usize>,
+}
+
+impl Default for RankOptions {
+    fn default() -> Self {
+        RankOptions {
+            top: 10,
+            prefer: Prefer::Cost,
+            mc: MonteCarlo::default(),
+            exhaustive: false,
+            explain: None,
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum RankError {
+    #[error("--explain {k}: there {} only {feasible} feasible design{}; choose a row from 1 to {feasible}", if *.feasible == 1 { "is" } else { "are" }, if *.feasible == 1 { "" } else { "s" })]
+    ExplainOutOfRange { k: usize, feasible: usize },
+    #[error(transparent)]
+    Design(#[from] DesignError),
+}
+
+/// A finished ranking and what it was built from (for tests and `cheaper`).
+pub struct RankRun {
+    pub report: RankReport,
+    /// Every feasible candidate, in ranking order, with its verdict-depth evaluation.
+    pub ranked: Vec<(DesignSpec, Evaluation)>,
+    /// Every rejected candidate and the check it was counted under.
+    pub rejected: Vec<(DesignSpec, CheckName)>,
+}
+
+/// Rank every candidate of the requirement.
+pub fn rank(
+    req: &Requirement,
+    catalog: &Catalog,
+    opts: &RankOptions,
+    progress: &dyn Progress,
+) -> Result<RankRun, RankError> {
+    let groups = enumerate(req, catalog);
+    let goal = match opts.prefer {
+        Prefer::Cost => Goal::Cheapest(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
+        Prefer::Accuracy | Prefer::Balanced => Goal::All,
+    };
+    rank_with_goal(req, catalog, opts, goal, &groups, progress)
+}
+
+fn rank_with_goal(
+    req: &Requirement,
+    catalog: &Catalog,
+    opts: &RankOptions,
+    goal: Goal,
+    groups: &[Group],
+    progress: &dyn Progress,
+) -> Result<RankRun, RankError> {
+    let verdicts = search(
+        req,
+        catalog,
+        groups,
+        opts.exhaustive,
+        goal,
+        opts.mc,
+        progress,
+    );
+    let mut ranked = verdicts.feasible;
+    sort(&mut ranked, opts.prefer, req.accuracy);
+    let points: Vec<(f64, f64)> = ranked
+        .iter()
+        .map(|(_, e)| (e.cost, e.figures.error_total))
+        .collect();
+    let front = pareto(&points);
+    if let Some(k) = opts.explain {
+        if !ranked.is_empty() && (k == 0 || k > ranked.len()) {
+            return Err(RankError::ExplainOutOfRange {
+                k,
+                feasible: ranked.len(),
+            });
+        }
+    }
+    let extra = AtomicU64::new(0);
+    let shown = opts.top.min(ranked.len());
+    let mut wanted: Vec<usize> = (0..shown).collect();
+    if let Some(k) = opts.explain.filter(|&k| k >= 1 && k <= ranked.len()) {
+        if k > shown {
+            wanted.push(k - 1);
+        }
+    }
+    let full: Vec<(usize, Evaluation)> = wanted
+        .par_iter()
+        .map(|&i| {
+            let (spec, verdict) = &ranked[i];
+            (i, full_or(req, catalog, spec, verdict, opts.mc, &extra))
+        })
+        .collect();
+    let mut rows = Vec::with_capacity(shown);
+    let mut explain = None;
+    for (i, ev) in &full {
+        let row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
+        if opts.explain == Some(i + 1) {
+            explain = Some(Explanation::new(req, row.clone(), ev));
+        }
+        if *i < shown {
+            rows.push(row);
+        }
+    }
+    let mut rejected_by = BTreeMap::new();
+    for (_, c) in &verdicts.rejected {
+        *rejected_by.entry(*c).or_insert(0) += 1;
+    }
+    let report = RankReport {
+        schema_version: SCHEMA_VERSION,
+        requirement: req.name.clone(),
+        prefer: opts.prefer,
+        exhaustive: opts.exhaustive,
+        evaluated: ranked.len() + verdicts.rejected.len(),
+        unverified: verdicts.unverified.len(),
+        feasible: ranked.len(),
+        rejected_by,
+        seed: opts.mc.seed,
+        samples: opts.mc.samples,
+        solves: verdicts.solves + extra.load(Ordering::Relaxed),
+        cautions: cautions(req, &rows),
+        candidates: rows,
+        explain,
+    };
+    Ok(RankRun {
+        report,
+        ranked,
+        rejected: verdicts.rejected,
+    })
+}
+
+/// Full-depth evaluation of a feasible candidate for display. Extra figures never change
+/// the verdict; should one of them fail to solve, the verdict-depth evaluation is kept.
+fn full_or(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    verdict: &Evaluation,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+) -> Evaluation {
+    match resolve(catalog, spec) {
+        Ok(d) => {
+            let ev = Evaluator::new(req, &d, solves).evaluate(Depth::Full, mc);
+            if ev.complete {
+                ev
+            } else {
+                verdict.clone()
+            }
+        }
+        Err(_) => verdict.clone(),
+    }
+}
+
+/// `check`: verify one named design fully.
+pub fn check_design(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    mc: MonteCarlo,
+    with_corners: bool,
+) -> Result<CheckReport, RankError> {
+    let solves = AtomicU64::new(0);
+    let (spec, ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    let pass = ev.feasible();
+    let row = CandidateRow::new(None, &spec, &ev, false);
+    let explanation = Explanation::new(req, row.clone(), &ev);
+    Ok(CheckReport {
+        schema_version: SCHEMA_VERSION,
+        requirement: req.name.clone(),
+        seed: mc.seed,
+        samples: mc.samples,
+        candidate: row,
+        pass,
+        corners: with_corners.then_some(explanation.corners),
+        budget: explanation.budget,
+        hottest: explanation.hottest,
+        cautions: explanation.cautions,
+    })
+}
+
+/// `cheaper`: feasible designs cheaper than the named one, or (`second_source`) the best
+/// feasible design of every other transistor class at any cost.
+pub fn cheaper(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    mc: MonteCarlo,
+    second_source: bool,
+    progress: &dyn Progress,
+) -> Result<CheaperReport, RankError> {
+    let solves = AtomicU64::new(0);
+    let (spec, ref_ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    let reference = CandidateRow::new(None, &spec, &ref_ev, false);
+    let opts = RankOptions {
+        top: 0,
+        mc,
+        ..RankOptions::default()
+    };
+    let goal = if second_source {
+        Goal::CheapestPerClass
+    } else {
+        Goal::CheaperThan(ref_ev.cost)
+    };
+    let groups = enumerate(req, catalog);
+    let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
+    let governing = reference.governing_check;
+    let ref_margin = reference.governing_margin();
+    let picked: Vec<&(DesignSpec, Evaluation)> = if second_source {
+        // Best (cheapest, then largest accuracy margin) design of each other class.
+        let mut seen = Vec::new();
+        run.ranked
+            .iter()
+            .filter(|(s, _)| s.pair != spec.pair)
+            .filter(|(s, _)| {
+                if seen.contains(&s.pair) {
+                    false
+                } else {
+                    seen.push(s.pair.clone());
+                    true
+                }
+            })
+            .collect()
+    } else {
+        run.ranked
+            .iter()
+            .filter(|(_, e)| e.cost < ref_ev.cost - 1e-12)
+            .collect()
+    };
+    let alternatives: Vec<Alternative> = picked
+        .par_iter()
+        .enumerate()
+        .map(|(i, (s, verdict))| {
+            let ev = full_or(req, catalog, s, verdict, mc, &solves);
+            let row = CandidateRow::new(Some(i + 1), s, &ev, false);
+            let margin = governing
+                .and_then(|g| row.check(g).map(|c| c.margin))
+                .unwrap_or_else(|| row.governing_margin());
+            Alternative {
+                saving: ref_ev.cost - ev.cost,
+                reference_governing_check: governing,
+                margin_given_up: ref_margin - margin,
+                candidate: row,
+            }
+        })
+        .collect();
+    let nearest_failing = if alternatives.is_empty() && !second_source {
+        run.rejected
+            .iter()
+            .filter_map(|(s, c)| resolve(catalog, s).ok().map(|d| (s, c, d.cost)))
+            .filter(|(_, _, cost)| *cost < ref_ev.cost - 1e-12)
+            .max_by(|a, b| a.2.total_cmp(&b.2))
+            .map(|(s, c, cost)| NearMiss {
+                topology: s.topology.name(),
+                part: s.pair.clone(),
+                helper: s.helper.clone(),
+                re1_ohm: s.re1_ohm,
+                re2_ohm: s.re2_ohm,
+                resistor: s.resistor.clone(),
+                cost,
+                failed_check: *c,
+            })
+    } else {
+        None
+    };
+    let summary = match (second_source, alternatives.len(), &nearest_failing) {
+        (true, 0, _) => "no other transistor class meets the requirement".to_string(),
+        (true, n, _) => format!(
+            "{n} other transistor class{} meet{} the requirement",
+            if n == 1 { "" } else { "es" },
+            if n == 1 { "s" } else { "" }
+        ),
+        (false, 0, Some(m)) => format!(
+            "no cheaper design meets the requirement; the nearest cheaper one ({} {}) fails {}",
+            m.topology, m.part, m.failed_check
+        ),
+        (false, 0, None) => "no cheaper design exists in the catalog".to_string(),
+        (false, n, _) => format!(
+            "{n} cheaper design{} meet{} the requirement",
+            if n == 1 { "" } else { "s" },
+            if n == 1 { "s" } else { "" }
+        ),
+    };
+    let rows: Vec<CandidateRow> = alternatives.iter().map(|a| a.candidate.clone()).collect();
+    Ok(CheaperReport {
+        schema_version: SCHEMA_VERSION,
+        requirement: req.name.clone(),
+        mode: if second_source {
+            "second-source"
+        } else {
+            "cheaper"
+        },
+        seed: mc.seed,
+        samples: mc.samples,
+        reference_pass: ref_ev.feasible(),
+        reference,
+        alternatives,
+        nearest_failing,
+        summary,
+        cautions: cautions(req, &rows),
+    })
+}

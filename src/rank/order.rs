@@ -1,0 +1,127 @@
+//! Ordering the feasible candidates and marking the cost/error Pareto front.
+//!
+//! * `cost` (default): cheapest first; equal cost goes to the larger accuracy margin.
+//! * `accuracy`: largest accuracy margin first (every candidate already meets `max_cost`
+//!   when one is given); equal margin goes to the cheaper one.
+//! * `balanced`: smallest `cost / cheapest_cost + error_total / accuracy`. Both terms are
+//!   1 for "as cheap as the cheapest feasible design" and "uses the whole error budget",
+//!   so a design is worth 10 % more money exactly when it frees 10 points of the error
+//!   budget. On the Pareto front this picks the knee rather than either end.
+//!
+//! Remaining ties are broken by topology, class ids and resistor values, so the order is
+//! deterministic.
+
+use std::cmp::Ordering;
+
+use serde::Serialize;
+
+use crate::check::{DesignSpec, Evaluation};
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Prefer {
+    #[default]
+    Cost,
+    Accuracy,
+    Balanced,
+}
+
+impl Prefer {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Prefer::Cost => "cost",
+            Prefer::Accuracy => "accuracy",
+            Prefer::Balanced => "balanced",
+        }
+    }
+}
+
+/// Sort feasible candidates in place by the preference.
+pub fn sort(items: &mut [(DesignSpec, Evaluation)], prefer: Prefer, accuracy: f64) {
+    let cheapest = items
+        .iter()
+        .map(|(_, e)| e.cost)
+        .fold(f64::INFINITY, f64::min);
+    let score = |e: &Evaluation| {
+        let c = if cheapest > 0.0 {
+            e.cost / cheapest
+        } else {
+            1.0
+        };
+        c + e.figures.error_total / accuracy
+    };
+    items.sort_by(|(sa, a), (sb, b)| {
+        let primary = match prefer {
+            Prefer::Cost => a
+                .cost
+                .total_cmp(&b.cost)
+                .then_with(|| b.accuracy_margin().total_cmp(&a.accuracy_margin())),
+            Prefer::Accuracy => b
+                .accuracy_margin()
+                .total_cmp(&a.accuracy_margin())
+                .then_with(|| a.cost.total_cmp(&b.cost)),
+            Prefer::Balanced => score(a).total_cmp(&score(b)),
+        };
+        primary.then_with(|| tie_break(sa, sb))
+    });
+}
+
+fn tie_break(a: &DesignSpec, b: &DesignSpec) -> Ordering {
+    a.topology
+        .cmp(&b.topology)
+        .then_with(|| a.pair.cmp(&b.pair))
+        .then_with(|| a.helper.cmp(&b.helper))
+        .then_with(|| a.resistor.cmp(&b.resistor))
+        .then_with(|| a.re1_ohm.total_cmp(&b.re1_ohm))
+        .then_with(|| a.re2_ohm.total_cmp(&b.re2_ohm))
+}
+
+/// Pareto flags for (cost, error) pairs: a point is on the front when no other point is
+/// at most as costly and at most as wrong, and strictly better in one of the two.
+pub fn pareto(points: &[(f64, f64)]) -> Vec<bool> {
+    let mut idx: Vec<usize> = (0..points.len()).collect();
+    idx.sort_by(|&i, &j| {
+        points[i]
+            .0
+            .total_cmp(&points[j].0)
+            .then_with(|| points[i].1.total_cmp(&points[j].1))
+    });
+    let mut flags = vec![false; points.len()];
+    // Smallest error among strictly cheaper points.
+    let mut best_cheaper = f64::INFINITY;
+    let mut k = 0;
+    while k < idx.len() {
+        let cost = points[idx[k]].0;
+        let mut end = k;
+        while end < idx.len() && points[idx[end]].0 == cost {
+            end += 1;
+        }
+        // Within one cost level the first has the least error.
+        let level_min = points[idx[k]].1;
+        for &i in &idx[k..end] {
+            flags[i] = points[i].1 == level_min && level_min < best_cheaper;
+        }
+        best_cheaper = best_cheaper.min(level_min);
+        k = end;
+    }
+    flags
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pareto_front_by_hand() {
+        let pts = [
+            (1.0, 0.05), // cheapest: on the front
+            (1.0, 0.06), // same cost, worse: off
+            (2.0, 0.02), // on
+            (2.0, 0.02), // duplicate of a front point: on
+            (3.0, 0.03), // dearer and worse than (2, 0.02): off
+            (4.0, 0.01), // on
+        ];
+        assert_eq!(pareto(&pts), vec![true, false, true, true, false, true]);
+        assert!(pareto(&[]).is_empty());
+    }
+}

@@ -1,0 +1,557 @@
+//! Writers for the `rank`, `check` and `cheaper` reports: table, JSON and CSV. Each is a
+//! pure function from a finished report into any `io::Write`.
+//!
+//! One column list drives the table, the CSV header and the CSV rows, so they cannot
+//! drift apart. Tables use engineering notation (4.70 kΩ, 1.02 mA, 0.412 %); JSON and CSV
+//! use plain SI numbers, with the unit in the CSV column name. A missing number is `—` in
+//! tables, `null` in JSON and empty in CSV.
+
+use std::io::{self, Write};
+
+use comfy_table::{Cell, CellAlignment, Table};
+
+use super::report::{
+    CandidateRow, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation, RankReport,
+};
+use crate::check::CheckName;
+use crate::report::{new_table, Format, Style};
+use crate::units::format_prefixed;
+
+struct Column {
+    csv: &'static str,
+    title: &'static str,
+    csv_value: fn(&CandidateRow) -> String,
+    table_value: fn(&CandidateRow) -> String,
+}
+
+const COLUMNS: &[Column] = &[
+    Column {
+        csv: "rank",
+        title: "#",
+        csv_value: |r| r.rank.map_or(String::new(), |k| k.to_string()),
+        table_value: |r| r.rank.map_or("—".into(), |k| k.to_string()),
+    },
+    Column {
+        csv: "topology",
+        title: "topology",
+        csv_value: |r| r.topology.to_string(),
+        table_value: |r| r.topology.to_string(),
+    },
+    Column {
+        csv: "part",
+        title: "part",
+        csv_value: |r| r.part.clone(),
+        table_value: |r| r.part.clone(),
+    },
+    Column {
+        csv: "helper",
+        title: "helper",
+        csv_value: |r| r.helper.clone().unwrap_or_default(),
+        table_value: |r| r.helper.clone().unwrap_or_else(|| "—".into()),
+    },
+    Column {
+        csv: "re1_ohm",
+        title: "RE1",
+        csv_value: |r| num(r.re1_ohm),
+        table_value: |r| ohms(r.re1_ohm),
+    },
+    Column {
+        csv: "re2_ohm",
+        title: "RE2",
+        csv_value: |r| num(r.re2_ohm),
+        table_value: |r| ohms(r.re2_ohm),
+    },
+    Column {
+        csv: "resistor",
+        title: "resistor",
+        csv_value: |r| r.resistor.clone().unwrap_or_default(),
+        table_value: |r| r.resistor.clone().unwrap_or_else(|| "—".into()),
+    },
+    Column {
+        csv: "cost",
+        title: "cost",
+        csv_value: |r| num(r.cost),
+        table_value: |r| format!("{:.3}", r.cost),
+    },
+    Column {
+        csv: "ratio_achieved",
+        title: "ratio",
+        csv_value: |r| num(r.ratio_achieved),
+        table_value: |r| fixed(r.ratio_achieved, 4),
+    },
+    Column {
+        csv: "error_systematic",
+        title: "sys. error",
+        csv_value: |r| num(r.error_systematic),
+        table_value: |r| pct(r.error_systematic),
+    },
+    Column {
+        csv: "error_random_sigma",
+        title: "random 1σ",
+        csv_value: |r| num(r.error_random_sigma),
+        table_value: |r| pct(r.error_random_sigma),
+    },
+    Column {
+        csv: "error_total",
+        title: "total error",
+        csv_value: |r| num(r.error_total),
+        table_value: |r| pct(r.error_total),
+    },
+    Column {
+        csv: "yield",
+        title: "yield",
+        csv_value: |r| num(r.yield_fraction),
+        table_value: |r| pct(r.yield_fraction),
+    },
+    Column {
+        csv: "r_out_min_ohm",
+        title: "r_out min",
+        csv_value: |r| num(r.r_out_min_ohm),
+        table_value: |r| ohms(r.r_out_min_ohm),
+    },
+    Column {
+        csv: "compliance_v",
+        title: "compliance",
+        csv_value: |r| num(r.compliance_v),
+        table_value: |r| quantity(r.compliance_v, "V"),
+    },
+    Column {
+        csv: "v_in_max_v",
+        title: "V_in max",
+        csv_value: |r| num(r.v_in_max),
+        table_value: |r| quantity(r.v_in_max, "V"),
+    },
+    Column {
+        csv: "governing_check",
+        title: "governing",
+        csv_value: |r| r.governing_check.map_or(String::new(), |c| c.to_string()),
+        table_value: |r| r.governing_check.map_or("—".into(), |c| c.to_string()),
+    },
+    Column {
+        csv: "governing_margin",
+        title: "margin",
+        csv_value: |r| num(r.governing_margin()),
+        table_value: |r| pct(r.governing_margin()),
+    },
+    Column {
+        csv: "pareto",
+        title: "Pareto",
+        csv_value: |r| r.pareto.to_string(),
+        table_value: |r| if r.pareto { "*".into() } else { String::new() },
+    },
+];
+
+fn num(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x}")
+    } else {
+        String::new()
+    }
+}
+
+fn fixed(x: f64, decimals: usize) -> String {
+    if x.is_finite() {
+        format!("{x:.decimals$}")
+    } else {
+        "—".into()
+    }
+}
+
+fn pct(x: f64) -> String {
+    if !x.is_finite() {
+        return "—".into();
+    }
+    let p = x * 100.0;
+    let decimals = if p.abs() >= 100.0 {
+        0
+    } else if p.abs() >= 10.0 {
+        1
+    } else if p.abs() >= 1.0 {
+        2
+    } else {
+        3
+    };
+    format!("{p:.decimals$} %")
+}
+
+fn quantity(x: f64, unit: &str) -> String {
+    if x.is_finite() {
+        format_prefixed(x, unit)
+    } else {
+        "—".into()
+    }
+}
+
+fn ohms(x: f64) -> String {
+    if x == 0.0 {
+        "—".into()
+    } else {
+        quantity(x, "Ω")
+    }
+}
+
+fn check_value(name: CheckName, x: f64) -> String {
+    match name {
+        CheckName::Accuracy | CheckName::Yield => pct(x),
+        CheckName::Cost => fixed(x, 3),
+        _ if !x.is_finite() => "—".into(),
+        n => format_prefixed(x, n.unit()),
+    }
+}
+
+fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
+    let mut header: Vec<&str> = COLUMNS.iter().map(|c| c.title).collect();
+    header.extend(extra.iter().map(|(t, _)| *t));
+    let mut t = new_table(style, &header);
+    for (i, r) in rows.iter().enumerate() {
+        let mut cells: Vec<Cell> = COLUMNS
+            .iter()
+            .map(|c| Cell::new((c.table_value)(r)))
+            .collect();
+        cells.extend(extra.iter().map(|(_, v)| Cell::new(&v[i])));
+        t.add_row(cells);
+    }
+    for i in [0, 4, 5, 7, 8, 9, 10, 11, 12, 13, 14, 15, 17] {
+        if let Some(col) = t.column_mut(i) {
+            col.set_cell_alignment(CellAlignment::Right);
+        }
+    }
+    t
+}
+
+fn checks_table(style: Style, checks: &[CheckRow]) -> Table {
+    let mut t = new_table(
+        style,
+        &["check", "value", "limit", "margin", "pass", "where"],
+    );
+    for c in checks {
+        t.add_row(vec![
+            c.name.to_string(),
+            check_value(c.name, c.value),
+            check_value(c.name, c.limit),
+            pct(c.margin),
+            if c.pass { "pass" } else { "FAIL" }.to_string(),
+            c.detail.clone(),
+        ]);
+    }
+    t
+}
+
+fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
+    let mut t = new_table(
+        style,
+        &[
+            "I_in",
+            "V_out",
+            "ambient",
+            "I_out",
+            "error",
+            "random 1σ",
+            "r_out",
+            "V_in",
+            "T_j max",
+        ],
+    );
+    for c in corners {
+        t.add_row(vec![
+            quantity(c.i_in, "A"),
+            quantity(c.v_out, "V"),
+            format!("{:.1} °C", c.t_amb_c),
+            quantity(c.i_out, "A"),
+            pct(c.error),
+            pct(c.error_random_sigma),
+            quantity(c.r_out, "Ω"),
+            quantity(c.v_in, "V"),
+            format!("{:.1} °C", c.t_junction_max_c),
+        ]);
+    }
+    t
+}
+
+fn rejection_line(r: &RankReport) -> String {
+    let mut s = format!(
+        "{} candidate{} evaluated, {} feasible",
+        r.evaluated,
+        if r.evaluated == 1 { "" } else { "s" },
+        r.feasible
+    );
+    if !r.rejected_by.is_empty() {
+        let parts: Vec<String> = r
+            .rejected_by
+            .iter()
+            .map(|(c, n)| format!("{c} {n}"))
+            .collect();
+        s.push_str(&format!(
+            "; rejected by (first failing check): {}",
+            parts.join(", ")
+        ));
+    }
+    if r.unverified > 0 {
+        s.push_str(&format!(
+            "; {} more passed every screen but cost more than the rows shown, so were not verified (--exhaustive verifies all)",
+            r.unverified
+        ));
+    }
+    s
+}
+
+/// Write the rank report.
+pub fn write_rank(
+    w: &mut dyn Write,
+    r: &RankReport,
+    format: Format,
+    style: Style,
+) -> io::Result<()> {
+    match format {
+        Format::Json => json(w, r),
+        Format::Csv => csv(w, &r.candidates, &[]),
+        Format::Table => {
+            writeln!(
+                w,
+                "{}: designs by {}{}",
+                r.requirement,
+                r.prefer.as_str(),
+                if r.exhaustive {
+                    " (exhaustive search)"
+                } else {
+                    ""
+                }
+            )?;
+            if r.candidates.is_empty() {
+                writeln!(w, "No design meets every requirement.")?;
+            } else {
+                writeln!(w, "{}", candidates_table(style, &r.candidates, &[]))?;
+            }
+            writeln!(w, "{}", rejection_line(r))?;
+            writeln!(
+                w,
+                "Yield: {} Monte Carlo builds, seed {}; * = on the cost/error Pareto front; {} solves.",
+                r.samples, r.seed, r.solves
+            )?;
+            if let Some(e) = &r.explain {
+                writeln!(w)?;
+                write_explanation(w, e, style)?;
+            }
+            Ok(())
+        }
+    }
+}
+
+/// Write the full reasoning of one row (table format).
+pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io::Result<()> {
+    let c = &e.candidate;
+    writeln!(
+        w,
+        "Design {}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
+        c.rank.map_or("—".into(), |k| format!("#{k}")),
+        c.label(),
+        ohms(c.re1_ohm),
+        ohms(c.re2_ohm),
+        c.resistor.as_deref().unwrap_or("—"),
+        c.cost
+    )?;
+    writeln!(
+        w,
+        "Checks (governing: {}):",
+        c.governing_check.map_or("—".into(), |g| g.to_string())
+    )?;
+    writeln!(w, "{}", checks_table(style, &c.checks))?;
+    if !e.corners.is_empty() {
+        writeln!(w, "Corners:")?;
+        writeln!(w, "{}", corners_table(style, &e.corners))?;
+    }
+    if let Some(b) = &e.budget {
+        writeln!(
+            w,
+            "Error budget at the worst corner (I_in {}, V_out {}, ambient {:.1} °C):",
+            quantity(b.i_in, "A"),
+            quantity(b.v_out, "V"),
+            b.t_amb_c
+        )?;
+        let mut t = new_table(style, &["cause", "kind", "error"]);
+        for l in &b.systematic {
+            t.add_row(vec![l.cause.to_string(), "systematic".into(), pct(l.error)]);
+        }
+        t.add_row(vec![
+            "total".into(),
+            "systematic".into(),
+            pct(b.systematic_total),
+        ]);
+        for l in &b.random {
+            t.add_row(vec![l.cause.to_string(), "random, 1σ".into(), pct(l.error)]);
+        }
+        t.add_row(vec![
+            "total (quadrature)".into(),
+            "random, 1σ".into(),
+            pct(b.random_sigma),
+        ]);
+        writeln!(w, "{t}")?;
+    }
+    if let Some(h) = &e.hottest {
+        writeln!(
+            w,
+            "Junction temperatures at the hottest corner (I_in {}, V_out {}, ambient {:.1} °C):",
+            quantity(h.i_in, "A"),
+            quantity(h.v_out, "V"),
+            h.t_amb_c
+        )?;
+        let mut t = new_table(style, &["transistor", "T_j", "power", "V_CE", "I_C"]);
+        for j in &h.junctions {
+            t.add_row(vec![
+                j.name.clone(),
+                format!("{:.1} °C", j.t_junction_c),
+                quantity(j.power, "W"),
+                quantity(j.v_ce, "V"),
+                quantity(j.i_c, "A"),
+            ]);
+        }
+        writeln!(w, "{t}")?;
+    }
+    Ok(())
+}
+
+/// Write the check report.
+pub fn write_check(
+    w: &mut dyn Write,
+    r: &CheckReport,
+    format: Format,
+    style: Style,
+) -> io::Result<()> {
+    match format {
+        Format::Json => json(w, r),
+        Format::Csv => csv(
+            w,
+            std::slice::from_ref(&r.candidate),
+            &[("pass", vec![r.pass.to_string()])],
+        ),
+        Format::Table => {
+            writeln!(
+                w,
+                "{}: {} against the requirement: {}",
+                r.requirement,
+                r.candidate.label(),
+                if r.pass { "PASS" } else { "FAIL" }
+            )?;
+            let e = Explanation {
+                candidate: r.candidate.clone(),
+                corners: r.corners.clone().unwrap_or_default(),
+                budget: r.budget.clone(),
+                hottest: r.hottest.clone(),
+                cautions: Vec::new(),
+            };
+            write_explanation(w, &e, style)?;
+            writeln!(
+                w,
+                "Yield: {} Monte Carlo builds, seed {}.",
+                r.samples, r.seed
+            )
+        }
+    }
+}
+
+/// Write the cheaper / second-source report.
+pub fn write_cheaper(
+    w: &mut dyn Write,
+    r: &CheaperReport,
+    format: Format,
+    style: Style,
+) -> io::Result<()> {
+    let rows: Vec<CandidateRow> = r.alternatives.iter().map(|a| a.candidate.clone()).collect();
+    let saving: Vec<String> = r.alternatives.iter().map(|a| num(a.saving)).collect();
+    let given: Vec<String> = r
+        .alternatives
+        .iter()
+        .map(|a| num(a.margin_given_up))
+        .collect();
+    match format {
+        Format::Json => json(w, r),
+        Format::Csv => csv(w, &rows, &[("saving", saving), ("margin_given_up", given)]),
+        Format::Table => {
+            let c = &r.reference;
+            writeln!(
+                w,
+                "{}: reference {} (RE1 {}, RE2 {}), cost {:.3}, {}; governing {} at {}",
+                r.requirement,
+                c.label(),
+                ohms(c.re1_ohm),
+                ohms(c.re2_ohm),
+                c.cost,
+                if r.reference_pass { "passes" } else { "fails" },
+                c.governing_check.map_or("—".into(), |g| g.to_string()),
+                pct(c.governing_margin())
+            )?;
+            if !rows.is_empty() {
+                let saving: Vec<String> = r
+                    .alternatives
+                    .iter()
+                    .map(|a| format!("{:.3}", a.saving))
+                    .collect();
+                let given: Vec<String> = r
+                    .alternatives
+                    .iter()
+                    .map(|a| pct(a.margin_given_up))
+                    .collect();
+                let label = if r.mode == "second-source" {
+                    "cost saved"
+                } else {
+                    "saving"
+                };
+                writeln!(
+                    w,
+                    "{}",
+                    candidates_table(style, &rows, &[(label, saving), ("margin given up", given)])
+                )?;
+            }
+            writeln!(w, "{}.", capitalise(&r.summary))
+        }
+    }
+}
+
+/// Write cautions, one per line, under a heading.
+pub fn write_cautions(w: &mut dyn Write, cautions: &[super::report::Caution]) -> io::Result<()> {
+    if cautions.is_empty() {
+        return Ok(());
+    }
+    writeln!(w, "Cautions:")?;
+    for c in cautions {
+        writeln!(w, "  - {c}")?;
+    }
+    Ok(())
+}
+
+fn capitalise(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
+    }
+}
+
+fn json<T: serde::Serialize>(w: &mut dyn Write, v: &T) -> io::Result<()> {
+    serde_json::to_writer_pretty(&mut *w, v).map_err(io::Error::other)?;
+    writeln!(w)
+}
+
+fn csv(w: &mut dyn Write, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> io::Result<()> {
+    let mut header: Vec<&str> = COLUMNS.iter().map(|c| c.csv).collect();
+    header.extend(extra.iter().map(|(h, _)| *h));
+    writeln!(w, "{}", header.join(","))?;
+    for (i, r) in rows.iter().enumerate() {
+        let mut cells: Vec<String> = COLUMNS
+            .iter()
+            .map(|c| csv_field(&(c.csv_value)(r)))
+            .collect();
+        cells.extend(extra.iter().map(|(_, v)| csv_field(&v[i])));
+        writeln!(w, "{}", cells.join(","))?;
+    }
+    Ok(())
+}
+
+/// RFC 4180 quoting when a field needs it.
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}

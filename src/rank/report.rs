@@ -1,0 +1,440 @@
+//! The finished reports of `rank`, `check` and `cheaper`: plain serde data that every
+//! output format is written from. Field names are the JSON keys; numbers are SI (ohms,
+//! volts, amperes, watts), errors and yields fractions, temperatures °C (`_c` fields) as
+//! in the `solve` report.
+
+use std::collections::BTreeMap;
+use std::fmt;
+
+use serde::{Serialize, Serializer};
+
+use crate::check::{
+    Check, CheckName, CornerRow, CornerState, DesignSpec, ErrorBudget, Evaluation, RandomCause,
+    SystematicCause, VCEO_DERATING,
+};
+use crate::model::{LoadKind, Requirement, ZERO_CELSIUS_K};
+
+use super::order::Prefer;
+
+/// Bumped whenever a key changes meaning or disappears.
+pub const SCHEMA_VERSION: u32 = 1;
+
+/// One judged check as reported.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CheckRow {
+    pub name: CheckName,
+    pub value: f64,
+    pub limit: f64,
+    pub margin: f64,
+    pub pass: bool,
+    pub detail: String,
+}
+
+impl From<&Check> for CheckRow {
+    fn from(c: &Check) -> Self {
+        CheckRow {
+            name: c.name,
+            value: c.value,
+            limit: c.limit,
+            margin: c.margin,
+            pass: c.pass,
+            detail: c.detail.clone(),
+        }
+    }
+}
+
+/// One candidate design and its figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CandidateRow {
+    /// Position in the ranking (1-based); `None` outside a ranking.
+    pub rank: Option<usize>,
+    pub topology: &'static str,
+    pub part: String,
+    pub helper: Option<String>,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+    pub resistor: Option<String>,
+    pub cost: f64,
+    pub ratio_achieved: f64,
+    pub error_systematic: f64,
+    pub error_random_sigma: f64,
+    pub error_total: f64,
+    #[serde(rename = "yield")]
+    pub yield_fraction: f64,
+    pub r_out_min_ohm: f64,
+    pub compliance_v: f64,
+    pub v_in_max: f64,
+    pub governing_check: Option<CheckName>,
+    pub pareto: bool,
+    pub checks: Vec<CheckRow>,
+}
+
+impl CandidateRow {
+    pub fn new(rank: Option<usize>, spec: &DesignSpec, ev: &Evaluation, pareto: bool) -> Self {
+        let f = &ev.figures;
+        CandidateRow {
+            rank,
+            topology: spec.topology.name(),
+            part: spec.pair.clone(),
+            helper: spec.helper.clone(),
+            re1_ohm: spec.re1_ohm,
+            re2_ohm: spec.re2_ohm,
+            resistor: spec.resistor.clone(),
+            cost: ev.cost,
+            ratio_achieved: f.ratio_achieved,
+            error_systematic: f.error_systematic,
+            error_random_sigma: f.error_random_sigma,
+            error_total: f.error_total,
+            yield_fraction: f.yield_fraction,
+            r_out_min_ohm: f.r_out_min_ohm,
+            compliance_v: f.compliance_v,
+            v_in_max: f.v_in_max_v,
+            governing_check: ev.governing().map(|c| c.name),
+            pareto,
+            checks: ev.checks.iter().map(CheckRow::from).collect(),
+        }
+    }
+
+    pub fn check(&self, name: CheckName) -> Option<&CheckRow> {
+        self.checks.iter().find(|c| c.name == name)
+    }
+
+    pub fn governing_margin(&self) -> f64 {
+        self.governing_check
+            .and_then(|g| self.check(g))
+            .map_or(f64::NAN, |c| c.margin)
+    }
+
+    /// A short human name: `wilson npn-dual-matched RE 1.00k/1.00k thick-1`.
+    pub fn label(&self) -> String {
+        let mut s = format!("{} {}", self.topology, self.part);
+        if let Some(h) = &self.helper {
+            s.push_str(&format!(" + {h}"));
+        }
+        s
+    }
+}
+
+/// One corner of the corner table.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CornerLine {
+    pub i_in: f64,
+    pub v_out: f64,
+    pub t_amb_c: f64,
+    pub i_out: f64,
+    pub error: f64,
+    pub error_random_sigma: f64,
+    pub r_out: f64,
+    pub v_in: f64,
+    pub t_junction_max_c: f64,
+}
+
+impl From<&CornerRow> for CornerLine {
+    fn from(r: &CornerRow) -> Self {
+        CornerLine {
+            i_in: r.corner.i_in_a,
+            v_out: r.corner.v_out_v,
+            t_amb_c: r.corner.t_amb_k - ZERO_CELSIUS_K,
+            i_out: r.i_out_a,
+            error: r.error,
+            error_random_sigma: r.error_random_sigma,
+            r_out: r.r_out_ohm,
+            v_in: r.v_in_v,
+            t_junction_max_c: r.t_junction_max_k - ZERO_CELSIUS_K,
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BudgetItem {
+    pub cause: &'static str,
+    pub error: f64,
+}
+
+/// The error budget at the worst corner.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BudgetReport {
+    pub i_in: f64,
+    pub v_out: f64,
+    pub t_amb_c: f64,
+    /// Signed systematic error by cause; the lines add up to `systematic_total`.
+    pub systematic: Vec<BudgetItem>,
+    pub systematic_total: f64,
+    /// 1-sigma random error by cause; they add in quadrature to `random_sigma`.
+    pub random: Vec<BudgetItem>,
+    pub random_sigma: f64,
+}
+
+impl From<&ErrorBudget> for BudgetReport {
+    fn from(b: &ErrorBudget) -> Self {
+        BudgetReport {
+            i_in: b.corner.i_in_a,
+            v_out: b.corner.v_out_v,
+            t_amb_c: b.corner.t_amb_k - ZERO_CELSIUS_K,
+            systematic: b
+                .systematic
+                .iter()
+                .map(|l| BudgetItem {
+                    cause: SystematicCause::as_str(l.cause),
+                    error: l.error,
+                })
+                .collect(),
+            systematic_total: b.systematic_total,
+            random: b
+                .random
+                .iter()
+                .map(|l| BudgetItem {
+                    cause: RandomCause::as_str(l.cause),
+                    error: l.error,
+                })
+                .collect(),
+            random_sigma: b.random_sigma,
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Junction {
+    pub name: String,
+    pub t_junction_c: f64,
+    pub power: f64,
+    pub v_ce: f64,
+    pub i_c: f64,
+}
+
+/// Junction temperatures at the corner with the hottest junction.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HottestCorner {
+    pub i_in: f64,
+    pub v_out: f64,
+    pub t_amb_c: f64,
+    pub junctions: Vec<Junction>,
+}
+
+impl From<&CornerState> for HottestCorner {
+    fn from(s: &CornerState) -> Self {
+        HottestCorner {
+            i_in: s.corner.i_in_a,
+            v_out: s.corner.v_out_v,
+            t_amb_c: s.corner.t_amb_k - ZERO_CELSIUS_K,
+            junctions: s
+                .devices
+                .iter()
+                .map(|d| Junction {
+                    name: d.name.to_string(),
+                    t_junction_c: d.t_junction_k - ZERO_CELSIUS_K,
+                    power: d.power_w(),
+                    v_ce: d.v_ce_v,
+                    i_c: d.i_c_a,
+                })
+                .collect(),
+        }
+    }
+}
+
+/// A caution shown with results (stderr in machine formats).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Caution {
+    /// A package runs above half its derated dissipation rating.
+    Dissipation {
+        who: String,
+        fraction: f64,
+    },
+    /// A transistor runs within 20 % of its derated VCEO.
+    NearVceo {
+        who: String,
+        fraction: f64,
+    },
+    LightSource(LoadKind),
+    HighVoltage {
+        supply_v: f64,
+    },
+    /// Always shown: catalog values are typical, not guaranteed.
+    TypicalValues,
+}
+
+/// Supplies at or above this are called out (common practice, no source: the usual
+/// extra-low-voltage boundary for DC is higher, but discrete mirrors above it need
+/// creepage and rating care).
+pub const HIGH_VOLTAGE_V: f64 = 50.0;
+
+impl fmt::Display for Caution {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Caution::Dissipation { who, fraction } => write!(
+                f,
+                "{who}: a package dissipates {:.0} % of its derated rating at the worst corner; check the layout's copper and the datasheet's thermal data",
+                fraction * 100.0
+            ),
+            Caution::NearVceo { who, fraction } => write!(
+                f,
+                "{who}: a transistor sees {:.0} % of its derated VCEO ({:.0} % of the rating); allow for supply transients",
+                fraction * 100.0,
+                fraction * VCEO_DERATING * 100.0
+            ),
+            Caution::LightSource(load) => write!(
+                f,
+                "the load is a {}: an open or shorted string or a current step can destroy it or, for lasers, harm eyes; add protection and follow the emitter's datasheet and the applicable safety standard",
+                if *load == LoadKind::Laser { "laser" } else { "LED string" }
+            ),
+            Caution::HighVoltage { supply_v } => write!(
+                f,
+                "the supply is {supply_v:.0} V: mind clearances, ratings at temperature and safe handling"
+            ),
+            Caution::TypicalValues => f.write_str(
+                "catalog values are typical of each class, not guaranteed: confirm with the datasheet of the part you buy, and follow local codes and licensed engineering practice",
+            ),
+        }
+    }
+}
+
+impl Serialize for Caution {
+    fn serialize<S: Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
+
+/// The cautions that apply to shown rows and the requirement.
+pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
+    let mut out = Vec::new();
+    for r in rows {
+        let who = match r.rank {
+            Some(k) => format!("#{k} {}", r.label()),
+            None => r.label(),
+        };
+        if let Some(c) = r.check(CheckName::Dissipation) {
+            let fraction = c.value / c.limit;
+            if fraction > 0.5 {
+                out.push(Caution::Dissipation {
+                    who: who.clone(),
+                    fraction,
+                });
+            }
+        }
+        if let Some(c) = r.check(CheckName::Vceo) {
+            let fraction = c.value / c.limit;
+            if fraction > 0.8 {
+                out.push(Caution::NearVceo { who, fraction });
+            }
+        }
+    }
+    if matches!(req.load, LoadKind::Led | LoadKind::Laser) {
+        out.push(Caution::LightSource(req.load));
+    }
+    if req.supply_v >= HIGH_VOLTAGE_V {
+        out.push(Caution::HighVoltage {
+            supply_v: req.supply_v,
+        });
+    }
+    out.push(Caution::TypicalValues);
+    out
+}
+
+/// Full reasoning for one row.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Explanation {
+    pub candidate: CandidateRow,
+    pub corners: Vec<CornerLine>,
+    pub budget: Option<BudgetReport>,
+    pub hottest: Option<HottestCorner>,
+    pub cautions: Vec<Caution>,
+}
+
+impl Explanation {
+    pub fn new(req: &Requirement, row: CandidateRow, ev: &Evaluation) -> Self {
+        let cautions = cautions(req, std::slice::from_ref(&row));
+        Explanation {
+            candidate: row,
+            corners: ev.corners.iter().map(CornerLine::from).collect(),
+            budget: ev.budget.as_ref().map(BudgetReport::from),
+            hottest: ev.hottest.as_ref().map(HottestCorner::from),
+            cautions,
+        }
+    }
+}
+
+/// What `rank` prints.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RankReport {
+    pub schema_version: u32,
+    pub requirement: String,
+    pub prefer: Prefer,
+    pub exhaustive: bool,
+    /// Candidates judged: verified, or rejected by a screen that proves the failure.
+    pub evaluated: usize,
+    pub feasible: usize,
+    /// Candidates that passed every screen but cost more than the shown rows need, so
+    /// were not verified (0 with `--exhaustive` or a non-cost preference).
+    pub unverified: usize,
+    /// Rejected candidates by the check each was counted under, in check order.
+    pub rejected_by: BTreeMap<CheckName, usize>,
+    pub seed: u64,
+    pub samples: u32,
+    /// Solver calls made by the search and the shown rows.
+    pub solves: u64,
+    pub candidates: Vec<CandidateRow>,
+    pub explain: Option<Explanation>,
+    pub cautions: Vec<Caution>,
+}
+
+/// What `check` prints: one candidate plus the overall verdict.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CheckReport {
+    pub schema_version: u32,
+    pub requirement: String,
+    pub seed: u64,
+    pub samples: u32,
+    #[serde(flatten)]
+    pub candidate: CandidateRow,
+    pub pass: bool,
+    /// The corner table, when asked for.
+    pub corners: Option<Vec<CornerLine>>,
+    pub budget: Option<BudgetReport>,
+    pub hottest: Option<HottestCorner>,
+    pub cautions: Vec<Caution>,
+}
+
+/// A design offered by `cheaper`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Alternative {
+    #[serde(flatten)]
+    pub candidate: CandidateRow,
+    /// Reference cost minus this design's cost (negative when dearer).
+    pub saving: f64,
+    /// The check that governs the reference design.
+    pub reference_governing_check: Option<CheckName>,
+    /// Margin on that check: reference minus this design (positive = margin given up).
+    pub margin_given_up: f64,
+}
+
+/// The nearest cheaper design that fails, and why.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NearMiss {
+    pub topology: &'static str,
+    pub part: String,
+    pub helper: Option<String>,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+    pub resistor: Option<String>,
+    pub cost: f64,
+    pub failed_check: CheckName,
+}
+
+/// What `cheaper` prints.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CheaperReport {
+    pub schema_version: u32,
+    pub requirement: String,
+    /// `cheaper` or `second-source`.
+    pub mode: &'static str,
+    pub seed: u64,
+    pub samples: u32,
+    pub reference: CandidateRow,
+    pub reference_pass: bool,
+    pub alternatives: Vec<Alternative>,
+    /// Set when there is no alternative: the nearest cheaper design and its failing check.
+    pub nearest_failing: Option<NearMiss>,
+    /// One plain sentence on the outcome.
+    pub summary: String,
+    pub cautions: Vec<Caution>,
+}

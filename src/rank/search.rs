@@ -1,0 +1,337 @@
+//! The search: verify every candidate (exhaustive) or skip the hopeless ones first
+//! (default), in parallel.
+//!
+//! The default search never skips a candidate that could be feasible, under two
+//! monotone facts about emitter degeneration within a group (same topology, pair class
+//! and resistor class, ascending resistor value):
+//! * the drop across RE only grows with RE, so if a value breaks compliance (or the input
+//!   voltage limit) every larger one does too: binary search for the largest value that
+//!   passes, one solve per step;
+//! * the V_BE-offset term `dvbe / (V_T + I*R_E)` only shrinks with RE, and `k` times it at
+//!   one corner is a lower bound of the total error: binary search for the smallest value
+//!   whose bound is within the accuracy requirement, two solves per step.
+//!
+//! Candidates over `max_cost` are rejected before any solve (cost needs none). The rest
+//! are verified with an early stop at the first corner that already breaks accuracy,
+//! which only ever stops candidates that fail. Survivors get the same verdict as in the
+//! exhaustive search (same code path), so the feasible set, and hence any ranking of it,
+//! is the same. The test suite checks that on every shipped example.
+//!
+//! Skipped candidates are counted under the check that bounded them (cost, compliance,
+//! input voltage or accuracy), which they fail; the exhaustive search counts each under
+//! the first check it fails, so the two can differ in the rejection counts only.
+
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use rayon::prelude::*;
+
+use super::space::Group;
+use crate::check::{resolve, CheckName, Depth, DesignSpec, Evaluation, Evaluator, MonteCarlo};
+use crate::model::{Catalog, Requirement};
+
+/// Reports search progress (a progress bar in the CLI). Called from worker threads.
+pub trait Progress: Sync {
+    fn start(&self, total_candidates: u64);
+    fn advance(&self, candidates: u64);
+}
+
+/// No progress display.
+pub struct Silent;
+
+impl Progress for Silent {
+    fn start(&self, _: u64) {}
+    fn advance(&self, _: u64) {}
+}
+
+/// What the ranking needs verified; the default search verifies only that much.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Goal {
+    /// The `n` cheapest feasible designs (and every feasible design as cheap as the
+    /// `n`-th, so ties and Pareto flags are exact).
+    Cheapest(usize),
+    /// Every feasible design cheaper than this cost.
+    CheaperThan(f64),
+    /// The cheapest feasible design(s) of every transistor class.
+    CheapestPerClass,
+    /// Every feasible design.
+    All,
+}
+
+/// The verdict on every candidate.
+pub struct Verdicts {
+    /// Feasible candidates with their verdict-depth evaluation, in enumeration order.
+    pub feasible: Vec<(DesignSpec, Evaluation)>,
+    /// Rejected candidates and the check each was counted under, in enumeration order.
+    pub rejected: Vec<(DesignSpec, CheckName)>,
+    /// Candidates passing every screen that the goal did not need verified (they cost
+    /// more than what the goal asks for). Always empty in an exhaustive search.
+    pub unverified: Vec<DesignSpec>,
+    /// Solver calls made.
+    pub solves: u64,
+}
+
+enum Outcome {
+    Feasible(Box<Evaluation>),
+    Rejected(CheckName),
+    /// Passed every screen; not yet verified.
+    Survivor(f64),
+}
+
+/// Judge the candidates of `groups`: every one when `exhaustive`, otherwise enough to
+/// meet `goal` exactly.
+pub fn search(
+    req: &Requirement,
+    catalog: &Catalog,
+    groups: &[Group],
+    exhaustive: bool,
+    goal: Goal,
+    mc: MonteCarlo,
+    progress: &dyn Progress,
+) -> Verdicts {
+    let solves = AtomicU64::new(0);
+    progress.start(groups.iter().map(|g| g.specs.len() as u64).sum());
+    let per_group: Vec<Vec<(DesignSpec, Outcome)>> = groups
+        .par_iter()
+        .map(|g| {
+            let out = if exhaustive {
+                judge_all(req, catalog, &g.specs, Depth::Verdict, mc, &solves)
+            } else {
+                screen_group(req, catalog, g, &solves)
+            };
+            let done = out
+                .iter()
+                .filter(|(_, o)| !matches!(o, Outcome::Survivor(_)))
+                .count();
+            progress.advance(done as u64);
+            out
+        })
+        .collect();
+    let mut v = Verdicts {
+        feasible: Vec::new(),
+        rejected: Vec::new(),
+        unverified: Vec::new(),
+        solves: 0,
+    };
+    let mut survivors: Vec<(usize, DesignSpec, f64)> = Vec::new();
+    for (k, (spec, outcome)) in per_group.into_iter().flatten().enumerate() {
+        match outcome {
+            Outcome::Feasible(ev) => v.feasible.push((spec, *ev)),
+            Outcome::Rejected(c) => v.rejected.push((spec, c)),
+            Outcome::Survivor(cost) => survivors.push((k, spec, cost)),
+        }
+    }
+    verify_survivors(req, catalog, survivors, goal, mc, &solves, progress, &mut v);
+    v.solves = solves.load(Ordering::Relaxed);
+    v
+}
+
+/// Verify survivors cost level by cost level (per class for `CheapestPerClass`) until
+/// the goal is met; a level is always verified whole, so ties are exact.
+#[allow(clippy::too_many_arguments)]
+fn verify_survivors(
+    req: &Requirement,
+    catalog: &Catalog,
+    mut survivors: Vec<Survivor>,
+    goal: Goal,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    v: &mut Verdicts,
+) {
+    survivors.sort_by(|a, b| a.2.total_cmp(&b.2).then(a.0.cmp(&b.0)));
+    // Buckets: one, or one per pair class.
+    let mut buckets: Vec<(Option<String>, Vec<Survivor>)> = Vec::new();
+    for s in survivors {
+        let key = (goal == Goal::CheapestPerClass).then(|| s.1.pair.clone());
+        match buckets.iter_mut().find(|(k, _)| *k == key) {
+            Some((_, b)) => b.push(s),
+            None => buckets.push((key, vec![s])),
+        }
+    }
+    let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
+    for (_, bucket) in buckets {
+        let mut found = 0usize;
+        let mut i = 0;
+        while i < bucket.len() {
+            let cost = bucket[i].2;
+            let done = match goal {
+                Goal::Cheapest(n) => found >= n,
+                Goal::CheaperThan(c) => cost >= c - 1e-12,
+                Goal::CheapestPerClass => found >= 1,
+                Goal::All => false,
+            };
+            let mut end = i;
+            while end < bucket.len() && bucket[end].2 == cost {
+                end += 1;
+            }
+            if done {
+                results.extend(bucket[i..].iter().map(|(k, s, _)| (*k, s.clone(), None)));
+                break;
+            }
+            let level: Vec<(usize, DesignSpec, Option<Outcome>)> = bucket[i..end]
+                .par_iter()
+                .map(|(k, spec, _)| {
+                    let o = resolve(catalog, spec).ok().map(|d| {
+                        outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc))
+                    });
+                    (*k, spec.clone(), o)
+                })
+                .collect();
+            progress.advance((end - i) as u64);
+            found += level
+                .iter()
+                .filter(|(_, _, o)| matches!(o, Some(Outcome::Feasible(_))))
+                .count();
+            results.extend(level);
+            i = end;
+        }
+    }
+    results.sort_by_key(|r| r.0);
+    // Merge back in enumeration order.
+    let mut feasible: Vec<(usize, DesignSpec, Evaluation)> = Vec::new();
+    let mut rejected: Vec<(usize, DesignSpec, CheckName)> = Vec::new();
+    for (k, spec, o) in results {
+        match o {
+            Some(Outcome::Feasible(ev)) => feasible.push((k, spec, *ev)),
+            Some(Outcome::Rejected(c)) => rejected.push((k, spec, c)),
+            Some(Outcome::Survivor(_)) | None => v.unverified.push(spec),
+        }
+    }
+    v.feasible
+        .extend(feasible.into_iter().map(|(_, s, e)| (s, e)));
+    v.rejected
+        .extend(rejected.into_iter().map(|(_, s, c)| (s, c)));
+}
+
+/// A screened candidate: enumeration index, spec, cost.
+type Survivor = (usize, DesignSpec, f64);
+
+fn outcome(ev: Evaluation) -> Outcome {
+    match ev.first_failure() {
+        None if ev.feasible() => Outcome::Feasible(Box::new(ev)),
+        Some(c) => Outcome::Rejected(c),
+        None => Outcome::Rejected(CheckName::NoConvergence),
+    }
+}
+
+fn judge_all(
+    req: &Requirement,
+    catalog: &Catalog,
+    specs: &[DesignSpec],
+    depth: Depth,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+) -> Vec<(DesignSpec, Outcome)> {
+    specs
+        .par_iter()
+        .filter_map(|spec| {
+            let d = resolve(catalog, spec).ok()?;
+            let ev = Evaluator::new(req, &d, solves).evaluate(depth, mc);
+            Some((d.spec.clone(), outcome(ev)))
+        })
+        .collect()
+}
+
+/// Screens one group: proven rejections, and survivors (with their cost) to verify.
+fn screen_group(
+    req: &Requirement,
+    catalog: &Catalog,
+    g: &Group,
+    solves: &AtomicU64,
+) -> Vec<(DesignSpec, Outcome)> {
+    let n = g.specs.len();
+    let Some(first) = g.specs.first().and_then(|s| resolve(catalog, s).ok()) else {
+        return Vec::new();
+    };
+    // Every member of a group costs the same (resistor price does not depend on value).
+    let cost = first.cost;
+    if req.max_cost.is_some_and(|max| cost > max) {
+        return reject(&g.specs, 0..n, CheckName::Cost, catalog);
+    }
+    let survivors = |range: std::ops::Range<usize>| -> Vec<(DesignSpec, Outcome)> {
+        g.specs[range]
+            .iter()
+            .map(|s| {
+                let spec = resolve(catalog, s).map_or_else(|_| s.clone(), |d| d.spec);
+                (spec, Outcome::Survivor(cost))
+            })
+            .collect()
+    };
+    if n == 1 {
+        return survivors(0..1);
+    }
+    let probe = |i: usize, f: &dyn Fn(&Evaluator) -> bool| -> bool {
+        match resolve(catalog, &g.specs[i]) {
+            Ok(d) => f(&Evaluator::new(req, &d, solves)),
+            Err(_) => false,
+        }
+    };
+    // Compliance and input voltage: a passing prefix.
+    let comp_end = prefix_len(n, |i| probe(i, &|e| e.compliance_ok()));
+    let input_end = prefix_len(comp_end, |i| probe(i, &|e| e.input_voltage_ok()));
+    // V_BE-offset bound: a failing prefix. A failed solve is not a proof of failure.
+    let acc_start = prefix_len(input_end, |i| {
+        probe(i, &|e| {
+            e.vbe_offset_bound().is_some_and(|b| b > req.accuracy)
+        })
+    });
+    let mut out = reject(&g.specs, 0..acc_start, CheckName::Accuracy, catalog);
+    out.extend(survivors(acc_start..input_end));
+    out.extend(reject(
+        &g.specs,
+        input_end..comp_end,
+        CheckName::InputVoltage,
+        catalog,
+    ));
+    out.extend(reject(
+        &g.specs,
+        comp_end..n,
+        CheckName::Compliance,
+        catalog,
+    ));
+    out
+}
+
+fn reject(
+    specs: &[DesignSpec],
+    range: std::ops::Range<usize>,
+    check: CheckName,
+    catalog: &Catalog,
+) -> Vec<(DesignSpec, Outcome)> {
+    specs[range]
+        .iter()
+        .map(|s| {
+            let spec = resolve(catalog, s).map_or_else(|_| s.clone(), |d| d.spec);
+            (spec, Outcome::Rejected(check))
+        })
+        .collect()
+}
+
+/// Length of the prefix of `0..n` on which `pred` holds, `pred` being true on a prefix
+/// and false after it (binary search, `log2(n) + 1` calls at most).
+fn prefix_len(n: usize, pred: impl Fn(usize) -> bool) -> usize {
+    let (mut lo, mut hi) = (0, n);
+    while lo < hi {
+        let mid = lo + (hi - lo) / 2;
+        if pred(mid) {
+            lo = mid + 1;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn prefix_len_finds_the_boundary() {
+        for n in 0..40 {
+            for k in 0..=n {
+                assert_eq!(prefix_len(n, |i| i < k), k);
+            }
+        }
+    }
+}

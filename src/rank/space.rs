@@ -1,0 +1,195 @@
+//! The candidate space: topology x transistor class x degeneration x resistor class.
+//!
+//! Candidates come in groups that share everything but the emitter resistor value
+//! (topology, pair class, helper, resistor class), sorted by ascending RE1 (RE2 for a
+//! Widlar), so the search can exploit what degeneration does monotonically: more of it
+//! means less V_BE-offset error and less headroom.
+//!
+//! What is generated, and why:
+//! * Pair classes are the requirement's polarity (`kind`). Classes with two or more
+//!   devices per package are matched pairs in one package. Single-device classes also
+//!   form a pair of two separate packages with the catalog's "unrelated singles"
+//!   statistics and no thermal coupling: designers do build mirrors that way with enough
+//!   degeneration, so it is a real option, not a filler.
+//! * Helpers are spare devices of the pair's package when it has them, otherwise the
+//!   cheapest permitted single of the same polarity.
+//! * Degeneration: none, or every standard value of each resistor class's series from
+//!   1 ohm up to `V_out,min / I_in,max` (and `input_voltage_max / I_in,max`): above that the
+//!   drop across RE alone breaks compliance (or the input limit), whatever V_BE is.
+//! * A ratio n != 1: RE2 = RE1/n rounded to the nearest standard value (a 1:1 pair cannot
+//!   give n, so there is no undegenerated candidate), or a Widlar when n < 1 with RE2
+//!   solved from `I_out*RE2 = V_T ln(I_in/I_out)` at the design current and 25 °C.
+//! * `allow`/`deny`: topology names filter topologies; class ids filter transistor and
+//!   resistor classes. An `allow` list applies to transistor classes only if it names
+//!   one, and to resistor classes only if it names one, so "allow: [npn-dual-matched]"
+//!   does not forbid every resistor.
+
+use crate::check::{design_current, helper_count, helpers_fit_in_spares, DesignSpec, ROOM_K};
+use crate::model::{
+    Catalog, Filters, Requirement, ResistorClass, Topology, TransistorClass, ALL_TOPOLOGIES,
+};
+
+/// Smallest emitter resistor considered (ohms).
+pub const RE_MIN_OHM: f64 = 1.0;
+
+/// Candidates sharing everything but the resistor value, ascending in it.
+#[derive(Debug, Clone)]
+pub struct Group {
+    pub topology: Topology,
+    pub pair: String,
+    pub resistor: Option<String>,
+    pub specs: Vec<DesignSpec>,
+}
+
+/// Every candidate of the requirement, in deterministic order.
+pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
+    let polarity = req.kind.polarity();
+    let names_transistor = req
+        .classes
+        .allow
+        .iter()
+        .any(|a| catalog.transistor(a).is_some());
+    let names_resistor = req
+        .classes
+        .allow
+        .iter()
+        .any(|a| catalog.resistor(a).is_some());
+    let t_allowed = class_filter(&req.classes, names_transistor);
+    let r_allowed = class_filter(&req.classes, names_resistor);
+    let pairs: Vec<&TransistorClass> = catalog
+        .transistors
+        .iter()
+        .filter(|t| t.polarity == polarity && t_allowed(&t.id))
+        .collect();
+    let resistors: Vec<&ResistorClass> = catalog
+        .resistors
+        .iter()
+        .filter(|r| r_allowed(&r.id))
+        .collect();
+    let helper = catalog
+        .transistors
+        .iter()
+        .filter(|t| t.polarity == polarity && t.devices_per_package == 1 && t_allowed(&t.id))
+        .min_by(|a, b| {
+            a.unit_cost
+                .total_cmp(&b.unit_cost)
+                .then_with(|| a.id.cmp(&b.id))
+        });
+    let n = req.ratio;
+    let unity = (n - 1.0).abs() < 1e-9;
+    let mut re_max = req.output_voltage_v.min / req.input_current_a.max;
+    if let Some(v) = req.input_voltage_max_v {
+        re_max = re_max.min(v / req.input_current_a.max);
+    }
+
+    let mut groups = Vec::new();
+    for topology in ALL_TOPOLOGIES {
+        if !req.topologies.permits(topology.name()) {
+            continue;
+        }
+        if topology == Topology::Widlar && n >= 1.0 {
+            continue;
+        }
+        for pair in &pairs {
+            let helper_id = if helper_count(topology) > 0 && !helpers_fit_in_spares(topology, pair)
+            {
+                match helper {
+                    Some(h) => Some(h.id.clone()),
+                    None => continue,
+                }
+            } else {
+                None
+            };
+            let spec = |re1: f64, re2: f64, r: Option<&ResistorClass>| DesignSpec {
+                topology,
+                pair: pair.id.clone(),
+                helper: helper_id.clone(),
+                re1_ohm: re1,
+                re2_ohm: re2,
+                resistor: r.map(|r| r.id.clone()),
+            };
+            if topology == Topology::Widlar {
+                for r in &resistors {
+                    if let Some(re2) = widlar_re2(req, r) {
+                        groups.push(Group {
+                            topology,
+                            pair: pair.id.clone(),
+                            resistor: Some(r.id.clone()),
+                            specs: vec![spec(0.0, re2, Some(r))],
+                        });
+                    }
+                }
+                continue;
+            }
+            if unity {
+                groups.push(Group {
+                    topology,
+                    pair: pair.id.clone(),
+                    resistor: None,
+                    specs: vec![spec(0.0, 0.0, None)],
+                });
+            }
+            for r in &resistors {
+                let specs: Vec<DesignSpec> = r
+                    .series
+                    .values_between(RE_MIN_OHM, re_max)
+                    .into_iter()
+                    .filter_map(|re1| {
+                        let re2 = if unity {
+                            re1
+                        } else {
+                            r.series.nearest(re1 / n)?
+                        };
+                        Some(spec(re1, re2, Some(r)))
+                    })
+                    .collect();
+                if !specs.is_empty() {
+                    groups.push(Group {
+                        topology,
+                        pair: pair.id.clone(),
+                        resistor: Some(r.id.clone()),
+                        specs,
+                    });
+                }
+            }
+        }
+    }
+    groups
+}
+
+/// RE2 of a Widlar for ratio n < 1: `I_out*RE2 = V_T ln(I_in/I_out)` at the design current
+/// and 25 °C (Widlar's relation; Gray, Hurst, Lewis & Meyer, ch. 4), to the nearest
+/// standard value.
+pub fn widlar_re2(req: &Requirement, r: &ResistorClass) -> Option<f64> {
+    let n = req.ratio;
+    if !(n > 0.0 && n < 1.0) {
+        return None;
+    }
+    let i_in = design_current(req);
+    let re2 = thermal_voltage(ROOM_K) * (1.0 / n).ln() / (n * i_in);
+    r.series.nearest(re2)
+}
+
+/// V_T = kT/q with the exact SI values of k and q (SI Brochure, 9th edition, 2019).
+pub fn thermal_voltage(t_k: f64) -> f64 {
+    1.380649e-23 * t_k / 1.602176634e-19
+}
+
+/// `allow` applies only when it names a class of this kind; `deny` always applies.
+fn class_filter(filters: &Filters, allow_applies: bool) -> impl Fn(&str) -> bool + '_ {
+    move |id: &str| {
+        (!allow_applies || filters.allow.iter().any(|a| a == id))
+            && !filters.deny.iter().any(|d| d == id)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn thermal_voltage_at_300_k() {
+        // CODATA 2018 / SI 2019 exact constants: V_T(300 K) = 25.852 mV.
+        assert!((thermal_voltage(300.0) - 25.852e-3).abs() < 1e-6);
+    }
+}
