@@ -45,14 +45,16 @@ pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
         ("M", "M"),
         ("G", "G"),
     ];
-    let exp3 = ((value.abs().log10() / 3.0).floor() as i32).clamp(-5, 3);
-    let mut mantissa = value / 10f64.powi(exp3 * 3);
-    let mut idx = (exp3 + 5) as usize;
-    // Rounding can carry the mantissa to 1000 (999.96 -> "1000"); step up a prefix.
-    if fmt3(mantissa).trim_start_matches('-').starts_with("1000") && idx + 1 < PREFIXES.len() {
-        mantissa /= 1000.0;
-        idx += 1;
-    }
+    // Round to three significant digits in decimal first, so 99.996 µ becomes 100 µ and
+    // 999.96 becomes 1.00 k (not "100.0" or "1000"), and take the power of ten from the
+    // decimal exponent (1e-7 / 1e-9 is 99.999... in binary).
+    let sci = format!("{value:.2e}");
+    let (digits, exp) = sci.split_once('e').unwrap_or((&sci, "0"));
+    let digits: f64 = digits.parse().unwrap_or(value);
+    let exp: i32 = exp.parse().unwrap_or(0);
+    let exp3 = exp.div_euclid(3).clamp(-5, 3);
+    let mantissa = digits * 10f64.powi(exp - exp3 * 3);
+    let idx = (exp3 + 5) as usize;
     let prefix = match charset {
         Charset::Ascii => PREFIXES[idx].0,
         Charset::Unicode => PREFIXES[idx].1,
@@ -123,6 +125,8 @@ mod tests {
         assert_eq!(eng(100e-6, "A", Charset::Unicode), "100 µA");
         assert_eq!(eng(999.96, "V", Charset::Ascii), "1.00 kV");
         assert_eq!(eng(12.0, "V", Charset::Ascii), "12.0 V");
+        assert_eq!(eng(99.99999e-9, "A", Charset::Unicode), "100 nA");
+        assert_eq!(eng(9.9996, "V", Charset::Ascii), "10.0 V");
         assert_eq!(eng(0.0, "V", Charset::Ascii), "0 V");
         assert_eq!(eng(-2.5e-3, "V", Charset::Ascii), "-2.50 mV");
     }

@@ -239,6 +239,9 @@ pub fn render(page: &Page) -> String {
     o.push_str("</section>\n");
 
     o.push_str("<section id=\"budget\">\n<h2>5 Error budget</h2>\n");
+    if page.chosen.is_none() {
+        o.push_str("<p>No design was chosen, so there is no budget to show.</p>\n");
+    }
     let mut plots = page.plots.iter();
     if let Some(p) = plots.by_ref().find(|p| p.id == "budget") {
         figure(&mut o, p);
@@ -249,6 +252,9 @@ pub fn render(page: &Page) -> String {
     o.push_str("</section>\n");
 
     o.push_str("<section id=\"curves\">\n<h2>6 Curves</h2>\n");
+    if page.chosen.is_none() {
+        o.push_str("<p>No design was chosen, so there are no curves to show.</p>\n");
+    }
     for p in page.plots.iter().filter(|p| p.id != "budget") {
         figure(&mut o, p);
     }

@@ -30,6 +30,11 @@ pub fn escape(s: &str) -> String {
 }
 
 fn table(o: &mut String, t: &Table) {
+    aligned_table(o, t, true)
+}
+
+/// A pipe table; `numbers_right` right-aligns every column but the first.
+fn aligned_table(o: &mut String, t: &Table, numbers_right: bool) {
     let _ = writeln!(
         o,
         "| {} |",
@@ -45,7 +50,11 @@ fn table(o: &mut String, t: &Table) {
         t.header
             .iter()
             .enumerate()
-            .map(|(k, _)| if k == 0 { "---" } else { "--:" })
+            .map(|(k, _)| if k == 0 || !numbers_right {
+                "---"
+            } else {
+                "--:"
+            })
             .collect::<Vec<_>>()
             .join("|")
     );
@@ -197,6 +206,9 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
         files.push((name, p.svg.clone()));
     };
     o.push_str("## 5 Error budget\n\n");
+    if page.chosen.is_none() {
+        o.push_str("No design was chosen, so there is no budget to show.\n\n");
+    }
     for p in page.plots.iter().filter(|p| p.id == "budget") {
         plot(&mut o, p);
     }
@@ -204,6 +216,9 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
         table(&mut o, &page.budget_table);
     }
     o.push_str("## 6 Curves\n\n");
+    if page.chosen.is_none() {
+        o.push_str("No design was chosen, so there are no curves to show.\n\n");
+    }
     for p in page.plots.iter().filter(|p| p.id != "budget") {
         plot(&mut o, p);
     }

@@ -10,6 +10,8 @@ fn check(name: &str, args: &[&str]) {
     let out = Command::cargo_bin("mirrorpick")
         .unwrap()
         .current_dir(env!("CARGO_MANIFEST_DIR"))
+        // A fixed date for the decision record (reproducible-build convention).
+        .env("SOURCE_DATE_EPOCH", "1798761599")
         .args(["--catalog", "tests/fixtures/catalog/valid.yaml"])
         .args(args)
         .output()
@@ -67,4 +69,33 @@ fn curves_table() {
             "--extremes",
         ],
     );
+}
+
+#[test]
+fn decision_record_markdown() {
+    // The Markdown goes to a file; its side files are checked in tests/report/report.rs.
+    let dir = tempfile::tempdir().unwrap();
+    let md = dir.path().join("tail.md");
+    let out = Command::cargo_bin("mirrorpick")
+        .unwrap()
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("SOURCE_DATE_EPOCH", "1798761599")
+        .args(["--catalog", "tests/fixtures/catalog/valid.yaml"])
+        .args(["report", REQ, "--top", "3", "--markdown"])
+        .arg(&md)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.code().unwrap() <= 1,
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let got = std::fs::read_to_string(&md).unwrap();
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/snapshots/report-tail.md");
+    if std::env::var_os("UPDATE_SNAPSHOTS").is_some() {
+        std::fs::write(&path, &got).unwrap();
+    }
+    let want = std::fs::read_to_string(&path)
+        .unwrap_or_else(|_| panic!("missing snapshot report-tail.md; run with UPDATE_SNAPSHOTS=1"));
+    assert_eq!(got, want, "the Markdown record differs from report-tail.md");
 }
