@@ -163,7 +163,7 @@ impl BjtAtT {
         self.vaf_inv != 0.0
     }
 
-    /// The voltage above which SPICE-style junction limiting applies:
+    /// The voltage above which junction limiting applies:
     /// `V_T ln(V_T / (sqrt(2) IS))`.
     #[inline]
     pub fn critical_voltage(&self) -> f64 {
@@ -215,7 +215,7 @@ impl BjtAtT {
     }
 }
 
-/// SPICE-style junction limiting (the classic `pnjlim`): above the critical voltage a
+/// Junction-voltage limiting as circuit simulators commonly do it: above the critical voltage a
 /// proposed forward step is replaced by the logarithm of its exponential, so `exp` never
 /// overflows and Newton cannot overshoot a diode characteristic.
 #[inline]

@@ -2,13 +2,17 @@
 //! VAF 10...500 V, I_in 1 nA...50 mA, V_out 0.3...100 V, T -40...125 °C, RE 0...100 kOhm,
 //! every topology, with and without self-heating.
 //!
+//! Cases also draw the package size (singles, duals, a 5-device array, so every layout
+//! and helper path runs), V_BE offsets within +-5 mV, beta deviations within +-10 % and
+//! resistor deviations within +-1 %.
+//!
 //! Two limits keep the cases physical: the drop across an emitter resistor is kept within
 //! 2 V (I_in RE <= 2 V; beyond that the input node would sit kilovolts above the rail),
 //! and with self-heating a case may end in `ThermalRunaway` (50 mA at 100 V is 5 W in a
 //! small package), which is the correct answer there; any other failure fails the test.
 
 use crate::fixtures::*;
-use mirrorpick::circuit::{solve_point, Design, OperatingPoint, Solution, SolveFailure};
+use mirrorpick::circuit::{solve_point, Design, Mismatch, OperatingPoint, Solution, SolveFailure};
 use mirrorpick::model::{BjtParams, Polarity, Topology, ALL_TOPOLOGIES};
 use proptest::prelude::*;
 
@@ -22,6 +26,8 @@ struct Case {
     v_out: f64,
     t_c: f64,
     re: f64,
+    per_package: u32,
+    mismatch: Mismatch,
 }
 
 fn log_range(lo: f64, hi: f64) -> impl Strategy<Value = f64> {
@@ -38,32 +44,59 @@ fn cases() -> impl Strategy<Value = Case> {
         log_range(0.3, 100.0),
         -40.0..125.0f64,
         prop_oneof![Just(0.0), log_range(1.0, 100e3)],
+        prop_oneof![Just(1u32), Just(2), Just(5)],
+        (
+            -5e-3..5e-3f64,
+            -5e-3..5e-3f64,
+            -0.1..0.1f64,
+            -0.1..0.1f64,
+            -0.01..0.01f64,
+        ),
     )
-        .prop_map(|(t, is, bf, vaf, i_in, v_out, t_c, re)| Case {
-            topology: ALL_TOPOLOGIES[t],
-            is,
-            bf,
-            vaf,
-            i_in,
-            v_out,
-            t_c,
-            re: re.min(2.0 / i_in),
-        })
+        .prop_map(
+            |(t, is, bf, vaf, i_in, v_out, t_c, re, per_package, (v1, v2, b1, b2, r))| Case {
+                topology: ALL_TOPOLOGIES[t],
+                is,
+                bf,
+                vaf,
+                i_in,
+                v_out,
+                t_c,
+                re: re.min(2.0 / i_in),
+                per_package,
+                mismatch: Mismatch {
+                    dvbe_v: [v1, v2],
+                    dbeta: [b1, b2],
+                    dre1: r,
+                    dre2: -r,
+                },
+            },
+        )
 }
 
 fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoint, f64, f64) {
     let cls = class(
         "prop",
         Polarity::Npn,
-        5,
+        c.per_package,
         BjtParams::new(c.is, c.bf, Some(c.vaf)),
+    );
+    // The helper single: a different device, in its own package when it is used.
+    let helper = class(
+        "prop-single",
+        Polarity::Npn,
+        1,
+        BjtParams::new(c.is * 1.5, c.bf * 0.8, Some(c.vaf * 1.2)),
     );
     let (re1, re2) = if c.topology == Topology::Widlar {
         (0.0, c.re.max(1.0))
     } else {
         (c.re, c.re)
     };
-    let d: Design = design(c.topology, &cls, re1, re2);
+    let d = Design {
+        helper: Some(&helper),
+        ..design(c.topology, &cls, re1, re2)
+    };
     let p = OperatingPoint {
         i_in_a: c.i_in,
         v_out_v: c.v_out,
@@ -71,7 +104,12 @@ fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoi
         t_amb_k: c.t_c + 273.15,
     };
     let opts = if heated_ { heated() } else { iso() };
-    (solve_point(&d, &p, &nominal(), &opts), p, re1, re2)
+    (
+        solve_point(&d, &p, &c.mismatch, &opts),
+        p,
+        re1 * (1.0 + c.mismatch.dre1),
+        re2 * (1.0 + c.mismatch.dre2),
+    )
 }
 
 /// KCL at every node from the reported currents (independent of the solver's own check),
