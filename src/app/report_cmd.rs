@@ -140,7 +140,8 @@ pub fn run_report(
                     ambient_extremes: args.extremes,
                     ..CurveOptions::default()
                 },
-                &SolveOptions::default(),
+                // As the design runs on a bench: junctions heated by their own dissipation.
+                &SolveOptions { self_heating: true },
             )?),
             None => None,
         },

@@ -393,14 +393,16 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             id: "curves".into(),
             title: "Output curves of the chosen design".into(),
             svg: plot::output_curves_svg(set)?,
-            caption: "Nominal devices, swept from 0 V to the supply. Green bands: the required accuracy around n·I_in; blue: the required output-voltage window".into(),
+            caption: "Nominal devices with self-heating, swept from 0 V to the supply; gaps are points without a solution (saturation or thermal runaway). Green bands: the required accuracy around n·I_in; blue: the required output-voltage window".into(),
         });
         if req.input_current_a.max > req.input_current_a.min {
             plots.push(Plot {
                 id: "error-vs-input".into(),
                 title: "Error against programming current".into(),
                 svg: plot::error_vs_input_svg(set)?,
-                caption: "At the ends of the output-voltage window, nominal devices".into(),
+                caption:
+                    "At the ends of the output-voltage window, nominal devices with self-heating"
+                        .into(),
             });
         }
     }

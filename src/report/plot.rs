@@ -418,7 +418,8 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(180)
-            .build_cartesian_2d(least..most, (0..n).into_segmented())
+            // A segmented 0..k range has k + 1 slots; one slot needs 0..1 (one left blank).
+            .build_cartesian_2d(least..most, (0..(n - 1).max(1)).into_segmented())
             .map_err(&e)?;
         chart
             .configure_mesh()
@@ -461,7 +462,7 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
             .draw_series(DashedLineSeries::new(
                 vec![
                     (accuracy * 100.0, SegmentValue::Exact(0)),
-                    (accuracy * 100.0, SegmentValue::Exact(n)),
+                    (accuracy * 100.0, SegmentValue::Last),
                 ],
                 5,
                 4,
@@ -542,6 +543,19 @@ mod tests {
         assert!(svg.contains("V_BE offset &lt;pair&gt;"));
         assert!(!svg.contains("<pair>"));
         assert!(svg.contains("required accuracy 1.00 %"));
+    }
+
+    #[test]
+    fn budget_with_one_or_no_bar_draws() {
+        let one = [BudgetBar {
+            cause: "base current".into(),
+            value: 0.01,
+            random: false,
+        }];
+        assert!(error_budget_svg(&one, 0.02)
+            .unwrap()
+            .contains("base current"));
+        assert!(error_budget_svg(&[], 0.02).unwrap().starts_with("<svg"));
     }
 
     #[test]
