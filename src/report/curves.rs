@@ -1,6 +1,12 @@
 //! `curves` output: the curve family as a table (a summary a person can read), CSV (one
 //! row per solved point, long format) or JSON (the whole `CurveSet`, SI numbers, gaps as
 //! null).
+//!
+//! JSON wire format: `ratio`, `supply_v`, `v_out_window_v` {`min`, `max`}, `accuracy`,
+//! `output` (list of {`i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
+//! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
+//! `balance_voltage_v` (null when none), `failed_points`. CSV columns: `curve` (`output`
+//! or `error`), `i_in_a`, `t_amb_c`, `v_out_v`, `i_out_a`, `error`.
 
 use std::io::{self, Write};
 

@@ -232,3 +232,15 @@ fn exported_models_carry_the_catalog_values() {
         );
     }
 }
+
+#[test]
+fn help_has_worked_examples() {
+    for cmd in ["curves", "report", "export"] {
+        mirrorpick()
+            .args([cmd, "--help"])
+            .assert()
+            .success()
+            .stdout(predicate::str::contains("Example:"))
+            .stdout(predicate::str::contains(format!("mirrorpick {cmd} ")));
+    }
+}
