@@ -391,8 +391,15 @@ impl<'a> Evaluator<'a> {
             let (state, d) = match solved {
                 Ok(x) => x,
                 Err(f) => {
-                    checks.push(failure_check(&f, &c));
-                    return self.incomplete(cost, checks, depth);
+                    // A screen stops here; a verification goes on to judge what did solve.
+                    let fc = failure_check(&f, &c);
+                    if !checks.iter().any(|x: &Check| x.name == fc.name) {
+                        checks.push(fc);
+                    }
+                    if depth == Depth::Screen {
+                        return self.incomplete(cost, checks, depth);
+                    }
+                    continue;
                 }
             };
             let bound = state.error.abs() + k * budget::random_sigma(&d);
@@ -408,10 +415,16 @@ impl<'a> Evaluator<'a> {
                 return self.incomplete(cost, checks, depth);
             }
         }
-        let states: Vec<CornerState> = states
+        let unsolved = states.iter().any(Option::is_none);
+        let (states, sens): (Vec<CornerState>, Vec<Sensitivities>) = states
             .into_iter()
-            .map(|s| s.expect("every corner solved"))
-            .collect();
+            .zip(sens)
+            .filter_map(|(s, d)| s.map(|s| (s, d)))
+            .unzip();
+        if states.is_empty() {
+            return self.incomplete(cost, checks, depth);
+        }
+        let corner_list: Vec<OperatingCorner> = states.iter().map(|s| s.corner).collect();
 
         // Accuracy.
         let (mut sys, mut rnd, mut worst) = (0.0f64, 0.0f64, 0usize);
@@ -496,12 +509,14 @@ impl<'a> Evaluator<'a> {
 
         let mut r_outs = vec![f64::NAN; states.len()];
         if req.min_output_resistance_ohm.is_some() || depth == Depth::Full {
-            for (i, c) in self.corners.iter().enumerate() {
+            for (i, c) in corner_list.iter().enumerate() {
                 match self.output_resistance(&net, c) {
                     Ok(r) => r_outs[i] = r,
                     Err(f) => {
-                        checks.push(failure_check(&f, c));
-                        return self.incomplete(cost, checks, depth);
+                        let fc = failure_check(&f, c);
+                        if !checks.iter().any(|x| x.name == fc.name) {
+                            checks.push(fc);
+                        }
                     }
                 }
             }
@@ -533,7 +548,7 @@ impl<'a> Evaluator<'a> {
             corners: Vec::new(),
             budget: None,
             hottest: None,
-            complete: true,
+            complete: !unsolved,
         };
         if depth == Depth::Full {
             ev.corners = states

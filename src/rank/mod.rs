@@ -247,27 +247,44 @@ pub fn cheaper(
     let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
     let governing = reference.governing_check;
     let ref_margin = reference.governing_margin();
-    let picked: Vec<&(DesignSpec, Evaluation)> = if second_source {
-        // Best (cheapest, then largest accuracy margin) design of each other class.
-        let mut seen = Vec::new();
-        run.ranked
-            .iter()
-            .filter(|(s, _)| s.pair != spec.pair)
-            .filter(|(s, _)| {
-                if seen.contains(&s.pair) {
-                    false
-                } else {
-                    seen.push(s.pair.clone());
-                    true
-                }
-            })
-            .collect()
-    } else {
-        run.ranked
-            .iter()
-            .filter(|(_, e)| e.cost < ref_ev.cost - 1e-12)
-            .collect()
+    // One design per family (topology, pair, helper, resistor class): the first in
+    // ranking order, i.e. the cheapest with the largest accuracy margin. Resistor values
+    // within a family cost the same, so listing each would repeat one saving many times.
+    let family = |s: &DesignSpec| {
+        if second_source {
+            (s.pair.clone(), None, None, None)
+        } else {
+            (
+                s.pair.clone(),
+                Some(s.topology),
+                s.helper.clone(),
+                s.resistor.clone(),
+            )
+        }
     };
+    let mut seen = Vec::new();
+    let mut cheaper_count = 0usize;
+    let picked: Vec<&(DesignSpec, Evaluation)> = run
+        .ranked
+        .iter()
+        .filter(|(s, e)| {
+            if second_source {
+                s.pair != spec.pair
+            } else {
+                e.cost < ref_ev.cost - 1e-12
+            }
+        })
+        .filter(|(s, _)| {
+            cheaper_count += 1;
+            let f = family(s);
+            if seen.contains(&f) {
+                false
+            } else {
+                seen.push(f);
+                true
+            }
+        })
+        .collect();
     let alternatives: Vec<Alternative> = picked
         .par_iter()
         .enumerate()
@@ -317,9 +334,11 @@ pub fn cheaper(
         ),
         (false, 0, None) => "no cheaper design exists in the catalog".to_string(),
         (false, n, _) => format!(
-            "{n} cheaper design{} meet{} the requirement",
-            if n == 1 { "" } else { "s" },
-            if n == 1 { "s" } else { "" }
+            "{cheaper_count} cheaper design{} meet{} the requirement; the best of each of {n} famil{} (topology, classes) {} shown",
+            if cheaper_count == 1 { "" } else { "s" },
+            if cheaper_count == 1 { "s" } else { "" },
+            if n == 1 { "y" } else { "ies" },
+            if n == 1 { "is" } else { "are" }
         ),
     };
     let rows: Vec<CandidateRow> = alternatives.iter().map(|a| a.candidate.clone()).collect();

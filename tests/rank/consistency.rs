@@ -1,0 +1,158 @@
+//! The ranking agrees with `check`, with itself across formats, and across runs.
+
+use std::collections::BTreeSet;
+
+use mirrorpick::check::MonteCarlo;
+use mirrorpick::rank::{check_design, rank, render, RankOptions, Silent};
+use mirrorpick::report::{Format, Style};
+
+use super::*;
+
+const MC: MonteCarlo = MonteCarlo {
+    seed: 3,
+    samples: 300,
+};
+
+fn ltp() -> (Catalog, Requirement) {
+    let cat = default_catalog();
+    let req = load_example(
+        &root().join("requirements-examples/ltp-tail-sink.yaml"),
+        &cat,
+    );
+    (cat, req)
+}
+
+#[test]
+fn ranked_pass_check_and_rejected_fail_check_on_the_counted_check() {
+    let (cat, req) = ltp();
+    let opts = RankOptions {
+        top: 5,
+        mc: MC,
+        ..Default::default()
+    };
+    let run = rank(&req, &cat, &opts, &Silent).unwrap();
+    assert!(run.report.feasible >= 5);
+    for (spec, _) in run.ranked.iter().take(5) {
+        let r = check_design(&req, &cat, spec, MC, false).unwrap();
+        assert!(r.pass, "ranked {spec:?} fails check");
+    }
+    // Every kind of rejection, and a spread of the rest.
+    let mut seen = BTreeSet::new();
+    let picked: Vec<_> = run
+        .rejected
+        .iter()
+        .enumerate()
+        .filter(|(i, (_, c))| seen.insert(*c) || i % 1500 == 0)
+        .map(|(_, r)| r)
+        .collect();
+    assert!(seen.len() >= 3, "rejections by {seen:?}");
+    for (spec, counted) in picked {
+        let r = check_design(&req, &cat, spec, MC, false).unwrap();
+        let c = r
+            .candidate
+            .check(*counted)
+            .unwrap_or_else(|| panic!("{spec:?}: no {counted} check"));
+        assert!(!c.pass, "{spec:?} counted under {counted} but passes it");
+        assert!(!r.pass);
+    }
+}
+
+#[test]
+fn json_and_table_show_the_same_rows() {
+    let (cat, req) = ltp();
+    let opts = RankOptions {
+        top: 6,
+        mc: MC,
+        ..Default::default()
+    };
+    let report = rank(&req, &cat, &opts, &Silent).unwrap().report;
+    let mut json = Vec::new();
+    render::write_rank(&mut json, &report, Format::Json, Style::default()).unwrap();
+    let mut table = Vec::new();
+    render::write_rank(&mut table, &report, Format::Table, Style::default()).unwrap();
+    let table = String::from_utf8(table).unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&json).unwrap();
+    for key in [
+        "requirement",
+        "evaluated",
+        "feasible",
+        "rejected_by",
+        "seed",
+        "samples",
+        "candidates",
+    ] {
+        assert!(v.get(key).is_some(), "JSON lacks `{key}`");
+    }
+    assert!(table.contains(&format!(
+        "{} candidates evaluated, {} feasible",
+        v["evaluated"], v["feasible"]
+    )));
+    let rows = v["candidates"].as_array().unwrap();
+    assert_eq!(rows.len(), 6);
+    for row in rows {
+        for key in [
+            "rank",
+            "topology",
+            "part",
+            "helper",
+            "re1_ohm",
+            "re2_ohm",
+            "resistor",
+            "cost",
+            "error_systematic",
+            "error_random_sigma",
+            "error_total",
+            "yield",
+            "r_out_min_ohm",
+            "compliance_v",
+            "v_in_max",
+            "governing_check",
+            "pareto",
+            "checks",
+        ] {
+            assert!(row.get(key).is_some(), "candidate lacks `{key}`");
+        }
+        let rank = row["rank"].as_u64().unwrap();
+        let line = table
+            .lines()
+            .find(|l| l.starts_with(&format!("│ {rank} ")))
+            .unwrap_or_else(|| panic!("no table row {rank}"));
+        assert!(line.contains(row["part"].as_str().unwrap()));
+        assert!(line.contains(row["topology"].as_str().unwrap()));
+        assert!(line.contains(&format!("{:.3}", row["cost"].as_f64().unwrap())));
+        assert!(line.contains(row["governing_check"].as_str().unwrap()));
+        let total = row["error_total"].as_f64().unwrap() * 100.0;
+        let shown = if total >= 10.0 {
+            format!("{total:.1} %")
+        } else if total >= 1.0 {
+            format!("{total:.2} %")
+        } else {
+            format!("{total:.3} %")
+        };
+        assert!(line.contains(&shown), "{line} lacks {shown}");
+    }
+}
+
+#[test]
+fn same_seed_same_numbers() {
+    let cat = default_catalog();
+    let req = load_example(
+        &root().join("requirements-examples/sensor-excitation-source.yaml"),
+        &cat,
+    );
+    let opts = RankOptions {
+        top: 4,
+        mc: MC,
+        ..Default::default()
+    };
+    let a = rank(&req, &cat, &opts, &Silent).unwrap().report;
+    let b = rank(&req, &cat, &opts, &Silent).unwrap().report;
+    let json = |r| {
+        let mut out = Vec::new();
+        render::write_rank(&mut out, r, Format::Json, Style::default()).unwrap();
+        out
+    };
+    assert_eq!(json(&a), json(&b));
+    assert_eq!(a.seed, 3);
+    assert_eq!(a.samples, 300);
+}

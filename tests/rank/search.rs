@@ -1,0 +1,59 @@
+//! The default (pruning) search returns exactly the exhaustive search's top rows.
+
+use mirrorpick::check::MonteCarlo;
+use mirrorpick::rank::{rank, CandidateRow, RankOptions, Silent};
+
+use super::*;
+
+fn top(req: &Requirement, cat: &Catalog, exhaustive: bool, n: usize) -> (Vec<CandidateRow>, u64) {
+    let opts = RankOptions {
+        top: n,
+        exhaustive,
+        mc: MonteCarlo {
+            seed: 1,
+            samples: 100,
+        },
+        ..Default::default()
+    };
+    let r = rank(req, cat, &opts, &Silent).unwrap().report;
+    (r.candidates, r.solves)
+}
+
+fn same_top(req: &Requirement, cat: &Catalog, n: usize) {
+    let (d, d_solves) = top(req, cat, false, n);
+    let (e, e_solves) = top(req, cat, true, n);
+    assert_eq!(d, e, "{}: default and exhaustive top {n} differ", req.name);
+    assert!(
+        d_solves < e_solves,
+        "{}: {d_solves} vs {e_solves} solves",
+        req.name
+    );
+}
+
+#[test]
+fn default_equals_exhaustive_on_a_narrowed_example() {
+    // The long-tailed-pair tail with three classes and two topologies: small enough to
+    // solve exhaustively on every test run, large enough to prune.
+    let cat = default_catalog();
+    let mut req = load_example(
+        &root().join("requirements-examples/ltp-tail-sink.yaml"),
+        &cat,
+    );
+    req.classes.allow = vec![
+        "npn-dual-general".into(),
+        "npn-single-general".into(),
+        "thick-film-5pct".into(),
+    ];
+    req.topologies.allow = vec!["simple".into(), "wilson".into()];
+    same_top(&req, &cat, 20);
+}
+
+#[test]
+#[ignore = "slow: solves every candidate of every shipped example (about a minute in release)"]
+fn default_equals_exhaustive_top_20_on_every_shipped_example() {
+    let cat = default_catalog();
+    for path in examples() {
+        let req = load_example(&path, &cat);
+        same_top(&req, &cat, 20);
+    }
+}
