@@ -3,7 +3,7 @@
 //! provenance. Formatting only; every number comes from the ranking's report, so the
 //! page's figures are the JSON's figures.
 
-use super::eng::{celsius, eng, percent, Charset};
+use super::eng::{celsius, eng, eng_sig, percent, Charset};
 use super::page::{CheckRow, DesignView, Figure, Page, Plot, Rejected, Table};
 use super::plot::{self, BudgetBar, PlotError};
 use super::Provenance;
@@ -34,8 +34,8 @@ fn money(catalog: &Catalog, x: f64) -> String {
     format!("{x:.3} {}", catalog.currency)
 }
 
-/// A check's value or limit in the check's own unit.
-fn check_value(catalog: &Catalog, name: CheckName, x: f64) -> String {
+/// A check's value or limit in the check's own unit, `sig` significant digits.
+fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String {
     if !x.is_finite() {
         return if x.is_nan() {
             "no solution".into()
@@ -47,7 +47,7 @@ fn check_value(catalog: &Catalog, name: CheckName, x: f64) -> String {
         CheckName::Cost => money(catalog, x),
         CheckName::Accuracy | CheckName::Yield => percent(x),
         CheckName::ThermalRunaway | CheckName::NoConvergence => format!("{x}"),
-        _ => eng(
+        _ => eng_sig(
             x,
             if name.unit() == "Ω" {
                 "ohm"
@@ -55,6 +55,7 @@ fn check_value(catalog: &Catalog, name: CheckName, x: f64) -> String {
                 name.unit()
             },
             U,
+            sig,
         ),
     }
 }
@@ -196,12 +197,23 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
     let checks = c
         .checks
         .iter()
-        .map(|k| CheckRow {
-            name: k.name.to_string(),
-            value: check_value(catalog, k.name, k.value),
-            limit: check_value(catalog, k.name, k.limit),
-            margin: k.margin,
-            pass: k.pass,
+        .map(|k| {
+            let (mut value, mut limit) = (
+                check_value(catalog, k.name, k.value, 3),
+                check_value(catalog, k.name, k.limit, 3),
+            );
+            // A value that rounds to its limit gets the digits that tell them apart.
+            if value == limit && k.value != k.limit {
+                value = check_value(catalog, k.name, k.value, 6);
+                limit = check_value(catalog, k.name, k.limit, 6);
+            }
+            CheckRow {
+                name: k.name.to_string(),
+                value,
+                limit,
+                margin: k.margin,
+                pass: k.pass,
+            }
         })
         .collect();
     DesignView {

@@ -15,6 +15,12 @@ pub enum Charset {
 /// `value` with an SI prefix chosen so the mantissa lies in [1, 1000), three
 /// significant digits. `unit` is the plain unit symbol ("A", "V", "ohm", "W").
 pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
+    eng_sig(value, unit, charset, 3)
+}
+
+/// As [`eng`], with `sig` significant digits (3 to 9).
+pub fn eng_sig(value: f64, unit: &str, charset: Charset, sig: usize) -> String {
+    let sig = sig.clamp(3, 9);
     let unit = match (unit, charset) {
         ("ohm", Charset::Unicode) => "Ω",
         (u, _) => u,
@@ -48,7 +54,7 @@ pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
     // Round to three significant digits in decimal first, so 99.996 µ becomes 100 µ and
     // 999.96 becomes 1.00 k (not "100.0" or "1000"), and take the power of ten from the
     // decimal exponent (1e-7 / 1e-9 is 99.999... in binary).
-    let sci = format!("{value:.2e}");
+    let sci = format!("{value:.*e}", sig - 1);
     let (digits, exp) = sci.split_once('e').unwrap_or((&sci, "0"));
     let digits: f64 = digits.parse().unwrap_or(value);
     let exp: i32 = exp.parse().unwrap_or(0);
@@ -59,19 +65,18 @@ pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
         Charset::Ascii => PREFIXES[idx].0,
         Charset::Unicode => PREFIXES[idx].1,
     };
-    format!("{} {prefix}{unit}", fmt3(mantissa))
+    format!("{} {prefix}{unit}", fmt_sig(mantissa, sig))
 }
 
-/// Three significant digits for a mantissa in [1, 1000), trailing zeros kept (4.70).
-fn fmt3(m: f64) -> String {
-    let a = m.abs();
-    if a >= 100.0 {
-        format!("{m:.0}")
-    } else if a >= 10.0 {
-        format!("{m:.1}")
-    } else {
-        format!("{m:.2}")
-    }
+/// `sig` significant digits for a mantissa in [1, 1000), trailing zeros kept (4.70).
+fn fmt_sig(m: f64, sig: usize) -> String {
+    let int_digits = match m.abs() {
+        a if a >= 100.0 => 3,
+        a if a >= 10.0 => 2,
+        _ => 1,
+    };
+    let decimals = sig.saturating_sub(int_digits);
+    format!("{m:.decimals$}")
 }
 
 /// A temperature given in kelvin, printed in degrees Celsius (nearest 0.1 degree).
@@ -127,6 +132,7 @@ mod tests {
         assert_eq!(eng(12.0, "V", Charset::Ascii), "12.0 V");
         assert_eq!(eng(99.99999e-9, "A", Charset::Unicode), "100 nA");
         assert_eq!(eng(9.9996, "V", Charset::Ascii), "10.0 V");
+        assert_eq!(eng_sig(1.49987, "V", Charset::Ascii, 5), "1.4999 V");
         assert_eq!(eng(0.0, "V", Charset::Ascii), "0 V");
         assert_eq!(eng(-2.5e-3, "V", Charset::Ascii), "-2.50 mV");
     }
