@@ -15,7 +15,7 @@ use crate::check;
 use crate::circuit::{Design, SolveOptions};
 use crate::curves::{self, CurveOptions};
 use crate::input;
-use crate::model::{Catalog, ResistorClass, Topology, TransistorClass};
+use crate::model::{Catalog, ResistorClass, Role, Topology, TransistorClass};
 use crate::report::{self, plot, spice, Format, Provenance, Style};
 
 /// A design resolved against the catalog.
@@ -28,6 +28,9 @@ pub struct Resolved<'a> {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<&'a ResistorClass>,
+    /// The class the helper transistors actually sit in, per the package layout, when it
+    /// is not the pair's class.
+    pub helper_placed: Option<&'a TransistorClass>,
 }
 
 impl<'a> Resolved<'a> {
@@ -46,7 +49,7 @@ impl<'a> Resolved<'a> {
         spice::SpiceDesign {
             topology: self.topology,
             pair: self.pair,
-            helper: self.helper,
+            helper: self.helper_placed,
             re1_ohm: self.re1_ohm,
             re2_ohm: self.re2_ohm,
             resistor: self.resistor,
@@ -74,7 +77,16 @@ pub fn resolve<'a>(
             polarity.as_str().to_uppercase()
         )));
     }
+    let helper_placed = spec
+        .topology
+        .desc()
+        .transistors
+        .iter()
+        .find(|t| t.role == Role::Helper)
+        .and_then(|t| d.package_of(t.name).map(|i| d.packages[i].class))
+        .filter(|c| c.id != d.pair.id);
     Ok(Resolved {
+        helper_placed,
         topology: spec.topology,
         pair: d.pair,
         helper: d.helper,

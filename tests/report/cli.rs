@@ -244,3 +244,27 @@ fn help_has_worked_examples() {
             .stdout(predicate::str::contains(format!("mirrorpick {cmd} ")));
     }
 }
+
+#[test]
+fn helpers_on_spare_devices_share_the_pair_model() {
+    // A 5-device array holds the whole beta-helper mirror (MODEL.md, packages).
+    let out = mirrorpick()
+        .args([
+            "export",
+            "--spice",
+            TAIL,
+            "--part",
+            "npn-array-5",
+            "--topology",
+            "beta-helper",
+        ])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let deck = String::from_utf8(out.stdout).unwrap();
+    assert_eq!(
+        mirrorpick::report::spice::defined_models(&deck),
+        std::collections::BTreeSet::from(["npn_array_5".to_string()])
+    );
+    assert!(deck.contains("\nQ3 S in b npn_array_5 "));
+}
