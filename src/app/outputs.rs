@@ -45,6 +45,22 @@ impl<'a> Resolved<'a> {
         }
     }
 
+    /// `wilson · npn-dual-general · RE1 = RE2 = 100 Ω`, for plot titles.
+    pub fn label(&self) -> String {
+        let ohm = |r: f64| report::eng::eng(r, "ohm", report::eng::Charset::Unicode);
+        let res = match (self.re1_ohm > 0.0, self.re2_ohm > 0.0) {
+            (false, false) => String::new(),
+            (false, true) => format!(" · RE2 = {}", ohm(self.re2_ohm)),
+            _ if self.re1_ohm == self.re2_ohm => format!(" · RE1 = RE2 = {}", ohm(self.re1_ohm)),
+            _ => format!(
+                " · RE1 = {}, RE2 = {}",
+                ohm(self.re1_ohm),
+                ohm(self.re2_ohm)
+            ),
+        };
+        format!("{} · {}{res}", self.topology.name(), self.pair.id)
+    }
+
     pub fn spice(&self) -> spice::SpiceDesign<'a> {
         spice::SpiceDesign {
             topology: self.topology,
@@ -151,7 +167,8 @@ pub fn run_curves(
         &SolveOptions { self_heating },
     )?;
     if let Some(f) = svg_file {
-        let mut parts = vec![plot::output_curves_svg(&set)?];
+        let title = format!("{}: {}", req.name, design.label());
+        let mut parts = vec![plot::output_curves_svg(&set, Some(&title))?];
         // With a single programming current there is no error-against-current curve.
         if req.input_current_a.max > req.input_current_a.min {
             parts.push(plot::error_vs_input_svg(&set)?);

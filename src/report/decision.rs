@@ -404,7 +404,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         plots.push(Plot {
             id: "curves".into(),
             title: "Output curves of the chosen design".into(),
-            svg: plot::output_curves_svg(set)?,
+            svg: plot::output_curves_svg(set, None)?,
             caption: "Nominal devices with self-heating, swept from 0 V to the supply; gaps are points without a solution (saturation or thermal runaway). Green bands: the required accuracy around n·I_in; blue: the required output-voltage window".into(),
         });
         if req.input_current_a.max > req.input_current_a.min {

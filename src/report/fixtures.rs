@@ -175,7 +175,7 @@ pub fn page() -> super::page::Page {
             Plot {
                 id: "curves".into(),
                 title: "Curve family".into(),
-                svg: plot::output_curves_svg(&set).unwrap(),
+                svg: plot::output_curves_svg(&set, None).unwrap(),
                 caption: "curves".into(),
             },
         ],

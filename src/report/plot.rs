@@ -87,14 +87,20 @@ fn curve_label(i_in_a: f64, t_amb_k: f64, several_temps: bool) -> String {
 
 /// The curve family: I_out against V_out (top) and the error against V_out (bottom),
 /// with the output window and the accuracy band shaded and the balance voltage marked.
-pub fn output_curves_svg(set: &CurveSet) -> Result<String, PlotError> {
+/// `title`, when given, heads the plot (a standalone file has no caption around it).
+pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, PlotError> {
     let what = "output-curve";
     let e = err(what);
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH, 760)).into_drawing_area();
+        let head = if title.is_some() { 36 } else { 0 };
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, 760 + head)).into_drawing_area();
         root.fill(&WHITE).map_err(&e)?;
-        let (top, bottom) = root.split_vertically(380);
+        let body = match title {
+            Some(t) => root.titled(t, (FONT, 16)).map_err(&e)?,
+            None => root.clone(),
+        };
+        let (top, bottom) = body.split_vertically(380);
         let temps: Vec<f64> = {
             let mut t: Vec<f64> = set.output.iter().map(|c| c.t_amb_k).collect();
             t.dedup();
@@ -508,7 +514,8 @@ mod tests {
     #[test]
     fn curve_plots_are_svg_with_units_legend_and_marks() {
         let set = toy_set();
-        let svg = output_curves_svg(&set).unwrap();
+        let svg = output_curves_svg(&set, Some("tail <sink> & co")).unwrap();
+        assert!(svg.contains("tail &lt;sink&gt; &amp; co"), "title escaped");
         assert!(svg.starts_with("<svg"), "{}", &svg[..80]);
         assert!(svg.contains("V_out from the mirror rail (V)"));
         assert!(svg.contains("I_out (mA)"));
