@@ -23,7 +23,7 @@ mod system;
 
 use crate::device::Region;
 use crate::model::{Role, Topology, TransistorClass};
-pub use netlist::{Netlist, Placement, MAX_NODES, MAX_TRANSISTORS};
+pub use netlist::{Netlist, MAX_JUNCTION_K, MAX_NODES, MAX_TRANSISTORS};
 
 /// A candidate design: topology, part classes and emitter resistors (nominal values).
 #[derive(Debug, Clone, Copy)]
@@ -107,6 +107,8 @@ pub struct TransistorState {
     pub power_w: f64,
     /// Package index (see the module docs for the layout).
     pub package: u8,
+    /// The device is a single of the helper class (its ratings apply), not the pair class.
+    pub helper_class: bool,
 }
 
 /// A node voltage of a solved circuit.

@@ -15,12 +15,17 @@ pub const MAX_NODES: usize = 6;
 /// Most transistors of any topology.
 pub const MAX_TRANSISTORS: usize = 5;
 
+/// A fixed point hotter than this is reported as thermal runaway: it lies beyond every
+/// silicon junction rating and outside the device model's range (the die would fail long
+/// before; common practice, no source).
+pub const MAX_JUNCTION_K: f64 = 573.15;
+
 /// Where one transistor sits.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Placement {
+struct Placement {
     /// The device comes from the helper class (a single) rather than the pair class.
-    pub from_helper_class: bool,
-    pub package: u8,
+    from_helper_class: bool,
+    package: u8,
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -34,6 +39,7 @@ pub(super) struct Tr {
     pub e: usize,
     pub bjt: Bjt,
     pub package: u8,
+    pub helper_class: bool,
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -169,6 +175,7 @@ impl Netlist {
             e: R_SLOT,
             bjt: Bjt::new(&design.pair.model, 0.0, 0.0),
             package: 0,
+            helper_class: false,
         };
         let mut tr = [dummy; MAX_TRANSISTORS];
         let mut theta = [[0.0; MAX_TRANSISTORS]; MAX_TRANSISTORS];
@@ -202,6 +209,7 @@ impl Netlist {
                 e: slot_of(line.emitter),
                 bjt: Bjt::new(p, dvbe, dbeta),
                 package: placement[i].package,
+                helper_class: placement[i].from_helper_class,
             };
         }
         let n_tr = desc.transistors.len();
@@ -314,48 +322,125 @@ impl Netlist {
         known[R_SLOT] = true;
         known[S_SLOT] = true;
         known[OUT_SLOT] = true;
+        // The first pair's V_BE offset moves the output side by about IS2/IS1, shrunk by
+        // degeneration to the power V_T / (V_T + I RE) (first-order small-signal result).
+        let member = |m: u8| {
+            (0..self.n_tr).find(|&i| self.tr[i].role == Role::Matched { pair: 0, member: m })
+        };
+        let offset = match (member(0), member(1)) {
+            (Some(a), Some(b)) => {
+                let vt = sys.at[a].vt;
+                let drop = op.i_in_a * inputs.re1_ohm.max(inputs.re2_ohm);
+                (sys.at[b].is / sys.at[a].is).powf(vt / (vt + drop))
+            }
+            _ => 1.0,
+        };
         let mut cur = [0.0; MAX_TRANSISTORS];
         for i in 0..self.n_tr {
             cur[i] = match self.tr[i].branch {
                 Branch::Input => op.i_in_a,
-                Branch::Output => op.i_in_a * ratio,
+                Branch::Output => op.i_in_a * ratio * offset,
                 Branch::BaseCurrents => op.i_in_a * (1.0 + ratio) / self.beta_nom,
             };
         }
-        for k in 0..self.n_res {
-            let r = &self.res[k];
-            let i_e: f64 = (0..self.n_tr)
-                .filter(|&i| self.tr[i].e == r.slot)
-                .map(|i| cur[i])
-                .sum();
-            v[r.slot] = i_e * sys.res_ohm[k];
-            known[r.slot] = true;
+        // Refine the nominal currents by KCL with base currents at BF: a transistor that is
+        // the only collector at an unknown node carries what the node receives less the base
+        // currents drawn there; one whose collector is a rail and is the only emitter at a
+        // resistor-free node carries what that node's bases and collectors draw.
+        let nt = self.n_tr;
+        let beta = self.beta_nom;
+        let has_res = |slot: usize| self.res[..self.n_res].iter().any(|r| r.slot == slot);
+        for _ in 0..3 {
+            for i in 0..nt {
+                let t = &self.tr[i];
+                let collectors_at = |n: usize| (0..nt).filter(|&j| self.tr[j].c == n).count();
+                if t.c >= 3 && collectors_at(t.c) == 1 && !has_res(t.c) {
+                    let mut feed = if t.c == self.in_slot { op.i_in_a } else { 0.0 };
+                    for j in 0..nt {
+                        if self.tr[j].e == t.c {
+                            feed += cur[j] * (1.0 + 1.0 / beta);
+                        }
+                        if self.tr[j].b == t.c && j != i {
+                            feed -= cur[j] / beta;
+                        }
+                    }
+                    let own = if t.b == t.c { 1.0 / beta } else { 0.0 };
+                    if feed > 0.0 {
+                        cur[i] = feed / (1.0 + own);
+                    }
+                } else if t.c < 3
+                    && t.e >= 3
+                    && t.e != self.in_slot
+                    && !has_res(t.e)
+                    && (0..nt).filter(|&j| self.tr[j].e == t.e).count() == 1
+                {
+                    let mut draw = 0.0;
+                    for j in 0..nt {
+                        if self.tr[j].c == t.e {
+                            draw += cur[j];
+                        }
+                        if self.tr[j].b == t.e {
+                            draw += cur[j] / beta;
+                        }
+                    }
+                    if draw > 0.0 {
+                        cur[i] = draw / (1.0 + 1.0 / beta);
+                    }
+                }
+            }
         }
         let mut vbe_at = [0.0; MAX_TRANSISTORS];
         for i in 0..self.n_tr {
             let d: &BjtAtT = &sys.at[i];
             vbe_at[i] = d.vbe_for_current(cur[i]);
         }
-        let vbe = |i: usize| vbe_at[i];
-        for _ in 0..MAX_TRANSISTORS {
+        // Two passes: the second puts each junction at the V_BE that gives its current with
+        // the Early factor of the first pass's V_CE, which saves a Newton iteration.
+        for pass in 0..2 {
+            if pass == 1 {
+                if !sys.at[..self.n_tr].iter().any(|d| d.has_early_effect()) {
+                    break;
+                }
+                for i in 0..self.n_tr {
+                    let t = &self.tr[i];
+                    let v_ce = (v[t.c] - v[t.e]).max(0.0);
+                    vbe_at[i] = sys.at[i].vbe_for_current_at(cur[i], v_ce);
+                }
+                known = [false; MAX_DIM + 3];
+                known[R_SLOT] = true;
+                known[S_SLOT] = true;
+                known[OUT_SLOT] = true;
+            }
+            for k in 0..self.n_res {
+                let r = &self.res[k];
+                let i_e: f64 = (0..self.n_tr)
+                    .filter(|&i| self.tr[i].e == r.slot)
+                    .map(|i| cur[i] * (1.0 + 1.0 / self.beta_nom))
+                    .sum();
+                v[r.slot] = i_e * sys.res_ohm[k];
+                known[r.slot] = true;
+            }
+            for _ in 0..MAX_TRANSISTORS {
+                for i in 0..self.n_tr {
+                    let t = &self.tr[i];
+                    if known[t.e] && !known[t.b] {
+                        v[t.b] = v[t.e] + vbe_at[i];
+                        known[t.b] = true;
+                    } else if known[t.b] && !known[t.e] {
+                        v[t.e] = v[t.b] - vbe_at[i];
+                        known[t.e] = true;
+                    }
+                }
+            }
             for i in 0..self.n_tr {
                 let t = &self.tr[i];
-                if known[t.e] && !known[t.b] {
-                    v[t.b] = v[t.e] + vbe(i);
-                    known[t.b] = true;
-                } else if known[t.b] && !known[t.e] {
-                    v[t.e] = v[t.b] - vbe(i);
-                    known[t.e] = true;
+                if !known[t.c] {
+                    v[t.c] = v[t.b];
+                    known[t.c] = true;
                 }
             }
         }
-        for i in 0..self.n_tr {
-            let t = &self.tr[i];
-            if !known[t.c] {
-                v[t.c] = v[t.b];
-                known[t.c] = true;
-            }
-        }
+        let vbe = |i: usize| vbe_at[i];
         // Below compliance a fixed collector pins its base: no junction may start forward
         // biased beyond the V_BE of its nominal current (e^(V/V_T) would overflow).
         let free = |slot: usize| slot >= 3;
@@ -363,7 +448,8 @@ impl Netlist {
             let mut changed = false;
             for i in 0..self.n_tr {
                 let t = &self.tr[i];
-                let lim = vbe(i).max(0.0) + 1e-9;
+                // A few V_T of slack: small differences between devices are Newton's job.
+                let lim = vbe(i).max(0.0) + 4.0 * sys.at[i].vt;
                 if v[t.b] - v[t.c] > lim {
                     if free(t.b) {
                         v[t.b] = v[t.c] + lim;
@@ -388,6 +474,11 @@ impl Netlist {
         let mut x = [0.0; MAX_DIM];
         x[..self.n_nodes].copy_from_slice(&v[3..3 + self.n_nodes]);
         x
+    }
+
+    #[cfg(test)]
+    pub(super) fn start_point_for_tests(&self, sys: &CircuitSystem) -> Vector {
+        self.start_point(sys)
     }
 
     /// Solves at one operating point.
@@ -431,12 +522,29 @@ impl Netlist {
     ) -> Result<u32, SolveFailure> {
         let nn = self.n_nodes;
         let iso = *x;
-        // Start the temperatures where the isothermal powers put them.
+        // Start the temperatures where the isothermal powers put them, and the node
+        // voltages where the circuit settles with the devices frozen at those temperatures
+        // (a cheap electrical solve that leaves the coupled Newton little to do).
         let p = sys.powers(x);
-        sys.thermal = true;
+        let mut t_start = [0.0; MAX_TRANSISTORS];
         for i in 0..self.n_tr {
-            x[nn + i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+            t_start[i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
         }
+        let ambient_devices = sys.at;
+        let mut predictor_iterations = 0;
+        if t_start[..self.n_tr].iter().all(|&t| t < MAX_JUNCTION_K) {
+            for i in 0..self.n_tr {
+                sys.at[i] = self.tr[i].bjt.at(t_start[i]);
+            }
+            let c = solve::solve(&*sys, x, newton);
+            predictor_iterations = c.iterations();
+            if !c.is_converged() {
+                *x = iso;
+            }
+            sys.at = ambient_devices;
+        }
+        sys.thermal = true;
+        x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
         let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
             topology: self.topology,
             part: self.part.clone(),
@@ -444,7 +552,7 @@ impl Netlist {
             t_max_k,
         };
         let out = solve::solve_with_continuation(&*sys, x, newton, 1e-3);
-        let mut iterations = out.iterations;
+        let mut iterations = predictor_iterations + out.iterations;
         if !out.convergence.is_converged() {
             // Walk the thermal coupling up from zero: if the isothermal circuit solves but
             // the coupled one cannot be reached, the thermal loop has no fixed point.
@@ -478,7 +586,7 @@ impl Netlist {
             sys.theta_scale = 1.0;
         }
         let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-        if !sys.thermally_stable(x) {
+        if t_max > MAX_JUNCTION_K || !sys.thermally_stable(x) {
             return Err(runaway(t_max));
         }
         Ok(iterations)
@@ -491,7 +599,14 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<f64, SolveFailure> {
         let (_, sys, x) = self.solve_full(op, opts)?;
-        Ok(sys.output_resistance(&x))
+        let r = sys.output_resistance(&x);
+        // Infinite is a true answer (no Early effect); NaN would be an untrusted number.
+        if r.is_nan() {
+            return Err(SolveFailure::Invalid {
+                reason: format!("singular circuit Jacobian at the solution, {op:?}"),
+            });
+        }
+        Ok(r)
     }
 }
 
@@ -536,6 +651,7 @@ impl CircuitSystem<'_> {
             region: Region::Cutoff,
             power_w: 0.0,
             package: 0,
+            helper_class: false,
         };
         let mut transistors = [blank; MAX_TRANSISTORS];
         let mut i_out = 0.0;
@@ -563,6 +679,7 @@ impl CircuitSystem<'_> {
                 region: Region::of(vbe, vbc),
                 power_w: vce * ev.ic + vbe * ev.ib,
                 package: t.package,
+                helper_class: t.helper_class,
             };
         }
         Solution {

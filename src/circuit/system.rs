@@ -25,7 +25,6 @@ pub(super) struct CircuitSystem<'n> {
     pub op: OperatingPoint,
     /// Devices at the ambient temperature (the isothermal solve).
     pub at: [BjtAtT; super::MAX_TRANSISTORS],
-    v_crit: [f64; super::MAX_TRANSISTORS],
     pub res_ohm: [f64; 2],
     res_g: [f64; 2],
     /// Junction temperatures are unknowns.
@@ -38,14 +37,12 @@ impl<'n> CircuitSystem<'n> {
     pub fn new(net: &'n Netlist, op: OperatingPoint) -> Self {
         let at0 = net.tr[0].bjt.at(op.t_amb_k);
         let mut at = [at0; super::MAX_TRANSISTORS];
-        let mut v_crit = [0.0; super::MAX_TRANSISTORS];
         for i in 0..net.n_tr {
             // Devices built from equal parameters share one temperature evaluation.
             at[i] = match (0..i).find(|&j| net.tr[j].bjt == net.tr[i].bjt) {
                 Some(j) => at[j],
                 None => net.tr[i].bjt.at(op.t_amb_k),
             };
-            v_crit[i] = at[i].critical_voltage();
         }
         let mut res_ohm = [0.0; 2];
         let mut res_g = [0.0; 2];
@@ -58,7 +55,6 @@ impl<'n> CircuitSystem<'n> {
             net,
             op,
             at,
-            v_crit,
             res_ohm,
             res_g,
             thermal: false,
@@ -78,6 +74,15 @@ impl<'n> CircuitSystem<'n> {
             self.net.tr[i].bjt.at(x[self.net.n_nodes + i])
         } else {
             self.at[i]
+        }
+    }
+
+    /// V_T of device `i` at its current temperature.
+    fn device_vt(&self, i: usize, x: &Vector) -> f64 {
+        if self.thermal {
+            crate::device::thermal_voltage(x[self.net.n_nodes + i])
+        } else {
+            self.at[i].vt
         }
     }
 
@@ -277,15 +282,20 @@ impl NonlinearSystem for CircuitSystem<'_> {
         let mut alpha = 1.0f64;
         for i in 0..net.n_tr {
             let t = &net.tr[i];
-            let (vt, v_crit) = if self.thermal {
-                let d = self.device(i, x);
-                (d.vt, d.critical_voltage())
-            } else {
-                (self.at[i].vt, self.v_crit[i])
-            };
+            let vt = self.at[i].vt;
             for (a, b) in [(t.b, t.e), (t.b, t.c)] {
                 let old = v_old[a] - v_old[b];
                 let new = v_new[a] - v_new[b];
+                // Steps within 2 V_T are never limited; skip the logarithm for them.
+                if (new - old).abs() <= 2.0 * vt {
+                    continue;
+                }
+                let v_crit = if self.thermal {
+                    self.device(i, x).critical_voltage()
+                } else {
+                    self.at[i].critical_voltage()
+                };
+                let vt = self.device_vt(i, x);
                 let lim = limit_junction(new, old, vt, v_crit);
                 if lim != new {
                     alpha = alpha.min((lim - old) / (new - old));
@@ -307,6 +317,127 @@ impl NonlinearSystem for CircuitSystem<'_> {
             let alpha = alpha.max(1e-3);
             for d in dx.iter_mut().take(self.dim()) {
                 *d *= alpha;
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::circuit::{Design, Mismatch};
+    use crate::model::{
+        BjtParams, Matching, Polarity, Ratings, Thermal, TransistorClass, ALL_TOPOLOGIES,
+    };
+    use proptest::prelude::*;
+
+    fn class(is: f64, bf: f64, vaf: f64, ikf: Option<f64>) -> TransistorClass {
+        let mut model = BjtParams::new(is, bf, Some(vaf));
+        model.knee_current_a = ikf;
+        TransistorClass {
+            id: "jacobian-test".into(),
+            summary: String::new(),
+            polarity: Polarity::Npn,
+            devices_per_package: 2,
+            package: String::new(),
+            model,
+            matching: Some(Matching {
+                vbe_offset_sigma_v: 1e-3,
+                beta_mismatch_sigma: 0.02,
+            }),
+            ratings: Ratings {
+                vceo_v: 45.0,
+                ic_max_a: 0.1,
+                power_per_package_w: 0.3,
+            },
+            thermal: Thermal {
+                theta_self_k_per_w: 600.0,
+                theta_mutual_k_per_w: 250.0,
+            },
+            unit_cost: 0.0,
+            provenance: String::new(),
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 128, ..ProptestConfig::default() })]
+
+        /// The analytic Jacobian (node voltages and junction temperatures, plus the output
+        /// row and column) against central finite differences of the residual.
+        #[test]
+        fn jacobian_matches_finite_differences(
+            t in 0..ALL_TOPOLOGIES.len(),
+            is in -16.0..-12.0f64,
+            bf in 20.0..1000.0f64,
+            vaf in 10.0..500.0f64,
+            knee in prop::option::of(1e-3..1.0f64),
+            re in prop_oneof![Just(0.0), 10.0..10e3f64],
+            i_in in -6.0..-2.0f64,
+            v_out in 0.3..30.0f64,
+            jitter in prop::collection::vec(-0.02..0.02f64, MAX_DIM),
+            thermal in any::<bool>(),
+        ) {
+            let topology = ALL_TOPOLOGIES[t];
+            let pair = class(10f64.powf(is), bf, vaf, knee);
+            let helper = class(2.0 * 10f64.powf(is), bf * 0.7, vaf, None);
+            let (re1, re2) = if topology.desc().has_re1 { (re, re) } else { (0.0, re.max(100.0)) };
+            let design = Design {
+                topology,
+                pair: &pair,
+                helper: Some(&helper),
+                re1_ohm: re1,
+                re2_ohm: re2,
+                re_tcr_per_k: 1e-4,
+            };
+            let mm = Mismatch { dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01 };
+            let net = Netlist::compile(&design, &mm).unwrap();
+            let op = OperatingPoint { i_in_a: 10f64.powf(i_in), v_out_v: v_out, supply_v: v_out + 2.0, t_amb_k: 320.0 };
+            let mut sys = CircuitSystem::new(&net, op);
+            let mut x = net.start_point_for_tests(&sys);
+            for k in 0..net.n_nodes {
+                x[k] += jitter[k];
+            }
+            if thermal {
+                sys.thermal = true;
+                for i in 0..net.n_tr {
+                    x[net.n_nodes + i] = 320.0 + 30.0 * jitter[net.n_nodes.min(MAX_DIM - 1)].abs() + i as f64;
+                }
+            }
+            let n = sys.dim();
+            let mut f = [0.0; MAX_DIM];
+            let mut s = [0.0; MAX_DIM];
+            let mut j = [[0.0; MAX_DIM]; MAX_DIM];
+            sys.jacobian(&x, &mut f, &mut s, &mut j);
+            // Columns 0..n are unknowns; column n is V_out (rows 0..=n; row n is I_out).
+            for col in 0..=n {
+                let h = if thermal && col >= net.n_nodes && col < n { 1e-3 } else { 1e-7 };
+                let mut fp = [0.0; MAX_DIM];
+                let mut fm = [0.0; MAX_DIM];
+                if col < n {
+                    let mut xp = x;
+                    xp[col] += h;
+                    let mut xm = x;
+                    xm[col] -= h;
+                    sys.residual(&xp, &mut fp, &mut s);
+                    sys.residual(&xm, &mut fm, &mut s);
+                } else {
+                    let mut sp = CircuitSystem::new(&net, OperatingPoint { v_out_v: v_out + h, ..op });
+                    let mut sm = CircuitSystem::new(&net, OperatingPoint { v_out_v: v_out - h, ..op });
+                    sp.thermal = thermal;
+                    sm.thermal = thermal;
+                    sp.residual(&x, &mut fp, &mut s);
+                    sm.residual(&x, &mut fm, &mut s);
+                }
+                sys.residual(&x, &mut f, &mut s);
+                for row in 0..=n {
+                    let fd = (fp[row] - fm[row]) / (2.0 * h);
+                    let a = j[row][col];
+                    let noise = 1e3 * f64::EPSILON * s[row.min(n.saturating_sub(1))].abs().max(f[row].abs()) / h;
+                    prop_assert!(
+                        (a - fd).abs() <= 1e-5 * a.abs().max(fd.abs()) + noise + 1e-15,
+                        "{topology:?} row {row} col {col}: analytic {a:e}, fd {fd:e}"
+                    );
+                }
             }
         }
     }

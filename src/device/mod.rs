@@ -150,7 +150,20 @@ impl BjtAtT {
         self.vt * (i / self.is).ln()
     }
 
-    /// The voltage above which SPICE-style junction limiting applies:
+    /// Like `vbe_for_current`, for a collector current `i_a` at `v_ce`: the transport
+    /// current is `i_a` divided by the Early factor.
+    #[inline]
+    pub fn vbe_for_current_at(&self, i_a: f64, v_ce: f64) -> f64 {
+        let early = 1.0 + v_ce * self.vaf_inv;
+        self.vbe_for_current(if early > 0.0 { i_a / early } else { i_a })
+    }
+
+    /// True when the device has a finite Early voltage.
+    pub fn has_early_effect(&self) -> bool {
+        self.vaf_inv != 0.0
+    }
+
+    /// The voltage above which junction limiting applies:
     /// `V_T ln(V_T / (sqrt(2) IS))`.
     #[inline]
     pub fn critical_voltage(&self) -> f64 {
@@ -202,7 +215,7 @@ impl BjtAtT {
     }
 }
 
-/// SPICE-style junction limiting (the classic `pnjlim`): above the critical voltage a
+/// Junction-voltage limiting as circuit simulators commonly do it: above the critical voltage a
 /// proposed forward step is replaced by the logarithm of its exponential, so `exp` never
 /// overflows and Newton cannot overshoot a diode characteristic.
 #[inline]

@@ -31,14 +31,21 @@ impl Lu {
     }
 }
 
-/// Factorises the leading `n x n` block of `a`; `None` when a pivot is exactly zero or not
-/// finite (singular matrix).
-pub fn lu_factor(a: &Matrix, n: usize) -> Option<Lu> {
+/// Row permutation and its sign from an in-place factorisation.
+#[derive(Debug, Clone, Copy)]
+pub struct Pivots {
+    pub perm: [u8; MAX_DIM],
+    pub sign: f64,
+}
+
+/// Factorises the leading `n x n` block of `a` in place (L below the diagonal, U on and
+/// above it); `None` when a pivot is exactly zero or not finite (singular matrix). The hot
+/// loop uses this form: no copy of the matrix.
+pub fn lu_factor_in_place(m: &mut Matrix, n: usize) -> Option<Pivots> {
     debug_assert!(n <= MAX_DIM);
-    let mut m = *a;
-    let mut perm = [0usize; MAX_DIM];
+    let mut perm = [0u8; MAX_DIM];
     for (i, p) in perm.iter_mut().enumerate().take(n) {
-        *p = i;
+        *p = i as u8;
     }
     let mut sign = 1.0;
     for k in 0..n {
@@ -59,46 +66,72 @@ pub fn lu_factor(a: &Matrix, n: usize) -> Option<Lu> {
             sign = -sign;
         }
         let inv = 1.0 / m[k][k];
-        let pivot_row = m[k];
-        for row in m.iter_mut().take(n).skip(k + 1) {
+        let (top, rest) = m.split_at_mut(k + 1);
+        let pivot_row = &top[k];
+        for row in rest.iter_mut().take(n - k - 1) {
             let f = row[k] * inv;
+            row[k] = f;
             if f != 0.0 {
-                row[k] = f;
                 for j in k + 1..n {
                     row[j] -= f * pivot_row[j];
                 }
-            } else {
-                row[k] = 0.0;
             }
         }
     }
-    Some(Lu {
-        n,
-        a: m,
-        perm,
-        perm_sign: sign,
-    })
+    Some(Pivots { perm, sign })
 }
 
-/// Solves `A x = b` with a factorisation of `A`.
-pub fn lu_solve(lu: &Lu, b: &Vector) -> Vector {
-    let n = lu.n;
+/// Solves `A x = b` with an in-place factorisation of `A`.
+pub fn lu_solve_in_place(a: &Matrix, piv: &Pivots, n: usize, b: &Vector) -> Vector {
     let mut x = [0.0; MAX_DIM];
     for i in 0..n {
-        let mut s = b[lu.perm[i]];
+        let mut s = b[piv.perm[i] as usize];
         for j in 0..i {
-            s -= lu.a[i][j] * x[j];
+            s -= a[i][j] * x[j];
         }
         x[i] = s;
     }
     for i in (0..n).rev() {
         let mut s = x[i];
         for j in i + 1..n {
-            s -= lu.a[i][j] * x[j];
+            s -= a[i][j] * x[j];
         }
-        x[i] = s / lu.a[i][i];
+        x[i] = s / a[i][i];
     }
     x
+}
+
+/// Factorises a copy of the leading `n x n` block of `a`.
+pub fn lu_factor(a: &Matrix, n: usize) -> Option<Lu> {
+    let mut m = *a;
+    let piv = lu_factor_in_place(&mut m, n)?;
+    let mut perm = [0usize; MAX_DIM];
+    for i in 0..n {
+        perm[i] = piv.perm[i] as usize;
+    }
+    Some(Lu {
+        n,
+        a: m,
+        perm,
+        perm_sign: piv.sign,
+    })
+}
+
+/// Solves `A x = b` with a factorisation of `A`.
+pub fn lu_solve(lu: &Lu, b: &Vector) -> Vector {
+    let mut p = [0u8; MAX_DIM];
+    for i in 0..lu.n {
+        p[i] = lu.perm[i] as u8;
+    }
+    lu_solve_in_place(
+        &lu.a,
+        &Pivots {
+            perm: p,
+            sign: lu.perm_sign,
+        },
+        lu.n,
+        b,
+    )
 }
 
 #[cfg(test)]

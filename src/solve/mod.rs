@@ -12,8 +12,10 @@
 mod lu;
 mod newton;
 
-pub use lu::{lu_factor, lu_solve, Lu, Matrix, Vector, MAX_DIM};
+pub use lu::{
+    lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, Lu, Matrix, Pivots, Vector, MAX_DIM,
+};
 pub use newton::{
-    newton_step, solve, solve_with_continuation, Convergence, NewtonOptions, NonlinearSystem,
-    Outcome, StepReport, Tolerance,
+    newton_step, solve, solve_damped, solve_with_continuation, Convergence, NewtonOptions,
+    NonlinearSystem, Outcome, StepReport, Tolerance,
 };

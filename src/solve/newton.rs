@@ -3,7 +3,9 @@
 //! The step and the driver are separate so limiting and damping can be tested one step at
 //! a time; the driver only decides when to stop.
 
-use super::lu::{lu_factor, lu_solve, Matrix, Vector, MAX_DIM};
+use super::lu::{
+    lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, Matrix, Vector, MAX_DIM,
+};
 
 /// A square nonlinear system `F(x) = 0` of at most `MAX_DIM` unknowns.
 ///
@@ -145,14 +147,14 @@ fn step_inner<S: NonlinearSystem + ?Sized>(
         }
         polishing = true;
     }
-    let Some(lu) = lu_factor(jac, n) else {
+    let Some(piv) = lu_factor_in_place(jac, n) else {
         return StepReport::Singular;
     };
     let mut rhs = [0.0; MAX_DIM];
     for i in 0..n {
         rhs[i] = -f[i];
     }
-    let mut dx = lu_solve(&lu, &rhs);
+    let mut dx = lu_solve_in_place(jac, &piv, n, &rhs);
     sys.limit_step(x, &mut dx);
     for i in 0..n {
         if !dx[i].is_finite() {
@@ -168,7 +170,7 @@ fn step_inner<S: NonlinearSystem + ?Sized>(
 }
 
 /// Extra steps allowed on a point that meets the tolerance only through its absolute floor.
-const MAX_POLISH_STEPS: u32 = 3;
+const MAX_POLISH_STEPS: u32 = 20;
 
 /// Plain Newton from `x` (updated in place) until converged or out of budget.
 pub fn solve<S: NonlinearSystem + ?Sized>(
@@ -216,8 +218,86 @@ pub fn solve<S: NonlinearSystem + ?Sized>(
     }
 }
 
+/// Weighted residual norm: each equation in units of its own tolerance.
+fn merit<S: NonlinearSystem + ?Sized>(sys: &S, x: &Vector, tol: &Tolerance) -> f64 {
+    let n = sys.dim();
+    let mut f = [0.0; MAX_DIM];
+    let mut scale = [0.0; MAX_DIM];
+    sys.residual(x, &mut f, &mut scale);
+    let mut m = 0.0;
+    for i in 0..n {
+        let w = f[i] / (tol.abs + tol.rel * scale[i]);
+        m += w * w;
+    }
+    if m.is_finite() {
+        m
+    } else {
+        f64::INFINITY
+    }
+}
+
+/// Newton with backtracking: a step is halved until the weighted residual norm falls.
+/// Slower than `solve` (one extra residual per trial), so it is only a fallback for
+/// starts where full steps cycle.
+pub fn solve_damped<S: NonlinearSystem + ?Sized>(
+    sys: &S,
+    x: &mut Vector,
+    opts: &NewtonOptions,
+) -> Convergence {
+    let n = sys.dim();
+    let tol = &opts.tolerance;
+    let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+    let mut last = f64::INFINITY;
+    for it in 0..=opts.max_iterations {
+        let mut f = [0.0; MAX_DIM];
+        let mut scale = [0.0; MAX_DIM];
+        sys.jacobian(x, &mut f, &mut scale, &mut jac);
+        if f[..n].iter().any(|v| !v.is_finite()) {
+            return Convergence::NotFinite { iterations: it };
+        }
+        if tol.met(&f, &scale, n) {
+            // Finish with plain Newton so the tight polish applies as everywhere else.
+            let c = solve(sys, x, opts);
+            return match c {
+                Convergence::Converged { iterations } => Convergence::Converged {
+                    iterations: it + iterations,
+                },
+                other => other,
+            };
+        }
+        last = f[..n].iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        let Some(lu) = lu_factor(&jac, n) else {
+            return Convergence::Singular { iterations: it };
+        };
+        let mut rhs = [0.0; MAX_DIM];
+        for i in 0..n {
+            rhs[i] = -f[i];
+        }
+        let mut dx = lu_solve(&lu, &rhs);
+        sys.limit_step(x, &mut dx);
+        let m0 = merit(sys, x, tol);
+        let mut t = 1.0;
+        let mut trial = *x;
+        for _ in 0..30 {
+            for i in 0..n {
+                trial[i] = x[i] + t * dx[i];
+            }
+            if merit(sys, &trial, tol) < (1.0 - 1e-4 * t) * m0 {
+                break;
+            }
+            t *= 0.5;
+        }
+        *x = trial;
+    }
+    Convergence::MaxIterations {
+        iterations: opts.max_iterations,
+        residual: last,
+    }
+}
+
 /// `F(x) + g (x - x_ref)`: every unknown tied to a reference point through a conductance
-/// `g`. Large `g` makes the system nearly linear around `x_ref`; `g -> 0` recovers `F`.
+/// `g` (`x_ref = 0`: to the rail, as gmin stepping in circuit simulation does). Large `g` makes the
+/// system nearly linear; `g -> 0` recovers `F`.
 struct Gmin<'a, S: ?Sized> {
     inner: &'a S,
     g: f64,
@@ -258,7 +338,8 @@ pub struct Outcome {
     pub iterations: u32,
 }
 
-/// Plain Newton first; when it fails, gmin stepping from `g_start` down to zero, each stage
+/// Plain Newton first; when it fails, Newton with backtracking; when that fails, gmin
+/// stepping (toward zero) from `g_start` down to zero, each stage
 /// started from the previous stage's solution, with the step in `log g` halved on failure.
 /// The final stage is always the unmodified system, so a `Converged` result is a checked
 /// solution of `F(x) = 0` itself.
@@ -277,10 +358,19 @@ pub fn solve_with_continuation<S: NonlinearSystem + ?Sized>(
             iterations: total,
         };
     }
+    *x = x0;
+    let damped = solve_damped(sys, x, opts);
+    total += damped.iterations();
+    if damped.is_converged() {
+        return Outcome {
+            convergence: Convergence::Converged { iterations: total },
+            iterations: total,
+        };
+    }
     let mut stage = Gmin {
         inner: sys,
         g: g_start,
-        x_ref: x0,
+        x_ref: [0.0; MAX_DIM],
     };
     *x = x0;
     let c = solve(&stage, x, opts);

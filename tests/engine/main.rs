@@ -1,6 +1,7 @@
 //! Engine checks against published results: device model, solved topologies, self-heating,
 //! properties. One integration binary (fast links); modules by subject.
 
+mod app;
 mod fixtures;
 mod properties;
 mod reference;

@@ -2,13 +2,17 @@
 //! VAF 10...500 V, I_in 1 nA...50 mA, V_out 0.3...100 V, T -40...125 °C, RE 0...100 kOhm,
 //! every topology, with and without self-heating.
 //!
+//! Cases also draw the package size (singles, duals, a 5-device array, so every layout
+//! and helper path runs), V_BE offsets within +-5 mV, beta deviations within +-10 % and
+//! resistor deviations within +-1 %.
+//!
 //! Two limits keep the cases physical: the drop across an emitter resistor is kept within
 //! 2 V (I_in RE <= 2 V; beyond that the input node would sit kilovolts above the rail),
 //! and with self-heating a case may end in `ThermalRunaway` (50 mA at 100 V is 5 W in a
 //! small package), which is the correct answer there; any other failure fails the test.
 
 use crate::fixtures::*;
-use mirrorpick::circuit::{solve_point, Design, OperatingPoint, Solution, SolveFailure};
+use mirrorpick::circuit::{solve_point, Design, Mismatch, OperatingPoint, Solution, SolveFailure};
 use mirrorpick::model::{BjtParams, Polarity, Topology, ALL_TOPOLOGIES};
 use proptest::prelude::*;
 
@@ -22,6 +26,8 @@ struct Case {
     v_out: f64,
     t_c: f64,
     re: f64,
+    per_package: u32,
+    mismatch: Mismatch,
 }
 
 fn log_range(lo: f64, hi: f64) -> impl Strategy<Value = f64> {
@@ -38,32 +44,59 @@ fn cases() -> impl Strategy<Value = Case> {
         log_range(0.3, 100.0),
         -40.0..125.0f64,
         prop_oneof![Just(0.0), log_range(1.0, 100e3)],
+        prop_oneof![Just(1u32), Just(2), Just(5)],
+        (
+            -5e-3..5e-3f64,
+            -5e-3..5e-3f64,
+            -0.1..0.1f64,
+            -0.1..0.1f64,
+            -0.01..0.01f64,
+        ),
     )
-        .prop_map(|(t, is, bf, vaf, i_in, v_out, t_c, re)| Case {
-            topology: ALL_TOPOLOGIES[t],
-            is,
-            bf,
-            vaf,
-            i_in,
-            v_out,
-            t_c,
-            re: re.min(2.0 / i_in),
-        })
+        .prop_map(
+            |(t, is, bf, vaf, i_in, v_out, t_c, re, per_package, (v1, v2, b1, b2, r))| Case {
+                topology: ALL_TOPOLOGIES[t],
+                is,
+                bf,
+                vaf,
+                i_in,
+                v_out,
+                t_c,
+                re: re.min(2.0 / i_in),
+                per_package,
+                mismatch: Mismatch {
+                    dvbe_v: [v1, v2],
+                    dbeta: [b1, b2],
+                    dre1: r,
+                    dre2: -r,
+                },
+            },
+        )
 }
 
 fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoint, f64, f64) {
     let cls = class(
         "prop",
         Polarity::Npn,
-        5,
+        c.per_package,
         BjtParams::new(c.is, c.bf, Some(c.vaf)),
+    );
+    // The helper single: a different device, in its own package when it is used.
+    let helper = class(
+        "prop-single",
+        Polarity::Npn,
+        1,
+        BjtParams::new(c.is * 1.5, c.bf * 0.8, Some(c.vaf * 1.2)),
     );
     let (re1, re2) = if c.topology == Topology::Widlar {
         (0.0, c.re.max(1.0))
     } else {
         (c.re, c.re)
     };
-    let d: Design = design(c.topology, &cls, re1, re2);
+    let d = Design {
+        helper: Some(&helper),
+        ..design(c.topology, &cls, re1, re2)
+    };
     let p = OperatingPoint {
         i_in_a: c.i_in,
         v_out_v: c.v_out,
@@ -71,20 +104,18 @@ fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoi
         t_amb_k: c.t_c + 273.15,
     };
     let opts = if heated_ { heated() } else { iso() };
-    (solve_point(&d, &p, &nominal(), &opts), p, re1, re2)
+    (
+        solve_point(&d, &p, &c.mismatch, &opts),
+        p,
+        re1 * (1.0 + c.mismatch.dre1),
+        re2 * (1.0 + c.mismatch.dre2),
+    )
 }
 
 /// KCL at every node from the reported currents (independent of the solver's own check),
 /// and the power balance of Tellegen's theorem.
 fn check(c: &Case, s: &Solution, p: &OperatingPoint, re1: f64, re2: f64) -> Result<(), String> {
     let desc = c.topology.desc();
-    let volts = |name: &str| -> f64 {
-        match name {
-            "R" => 0.0,
-            "e1" | "e2" => s.node(name).unwrap_or(0.0),
-            _ => s.node(name).expect("node reported"),
-        }
-    };
     for node in s.nodes() {
         if node.name == "out" || node.name == "S" {
             continue;
@@ -136,7 +167,6 @@ fn check(c: &Case, s: &Solution, p: &OperatingPoint, re1: f64, re2: f64) -> Resu
             scale += v * v / r;
         }
     }
-    let _ = volts;
     if (delivered - dissipated).abs() > 1e-9 * scale {
         return Err(format!(
             "power: delivered {delivered:e}, dissipated {dissipated:e}"
@@ -162,6 +192,40 @@ proptest! {
             Ok(s) => check(&c, &s, &p, re1, re2).map_err(TestCaseError::fail)?,
             Err(SolveFailure::ThermalRunaway { .. }) => {}
             Err(e) => return Err(TestCaseError::fail(e.to_string())),
+        }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 64, ..ProptestConfig::default() })]
+
+    /// MODEL.md conventions: a PNP design is the NPN design mirrored, so with equal
+    /// parameters every reported magnitude agrees to 1e-9 relative.
+    #[test]
+    fn pnp_equals_mirrored_npn(c in cases(), heat in any::<bool>()) {
+        let params = BjtParams::new(c.is, c.bf, Some(c.vaf));
+        let npn_cls = class("n", Polarity::Npn, 5, params.clone());
+        let pnp_cls = class("p", Polarity::Pnp, 5, params);
+        let (re1, re2) = if c.topology == Topology::Widlar { (0.0, c.re.max(1.0)) } else { (c.re, c.re) };
+        let p = OperatingPoint {
+            i_in_a: c.i_in,
+            v_out_v: c.v_out,
+            supply_v: c.v_out + 1.0,
+            t_amb_k: c.t_c + 273.15,
+        };
+        let opts = if heat { heated() } else { iso() };
+        let a = solve_point(&design(c.topology, &npn_cls, re1, re2), &p, &nominal(), &opts);
+        let b = solve_point(&design(c.topology, &pnp_cls, re1, re2), &p, &nominal(), &opts);
+        match (a, b) {
+            (Ok(a), Ok(b)) => {
+                prop_assert!((b.i_out_a / a.i_out_a - 1.0).abs() <= 1e-9);
+                for (x, y) in a.transistors().iter().zip(b.transistors()) {
+                    prop_assert!((x.v_be - y.v_be).abs() <= 1e-9 * x.v_be.abs().max(1e-3));
+                    prop_assert!((x.t_junction_k - y.t_junction_k).abs() <= 1e-9 * x.t_junction_k);
+                }
+            }
+            (Err(SolveFailure::ThermalRunaway { .. }), Err(SolveFailure::ThermalRunaway { .. })) => {}
+            (a, b) => prop_assert!(false, "NPN {a:?} vs PNP {b:?}"),
         }
     }
 }

@@ -298,4 +298,18 @@ fn helper_needs_a_class_when_the_pair_has_no_spare() {
     let q = s.transistors();
     assert_eq!(q[0].package, q[1].package);
     assert_ne!(q[2].package, q[0].package);
+    assert!(q[2].helper_class && !q[0].helper_class);
+    // A 5-device array holds the whole Wilson: the helper is a spare device of the pair.
+    let array = class(
+        "array",
+        Polarity::Npn,
+        5,
+        BjtParams::new(1e-14, 100.0, None),
+    );
+    let d = design(Topology::Wilson, &array, 0.0, 0.0);
+    let s = solve_point(&d, &op(1e-3, 5.0), &nominal(), &iso()).unwrap();
+    assert!(s
+        .transistors()
+        .iter()
+        .all(|t| t.package == 0 && !t.helper_class));
 }
