@@ -38,10 +38,16 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// List, show or check the catalog of part classes.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+    )]
     Catalog(CatalogCommand),
     /// Check requirement files.
-    #[command(subcommand)]
+    #[command(
+        subcommand,
+        after_help = "Example:\n  mirrorpick spec lint requirements-examples/ltp-tail-sink.yaml"
+    )]
     Spec(SpecCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(

@@ -321,7 +321,9 @@ fn scale(number_text: &str, exp10: i32) -> f64 {
 
 /// Parse `text` as a quantity of `dimension`, SI result. No plausibility check.
 pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
-    let t = text.trim();
+    // Text pasted from documents often carries U+2212 MINUS SIGN instead of `-`.
+    let normalised = text.trim().replace('\u{2212}', "-");
+    let t = normalised.as_str();
     let not_a = || QuantityError::NotAQuantity {
         text: text.to_string(),
         expected: dimension,
@@ -641,6 +643,10 @@ mod tests {
             300.15
         ));
         assert!(close(parse("25", Dimension::Temperature).unwrap(), 298.15));
+        assert!(close(
+            parse("\u{2212}40 °C", Dimension::Temperature).unwrap(),
+            233.15
+        ));
         assert!(close(parse("150", Dimension::Number).unwrap(), 150.0));
     }
 

@@ -379,6 +379,8 @@ mod commands {
             )));
         for args in [
             vec!["--help"],
+            vec!["catalog", "--help"],
+            vec!["spec", "--help"],
             vec!["catalog", "list", "--help"],
             vec!["catalog", "show", "--help"],
             vec!["catalog", "lint", "--help"],
