@@ -80,7 +80,8 @@ pub fn rank(
     let groups = enumerate(req, catalog);
     let goal = match opts.prefer {
         Prefer::Cost => Goal::Cheapest(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
-        Prefer::Accuracy | Prefer::Balanced => Goal::All,
+        Prefer::Accuracy => Goal::MostAccurate(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
+        Prefer::Balanced => Goal::Balanced(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
     };
     rank_with_goal(req, catalog, opts, goal, &groups, progress)
 }
