@@ -126,7 +126,9 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
         };
         let vmax = set.supply_v;
 
-        // Top: I_out against V_out.
+        // Top: I_out against V_out. A family spanning more than a decade is drawn on a
+        // logarithmic current axis (plotted as log10 of the current, labelled in amperes),
+        // so the lowest curve is not flattened against zero.
         let i_top = set
             .output
             .iter()
@@ -139,18 +141,48 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
             .fold(0.0f64, f64::max)
             * 1.1;
         let i_top = if i_top > 0.0 { i_top } else { 1e-3 };
+        let log_axis = currents.len() > 1 && currents[currents.len() - 1] / currents[0] > 10.0;
         let (scale, unit) = current_scale(i_top);
+        // Plot coordinate of a current, and the axis range.
+        let ymap = |i: f64| -> Option<f64> {
+            if log_axis {
+                (i > 0.0).then(|| i.log10())
+            } else {
+                Some(i * scale)
+            }
+        };
+        let (y_lo, y_hi) = if log_axis {
+            let lo = currents[0] * set.ratio * (1.0 - set.accuracy);
+            ((lo.log10() - 0.5).floor(), (i_top.log10() + 0.1).ceil())
+        } else {
+            (0.0, i_top * scale)
+        };
+        let y_label = |v: &f64| {
+            if log_axis {
+                eng(10f64.powf(*v), "A", Charset::Unicode)
+            } else {
+                format!("{v:.1}")
+            }
+        };
+        let y_desc = if log_axis {
+            "I_out (log scale)".to_string()
+        } else {
+            format!("I_out ({unit})")
+        };
         let mut chart = ChartBuilder::on(&top)
             .caption("Output current against output voltage", (FONT, 18))
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(64)
-            .build_cartesian_2d(0.0..vmax, 0.0..i_top * scale)
+            .build_cartesian_2d(0.0..vmax, y_lo..y_hi)
             .map_err(&e)?;
+        let decades = (y_hi - y_lo).round() as usize + 1;
         chart
             .configure_mesh()
             .x_desc("V_out from the mirror rail (V)")
-            .y_desc(format!("I_out ({unit})"))
+            .y_desc(y_desc)
+            .y_labels(if log_axis { decades } else { 10 })
+            .y_label_formatter(&y_label)
             .label_style((FONT, 12))
             .light_line_style(RGBColor(235, 235, 235))
             .draw()
@@ -158,7 +190,7 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
         let w = set.v_out_window_v;
         chart
             .draw_series(std::iter::once(Rectangle::new(
-                [(w.min, 0.0), (w.max, i_top * scale)],
+                [(w.min, y_lo), (w.max, y_hi)],
                 WINDOW_FILL.mix(0.6).filled(),
             )))
             .map_err(&e)?
@@ -166,22 +198,24 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
             .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], WINDOW_FILL.filled()));
         // The accuracy band around each intended current n * I_in.
         for &i in &currents {
-            let target = i * set.ratio * scale;
-            chart
-                .draw_series(std::iter::once(Rectangle::new(
-                    [
-                        (0.0, target * (1.0 - set.accuracy)),
-                        (vmax, target * (1.0 + set.accuracy)),
-                    ],
-                    BAND_FILL.mix(0.7).filled(),
-                )))
-                .map_err(&e)?;
+            let target = i * set.ratio;
+            if let (Some(lo), Some(hi)) = (
+                ymap(target * (1.0 - set.accuracy)),
+                ymap(target * (1.0 + set.accuracy)),
+            ) {
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(0.0, lo), (vmax, hi)],
+                        BAND_FILL.mix(0.7).filled(),
+                    )))
+                    .map_err(&e)?;
+            }
         }
         for c in &set.output {
-            let ys: Vec<Option<f64>> = c.i_out_a.iter().map(|i| i.map(|i| i * scale)).collect();
+            let ys: Vec<Option<f64>> = c.i_out_a.iter().map(|i| i.and_then(ymap)).collect();
             let style = ShapeStyle::from(color_of(c.i_in_a)).stroke_width(width_of(c.t_amb_k));
             let mut first = true;
-            for run in runs(&c.v_out_v, &ys, 0.0, i_top * scale) {
+            for run in runs(&c.v_out_v, &ys, y_lo, y_hi) {
                 let s = chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
                 // One legend entry per current (the 25 °C curve); the extremes are the
                 // thin lines of the same colour, said once below.
@@ -550,6 +584,20 @@ mod tests {
         assert!(svg.contains("V_BE offset &lt;pair&gt;"));
         assert!(!svg.contains("<pair>"));
         assert!(svg.contains("required accuracy 1.00 %"));
+    }
+
+    #[test]
+    fn wide_families_get_a_log_current_axis() {
+        let mut req = fixtures::requirement();
+        req.input_current_a.min = 1e-7;
+        let set = sweep(&req, &CurveOptions::default(), None, |i, v, _| {
+            (v >= 0.2).then_some(i * (0.99 + 0.001 * v))
+        });
+        let svg = output_curves_svg(&set, None).unwrap();
+        assert!(svg.contains("I_out (log scale)"));
+        for decade in ["\n100 nA\n", "\n1.00 µA\n", "\n1.00 mA\n"] {
+            assert!(svg.contains(decade), "decade label {decade:?}");
+        }
     }
 
     #[test]
