@@ -342,8 +342,8 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
     let c = &e.candidate;
     writeln!(
         w,
-        "Design {}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
-        c.rank.map_or("—".into(), |k| format!("#{k}")),
+        "Design{}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
+        c.rank.map_or(String::new(), |k| format!(" #{k}")),
         c.label(),
         ohms(c.re1_ohm),
         ohms(c.re2_ohm),
