@@ -53,6 +53,9 @@ pub enum Goal {
     CheaperThan(f64),
     /// The cheapest feasible design(s) of every transistor class.
     CheapestPerClass,
+    /// The most accurate feasible design of every family (topology, pair, helper,
+    /// resistor class) cheaper than this cost.
+    CheaperFamilies(f64),
     /// The `n` designs with the smallest total error (largest accuracy margin).
     MostAccurate(usize),
     /// The `n` designs with the smallest balanced score (see `order`).
@@ -146,6 +149,25 @@ fn verify_survivors(
     if let Goal::MostAccurate(n) | Goal::Balanced(n) = goal {
         return verify_by_bound(req, catalog, survivors, goal, n, mc, solves, progress, v);
     }
+    if let Goal::CheaperFamilies(limit) = goal {
+        let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
+        for s in survivors {
+            if s.2 >= limit - 1e-12 {
+                v.unverified.push(s.1);
+                continue;
+            }
+            let key = family(&s.1);
+            match families.iter_mut().find(|(k, _)| *k == key) {
+                Some((_, f)) => f.push(s),
+                None => families.push((key, vec![s])),
+            }
+        }
+        for (_, f) in families {
+            let g = Goal::MostAccurate(1);
+            verify_by_bound(req, catalog, f, g, 1, mc, solves, progress, v);
+        }
+        return;
+    }
     // Buckets: one, or one per pair class.
     let mut buckets: Vec<(Option<String>, Vec<Survivor>)> = Vec::new();
     for s in survivors {
@@ -165,7 +187,10 @@ fn verify_survivors(
                 Goal::Cheapest(n) => found >= n,
                 Goal::CheaperThan(c) => cost >= c - 1e-12,
                 Goal::CheapestPerClass => found >= 1,
-                Goal::All | Goal::MostAccurate(_) | Goal::Balanced(_) => false,
+                Goal::All
+                | Goal::MostAccurate(_)
+                | Goal::Balanced(_)
+                | Goal::CheaperFamilies(_) => false,
             };
             let mut end = i;
             while end < bucket.len() && bucket[end].2 == cost {
@@ -313,6 +338,23 @@ fn merge(mut results: Vec<(usize, DesignSpec, Option<Outcome>)>, v: &mut Verdict
         .extend(feasible.into_iter().map(|(_, s, e)| (s, e)));
     v.rejected
         .extend(rejected.into_iter().map(|(_, s, c)| (s, c)));
+}
+
+/// Designs that differ only in resistor value: topology, pair, helper, resistor class.
+type FamilyKey = (
+    crate::model::Topology,
+    String,
+    Option<String>,
+    Option<String>,
+);
+
+pub fn family(s: &DesignSpec) -> FamilyKey {
+    (
+        s.topology,
+        s.pair.clone(),
+        s.helper.clone(),
+        s.resistor.clone(),
+    )
 }
 
 /// A screened candidate: enumeration index, spec, cost.
