@@ -11,7 +11,7 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 
 use mirrorpick::app::rank::{CheaperArgs, CheckArgs, DesignArgs, RankArgs};
 use mirrorpick::app::solve::SolveArgs;
-use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs};
+use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs, ReportArgs};
 use mirrorpick::check::MonteCarlo;
 use mirrorpick::input::REQUIREMENT_FIELDS;
 use mirrorpick::model::{Polarity, Topology};
@@ -80,6 +80,81 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
         after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
     )]
     Cheaper(CheaperCli),
+    /// Output current against output voltage for several input currents, and the error
+    /// against the input current, of one named design.
+    #[command(
+        after_help = "Sweeps V_out from 0 V to the supply at I_in min, max and geometric steps between, \
+at 25 °C (and the ambient extremes with --extremes), nominal devices.\n\nExample:\n  \
+mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct --svg tail.svg"
+    )]
+    Curves {
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        #[command(flatten)]
+        design: DesignCli,
+        /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+        #[arg(long, value_name = "CLASS")]
+        helper: Option<String>,
+        /// Also sweep at the requirement's ambient extremes.
+        #[arg(long)]
+        extremes: bool,
+        /// Solve with self-heating (junction temperatures from dissipation).
+        #[arg(long)]
+        self_heating: bool,
+        #[command(flatten)]
+        format: FormatArg,
+        /// Also draw the curves as an SVG file (written whole or not at all).
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+    },
+    /// Rank the requirement and write the decision record: one self-contained HTML page
+    /// and/or a Markdown file with its plots beside it.
+    #[command(
+        after_help = "Exit status: 0 when a design passes, 1 when none does (the record is still written), \
+2 on bad input or an unwritable path. Files are written whole or not at all. Without --out or \
+--markdown the HTML goes to standard output.\n\nExample:\n  \
+mirrorpick report requirements-examples/ltp-tail-sink.yaml --out tail.html\n  \
+mirrorpick report requirements-examples/led-string-sinks.yaml --markdown docs/led-sinks.md"
+    )]
+    Report {
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        /// Write the HTML page to FILE.
+        #[arg(long, value_name = "FILE.html")]
+        out: Option<PathBuf>,
+        /// Write the Markdown form to FILE, plots as <stem>-*.svg beside it.
+        #[arg(long, value_name = "FILE.md")]
+        markdown: Option<PathBuf>,
+        /// Designs shown: the chosen one and the runners-up.
+        #[arg(long, default_value_t = 5)]
+        top: usize,
+        #[command(flatten)]
+        mc: MonteCarloArgs,
+        /// Also draw the curves at the ambient extremes.
+        #[arg(long)]
+        extremes: bool,
+    },
+    /// Export one named design for a circuit simulator.
+    #[command(
+        after_help = "Writes a SPICE subcircuit with Gummel-Poon .model cards, the requirement and the \
+catalog's provenance as comments, and a test bench sweeping V_out.\n\nExample:\n  \
+mirrorpick export --spice requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology wilson --out tail.cir"
+    )]
+    Export {
+        /// Write a SPICE netlist (the only export format so far).
+        #[arg(long, required = true)]
+        spice: bool,
+        /// Requirement file (YAML).
+        requirement: PathBuf,
+        #[command(flatten)]
+        design: DesignCli,
+        /// Single-device class for helper transistors (default: spare devices, else the cheapest single).
+        #[arg(long, value_name = "CLASS")]
+        helper: Option<String>,
+        /// Write to FILE (written whole or not at all) instead of standard output.
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -503,6 +578,48 @@ impl Cli {
                 format: a.format.format.into(),
                 mc: a.mc.into(),
             }),
+            Command::Curves {
+                requirement,
+                design,
+                helper,
+                extremes,
+                self_heating,
+                format,
+                svg,
+            } => AppCommand::Curves {
+                requirement,
+                design: design.into_args(helper),
+                extremes,
+                self_heating,
+                format: format.format.into(),
+                svg,
+            },
+            Command::Report {
+                requirement,
+                out,
+                markdown,
+                top,
+                mc,
+                extremes,
+            } => AppCommand::Report(ReportArgs {
+                requirement,
+                html: out,
+                markdown,
+                top,
+                mc: mc.into(),
+                extremes,
+            }),
+            Command::Export {
+                spice: _,
+                requirement,
+                design,
+                helper,
+                out,
+            } => AppCommand::ExportSpice {
+                requirement,
+                design: design.into_args(helper),
+                out,
+            },
             Command::Cheaper(a) => AppCommand::Cheaper(CheaperArgs {
                 file: a.file,
                 design: a.design.into_args(None),

@@ -6,13 +6,18 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod outputs;
 pub mod rank;
+pub mod report_cmd;
 pub mod solve;
 
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
 use crate::fit;
+pub use rank::DesignArgs;
+pub use report_cmd::ReportArgs;
+
 use crate::input::{self, InputError};
 use crate::model::{Catalog, Polarity, Requirement, Topology, ZERO_CELSIUS_K};
 use crate::report::{self, Format, Style};
@@ -50,6 +55,23 @@ pub enum Command {
         format: Format,
     },
     Fit(FitArgs),
+    /// Curve family of one design; a plot when `svg` is given.
+    Curves {
+        requirement: PathBuf,
+        design: DesignArgs,
+        extremes: bool,
+        self_heating: bool,
+        format: Format,
+        svg: Option<PathBuf>,
+    },
+    /// Rank, then write the decision record.
+    Report(ReportArgs),
+    /// One design as a SPICE deck, on stdout or into `out`.
+    ExportSpice {
+        requirement: PathBuf,
+        design: DesignArgs,
+        out: Option<PathBuf>,
+    },
     Rank(rank::RankArgs),
     Check(rank::CheckArgs),
     Cheaper(rank::CheaperArgs),
@@ -141,6 +163,13 @@ pub enum AppError {
     Usage(String),
     #[error("cannot write the output: {0}")]
     Output(#[from] io::Error),
+    #[error(transparent)]
+    File(#[from] crate::atomic_file::OutputError),
+    /// The engine could not give a trusted answer for a named design.
+    #[error(transparent)]
+    Engine(#[from] crate::circuit::SolveFailure),
+    #[error(transparent)]
+    Plot(#[from] crate::report::plot::PlotError),
 }
 
 impl AppError {
@@ -149,6 +178,7 @@ impl AppError {
     pub fn exit_code(&self) -> u8 {
         match self {
             AppError::Solve(e) if !e.is_input_error() => 1,
+            AppError::Engine(_) => 1,
             _ => 2,
         }
     }
@@ -236,6 +266,32 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
             }
         }
         Command::Fit(args) => return run_fit(cfg, args, out),
+        Command::Curves {
+            requirement,
+            design,
+            extremes,
+            self_heating,
+            format,
+            svg,
+        } => {
+            return outputs::run_curves(
+                &cfg.catalog,
+                requirement,
+                design,
+                *extremes,
+                *self_heating,
+                *format,
+                svg,
+                cfg.style,
+                out,
+            )
+        }
+        Command::Report(args) => return report_cmd::run_report(&cfg.catalog, args, out),
+        Command::ExportSpice {
+            requirement,
+            design,
+            out: path,
+        } => return outputs::run_export_spice(&cfg.catalog, requirement, design, path, out),
         Command::Rank(a) => return rank::run_rank(cfg, a, out),
         Command::Check(a) => return rank::run_check(cfg, a, out),
         Command::Cheaper(a) => return rank::run_cheaper(cfg, a, out),

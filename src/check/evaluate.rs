@@ -277,6 +277,17 @@ impl<'a> Evaluator<'a> {
         Some(self.req.confidence_sigma * (s1.error - s0.error).abs())
     }
 
+    /// `|e| + k*sigma` at the probe corner: a lower bound of the total error (one solve
+    /// per mismatch input plus one). `None` when a solve fails.
+    pub fn probe_bound(&self) -> Option<f64> {
+        let c = corners::probe_corner(self.req);
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let nets = self.sensitivity_nets().ok()?;
+        let s0 = self.solve_net(&net, &c, true).ok()?;
+        let d = self.sensitivities(&nets, &c, &s0).ok()?;
+        Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
+    }
+
     fn input_limit(&self) -> f64 {
         self.req.input_voltage_max_v.unwrap_or(self.req.supply_v)
     }

@@ -1,0 +1,321 @@
+//! Curve families of one design: output current against output voltage for several
+//! programming currents (what a designer would otherwise measure on a bench), and the
+//! error against the programming current at the ends of the output window.
+//!
+//! Owns the grids (which currents, voltages and temperatures are swept) and the finished
+//! data. The sweep itself takes any point solver ([`sweep`]); [`for_design`] runs it on
+//! a design through the circuit layer, nominal devices. A point that does not converge
+//! is kept as a gap (`None`), never as a guessed number.
+
+use serde::Serialize;
+
+use crate::circuit::{
+    balance_voltage, Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions,
+};
+use crate::model::{Range, Requirement};
+
+/// 25 °C in kelvin, the reference ambient of the curves.
+pub const ROOM_K: f64 = 298.15;
+
+/// What to sweep.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CurveOptions {
+    /// Points from 0 V to the supply on each output curve.
+    pub voltage_points: usize,
+    /// Points from I_in min to max on each error curve (geometric).
+    pub current_points: usize,
+    /// Also sweep at the ambient extremes of the requirement.
+    pub ambient_extremes: bool,
+}
+
+impl Default for CurveOptions {
+    fn default() -> Self {
+        CurveOptions {
+            voltage_points: 121,
+            current_points: 25,
+            ambient_extremes: false,
+        }
+    }
+}
+
+/// I_out against V_out at one programming current and ambient.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OutputCurve {
+    pub i_in_a: f64,
+    pub t_amb_k: f64,
+    pub v_out_v: Vec<f64>,
+    /// `None` where the solver did not converge.
+    pub i_out_a: Vec<Option<f64>>,
+}
+
+/// Error `I_out / (n I_in) - 1` against I_in at one output voltage and ambient.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ErrorCurve {
+    pub v_out_v: f64,
+    pub t_amb_k: f64,
+    pub i_in_a: Vec<f64>,
+    pub error: Vec<Option<f64>>,
+}
+
+/// Everything the curve plots and tables show, with the requirement's windows.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CurveSet {
+    /// The intended ratio n.
+    pub ratio: f64,
+    pub supply_v: f64,
+    /// The requirement's output voltage window (compliance range).
+    #[serde(serialize_with = "range_as_map")]
+    pub v_out_window_v: Range,
+    /// The requirement's accuracy (largest allowed |error|).
+    pub accuracy: f64,
+    pub output: Vec<OutputCurve>,
+    pub error: Vec<ErrorCurve>,
+    /// Where the error of the simple mirror crosses zero (from the solver), if anywhere.
+    pub balance_voltage_v: Option<f64>,
+    /// Points the solver could not converge on (gaps in the curves).
+    pub failed_points: usize,
+}
+
+fn range_as_map<S: serde::Serializer>(r: &Range, s: S) -> Result<S::Ok, S::Error> {
+    use serde::ser::SerializeStruct;
+    let mut m = s.serialize_struct("Range", 2)?;
+    m.serialize_field("min", &r.min)?;
+    m.serialize_field("max", &r.max)?;
+    m.end()
+}
+
+impl OutputCurve {
+    /// The error at each point of the curve.
+    pub fn errors(&self, ratio: f64) -> Vec<Option<f64>> {
+        self.i_out_a
+            .iter()
+            .map(|i| i.map(|i| i / (ratio * self.i_in_a) - 1.0))
+            .collect()
+    }
+}
+
+/// `count` points from `lo` to `hi` inclusive, evenly spaced.
+pub fn linear_grid(lo: f64, hi: f64, count: usize) -> Vec<f64> {
+    match count {
+        0 => vec![],
+        1 => vec![lo],
+        _ => (0..count)
+            .map(|k| lo + (hi - lo) * k as f64 / (count - 1) as f64)
+            .collect(),
+    }
+}
+
+/// `count` points from `lo` to `hi` inclusive, geometrically spaced; the ends are exact.
+pub fn geometric_grid(lo: f64, hi: f64, count: usize) -> Vec<f64> {
+    match count {
+        0 => vec![],
+        1 => vec![lo],
+        _ => (0..count)
+            .map(|k| {
+                if k == count - 1 {
+                    hi
+                } else {
+                    lo * (hi / lo).powf(k as f64 / (count - 1) as f64)
+                }
+            })
+            .collect(),
+    }
+}
+
+/// The programming currents of the output-curve family: min, max and geometric steps
+/// between, about one per decade, at least three and at most seven curves.
+pub fn family_currents(range: Range) -> Vec<f64> {
+    if range.max <= range.min {
+        return vec![range.min];
+    }
+    let decades = (range.max / range.min).log10().ceil() as usize;
+    geometric_grid(range.min, range.max, (decades + 1).clamp(3, 7))
+}
+
+/// The ambients swept: 25 °C, plus the requirement's extremes on request.
+pub fn ambients(req: &Requirement, extremes: bool) -> Vec<f64> {
+    let mut t = vec![ROOM_K];
+    if extremes {
+        t.insert(0, req.ambient_k.min);
+        t.push(req.ambient_k.max);
+        t.dedup_by(|a, b| (*a - *b).abs() < 1e-9);
+    }
+    t
+}
+
+/// Sweeps the curves with `solve(i_in_a, v_out_v, t_amb_k) -> Some(i_out_a)` (or `None`
+/// when it cannot converge there). `balance_voltage_v` is passed through for the plots.
+pub fn sweep<F>(
+    req: &Requirement,
+    opts: &CurveOptions,
+    balance_voltage_v: Option<f64>,
+    solve: F,
+) -> CurveSet
+where
+    F: Fn(f64, f64, f64) -> Option<f64>,
+{
+    let temps = ambients(req, opts.ambient_extremes);
+    let volts = linear_grid(0.0, req.supply_v, opts.voltage_points.max(2));
+    let mut failed = 0;
+    let mut output = Vec::new();
+    for &t in &temps {
+        for i_in in family_currents(req.input_current_a) {
+            let i_out: Vec<Option<f64>> = volts.iter().map(|&v| solve(i_in, v, t)).collect();
+            failed += i_out.iter().filter(|x| x.is_none()).count();
+            output.push(OutputCurve {
+                i_in_a: i_in,
+                t_amb_k: t,
+                v_out_v: volts.clone(),
+                i_out_a: i_out,
+            });
+        }
+    }
+    let currents = geometric_grid(
+        req.input_current_a.min,
+        req.input_current_a.max,
+        if req.input_current_a.max > req.input_current_a.min {
+            opts.current_points.max(2)
+        } else {
+            1
+        },
+    );
+    let mut error = Vec::new();
+    let mut window = vec![req.output_voltage_v.min, req.output_voltage_v.max];
+    window.dedup();
+    for &t in &temps {
+        for &v in &window {
+            let e: Vec<Option<f64>> = currents
+                .iter()
+                .map(|&i| solve(i, v, t).map(|o| o / (req.ratio * i) - 1.0))
+                .collect();
+            failed += e.iter().filter(|x| x.is_none()).count();
+            error.push(ErrorCurve {
+                v_out_v: v,
+                t_amb_k: t,
+                i_in_a: currents.clone(),
+                error: e,
+            });
+        }
+    }
+    CurveSet {
+        ratio: req.ratio,
+        supply_v: req.supply_v,
+        v_out_window_v: req.output_voltage_v,
+        accuracy: req.accuracy,
+        output,
+        error,
+        balance_voltage_v,
+        failed_points: failed,
+    }
+}
+
+/// Sweeps the curves of `design` against `req` with nominal (matched) devices, with or
+/// without self-heating. The balance voltage is the solver's, at I_in max and 25 °C.
+/// Fails only when the design cannot be compiled (for example a missing helper class).
+pub fn for_design(
+    design: &Design,
+    req: &Requirement,
+    opts: &CurveOptions,
+    solve_opts: &SolveOptions,
+) -> Result<CurveSet, SolveFailure> {
+    let mm = Mismatch::default();
+    let net = Netlist::compile(design, &mm)?;
+    let point = |i_in_a, v_out_v, t_amb_k| OperatingPoint {
+        i_in_a,
+        v_out_v,
+        supply_v: req.supply_v,
+        t_amb_k,
+    };
+    let balance = balance_voltage(
+        design,
+        &point(req.input_current_a.max, 0.0, ROOM_K),
+        &mm,
+        solve_opts,
+    );
+    Ok(sweep(req, opts, balance, |i, v, t| {
+        net.solve(&point(i, v, t), solve_opts)
+            .ok()
+            .map(|s| s.i_out_a)
+    }))
+}
+
+/// Voltages where a curve's error changes sign, interpolated linearly between the two
+/// grid points around each crossing.
+pub fn zero_crossings(curve: &OutputCurve, ratio: f64) -> Vec<f64> {
+    let e = curve.errors(ratio);
+    let mut out = Vec::new();
+    for k in 1..e.len() {
+        if let (Some(a), Some(b)) = (e[k - 1], e[k]) {
+            if a == 0.0 {
+                out.push(curve.v_out_v[k - 1]);
+            } else if a.signum() != b.signum() && b != 0.0 {
+                let (va, vb) = (curve.v_out_v[k - 1], curve.v_out_v[k]);
+                out.push(va + (vb - va) * a / (a - b));
+            }
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::report::fixtures;
+
+    #[test]
+    fn grids_hit_their_ends() {
+        let g = geometric_grid(1e-6, 1e-3, 4);
+        assert_eq!(g.len(), 4);
+        assert_eq!(g[0], 1e-6);
+        assert_eq!(g[3], 1e-3);
+        assert!((g[1] / 1e-5 - 1.0).abs() < 1e-12);
+        assert_eq!(linear_grid(0.0, 12.0, 5), vec![0.0, 3.0, 6.0, 9.0, 12.0]);
+        let three_decades = family_currents(Range {
+            min: 1e-6,
+            max: 1e-3,
+        });
+        assert_eq!(three_decades.len(), 4);
+        assert_eq!(
+            family_currents(Range {
+                min: 1e-4,
+                max: 1e-3
+            })
+            .len(),
+            3
+        );
+        assert_eq!(
+            family_currents(Range {
+                min: 1e-3,
+                max: 1e-3
+            }),
+            vec![1e-3]
+        );
+    }
+
+    #[test]
+    fn sweep_records_gaps_and_crossings() {
+        let req = fixtures::requirement();
+        let opts = CurveOptions {
+            voltage_points: 13,
+            current_points: 5,
+            ambient_extremes: true,
+        };
+        // A toy device: saturates below 0.2 V (no solution there), then rises with
+        // slope 1/(50 V), crossing zero error at 2 V.
+        let set = sweep(&req, &opts, Some(2.0), |i, v, _t| {
+            (v >= 0.2).then_some(i * (0.96 + 0.02 * v))
+        });
+        assert_eq!(set.output.len(), 3 * 3, "three currents at three ambients");
+        assert_eq!(set.error.len(), 3 * 2);
+        // One gap (V_out = 0) per output curve; none on the error curves.
+        assert_eq!(set.failed_points, 9);
+        for c in &set.output {
+            let z = zero_crossings(c, 1.0);
+            assert_eq!(z.len(), 1);
+            assert!((z[0] - 2.0).abs() < 1e-9, "{z:?}");
+        }
+        let e = &set.error[1];
+        assert_eq!(e.v_out_v, 10.0);
+        assert!((e.error[0].unwrap() - 0.16).abs() < 1e-12);
+    }
+}

@@ -1,0 +1,168 @@
+//! `curves` output: the curve family as a table (a summary a person can read), CSV (one
+//! row per solved point, long format) or JSON (the whole `CurveSet`, SI numbers, gaps as
+//! null).
+//!
+//! JSON wire format: `ratio`, `supply_v`, `v_out_window_v` {`min`, `max`}, `accuracy`,
+//! `output` (list of {`i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
+//! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
+//! `balance_voltage_v` (null when none), `failed_points`. CSV columns: `curve` (`output`
+//! or `error`), `i_in_a`, `t_amb_c`, `v_out_v`, `i_out_a`, `error`.
+
+use std::io::{self, Write};
+
+use comfy_table::Cell;
+
+use super::csv::{self, Column};
+use super::eng::{celsius, eng, percent, Charset};
+use super::{new_table, Format, Style};
+use crate::curves::{zero_crossings, CurveSet};
+use crate::model::ZERO_CELSIUS_K;
+
+/// One point of the long CSV form.
+struct Point {
+    curve: &'static str,
+    i_in_a: f64,
+    t_amb_k: f64,
+    v_out_v: f64,
+    i_out_a: Option<f64>,
+    error: Option<f64>,
+}
+
+const COLUMNS: [Column<Point>; 6] = [
+    Column {
+        name: "curve",
+        get: |p| p.curve.to_string(),
+    },
+    Column {
+        name: "i_in_a",
+        get: |p| format!("{}", p.i_in_a),
+    },
+    Column {
+        name: "t_amb_c",
+        get: |p| format!("{}", p.t_amb_k - ZERO_CELSIUS_K),
+    },
+    Column {
+        name: "v_out_v",
+        get: |p| format!("{}", p.v_out_v),
+    },
+    Column {
+        name: "i_out_a",
+        get: |p| csv::opt(p.i_out_a),
+    },
+    Column {
+        name: "error",
+        get: |p| csv::opt(p.error),
+    },
+];
+
+fn points(set: &CurveSet) -> Vec<Point> {
+    let mut v = Vec::new();
+    for c in &set.output {
+        for (k, &vo) in c.v_out_v.iter().enumerate() {
+            v.push(Point {
+                curve: "output",
+                i_in_a: c.i_in_a,
+                t_amb_k: c.t_amb_k,
+                v_out_v: vo,
+                i_out_a: c.i_out_a[k],
+                error: c.i_out_a[k].map(|i| i / (set.ratio * c.i_in_a) - 1.0),
+            });
+        }
+    }
+    for c in &set.error {
+        for (k, &i) in c.i_in_a.iter().enumerate() {
+            v.push(Point {
+                curve: "error",
+                i_in_a: i,
+                t_amb_k: c.t_amb_k,
+                v_out_v: c.v_out_v,
+                i_out_a: c.error[k].map(|e| (1.0 + e) * set.ratio * i),
+                error: c.error[k],
+            });
+        }
+    }
+    v
+}
+
+/// The value of a curve at the grid point nearest `v`.
+fn at(xs: &[f64], ys: &[Option<f64>], v: f64) -> Option<f64> {
+    let k = xs
+        .iter()
+        .enumerate()
+        .min_by(|a, b| (a.1 - v).abs().total_cmp(&(b.1 - v).abs()))?
+        .0;
+    ys[k]
+}
+
+pub fn write(set: &CurveSet, format: Format, style: Style, out: &mut dyn Write) -> io::Result<()> {
+    match format {
+        Format::Json => {
+            serde_json::to_writer_pretty(&mut *out, set).map_err(io::Error::other)?;
+            writeln!(out)
+        }
+        Format::Csv => csv::write(&COLUMNS, &points(set), out),
+        Format::Table => {
+            let u = Charset::Unicode;
+            let w = set.v_out_window_v;
+            let mut t = new_table(
+                style,
+                &[
+                    "I_in",
+                    "ambient",
+                    &format!("I_out at {}", eng(w.min, "V", u)),
+                    &format!("error at {}", eng(w.min, "V", u)),
+                    &format!("I_out at {}", eng(w.max, "V", u)),
+                    &format!("error at {}", eng(w.max, "V", u)),
+                    "zero error at",
+                ],
+            );
+            for c in &set.output {
+                let e = c.errors(set.ratio);
+                let cell = |v: Option<f64>, f: &dyn Fn(f64) -> String| {
+                    Cell::new(v.map(f).unwrap_or_else(|| "no solution".into()))
+                };
+                let zeros = zero_crossings(c, set.ratio)
+                    .iter()
+                    .map(|z| eng(*z, "V", u))
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                t.add_row(vec![
+                    Cell::new(eng(c.i_in_a, "A", u)),
+                    Cell::new(celsius(c.t_amb_k, u)),
+                    cell(at(&c.v_out_v, &c.i_out_a, w.min), &|x| eng(x, "A", u)),
+                    cell(at(&c.v_out_v, &e, w.min), &percent),
+                    cell(at(&c.v_out_v, &c.i_out_a, w.max), &|x| eng(x, "A", u)),
+                    cell(at(&c.v_out_v, &e, w.max), &percent),
+                    Cell::new(if zeros.is_empty() {
+                        "none".into()
+                    } else {
+                        zeros
+                    }),
+                ]);
+            }
+            writeln!(out, "{t}")?;
+            writeln!(
+                out,
+                "Output curves sampled at {} points from 0 V to the {} supply; values above are at the grid point nearest each end of the output window.",
+                set.output.first().map_or(0, |c| c.v_out_v.len()),
+                eng(set.supply_v, "V", u)
+            )?;
+            match set.balance_voltage_v {
+                Some(v) => writeln!(
+                    out,
+                    "Balance voltage (solver, I_in max, 25 °C): {}",
+                    eng(v, "V", u)
+                )?,
+                None => writeln!(out, "Balance voltage: none between V(in) and the supply")?,
+            }
+            if set.failed_points > 0 {
+                writeln!(
+                    out,
+                    "{} points did not converge and are left out (gaps in the curves).",
+                    set.failed_points
+                )?;
+            }
+            Ok(())
+        }
+    }
+}

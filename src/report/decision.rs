@@ -1,0 +1,561 @@
+//! Assembles the decision page from finished results: the ranking (with the chosen
+//! design's explanation), the nearest miss, the chosen design's curves and the
+//! provenance. Formatting only; every number comes from the ranking's report, so the
+//! page's figures are the JSON's figures.
+
+use super::eng::{celsius, eng, eng_sig, percent, Charset};
+use super::page::{CheckRow, DesignView, Figure, Page, Plot, Rejected, Table};
+use super::plot::{self, BudgetBar, PlotError};
+use super::Provenance;
+use crate::check::CheckName;
+use crate::curves::CurveSet;
+use crate::model::{Catalog, Requirement, ZERO_CELSIUS_K};
+use crate::rank::{CandidateRow, RankReport};
+
+const U: Charset = Charset::Unicode;
+
+/// What the page is built from.
+pub struct DecisionInputs<'a> {
+    pub req: &'a Requirement,
+    pub catalog: &'a Catalog,
+    /// The ranking, with `explain` set for row 1 when anything is feasible.
+    pub report: &'a RankReport,
+    /// The rejected design that came closest, the check it failed by most, and that
+    /// check's (negative) margin.
+    pub best_rejected: Option<(CandidateRow, CheckName, f64)>,
+    /// The chosen design's curves.
+    pub curves: Option<&'a CurveSet>,
+    pub provenance: &'a Provenance,
+    /// UTC date of the run, `YYYY-MM-DD`.
+    pub date: String,
+}
+
+fn money(catalog: &Catalog, x: f64) -> String {
+    format!("{x:.3} {}", catalog.currency)
+}
+
+/// A check's value or limit in the check's own unit, `sig` significant digits.
+fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String {
+    if !x.is_finite() {
+        return if x.is_nan() {
+            "no solution".into()
+        } else {
+            eng(x, name.unit(), U)
+        };
+    }
+    match name {
+        CheckName::Cost => money(catalog, x),
+        CheckName::Accuracy | CheckName::Yield => percent(x),
+        CheckName::ThermalRunaway | CheckName::NoConvergence => format!("{x}"),
+        _ => eng_sig(
+            x,
+            if name.unit() == "Ω" {
+                "ohm"
+            } else {
+                name.unit()
+            },
+            U,
+            sig,
+        ),
+    }
+}
+
+fn resistors(c: &CandidateRow) -> String {
+    let r = |x: f64| eng(x, "ohm", U);
+    match (c.re1_ohm > 0.0, c.re2_ohm > 0.0) {
+        (false, false) => "no emitter resistors".into(),
+        (false, true) => format!("RE2 {}", r(c.re2_ohm)),
+        _ if c.re1_ohm == c.re2_ohm => format!("RE1 = RE2 = {}", r(c.re1_ohm)),
+        _ => format!("RE1 {}, RE2 {}", r(c.re1_ohm), r(c.re2_ohm)),
+    }
+}
+
+/// `wilson · npn-dual-prematched (+ npn-single-general) · RE1 = RE2 = 100 Ω thick-film-1pct`
+pub fn design_title(c: &CandidateRow) -> String {
+    let mut s = format!("{} · {}", c.topology, c.part);
+    if let Some(h) = &c.helper {
+        s.push_str(&format!(" + helper {h}"));
+    }
+    s.push_str(&format!(" · {}", resistors(c)));
+    if let Some(r) = &c.resistor {
+        s.push_str(&format!(" ({r})"));
+    }
+    s
+}
+
+fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
+    let text = |key: &str, label: &str, t: String| Figure {
+        key: key.into(),
+        label: label.into(),
+        raw: None,
+        text: t,
+    };
+    let num = |key: &str, label: &str, raw: f64, t: String| Figure {
+        key: key.into(),
+        label: label.into(),
+        raw: Some(raw),
+        text: t,
+    };
+    let figures = vec![
+        text("topology", "topology", c.topology.to_string()),
+        text("part", "matched pair class", c.part.clone()),
+        text(
+            "helper",
+            "helper class",
+            c.helper.clone().unwrap_or_else(|| "none".into()),
+        ),
+        num("re1_ohm", "RE1", c.re1_ohm, eng(c.re1_ohm, "ohm", U)),
+        num("re2_ohm", "RE2", c.re2_ohm, eng(c.re2_ohm, "ohm", U)),
+        text(
+            "resistor",
+            "resistor class",
+            c.resistor.clone().unwrap_or_else(|| "none".into()),
+        ),
+        num("cost", "cost per mirror", c.cost, money(catalog, c.cost)),
+        num(
+            "ratio_achieved",
+            "ratio achieved",
+            c.ratio_achieved,
+            format!("{:.5}", c.ratio_achieved),
+        ),
+        num(
+            "error_systematic",
+            "systematic error",
+            c.error_systematic,
+            percent(c.error_systematic),
+        ),
+        num(
+            "error_random_sigma",
+            "random error (1 sigma)",
+            c.error_random_sigma,
+            percent(c.error_random_sigma),
+        ),
+        num(
+            "error_total",
+            "total error (systematic + k sigma)",
+            c.error_total,
+            percent(c.error_total),
+        ),
+        num(
+            "yield",
+            "Monte Carlo yield",
+            c.yield_fraction,
+            percent(c.yield_fraction),
+        ),
+        num(
+            "r_out_min_ohm",
+            "smallest output resistance",
+            c.r_out_min_ohm,
+            eng(c.r_out_min_ohm, "ohm", U),
+        ),
+        num(
+            "compliance_v",
+            "compliance voltage",
+            c.compliance_v,
+            eng(c.compliance_v, "V", U),
+        ),
+        num(
+            "v_in_max",
+            "input voltage (max)",
+            c.v_in_max,
+            eng(c.v_in_max, "V", U),
+        ),
+    ];
+    let mut figures = figures;
+    // What each class is, in the catalog's own words (user text: escaped by the renderers).
+    let classes = [
+        (
+            "pair class",
+            catalog
+                .transistor(&c.part)
+                .map(|t| (&t.summary, &t.provenance)),
+        ),
+        (
+            "helper class",
+            c.helper
+                .as_deref()
+                .and_then(|h| catalog.transistor(h))
+                .map(|t| (&t.summary, &t.provenance)),
+        ),
+        (
+            "resistor class",
+            c.resistor
+                .as_deref()
+                .and_then(|r| catalog.resistor(r))
+                .map(|r| (&r.summary, &r.provenance)),
+        ),
+    ];
+    for (what, found) in classes {
+        if let Some((summary, provenance)) = found {
+            figures.push(text(
+                "",
+                &format!("{what}: catalog summary"),
+                format!("{summary} (provenance: {provenance})"),
+            ));
+        }
+    }
+    let checks = c
+        .checks
+        .iter()
+        .map(|k| {
+            let (mut value, mut limit) = (
+                check_value(catalog, k.name, k.value, 3),
+                check_value(catalog, k.name, k.limit, 3),
+            );
+            // A value that rounds to its limit gets the digits that tell them apart.
+            if value == limit && k.value != k.limit {
+                value = check_value(catalog, k.name, k.value, 6);
+                limit = check_value(catalog, k.name, k.limit, 6);
+            }
+            CheckRow {
+                name: k.name.to_string(),
+                value,
+                limit,
+                margin: k.margin,
+                pass: k.pass,
+            }
+        })
+        .collect();
+    DesignView {
+        rank: c.rank,
+        title: design_title(c),
+        figures,
+        checks,
+        governing_check: c
+            .governing_check
+            .map(|g| g.to_string())
+            .unwrap_or_else(|| "none".into()),
+        governing_margin: c.governing_margin(),
+        cost: money(catalog, c.cost),
+    }
+}
+
+fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String)> {
+    let range = |lo: f64, hi: f64, f: &dyn Fn(f64) -> String| {
+        if lo == hi {
+            f(lo)
+        } else {
+            format!("{} to {}", f(lo), f(hi))
+        }
+    };
+    let mut rows = vec![
+        ("name".to_string(), req.name.clone()),
+        (
+            "kind".into(),
+            format!(
+                "current {} ({} mirror)",
+                req.kind.as_str(),
+                req.kind.polarity().as_str().to_uppercase()
+            ),
+        ),
+        ("supply".into(), eng(req.supply_v, "V", U)),
+        (
+            "input current".into(),
+            range(req.input_current_a.min, req.input_current_a.max, &|x| {
+                eng(x, "A", U)
+            }),
+        ),
+        ("ratio n".into(), format!("{}", req.ratio)),
+        (
+            "output voltage (from the mirror rail)".into(),
+            range(req.output_voltage_v.min, req.output_voltage_v.max, &|x| {
+                eng(x, "V", U)
+            }),
+        ),
+        (
+            "ambient".into(),
+            range(req.ambient_k.min, req.ambient_k.max, &|x| celsius(x, U)),
+        ),
+        (
+            "accuracy".into(),
+            format!(
+                "|error| ≤ {} at {} sigma",
+                percent(req.accuracy),
+                req.confidence_sigma
+            ),
+        ),
+    ];
+    if let Some(y) = req.min_yield {
+        rows.push(("minimum yield".into(), percent(y)));
+    }
+    if let Some(r) = req.min_output_resistance_ohm {
+        rows.push(("minimum output resistance".into(), eng(r, "ohm", U)));
+    }
+    if let Some(v) = req.input_voltage_max_v {
+        rows.push(("largest input voltage".into(), eng(v, "V", U)));
+    }
+    if let Some(c) = req.max_cost {
+        rows.push(("largest cost".into(), money(catalog, c)));
+    }
+    rows.push(("quantity".into(), req.quantity.to_string()));
+    rows.push(("load".into(), req.load.as_str().into()));
+    for (what, f) in [("topologies", &req.topologies), ("classes", &req.classes)] {
+        if !f.allow.is_empty() {
+            rows.push((format!("allowed {what}"), f.allow.join(", ")));
+        }
+        if !f.deny.is_empty() {
+            rows.push((format!("denied {what}"), f.deny.join(", ")));
+        }
+    }
+    rows
+}
+
+/// Builds the page. Fails only when a plot cannot be drawn.
+pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
+    let (req, catalog, report) = (inp.req, inp.catalog, inp.report);
+    let chosen_row = report.candidates.first();
+    let chosen = chosen_row.map(|c| view(catalog, c));
+    let runners_up = report
+        .candidates
+        .iter()
+        .skip(1)
+        .map(|c| view(catalog, c))
+        .collect();
+    let best_rejected = inp
+        .best_rejected
+        .as_ref()
+        .map(|(row, check, margin)| Rejected {
+            design: view(catalog, row),
+            check: check.to_string(),
+            margin: *margin,
+        });
+    let verdict = match (chosen_row, &inp.best_rejected) {
+        (Some(c), _) => format!(
+            "{} of {} candidate designs meet every requirement. Chosen ({} first): {}, {} per mirror, total error {} against {}; governing check {} with {} margin.",
+            report.feasible,
+            report.evaluated,
+            report.prefer.as_str(),
+            design_title(c),
+            money(catalog, c.cost),
+            percent(c.error_total),
+            percent(req.accuracy),
+            c.governing_check.map(|g| g.to_string()).unwrap_or_else(|| "none".into()),
+            percent(c.governing_margin())
+        ),
+        (None, Some((row, check, margin))) => format!(
+            "No design among {} candidates meets every requirement. The nearest miss, {}, fails {} by {}.",
+            report.evaluated,
+            design_title(row),
+            check,
+            percent(-margin)
+        ),
+        (None, None) => format!(
+            "No design among {} candidates meets every requirement.",
+            report.evaluated
+        ),
+    };
+
+    let explain = report.explain.as_ref();
+    let mut budget = Vec::new();
+    let mut budget_table = Table {
+        header: ["cause", "kind", "error"].map(String::from).to_vec(),
+        rows: vec![],
+    };
+    let mut plots = Vec::new();
+    if let Some(b) = explain.and_then(|e| e.budget.as_ref()) {
+        for item in &b.systematic {
+            budget.push(BudgetBar {
+                cause: item.cause.to_string(),
+                value: item.error,
+                random: false,
+            });
+            budget_table.rows.push(vec![
+                item.cause.into(),
+                "systematic".into(),
+                percent(item.error),
+            ]);
+        }
+        budget_table.rows.push(vec![
+            "systematic total".into(),
+            "signed sum".into(),
+            percent(b.systematic_total),
+        ]);
+        for item in &b.random {
+            budget.push(BudgetBar {
+                cause: item.cause.to_string(),
+                value: item.error,
+                random: true,
+            });
+            budget_table.rows.push(vec![
+                item.cause.into(),
+                "random, 1 sigma".into(),
+                percent(item.error),
+            ]);
+        }
+        budget_table.rows.push(vec![
+            "random total".into(),
+            "root sum of squares, 1 sigma".into(),
+            percent(b.random_sigma),
+        ]);
+        plots.push(Plot {
+            id: "budget".into(),
+            title: "Error budget of the chosen design".into(),
+            svg: plot::error_budget_svg(&budget, req.accuracy)?,
+            caption: format!(
+                "At the worst corner: I_in {}, V_out {}, ambient {}. Systematic causes are signed and add up; random causes are 1 sigma and add in quadrature; the accuracy check uses systematic + {} sigma",
+                eng(b.i_in, "A", U),
+                eng(b.v_out, "V", U),
+                celsius(b.t_amb_c + ZERO_CELSIUS_K, U),
+                req.confidence_sigma
+            ),
+        });
+    }
+    if let Some(set) = inp.curves {
+        plots.push(Plot {
+            id: "curves".into(),
+            title: "Output curves of the chosen design".into(),
+            svg: plot::output_curves_svg(set, None)?,
+            caption: "Nominal devices with self-heating, swept from 0 V to the supply; gaps are points without a solution (saturation or thermal runaway). Green bands: the required accuracy around n·I_in; blue: the required output-voltage window".into(),
+        });
+        if req.input_current_a.max > req.input_current_a.min {
+            plots.push(Plot {
+                id: "error-vs-input".into(),
+                title: "Error against programming current".into(),
+                svg: plot::error_vs_input_svg(set)?,
+                caption:
+                    "At the ends of the output-voltage window, nominal devices with self-heating"
+                        .into(),
+            });
+        }
+    }
+
+    let corners = match explain {
+        Some(e) => Table {
+            header: [
+                "I_in",
+                "V_out",
+                "ambient",
+                "I_out",
+                "error",
+                "random (1σ)",
+                "r_out",
+                "V(in)",
+                "hottest junction",
+            ]
+            .map(String::from)
+            .to_vec(),
+            rows: e
+                .corners
+                .iter()
+                .map(|c| {
+                    vec![
+                        eng(c.i_in, "A", U),
+                        eng(c.v_out, "V", U),
+                        celsius(c.t_amb_c + ZERO_CELSIUS_K, U),
+                        eng(c.i_out, "A", U),
+                        percent(c.error),
+                        percent(c.error_random_sigma),
+                        eng(c.r_out, "ohm", U),
+                        eng(c.v_in, "V", U),
+                        celsius(c.t_junction_max_c + ZERO_CELSIUS_K, U),
+                    ]
+                })
+                .collect(),
+        },
+        None => Table::default(),
+    };
+
+    let geo = req.input_current_a.max / req.input_current_a.min > 10.0;
+    let assumptions = vec![
+        (
+            "device model".to_string(),
+            "Ebers–Moll transport form with the forward Early effect on the transport current, optional IKF roll-off of the base current, Gummel–Poon temperature rules (XTI, EG, XTB); solved circuits (Newton–Raphson on the topology netlist), not closed forms".to_string(),
+        ),
+        (
+            "self-heating".into(),
+            "junction temperatures from each device's dissipation through the class's self and mutual thermal resistances, within a package only".into(),
+        ),
+        (
+            "corners".into(),
+            format!(
+                "I_in at min and max{}; V_out at min and max; ambient at min, 25 °C and max",
+                if geo { " and their geometric mean" } else { "" }
+            ),
+        ),
+        (
+            "random error".into(),
+            "from the class's V_BE offset and beta mismatch sigmas and the resistor tolerance read as ±3 sigma".into(),
+        ),
+        ("Monte Carlo seed".into(), report.seed.to_string()),
+        ("Monte Carlo samples".into(), report.samples.to_string()),
+        (
+            "search".into(),
+            if report.exhaustive {
+                "exhaustive".into()
+            } else {
+                "screened with closed-form bounds, every shown design fully solved".to_string()
+            },
+        ),
+        ("catalog".into(), inp.provenance.catalog_source.clone()),
+        ("catalog SHA-256".into(), inp.provenance.catalog_sha256.clone()),
+        (
+            "catalog values".into(),
+            "typical of each class, not guaranteed; prices illustrative".into(),
+        ),
+        ("tool".into(), format!("mirrorpick {}", inp.provenance.tool_version)),
+        ("date".into(), inp.date.clone()),
+    ];
+
+    let mut cautions: Vec<String> = report.cautions.iter().map(|c| c.to_string()).collect();
+    if let Some(e) = explain {
+        for c in &e.cautions {
+            let s = c.to_string();
+            if !cautions.contains(&s) {
+                cautions.push(s);
+            }
+        }
+    }
+    cautions.push(
+        "This record documents a computed choice. Dissipation near a rating, high voltage and LED or laser drive are for the part's datasheet, local codes and licensed engineering practice to settle; confirm the design on the bench before release".into(),
+    );
+
+    Ok(Page {
+        title: req.name.clone(),
+        verdict,
+        feasible: chosen_row.is_some(),
+        requirement: requirement_rows(req, catalog),
+        chosen,
+        runners_up,
+        evaluated: report.evaluated,
+        feasible_count: report.feasible,
+        rejected_by: report
+            .rejected_by
+            .iter()
+            .map(|(k, v)| (k.to_string(), *v))
+            .collect(),
+        best_rejected,
+        budget,
+        budget_table,
+        plots,
+        corners,
+        assumptions,
+        cautions,
+    })
+}
+
+/// `YYYY-MM-DD` (UTC) of a Unix time, by the proleptic Gregorian calendar.
+pub fn utc_date(unix_s: u64) -> String {
+    // Days to civil date (H. Hinnant's algorithm for the Gregorian calendar).
+    let z = (unix_s / 86_400) as i64 + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = yoe + era * 400 + i64::from(m <= 2);
+    format!("{y:04}-{m:02}-{d:02}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::utc_date;
+
+    #[test]
+    fn civil_dates() {
+        assert_eq!(utc_date(0), "1970-01-01");
+        assert_eq!(utc_date(951_782_400), "2000-02-29");
+        assert_eq!(utc_date(1_798_761_599), "2026-12-31");
+    }
+}

@@ -1,0 +1,626 @@
+//! SVG plots drawn with plotters' SVG backend: the curve family, the error against the
+//! programming current, and the error budget bar chart.
+//!
+//! Each function takes finished data and returns one standalone `<svg>` element as text,
+//! ready to inline in a page or to write beside a Markdown file. Every label that may
+//! carry user text is escaped by the backend. Drawing errors (which plotters reports for
+//! impossible geometry) come back as `PlotError`, never a panic.
+
+use plotters::coord::ranged1d::SegmentValue;
+use plotters::prelude::*;
+
+use super::eng::{celsius, eng, Charset};
+use crate::curves::CurveSet;
+
+/// A plot could not be drawn.
+#[derive(Debug, thiserror::Error)]
+#[error("cannot draw the {what} plot: {reason}")]
+pub struct PlotError {
+    pub what: &'static str,
+    pub reason: String,
+}
+
+const WIDTH: u32 = 760;
+const FONT: &str = "sans-serif";
+
+/// A plain palette that stays apart in print and for the common colour deficiencies.
+const PALETTE: [RGBColor; 7] = [
+    RGBColor(0, 90, 160),
+    RGBColor(200, 100, 0),
+    RGBColor(0, 130, 90),
+    RGBColor(150, 50, 150),
+    RGBColor(120, 80, 40),
+    RGBColor(90, 90, 90),
+    RGBColor(190, 40, 60),
+];
+const WINDOW_FILL: RGBColor = RGBColor(225, 235, 245);
+const BAND_FILL: RGBColor = RGBColor(215, 240, 215);
+const BALANCE: RGBColor = RGBColor(160, 0, 0);
+
+fn err<E: std::fmt::Debug>(what: &'static str) -> impl Fn(E) -> PlotError {
+    move |e| PlotError {
+        what,
+        reason: format!("{e:?}"),
+    }
+}
+
+/// Splits a polyline at gaps and at points outside `[lo, hi]`, so nothing is drawn
+/// outside the plotting area and no line bridges a point the solver could not solve.
+fn runs(xs: &[f64], ys: &[Option<f64>], lo: f64, hi: f64) -> Vec<Vec<(f64, f64)>> {
+    let mut out = vec![];
+    let mut cur = vec![];
+    for (x, y) in xs.iter().zip(ys) {
+        match y {
+            Some(y) if y.is_finite() && *y >= lo && *y <= hi => cur.push((*x, *y)),
+            _ => {
+                if cur.len() > 1 {
+                    out.push(std::mem::take(&mut cur));
+                }
+                cur.clear();
+            }
+        }
+    }
+    if cur.len() > 1 {
+        out.push(cur);
+    }
+    out
+}
+
+/// Picks a display scale for currents: the SI prefix of `max`, as (factor, label).
+fn current_scale(max: f64) -> (f64, &'static str) {
+    match max {
+        m if m >= 1.0 => (1.0, "A"),
+        m if m >= 1e-3 => (1e3, "mA"),
+        m if m >= 1e-6 => (1e6, "µA"),
+        _ => (1e9, "nA"),
+    }
+}
+
+fn curve_label(i_in_a: f64, t_amb_k: f64, several_temps: bool) -> String {
+    let i = eng(i_in_a, "A", Charset::Unicode);
+    if several_temps {
+        format!("I_in {i}, {}", celsius(t_amb_k, Charset::Unicode))
+    } else {
+        format!("I_in {i}")
+    }
+}
+
+/// The curve family: I_out against V_out (top) and the error against V_out (bottom),
+/// with the output window and the accuracy band shaded and the balance voltage marked.
+/// `title`, when given, heads the plot (a standalone file has no caption around it).
+pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, PlotError> {
+    let what = "output-curve";
+    let e = err(what);
+    let mut svg = String::new();
+    {
+        let head = if title.is_some() { 36 } else { 0 };
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, 760 + head)).into_drawing_area();
+        root.fill(&WHITE).map_err(&e)?;
+        let body = match title {
+            Some(t) => root.titled(t, (FONT, 16)).map_err(&e)?,
+            None => root.clone(),
+        };
+        let (top, bottom) = body.split_vertically(380);
+        let temps: Vec<f64> = {
+            let mut t: Vec<f64> = set.output.iter().map(|c| c.t_amb_k).collect();
+            t.dedup();
+            t
+        };
+        let several = temps.len() > 1;
+        let currents: Vec<f64> = {
+            let mut c: Vec<f64> = set.output.iter().map(|c| c.i_in_a).collect();
+            c.sort_by(f64::total_cmp);
+            c.dedup();
+            c
+        };
+        let color_of = |i_in: f64| {
+            let k = currents.iter().position(|c| *c == i_in).unwrap_or(0);
+            PALETTE[k % PALETTE.len()]
+        };
+        let width_of = |t: f64| {
+            if !several || (t - crate::curves::ROOM_K).abs() < 1e-9 {
+                2
+            } else {
+                1
+            }
+        };
+        let vmax = set.supply_v;
+
+        // Top: I_out against V_out. A family spanning more than a decade is drawn on a
+        // logarithmic current axis (plotted as log10 of the current, labelled in amperes),
+        // so the lowest curve is not flattened against zero.
+        let i_top = set
+            .output
+            .iter()
+            .flat_map(|c| c.i_out_a.iter().flatten().copied())
+            .chain(
+                currents
+                    .iter()
+                    .map(|i| i * set.ratio * (1.0 + set.accuracy)),
+            )
+            .fold(0.0f64, f64::max)
+            * 1.1;
+        let i_top = if i_top > 0.0 { i_top } else { 1e-3 };
+        let log_axis = currents.len() > 1 && currents[currents.len() - 1] / currents[0] > 10.0;
+        let (scale, unit) = current_scale(i_top);
+        // Plot coordinate of a current, and the axis range.
+        let ymap = |i: f64| -> Option<f64> {
+            if log_axis {
+                (i > 0.0).then(|| i.log10())
+            } else {
+                Some(i * scale)
+            }
+        };
+        let (y_lo, y_hi) = if log_axis {
+            let lo = currents[0] * set.ratio * (1.0 - set.accuracy);
+            ((lo.log10() - 0.5).floor(), (i_top.log10() + 0.1).ceil())
+        } else {
+            (0.0, i_top * scale)
+        };
+        let y_label = |v: &f64| {
+            if log_axis {
+                eng(10f64.powf(*v), "A", Charset::Unicode)
+            } else {
+                format!("{v:.1}")
+            }
+        };
+        let y_desc = if log_axis {
+            "I_out (log scale)".to_string()
+        } else {
+            format!("I_out ({unit})")
+        };
+        let mut chart = ChartBuilder::on(&top)
+            .caption("Output current against output voltage", (FONT, 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(64)
+            .build_cartesian_2d(0.0..vmax, y_lo..y_hi)
+            .map_err(&e)?;
+        let decades = (y_hi - y_lo).round() as usize + 1;
+        chart
+            .configure_mesh()
+            .x_desc("V_out from the mirror rail (V)")
+            .y_desc(y_desc)
+            .y_labels(if log_axis { decades } else { 10 })
+            .y_label_formatter(&y_label)
+            .label_style((FONT, 12))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        let w = set.v_out_window_v;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(w.min, y_lo), (w.max, y_hi)],
+                WINDOW_FILL.mix(0.6).filled(),
+            )))
+            .map_err(&e)?
+            .label("required V_out window")
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], WINDOW_FILL.filled()));
+        // The accuracy band around each intended current n * I_in.
+        for &i in &currents {
+            let target = i * set.ratio;
+            if let (Some(lo), Some(hi)) = (
+                ymap(target * (1.0 - set.accuracy)),
+                ymap(target * (1.0 + set.accuracy)),
+            ) {
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(0.0, lo), (vmax, hi)],
+                        BAND_FILL.mix(0.7).filled(),
+                    )))
+                    .map_err(&e)?;
+            }
+        }
+        for c in &set.output {
+            let ys: Vec<Option<f64>> = c.i_out_a.iter().map(|i| i.and_then(ymap)).collect();
+            let style = ShapeStyle::from(color_of(c.i_in_a)).stroke_width(width_of(c.t_amb_k));
+            let mut first = true;
+            for run in runs(&c.v_out_v, &ys, y_lo, y_hi) {
+                let s = chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
+                // One legend entry per current (the 25 °C curve); the extremes are the
+                // thin lines of the same colour, said once below.
+                let room = (c.t_amb_k - crate::curves::ROOM_K).abs() < 1e-9;
+                if first && (room || !several) {
+                    s.label(curve_label(c.i_in_a, c.t_amb_k, false))
+                        .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], style));
+                    first = false;
+                }
+            }
+        }
+        if several {
+            let (lo, hi) = (temps[0], temps[temps.len() - 1]);
+            chart
+                .draw_series(std::iter::empty::<PathElement<(f64, f64)>>())
+                .map_err(&e)?
+                .label(format!(
+                    "thick: 25 °C; thin: {} and {}",
+                    celsius(lo, Charset::Unicode),
+                    celsius(hi, Charset::Unicode)
+                ))
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .label_font((FONT, 11))
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(160, 160, 160))
+            .draw()
+            .map_err(&e)?;
+
+        // Bottom: error against V_out, the accuracy band and the balance voltage.
+        // Wide enough for every error inside the output window, at least 2.5 times the
+        // accuracy band, at most +-100 % (saturation near 0 V would flatten the rest).
+        let in_window = set
+            .output
+            .iter()
+            .flat_map(|c| {
+                c.v_out_v
+                    .iter()
+                    .zip(c.errors(set.ratio))
+                    .filter(|(v, _)| **v >= w.min && **v <= w.max)
+                    .filter_map(|(_, e)| e.map(f64::abs))
+                    .collect::<Vec<_>>()
+            })
+            .fold(0.0, f64::max);
+        let lim = (in_window * 1.15).max(set.accuracy * 2.5).clamp(0.005, 1.0);
+        let mut chart = ChartBuilder::on(&bottom)
+            .caption("Error against output voltage", (FONT, 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(64)
+            .build_cartesian_2d(0.0..vmax, -lim * 100.0..lim * 100.0)
+            .map_err(&e)?;
+        chart
+            .configure_mesh()
+            .x_desc("V_out from the mirror rail (V)")
+            .y_desc("error I_out/(n·I_in) − 1 (%)")
+            .label_style((FONT, 12))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(w.min, -lim * 100.0), (w.max, lim * 100.0)],
+                WINDOW_FILL.mix(0.6).filled(),
+            )))
+            .map_err(&e)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(0.0, -set.accuracy * 100.0), (vmax, set.accuracy * 100.0)],
+                BAND_FILL.mix(0.7).filled(),
+            )))
+            .map_err(&e)?
+            .label(format!("accuracy ±{}", super::eng::percent(set.accuracy)))
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], BAND_FILL.filled()));
+        for c in &set.output {
+            let ys: Vec<Option<f64>> = c
+                .errors(set.ratio)
+                .into_iter()
+                .map(|x| x.map(|x| x * 100.0))
+                .collect();
+            let style = ShapeStyle::from(color_of(c.i_in_a)).stroke_width(width_of(c.t_amb_k));
+            for run in runs(&c.v_out_v, &ys, -lim * 100.0, lim * 100.0) {
+                chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
+            }
+        }
+        if let Some(vb) = set.balance_voltage_v.filter(|v| *v >= 0.0 && *v <= vmax) {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(vb, -lim * 100.0), (vb, lim * 100.0)],
+                    6,
+                    4,
+                    ShapeStyle::from(BALANCE).stroke_width(1),
+                ))
+                .map_err(&e)?
+                .label(format!(
+                    "balance voltage {}",
+                    eng(vb, "V", Charset::Unicode)
+                ))
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .label_font((FONT, 11))
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(160, 160, 160))
+            .draw()
+            .map_err(&e)?;
+        root.present().map_err(&e)?;
+    }
+    Ok(svg)
+}
+
+/// The error against the programming current (log axis) at V_out min and max.
+pub fn error_vs_input_svg(set: &CurveSet) -> Result<String, PlotError> {
+    let what = "error-against-input";
+    let e = err(what);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, 380)).into_drawing_area();
+        root.fill(&WHITE).map_err(&e)?;
+        let lo = set
+            .error
+            .iter()
+            .flat_map(|c| c.i_in_a.iter().copied())
+            .fold(f64::INFINITY, f64::min);
+        let hi = set
+            .error
+            .iter()
+            .flat_map(|c| c.i_in_a.iter().copied())
+            .fold(0.0, f64::max);
+        let (lo, hi) = if lo.is_finite() && hi > lo {
+            (lo, hi)
+        } else {
+            (lo.min(1.0) / 2.0, lo.min(1.0) * 2.0)
+        };
+        let worst = set
+            .error
+            .iter()
+            .flat_map(|c| c.error.iter().flatten().map(|x| x.abs()))
+            .fold(0.0, f64::max);
+        let lim = (worst * 1.2).max(set.accuracy * 1.5).clamp(0.002, 1.0) * 100.0;
+        let (scale, unit) = current_scale(hi);
+        let mut chart = ChartBuilder::on(&root)
+            .caption("Error against programming current", (FONT, 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(64)
+            .build_cartesian_2d((lo * scale..hi * scale).log_scale(), -lim..lim)
+            .map_err(&e)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("I_in ({unit}, log scale)"))
+            .y_desc("error (%)")
+            .label_style((FONT, 12))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [
+                    (lo * scale, -set.accuracy * 100.0),
+                    (hi * scale, set.accuracy * 100.0),
+                ],
+                BAND_FILL.mix(0.7).filled(),
+            )))
+            .map_err(&e)?
+            .label(format!("accuracy ±{}", super::eng::percent(set.accuracy)))
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], BAND_FILL.filled()));
+        let several = {
+            let mut t: Vec<f64> = set.error.iter().map(|c| c.t_amb_k).collect();
+            t.dedup();
+            t.len() > 1
+        };
+        for (k, c) in set.error.iter().enumerate() {
+            let xs: Vec<f64> = c.i_in_a.iter().map(|i| i * scale).collect();
+            let ys: Vec<Option<f64>> = c.error.iter().map(|x| x.map(|x| x * 100.0)).collect();
+            let style = ShapeStyle::from(PALETTE[k % PALETTE.len()]).stroke_width(2);
+            let label = if several {
+                format!(
+                    "V_out {}, {}",
+                    eng(c.v_out_v, "V", Charset::Unicode),
+                    celsius(c.t_amb_k, Charset::Unicode)
+                )
+            } else {
+                format!("V_out {}", eng(c.v_out_v, "V", Charset::Unicode))
+            };
+            let mut first = true;
+            for run in runs(&xs, &ys, -lim, lim) {
+                let s = chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
+                if first {
+                    s.label(label.clone())
+                        .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], style));
+                    first = false;
+                }
+            }
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .label_font((FONT, 11))
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(160, 160, 160))
+            .draw()
+            .map_err(&e)?;
+        root.present().map_err(&e)?;
+    }
+    Ok(svg)
+}
+
+/// One bar of the error budget.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BudgetBar {
+    pub cause: String,
+    /// Contribution to the error, as a fraction (sign kept: systematic causes may offset).
+    pub value: f64,
+    /// Random (1 sigma) rather than systematic.
+    pub random: bool,
+}
+
+/// The error budget as horizontal bars, one per cause, systematic and random apart,
+/// with the requirement's accuracy drawn as a limit line.
+pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, PlotError> {
+    let what = "error-budget";
+    let e = err(what);
+    let mut svg = String::new();
+    let n = bars.len().max(1);
+    let height = 150 + 40 * n as u32;
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
+        root.fill(&WHITE).map_err(&e)?;
+        let most = bars.iter().map(|b| b.value.abs()).fold(accuracy, f64::max) * 100.0 * 1.15;
+        let least = bars.iter().map(|b| b.value).fold(0.0, f64::min) * 100.0 * 1.15;
+        let names: Vec<String> = bars.iter().map(|b| b.cause.clone()).collect();
+        let mut chart = ChartBuilder::on(&root)
+            .caption("Error budget by cause", (FONT, 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(180)
+            // A segmented 0..k range has k + 1 slots; one slot needs 0..1 (one left blank).
+            .build_cartesian_2d(least..most, (0..(n - 1).max(1)).into_segmented())
+            .map_err(&e)?;
+        chart
+            .configure_mesh()
+            .disable_y_mesh()
+            .x_desc("contribution to the error (%; random causes at 1 sigma)")
+            .y_labels(n)
+            .y_label_formatter(&|v| match v {
+                SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
+                _ => String::new(),
+            })
+            .label_style((FONT, 12))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        let sys = PALETTE[0];
+        let rnd = PALETTE[1];
+        for (k, b) in bars.iter().enumerate() {
+            let color = if b.random { rnd } else { sys };
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [
+                        (0.0, SegmentValue::Exact(k)),
+                        (b.value * 100.0, SegmentValue::Exact(k + 1)),
+                    ],
+                    color.filled(),
+                )))
+                .map_err(&e)?;
+        }
+        // Legend entries through empty series, so the colours are explained once each.
+        for (label, color) in [("systematic", sys), ("random, 1 sigma", rnd)] {
+            chart
+                .draw_series(std::iter::empty::<Rectangle<(f64, SegmentValue<usize>)>>())
+                .map_err(&e)?
+                .label(label)
+                .legend(move |(x, y)| {
+                    Rectangle::new([(x, y - 5), (x + 14, y + 5)], color.filled())
+                });
+        }
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![
+                    (accuracy * 100.0, SegmentValue::Exact(0)),
+                    (accuracy * 100.0, SegmentValue::Last),
+                ],
+                5,
+                4,
+                ShapeStyle::from(BALANCE).stroke_width(1),
+            ))
+            .map_err(&e)?
+            .label(format!(
+                "required accuracy {}",
+                super::eng::percent(accuracy)
+            ))
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .label_font((FONT, 11))
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(160, 160, 160))
+            .draw()
+            .map_err(&e)?;
+        root.present().map_err(&e)?;
+    }
+    Ok(svg)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::curves::{sweep, CurveOptions};
+    use crate::report::fixtures;
+
+    fn toy_set() -> CurveSet {
+        let req = fixtures::requirement();
+        let opts = CurveOptions {
+            voltage_points: 25,
+            current_points: 6,
+            ambient_extremes: true,
+        };
+        sweep(&req, &opts, Some(2.0), |i, v, t| {
+            (v >= 0.2).then_some(i * (0.96 + 0.02 * v) * (1.0 + (t - 298.15) * 1e-4))
+        })
+    }
+
+    #[test]
+    fn curve_plots_are_svg_with_units_legend_and_marks() {
+        let set = toy_set();
+        let svg = output_curves_svg(&set, Some("tail <sink> & co")).unwrap();
+        assert!(svg.contains("tail &lt;sink&gt; &amp; co"), "title escaped");
+        assert!(svg.starts_with("<svg"), "{}", &svg[..80]);
+        assert!(svg.contains("V_out from the mirror rail (V)"));
+        assert!(svg.contains("I_out (mA)"));
+        for i in ["I_in 100 µA", "I_in 316 µA", "I_in 1.00 mA"] {
+            let line = format!("\n{i}\n");
+            assert!(svg.contains(&line), "legend names each current: {i}");
+        }
+        assert!(svg.contains("thick: 25 °C; thin: -40 °C and 85 °C"));
+        assert!(svg.contains("balance voltage 2.00 V"));
+        assert!(svg.contains("accuracy ±1.00 %"));
+        assert!(svg.contains("required V_out window"));
+        let svg = error_vs_input_svg(&set).unwrap();
+        assert!(svg.contains("V_out 10.0 V, 85 °C"));
+        assert!(svg.contains("log scale"));
+    }
+
+    #[test]
+    fn budget_bars_escape_causes() {
+        let bars = vec![
+            BudgetBar {
+                cause: "base current".into(),
+                value: -0.004,
+                random: false,
+            },
+            BudgetBar {
+                cause: "V_BE offset <pair>".into(),
+                value: 0.003,
+                random: true,
+            },
+        ];
+        let svg = error_budget_svg(&bars, 0.01).unwrap();
+        assert!(svg.contains("V_BE offset &lt;pair&gt;"));
+        assert!(!svg.contains("<pair>"));
+        assert!(svg.contains("required accuracy 1.00 %"));
+    }
+
+    #[test]
+    fn wide_families_get_a_log_current_axis() {
+        let mut req = fixtures::requirement();
+        req.input_current_a.min = 1e-7;
+        let set = sweep(&req, &CurveOptions::default(), None, |i, v, _| {
+            (v >= 0.2).then_some(i * (0.99 + 0.001 * v))
+        });
+        let svg = output_curves_svg(&set, None).unwrap();
+        assert!(svg.contains("I_out (log scale)"));
+        for decade in ["\n100 nA\n", "\n1.00 µA\n", "\n1.00 mA\n"] {
+            assert!(svg.contains(decade), "decade label {decade:?}");
+        }
+    }
+
+    #[test]
+    fn budget_with_one_or_no_bar_draws() {
+        let one = [BudgetBar {
+            cause: "base current".into(),
+            value: 0.01,
+            random: false,
+        }];
+        assert!(error_budget_svg(&one, 0.02)
+            .unwrap()
+            .contains("base current"));
+        assert!(error_budget_svg(&[], 0.02).unwrap().starts_with("<svg"));
+    }
+
+    #[test]
+    fn gaps_split_lines() {
+        let r = runs(
+            &[0.0, 1.0, 2.0, 3.0, 4.0, 5.0],
+            &[Some(1.0), Some(2.0), None, Some(1.0), Some(9.0), Some(1.0)],
+            0.0,
+            5.0,
+        );
+        assert_eq!(r, vec![vec![(0.0, 1.0), (1.0, 2.0)]]);
+    }
+}
