@@ -14,7 +14,7 @@ use serde::Serialize;
 use super::budget::{self, ErrorBudget, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
-use super::montecarlo::linear_yield;
+use super::montecarlo::{self, linear_yield};
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions};
@@ -58,8 +58,10 @@ pub struct Figures {
     pub error_random_sigma: f64,
     /// `systematic + k * random`.
     pub error_total: f64,
-    /// Monte Carlo yield (NaN when not computed).
+    /// Monte Carlo yield on the first-order model (NaN when not computed).
     pub yield_fraction: f64,
+    /// Monte Carlo yield with every build re-solved (NaN unless asked for).
+    pub yield_solved: f64,
     /// Smallest solved output resistance (NaN when not computed).
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
@@ -74,6 +76,7 @@ impl Default for Figures {
             error_random_sigma: f64::NAN,
             error_total: f64::NAN,
             yield_fraction: f64::NAN,
+            yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
             v_in_max_v: f64::NAN,
@@ -286,6 +289,34 @@ impl<'a> Evaluator<'a> {
         let s0 = self.solve_net(&net, &c, true).ok()?;
         let d = self.sensitivities(&nets, &c, &s0).ok()?;
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
+    }
+
+    /// Monte Carlo yield with every sampled build re-solved at every corner (the same
+    /// draws as the first-order yield): a confirmation for one design, too costly for a
+    /// search. A build whose circuit fails to solve counts as out of spec.
+    pub fn solved_yield(&self, mc: MonteCarlo) -> f64 {
+        if mc.samples == 0 {
+            return f64::NAN;
+        }
+        let sigmas = self.sigmas();
+        let mut good = 0u32;
+        for z in montecarlo::builds(mc.seed, mc.samples) {
+            let mm = Mismatch {
+                dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
+                dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
+                dre1: z[4] * sigmas[4],
+                dre2: z[5] * sigmas[5],
+            };
+            let Ok(net) = self.compile(&mm, NOMINAL) else {
+                continue;
+            };
+            let within = self.corners.iter().all(|c| {
+                self.solve_net(&net, c, true)
+                    .is_ok_and(|s| s.error.abs() <= self.req.accuracy)
+            });
+            good += u32::from(within);
+        }
+        f64::from(good) / f64::from(mc.samples)
     }
 
     fn input_limit(&self) -> f64 {
