@@ -420,7 +420,7 @@ impl<'a> Evaluator<'a> {
             Ok(x) => x,
             Err(f) => {
                 checks.push(failure_check(&f, &probe));
-                return self.incomplete(cost, checks, depth);
+                return incomplete(cost, checks);
             }
         };
         let mut states: Vec<Option<CornerState>> = vec![None; self.corners.len()];
@@ -439,7 +439,7 @@ impl<'a> Evaluator<'a> {
                         checks.push(fc);
                     }
                     if depth == Depth::Screen {
-                        return self.incomplete(cost, checks, depth);
+                        return incomplete(cost, checks);
                     }
                     continue;
                 }
@@ -454,7 +454,7 @@ impl<'a> Evaluator<'a> {
                     req.accuracy,
                     "screened at one corner",
                 ));
-                return self.incomplete(cost, checks, depth);
+                return incomplete(cost, checks);
             }
         }
         let unsolved = states.iter().any(Option::is_none);
@@ -464,7 +464,7 @@ impl<'a> Evaluator<'a> {
             .filter_map(|(s, d)| s.map(|s| (s, d)))
             .unzip();
         if states.is_empty() {
-            return self.incomplete(cost, checks, depth);
+            return incomplete(cost, checks);
         }
         let corner_list: Vec<OperatingCorner> = states.iter().map(|s| s.corner).collect();
 
@@ -617,18 +617,6 @@ impl<'a> Evaluator<'a> {
         ev
     }
 
-    fn incomplete(&self, cost: f64, checks: Vec<Check>, _depth: Depth) -> Evaluation {
-        Evaluation {
-            cost,
-            checks,
-            figures: Figures::default(),
-            corners: Vec::new(),
-            budget: None,
-            hottest: None,
-            complete: false,
-        }
-    }
-
     fn output_resistance(&self, net: &Netlist, c: &OperatingCorner) -> Result<f64, SolveFailure> {
         let op = OperatingPoint {
             i_in_a: c.i_in_a,
@@ -699,6 +687,19 @@ impl<'a> Evaluator<'a> {
             no_base_current: e(&room, no_base)?,
         };
         Some(budget::attribute(c, t, sens))
+    }
+}
+
+/// An evaluation that stopped before judging every check.
+fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
+    Evaluation {
+        cost,
+        checks,
+        figures: Figures::default(),
+        corners: Vec::new(),
+        budget: None,
+        hottest: None,
+        complete: false,
     }
 }
 
