@@ -136,9 +136,15 @@ fn rank_with_goal(
     let mut rows = Vec::with_capacity(shown);
     let mut explain = None;
     for (i, ev) in &full {
-        let row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
+        let mut row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
         if opts.explain == Some(i + 1) {
-            explain = Some(Explanation::new(req, row.clone(), ev));
+            let mut e = Explanation::new(req, row.clone(), ev);
+            e.candidate.yield_solved =
+                check::solved_yield(req, catalog, &ranked[*i].0, opts.mc, &extra)?;
+            if *i < shown {
+                row.yield_solved = e.candidate.yield_solved;
+            }
+            explain = Some(e);
         }
         if *i < shown {
             rows.push(row);
@@ -203,7 +209,8 @@ pub fn check_design(
     with_corners: bool,
 ) -> Result<CheckReport, RankError> {
     let solves = AtomicU64::new(0);
-    let (spec, ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    let (spec, mut ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
     let pass = ev.feasible();
     let row = CandidateRow::new(None, &spec, &ev, false);
     let explanation = Explanation::new(req, row.clone(), &ev);

@@ -350,6 +350,14 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         c.resistor.as_deref().unwrap_or("—"),
         c.cost
     )?;
+    if c.yield_solved.is_finite() {
+        writeln!(
+            w,
+            "Yield: {} on the first-order model, {} with every build re-solved.",
+            pct(c.yield_fraction),
+            pct(c.yield_solved)
+        )?;
+    }
     writeln!(
         w,
         "Checks (governing: {}):",
@@ -576,6 +584,7 @@ mod tests {
             error_random_sigma: 0.001,
             error_total: 0.005,
             yield_fraction: 0.98,
+            yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: 0.7,
             v_in_max: 1.2,

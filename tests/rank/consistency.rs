@@ -6,6 +6,8 @@ use mirrorpick::check::MonteCarlo;
 use mirrorpick::rank::{check_design, rank, render, RankOptions, Silent};
 use mirrorpick::report::{Format, Style};
 
+use mirrorpick::model::Series;
+
 use super::*;
 
 const MC: MonteCarlo = MonteCarlo {
@@ -216,4 +218,29 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
         assert!(!c.candidate.check(m.failed_check).unwrap().pass);
         assert!(r.summary.contains(m.failed_check.as_str()));
     }
+}
+
+#[test]
+fn first_order_and_re_solved_yield_agree_on_a_mid_yield_design() {
+    // Same draws; the two differ only by the nonlinearity of the circuit in the
+    // mismatch inputs, which is small at these sigmas.
+    let cat = catalog(
+        vec![npn("pair", 2, 200.0, None, 1e-3)],
+        vec![resistor("r1", Series::E96, 0.01)],
+    );
+    let req = requirement(0.016);
+    let s = spec(
+        mirrorpick::model::Topology::Simple,
+        "pair",
+        249.0,
+        Some("r1"),
+    );
+    let mc = MonteCarlo {
+        seed: 11,
+        samples: 1000,
+    };
+    let r = check_design(&req, &cat, &s, mc, false).unwrap();
+    let (lin, solved) = (r.candidate.yield_fraction, r.candidate.yield_solved);
+    assert!((0.5..0.98).contains(&lin), "first-order yield {lin}");
+    assert!((lin - solved).abs() < 0.04, "{lin} vs {solved}");
 }
