@@ -154,8 +154,7 @@ impl BjtAtT {
     /// current is `i_a` divided by the Early factor.
     #[inline]
     pub fn vbe_for_current_at(&self, i_a: f64, v_ce: f64) -> f64 {
-        let early = 1.0 + v_ce * self.vaf_inv;
-        self.vbe_for_current(if early > 0.0 { i_a / early } else { i_a })
+        self.vbe_for_current(i_a / early_factor(v_ce, self.vaf_inv).0)
     }
 
     /// True when the device has a finite Early voltage.
@@ -178,15 +177,15 @@ impl BjtAtT {
         let a = (vbe / vt).exp();
         let c = (vbc / vt).exp();
         let is = self.is;
-        let early = 1.0 + (vbe - vbc) * self.vaf_inv;
+        let (early, dearly) = early_factor(vbe - vbc, self.vaf_inv);
         let it_n = a - c; // I_T / IS
         let br_inv = 1.0 / self.br;
         let ic_n = it_n * early - br_inv * (c - 1.0);
         let ic = is * ic_n;
         let da = a / vt;
         let dc = c / vt;
-        let dic_dvbe = is * (da * early + it_n * self.vaf_inv);
-        let dic_dvbc = is * (-dc * early - it_n * self.vaf_inv - br_inv * dc);
+        let dic_dvbe = is * (da * early + it_n * dearly);
+        let dic_dvbc = is * (-dc * early - it_n * dearly - br_inv * dc);
         // d/dT at fixed junction voltages: exp(v/V_T) falls as V_T grows.
         let inv_vt_t = 1.0 / (vt * self.t_k);
         let da_dt = -a * vbe * inv_vt_t;
@@ -212,6 +211,26 @@ impl BjtAtT {
             dic_dt,
             dib_dt,
         }
+    }
+}
+
+/// The Early factor and its derivative with respect to V_CE.
+///
+/// For `V_CE >= 0` it is MODEL.md's `1 + V_CE/VAF`. Below zero the straight line is
+/// continued as `1 / (1 - V_CE/VAF)`: equal in value and slope at 0 V (so first-order
+/// identical for small reverse V_CE), but it stays positive. The straight line turns
+/// negative below `V_CE = -VAF`, flips the sign of the transport current and so gives the
+/// circuit equations spurious roots (a saturated output device with its emitter tens of
+/// volts above the supply) that Newton can converge to. No forward-active operating point
+/// is affected.
+#[inline]
+fn early_factor(v_ce: f64, vaf_inv: f64) -> (f64, f64) {
+    let x = v_ce * vaf_inv;
+    if x >= 0.0 {
+        (1.0 + x, vaf_inv)
+    } else {
+        let d = 1.0 / (1.0 - x);
+        (d, vaf_inv * d * d)
     }
 }
 

@@ -1,7 +1,9 @@
 //! Solved circuits against textbook closed forms, each with its source.
 
 use crate::fixtures::*;
-use mirrorpick::circuit::{balance_voltage, output_resistance, solve_point, Mismatch};
+use mirrorpick::circuit::{
+    balance_voltage, output_resistance, solve_point, Mismatch, OperatingPoint,
+};
 use mirrorpick::device::thermal_voltage;
 use mirrorpick::model::{BjtParams, Polarity, Topology};
 
@@ -312,4 +314,35 @@ fn helper_needs_a_class_when_the_pair_has_no_spare() {
         .transistors()
         .iter()
         .all(|t| t.package == 0 && !t.helper_class));
+}
+
+/// Below compliance the output device saturates and its base-collector junction conducts:
+/// the output current reverses (flows out of the collector) and every node stays between
+/// the rails. Before the Early factor was kept positive for V_CE < -VAF, Newton could land
+/// on a spurious root with Q2's emitter near 60 V on a 5 V supply. Physical bounds only;
+/// no published figure.
+#[test]
+fn saturated_output_stays_between_the_rails() {
+    let pair = npn(220.0, Some(40.0));
+    for topology in mirrorpick::model::ALL_TOPOLOGIES {
+        let re = if topology.desc().has_re1 { 4870.0 } else { 0.0 };
+        let d = design(topology, &pair, re, 4870.0);
+        for v_out in [0.0, 0.05, 0.1, 0.2, 0.3] {
+            let point = OperatingPoint {
+                supply_v: 5.0,
+                ..op(100e-6, v_out)
+            };
+            let sol = solve_point(&d, &point, &nominal(), &iso()).unwrap();
+            for n in sol.nodes() {
+                assert!(
+                    n.volts > -1.0 && n.volts < 5.0 + 1.0,
+                    "{}: node {} at {} V with V_out {v_out} V",
+                    topology.name(),
+                    n.name,
+                    n.volts
+                );
+            }
+            assert!(sol.i_out_a < 100e-6, "{} at {v_out} V", topology.name());
+        }
+    }
 }
