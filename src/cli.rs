@@ -560,7 +560,7 @@ impl Cli {
                 self_heating: f.self_heating,
                 emit_class: f.emit_class,
                 json: f.format == FitFormat::Json,
-                date: today_utc(),
+                date: mirrorpick::calendar::today_utc(),
             }),
             Command::Rank(a) => AppCommand::Rank(RankArgs {
                 file: a.file,
@@ -637,15 +637,6 @@ impl Cli {
             style: Style { color },
         }
     }
-}
-
-/// Today's date (UTC) for provenance lines.
-fn today_utc() -> String {
-    let secs = std::time::SystemTime::now()
-        .duration_since(std::time::UNIX_EPOCH)
-        .map(|d| d.as_secs() as i64)
-        .unwrap_or(0);
-    mirrorpick::fit::emit::utc_date(secs)
 }
 
 #[cfg(test)]

@@ -11,6 +11,7 @@
 pub mod app;
 pub mod atomic_file;
 pub mod bom;
+pub mod calendar;
 pub mod check;
 pub mod circuit;
 pub mod curves;

@@ -18,7 +18,7 @@ use crate::circuit::{Design, SolveOptions};
 use crate::curves::{self, CurveOptions};
 use crate::model::{Catalog, Requirement, Topology};
 use crate::rank::{self, CandidateRow, RankOptions, Silent};
-use crate::report::decision::{build_page, utc_date, DecisionInputs};
+use crate::report::decision::{build_page, DecisionInputs};
 use crate::report::{html, markdown};
 
 /// Rejected designs examined for the nearest miss (evenly spread over the rejected list:
@@ -94,20 +94,6 @@ fn nearest_miss(
         .max_by(|a, b| a.2.total_cmp(&b.2).then(b.0.cost.total_cmp(&a.0.cost)))
 }
 
-/// Today's date in UTC, or the date of `SOURCE_DATE_EPOCH` when set (reproducible builds
-/// of the same report).
-fn run_date() -> String {
-    let now = std::env::var("SOURCE_DATE_EPOCH")
-        .ok()
-        .and_then(|s| s.trim().parse::<u64>().ok())
-        .unwrap_or_else(|| {
-            std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map_or(0, |d| d.as_secs())
-        });
-    utc_date(now)
-}
-
 pub fn run_report(
     source: &CatalogSource,
     args: &ReportArgs,
@@ -154,7 +140,7 @@ pub fn run_report(
         best_rejected,
         curves: curve_set.as_ref(),
         provenance: &prov,
-        date: run_date(),
+        date: crate::calendar::today_utc(),
     })?;
 
     match (html_file, &md_file) {

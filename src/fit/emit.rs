@@ -127,32 +127,3 @@ pub fn class_yaml(c: &TransistorClass, notes: &[String]) -> String {
 fn yaml_string(s: &str) -> String {
     serde_json::to_string(s).expect("a string always serialises")
 }
-
-/// `YYYY-MM-DD` (UTC) of a Unix time in seconds, by the civil-from-days algorithm
-/// (proleptic Gregorian calendar; Hinnant, "chrono-compatible low-level date algorithms").
-pub fn utc_date(unix_seconds: i64) -> String {
-    let z = unix_seconds.div_euclid(86_400) + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    format!("{y:04}-{m:02}-{d:02}")
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn dates_from_unix_time() {
-        assert_eq!(utc_date(0), "1970-01-01");
-        // 2000-02-29 (a leap day in a year divisible by 400) and the day after.
-        assert_eq!(utc_date(951_782_400), "2000-02-29");
-        assert_eq!(utc_date(951_868_800), "2000-03-01");
-        assert_eq!(utc_date(1_798_761_599), "2026-12-31");
-    }
-}

@@ -532,30 +532,3 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         cautions,
     })
 }
-
-/// `YYYY-MM-DD` (UTC) of a Unix time, by the proleptic Gregorian calendar.
-pub fn utc_date(unix_s: u64) -> String {
-    // Days to civil date (H. Hinnant's algorithm for the Gregorian calendar).
-    let z = (unix_s / 86_400) as i64 + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    format!("{y:04}-{m:02}-{d:02}")
-}
-
-#[cfg(test)]
-mod tests {
-    use super::utc_date;
-
-    #[test]
-    fn civil_dates() {
-        assert_eq!(utc_date(0), "1970-01-01");
-        assert_eq!(utc_date(951_782_400), "2000-02-29");
-        assert_eq!(utc_date(1_798_761_599), "2026-12-31");
-    }
-}

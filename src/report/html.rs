@@ -84,10 +84,6 @@ fn kv(o: &mut String, rows: &[(String, String)], id: &str) {
     o.push_str("</tbody></table>\n");
 }
 
-fn margin_text(m: f64) -> String {
-    percent(m)
-}
-
 fn design(o: &mut String, d: &DesignView, id: &str) {
     let _ = writeln!(o, "<p><strong>{}</strong></p>", escape(&d.title));
     let _ = writeln!(o, "<table class=\"kv figures\" id=\"{id}\"><tbody>");
@@ -119,7 +115,7 @@ fn design(o: &mut String, d: &DesignView, id: &str) {
             o,
             "<h3>Checks (governing: {}, margin {})</h3>",
             escape(&d.governing_check),
-            margin_text(d.governing_margin)
+            percent(d.governing_margin)
         );
         o.push_str("<table class=\"checks\"><thead><tr><th>check</th><th>value</th><th>limit</th><th>margin</th><th>verdict</th></tr></thead><tbody>\n");
         for c in &d.checks {
@@ -134,7 +130,7 @@ fn design(o: &mut String, d: &DesignView, id: &str) {
                 escape(&c.name),
                 escape(&c.value),
                 escape(&c.limit),
-                margin_text(c.margin)
+                percent(c.margin)
             );
         }
         o.push_str("</tbody></table>\n");
@@ -188,25 +184,7 @@ pub fn render(page: &Page) -> String {
     if page.runners_up.is_empty() {
         o.push_str("<p>No other design passes every check.</p>\n");
     } else {
-        let t = Table {
-            header: ["rank", "design", "cost", "governing check", "margin"]
-                .map(String::from)
-                .to_vec(),
-            rows: page
-                .runners_up
-                .iter()
-                .map(|d| {
-                    vec![
-                        d.rank.map(|r| r.to_string()).unwrap_or_default(),
-                        d.title.clone(),
-                        d.cost.clone(),
-                        d.governing_check.clone(),
-                        margin_text(d.governing_margin),
-                    ]
-                })
-                .collect(),
-        };
-        table(&mut o, &t, "runners-up");
+        table(&mut o, &page.runners_up_table(), "runners-up");
     }
     o.push_str("</section>\n");
 
@@ -217,22 +195,14 @@ pub fn render(page: &Page) -> String {
         page.evaluated, page.feasible_count
     );
     if !page.rejected_by.is_empty() {
-        let t = Table {
-            header: vec!["check".into(), "designs rejected".into()],
-            rows: page
-                .rejected_by
-                .iter()
-                .map(|(c, n)| vec![c.clone(), n.to_string()])
-                .collect(),
-        };
-        table(&mut o, &t, "rejected-by");
+        table(&mut o, &page.rejected_by_table(), "rejected-by");
     }
     if let Some(r) = &page.best_rejected {
         let _ = writeln!(
             o,
             "<h3>Nearest miss: failed {} by {}</h3>",
             escape(&r.check),
-            margin_text(-r.margin)
+            percent(-r.margin)
         );
         design(&mut o, &r.design, "best-rejected");
     }

@@ -146,25 +146,7 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     if page.runners_up.is_empty() {
         o.push_str("No other design passes every check.\n\n");
     } else {
-        let t = Table {
-            header: ["rank", "design", "cost", "governing check", "margin"]
-                .map(String::from)
-                .to_vec(),
-            rows: page
-                .runners_up
-                .iter()
-                .map(|d| {
-                    vec![
-                        d.rank.map(|r| r.to_string()).unwrap_or_default(),
-                        d.title.clone(),
-                        d.cost.clone(),
-                        d.governing_check.clone(),
-                        percent(d.governing_margin),
-                    ]
-                })
-                .collect(),
-        };
-        table(&mut o, &t);
+        table(&mut o, &page.runners_up_table());
     }
 
     o.push_str("## 4 What was rejected and why\n\n");
@@ -174,15 +156,7 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
         page.evaluated, page.feasible_count
     );
     if !page.rejected_by.is_empty() {
-        let t = Table {
-            header: vec!["check".into(), "designs rejected".into()],
-            rows: page
-                .rejected_by
-                .iter()
-                .map(|(c, n)| vec![c.clone(), n.to_string()])
-                .collect(),
-        };
-        table(&mut o, &t);
+        table(&mut o, &page.rejected_by_table());
     }
     if let Some(r) = &page.best_rejected {
         let _ = writeln!(

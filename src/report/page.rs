@@ -5,6 +5,7 @@
 //! ranking report, the curves, the provenance); it holds display text plus the raw SI
 //! numbers behind each figure, so a reader program can check the page against the JSON.
 
+use super::eng::percent;
 use super::plot::BudgetBar;
 
 /// One figure of a design: a JSON key, a label, the raw value and its display text.
@@ -90,4 +91,40 @@ pub struct Page {
     pub corners: Table,
     pub assumptions: Vec<(String, String)>,
     pub cautions: Vec<String>,
+}
+
+impl Page {
+    /// The runners-up as a table (the same rows in every format).
+    pub fn runners_up_table(&self) -> Table {
+        Table {
+            header: ["rank", "design", "cost", "governing check", "margin"]
+                .map(String::from)
+                .to_vec(),
+            rows: self
+                .runners_up
+                .iter()
+                .map(|d| {
+                    vec![
+                        d.rank.map(|r| r.to_string()).unwrap_or_default(),
+                        d.title.clone(),
+                        d.cost.clone(),
+                        d.governing_check.clone(),
+                        percent(d.governing_margin),
+                    ]
+                })
+                .collect(),
+        }
+    }
+
+    /// Rejection counts by the first check each rejected design failed.
+    pub fn rejected_by_table(&self) -> Table {
+        Table {
+            header: vec!["check".into(), "designs rejected".into()],
+            rows: self
+                .rejected_by
+                .iter()
+                .map(|(c, n)| vec![c.clone(), n.to_string()])
+                .collect(),
+        }
+    }
 }
