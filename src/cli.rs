@@ -9,6 +9,7 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
+use mirrorpick::app::bom::BomArgs;
 use mirrorpick::app::rank::{CheaperArgs, CheckArgs, DesignArgs, RankArgs};
 use mirrorpick::app::solve::SolveArgs;
 use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs};
@@ -80,7 +81,33 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
         after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
     )]
     Cheaper(CheaperCli),
+    /// Cheapest bill of materials for a whole board: one design per channel, shared packages.
+    #[command(after_help = BOM_HELP)]
+    Bom(BomCli),
 }
+
+const BOM_HELP: &str = "\
+The design file names the board, the boards per build and the channels; each channel is a
+requirement file (path relative to the design file) or an inline requirement, with a
+`count` of identical copies. Optional: `catalog` (relative path), `line_item_cost` (fixed
+cost per distinct part per build), `max_line_items`, and board-wide `allow`/`deny` lists
+of topologies and class ids. README.md describes the format.
+
+Every channel is ranked against its requirement; every feasible design (one per distinct
+set of parts) goes into an integer program that picks one design per channel and the
+packages to build them from, sharing packages and resistor values across channels where
+that is cheaper. The table shows the BOM, the assignment (channel -> design, package and
+slot), the total per build and what each channel's cheapest design on its own would
+cost. CSV is the BOM alone. Cautions go to stderr.
+
+Exit status: 0 a board was found, 1 no board meets the design (the output says which
+channel has no feasible design and why, or the fewest line items any board needs),
+2 bad input.
+
+Example:
+  mirrorpick bom requirements-examples/board-synth-voice.yaml
+  mirrorpick bom requirements-examples/board-synth-voice.yaml --format csv > bom.csv
+  mirrorpick bom board.yaml --format json --seed 7 --samples 200";
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum PreferChoice {
@@ -153,6 +180,16 @@ pub struct CheckCli {
     /// Also print the table of every corner.
     #[arg(long)]
     pub corners: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct BomCli {
+    /// Board design file (YAML).
+    pub file: PathBuf,
     #[command(flatten)]
     pub format: FormatArg,
     #[command(flatten)]
@@ -500,6 +537,11 @@ impl Cli {
                 file: a.file,
                 design: a.design.into_args(a.helper),
                 corners: a.corners,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+            }),
+            Command::Bom(a) => AppCommand::Bom(BomArgs {
+                file: a.file,
                 format: a.format.format.into(),
                 mc: a.mc.into(),
             }),
