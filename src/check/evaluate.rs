@@ -14,7 +14,7 @@ use serde::Serialize;
 use super::budget::{self, ErrorBudget, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
-use super::montecarlo::linear_yield;
+use super::montecarlo::{self, linear_yield};
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions};
@@ -58,8 +58,10 @@ pub struct Figures {
     pub error_random_sigma: f64,
     /// `systematic + k * random`.
     pub error_total: f64,
-    /// Monte Carlo yield (NaN when not computed).
+    /// Monte Carlo yield on the first-order model (NaN when not computed).
     pub yield_fraction: f64,
+    /// Monte Carlo yield with every build re-solved (NaN unless asked for).
+    pub yield_solved: f64,
     /// Smallest solved output resistance (NaN when not computed).
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
@@ -74,6 +76,7 @@ impl Default for Figures {
             error_random_sigma: f64::NAN,
             error_total: f64::NAN,
             yield_fraction: f64::NAN,
+            yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
             v_in_max_v: f64::NAN,
@@ -277,6 +280,45 @@ impl<'a> Evaluator<'a> {
         Some(self.req.confidence_sigma * (s1.error - s0.error).abs())
     }
 
+    /// `|e| + k*sigma` at the probe corner: a lower bound of the total error (one solve
+    /// per mismatch input plus one). `None` when a solve fails.
+    pub fn probe_bound(&self) -> Option<f64> {
+        let c = corners::probe_corner(self.req);
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let nets = self.sensitivity_nets().ok()?;
+        let s0 = self.solve_net(&net, &c, true).ok()?;
+        let d = self.sensitivities(&nets, &c, &s0).ok()?;
+        Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
+    }
+
+    /// Monte Carlo yield with every sampled build re-solved at every corner (the same
+    /// draws as the first-order yield): a confirmation for one design, too costly for a
+    /// search. A build whose circuit fails to solve counts as out of spec.
+    pub fn solved_yield(&self, mc: MonteCarlo) -> f64 {
+        if mc.samples == 0 {
+            return f64::NAN;
+        }
+        let sigmas = self.sigmas();
+        let mut good = 0u32;
+        for z in montecarlo::builds(mc.seed, mc.samples) {
+            let mm = Mismatch {
+                dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
+                dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
+                dre1: z[4] * sigmas[4],
+                dre2: z[5] * sigmas[5],
+            };
+            let Ok(net) = self.compile(&mm, NOMINAL) else {
+                continue;
+            };
+            let within = self.corners.iter().all(|c| {
+                self.solve_net(&net, c, true)
+                    .is_ok_and(|s| s.error.abs() <= self.req.accuracy)
+            });
+            good += u32::from(within);
+        }
+        f64::from(good) / f64::from(mc.samples)
+    }
+
     fn input_limit(&self) -> f64 {
         self.req.input_voltage_max_v.unwrap_or(self.req.supply_v)
     }
@@ -378,7 +420,7 @@ impl<'a> Evaluator<'a> {
             Ok(x) => x,
             Err(f) => {
                 checks.push(failure_check(&f, &probe));
-                return self.incomplete(cost, checks, depth);
+                return incomplete(cost, checks);
             }
         };
         let mut states: Vec<Option<CornerState>> = vec![None; self.corners.len()];
@@ -397,7 +439,7 @@ impl<'a> Evaluator<'a> {
                         checks.push(fc);
                     }
                     if depth == Depth::Screen {
-                        return self.incomplete(cost, checks, depth);
+                        return incomplete(cost, checks);
                     }
                     continue;
                 }
@@ -412,7 +454,7 @@ impl<'a> Evaluator<'a> {
                     req.accuracy,
                     "screened at one corner",
                 ));
-                return self.incomplete(cost, checks, depth);
+                return incomplete(cost, checks);
             }
         }
         let unsolved = states.iter().any(Option::is_none);
@@ -422,7 +464,7 @@ impl<'a> Evaluator<'a> {
             .filter_map(|(s, d)| s.map(|s| (s, d)))
             .unzip();
         if states.is_empty() {
-            return self.incomplete(cost, checks, depth);
+            return incomplete(cost, checks);
         }
         let corner_list: Vec<OperatingCorner> = states.iter().map(|s| s.corner).collect();
 
@@ -575,18 +617,6 @@ impl<'a> Evaluator<'a> {
         ev
     }
 
-    fn incomplete(&self, cost: f64, checks: Vec<Check>, _depth: Depth) -> Evaluation {
-        Evaluation {
-            cost,
-            checks,
-            figures: Figures::default(),
-            corners: Vec::new(),
-            budget: None,
-            hottest: None,
-            complete: false,
-        }
-    }
-
     fn output_resistance(&self, net: &Netlist, c: &OperatingCorner) -> Result<f64, SolveFailure> {
         let op = OperatingPoint {
             i_in_a: c.i_in_a,
@@ -657,6 +687,19 @@ impl<'a> Evaluator<'a> {
             no_base_current: e(&room, no_base)?,
         };
         Some(budget::attribute(c, t, sens))
+    }
+}
+
+/// An evaluation that stopped before judging every check.
+fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
+    Evaluation {
+        cost,
+        checks,
+        figures: Figures::default(),
+        corners: Vec::new(),
+        budget: None,
+        hottest: None,
+        complete: false,
     }
 }
 

@@ -56,3 +56,15 @@ pub fn verify(
     let ev = Evaluator::new(req, &d, solves).evaluate(depth, mc);
     Ok((d.spec.clone(), ev))
 }
+
+/// Monte Carlo yield of `spec` with every sampled build re-solved at every corner.
+pub fn solved_yield(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+) -> Result<f64, DesignError> {
+    let d = resolve(catalog, spec)?;
+    Ok(Evaluator::new(req, &d, solves).solved_yield(mc))
+}

@@ -27,13 +27,8 @@ pub fn linear_yield(
     if samples == 0 {
         return f64::NAN;
     }
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
     let mut good = 0u32;
-    for _ in 0..samples {
-        let mut z = [0.0; RANDOM_INPUTS];
-        for x in z.iter_mut() {
-            *x = StandardNormal.sample(&mut rng);
-        }
+    for z in builds(seed, samples) {
         let within = nominal.iter().zip(sens).all(|(e0, s)| {
             let e = e0 + s.iter().zip(&z).map(|(a, b)| a * b).sum::<f64>();
             e.abs() <= accuracy
@@ -41,6 +36,19 @@ pub fn linear_yield(
         good += u32::from(within);
     }
     f64::from(good) / f64::from(samples)
+}
+
+/// The standard-normal draws of each sampled build, in input order: the same stream for
+/// the first-order yield and for the re-solved one.
+pub fn builds(seed: u64, samples: u32) -> impl Iterator<Item = [f64; RANDOM_INPUTS]> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    (0..samples).map(move |_| {
+        let mut z = [0.0; RANDOM_INPUTS];
+        for x in z.iter_mut() {
+            *x = StandardNormal.sample(&mut rng);
+        }
+        z
+    })
 }
 
 #[cfg(test)]

@@ -55,7 +55,7 @@ impl Default for RankOptions {
 
 #[derive(Debug, Clone, PartialEq, Error)]
 pub enum RankError {
-    #[error("--explain {k}: there {} only {feasible} feasible design{}; choose a row from 1 to {feasible}", if *.feasible == 1 { "is" } else { "are" }, if *.feasible == 1 { "" } else { "s" })]
+    #[error("--explain {k}: rows are counted from 1 and {feasible} design{} {} feasible; choose a row from 1 to {feasible}", if *.feasible == 1 { "" } else { "s" }, if *.feasible == 1 { "is" } else { "are" })]
     ExplainOutOfRange { k: usize, feasible: usize },
     #[error(transparent)]
     Design(#[from] DesignError),
@@ -80,7 +80,8 @@ pub fn rank(
     let groups = enumerate(req, catalog);
     let goal = match opts.prefer {
         Prefer::Cost => Goal::Cheapest(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
-        Prefer::Accuracy | Prefer::Balanced => Goal::All,
+        Prefer::Accuracy => Goal::MostAccurate(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
+        Prefer::Balanced => Goal::Balanced(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
     };
     rank_with_goal(req, catalog, opts, goal, &groups, progress)
 }
@@ -135,9 +136,15 @@ fn rank_with_goal(
     let mut rows = Vec::with_capacity(shown);
     let mut explain = None;
     for (i, ev) in &full {
-        let row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
+        let mut row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
         if opts.explain == Some(i + 1) {
-            explain = Some(Explanation::new(req, row.clone(), ev));
+            let mut e = Explanation::new(req, row.clone(), ev);
+            e.candidate.yield_solved =
+                check::solved_yield(req, catalog, &ranked[*i].0, opts.mc, &extra)?;
+            if *i < shown {
+                row.yield_solved = e.candidate.yield_solved;
+            }
+            explain = Some(e);
         }
         if *i < shown {
             rows.push(row);
@@ -202,7 +209,8 @@ pub fn check_design(
     with_corners: bool,
 ) -> Result<CheckReport, RankError> {
     let solves = AtomicU64::new(0);
-    let (spec, ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    let (spec, mut ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
+    ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
     let pass = ev.feasible();
     let row = CandidateRow::new(None, &spec, &ev, false);
     let explanation = Explanation::new(req, row.clone(), &ev);
@@ -241,15 +249,16 @@ pub fn cheaper(
     let goal = if second_source {
         Goal::CheapestPerClass
     } else {
-        Goal::CheaperThan(ref_ev.cost)
+        Goal::CheaperFamilies(ref_ev.cost)
     };
     let groups = enumerate(req, catalog);
     let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
     let governing = reference.governing_check;
     let ref_margin = reference.governing_margin();
     // One design per family (topology, pair, helper, resistor class): the first in
-    // ranking order, i.e. the cheapest with the largest accuracy margin. Resistor values
-    // within a family cost the same, so listing each would repeat one saving many times.
+    // ranking order, i.e. the one with the largest accuracy margin (a family's resistor
+    // values all cost the same, so listing each would repeat one saving many times; the
+    // search verifies each family best-first for that reason).
     let family = |s: &DesignSpec| {
         if second_source {
             (s.pair.clone(), None, None, None)
@@ -263,7 +272,6 @@ pub fn cheaper(
         }
     };
     let mut seen = Vec::new();
-    let mut cheaper_count = 0usize;
     let picked: Vec<&(DesignSpec, Evaluation)> = run
         .ranked
         .iter()
@@ -275,7 +283,6 @@ pub fn cheaper(
             }
         })
         .filter(|(s, _)| {
-            cheaper_count += 1;
             let f = family(s);
             if seen.contains(&f) {
                 false
@@ -334,11 +341,9 @@ pub fn cheaper(
         ),
         (false, 0, None) => "no cheaper design exists in the catalog".to_string(),
         (false, n, _) => format!(
-            "{cheaper_count} cheaper design{} meet{} the requirement; the best of each of {n} famil{} (topology, classes) {} shown",
-            if cheaper_count == 1 { "" } else { "s" },
-            if cheaper_count == 1 { "s" } else { "" },
+            "{n} famil{} of cheaper designs (topology and classes) meet{} the requirement; the most accurate resistor value of each is shown",
             if n == 1 { "y" } else { "ies" },
-            if n == 1 { "is" } else { "are" }
+            if n == 1 { "s" } else { "" }
         ),
     };
     let rows: Vec<CandidateRow> = alternatives.iter().map(|a| a.candidate.clone()).collect();

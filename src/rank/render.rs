@@ -342,14 +342,22 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
     let c = &e.candidate;
     writeln!(
         w,
-        "Design {}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
-        c.rank.map_or("—".into(), |k| format!("#{k}")),
+        "Design{}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
+        c.rank.map_or(String::new(), |k| format!(" #{k}")),
         c.label(),
         ohms(c.re1_ohm),
         ohms(c.re2_ohm),
         c.resistor.as_deref().unwrap_or("—"),
         c.cost
     )?;
+    if c.yield_solved.is_finite() {
+        writeln!(
+            w,
+            "Yield: {} on the first-order model, {} with every build re-solved.",
+            pct(c.yield_fraction),
+            pct(c.yield_solved)
+        )?;
+    }
     writeln!(
         w,
         "Checks (governing: {}):",
@@ -553,5 +561,71 @@ fn csv_field(s: &str) -> String {
         format!("\"{}\"", s.replace('"', "\"\""))
     } else {
         s.to_string()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::check::CheckName;
+
+    fn row() -> CandidateRow {
+        CandidateRow {
+            rank: Some(1),
+            topology: "simple",
+            part: "npn-dual-x".into(),
+            helper: None,
+            re1_ohm: 4700.0,
+            re2_ohm: 4700.0,
+            resistor: Some("thick, 1 %".into()),
+            cost: 0.125,
+            ratio_achieved: 0.999,
+            error_systematic: 0.002,
+            error_random_sigma: 0.001,
+            error_total: 0.005,
+            yield_fraction: 0.98,
+            yield_solved: f64::NAN,
+            r_out_min_ohm: f64::NAN,
+            compliance_v: 0.7,
+            v_in_max: 1.2,
+            governing_check: Some(CheckName::Accuracy),
+            pareto: true,
+            checks: vec![CheckRow {
+                name: CheckName::Accuracy,
+                value: 0.005,
+                limit: 0.01,
+                margin: 0.5,
+                pass: true,
+                detail: String::new(),
+            }],
+        }
+    }
+
+    #[test]
+    fn csv_header_and_row_come_from_one_column_list() {
+        let mut out = Vec::new();
+        csv(&mut out, &[row()], &[("pass", vec!["true".into()])]).unwrap();
+        let text = String::from_utf8(out).unwrap();
+        let lines: Vec<&str> = text.lines().collect();
+        assert_eq!(lines.len(), 2);
+        assert!(lines[0].starts_with("rank,topology,part,helper,re1_ohm,re2_ohm,resistor,cost,"));
+        assert!(lines[0].ends_with(",governing_check,governing_margin,pareto,pass"));
+        // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
+        assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
+        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,accuracy,0.5,true,true"));
+        assert_eq!(
+            lines[0].split(',').count(),
+            lines[1].replace("\"thick, 1 %\"", "x").split(',').count()
+        );
+    }
+
+    #[test]
+    fn table_uses_engineering_notation() {
+        let mut t = candidates_table(Style::default(), &[row()], &[]).to_string();
+        t.retain(|c| c != '\n');
+        assert!(t.contains("4.70 kΩ"));
+        assert!(t.contains("0.500 %"));
+        assert!(t.contains("700 mV"));
+        assert!(t.contains("98.0 %"));
     }
 }

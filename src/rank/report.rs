@@ -61,6 +61,8 @@ pub struct CandidateRow {
     pub error_total: f64,
     #[serde(rename = "yield")]
     pub yield_fraction: f64,
+    /// Yield with every sampled build re-solved (`check` and `--explain` only).
+    pub yield_solved: f64,
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
     pub v_in_max: f64,
@@ -86,6 +88,7 @@ impl CandidateRow {
             error_random_sigma: f.error_random_sigma,
             error_total: f.error_total,
             yield_fraction: f.yield_fraction,
+            yield_solved: f.yield_solved,
             r_out_min_ohm: f.r_out_min_ohm,
             compliance_v: f.compliance_v,
             v_in_max: f.v_in_max_v,

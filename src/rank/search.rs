@@ -53,6 +53,13 @@ pub enum Goal {
     CheaperThan(f64),
     /// The cheapest feasible design(s) of every transistor class.
     CheapestPerClass,
+    /// The most accurate feasible design of every family (topology, pair, helper,
+    /// resistor class) cheaper than this cost.
+    CheaperFamilies(f64),
+    /// The `n` designs with the smallest total error (largest accuracy margin).
+    MostAccurate(usize),
+    /// The `n` designs with the smallest balanced score (see `order`).
+    Balanced(usize),
     /// Every feasible design.
     All,
 }
@@ -139,6 +146,28 @@ fn verify_survivors(
     v: &mut Verdicts,
 ) {
     survivors.sort_by(|a, b| a.2.total_cmp(&b.2).then(a.0.cmp(&b.0)));
+    if let Goal::MostAccurate(n) | Goal::Balanced(n) = goal {
+        return verify_by_bound(req, catalog, survivors, goal, n, mc, solves, progress, v);
+    }
+    if let Goal::CheaperFamilies(limit) = goal {
+        let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
+        for s in survivors {
+            if s.2 >= limit - 1e-12 {
+                v.unverified.push(s.1);
+                continue;
+            }
+            let key = family(&s.1);
+            match families.iter_mut().find(|(k, _)| *k == key) {
+                Some((_, f)) => f.push(s),
+                None => families.push((key, vec![s])),
+            }
+        }
+        for (_, f) in families {
+            let g = Goal::MostAccurate(1);
+            verify_by_bound(req, catalog, f, g, 1, mc, solves, progress, v);
+        }
+        return;
+    }
     // Buckets: one, or one per pair class.
     let mut buckets: Vec<(Option<String>, Vec<Survivor>)> = Vec::new();
     for s in survivors {
@@ -158,7 +187,10 @@ fn verify_survivors(
                 Goal::Cheapest(n) => found >= n,
                 Goal::CheaperThan(c) => cost >= c - 1e-12,
                 Goal::CheapestPerClass => found >= 1,
-                Goal::All => false,
+                Goal::All
+                | Goal::MostAccurate(_)
+                | Goal::Balanced(_)
+                | Goal::CheaperFamilies(_) => false,
             };
             let mut end = i;
             while end < bucket.len() && bucket[end].2 == cost {
@@ -186,6 +218,111 @@ fn verify_survivors(
             i = end;
         }
     }
+    merge(results, v);
+}
+
+/// Best-first verification for the accuracy and balanced orders. Each survivor gets a
+/// lower bound of its sort key from the probe corner (`|e| + k sigma` there is at most
+/// the total error); survivors are verified in order of that bound until the `n`-th best
+/// verified key is below the next bound, so no unverified design could enter the rows
+/// (nor dominate one of them on the cost/error front). The balanced key needs the
+/// cheapest feasible cost, found first by verifying cost levels.
+#[allow(clippy::too_many_arguments)]
+fn verify_by_bound(
+    req: &Requirement,
+    catalog: &Catalog,
+    survivors: Vec<Survivor>,
+    goal: Goal,
+    n: usize,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    v: &mut Verdicts,
+) {
+    let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
+        batch
+            .par_iter()
+            .map(|(k, spec, _)| {
+                let o = resolve(catalog, spec)
+                    .ok()
+                    .map(|d| outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc)));
+                (*k, spec.clone(), o)
+            })
+            .collect()
+    };
+    let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
+    let mut rest = survivors;
+    // The cheapest feasible cost (balanced only): verify whole cost levels until found.
+    let mut cheapest = f64::NAN;
+    if matches!(goal, Goal::Balanced(_)) {
+        while !rest.is_empty() {
+            let cost = rest[0].2;
+            let end = rest.iter().position(|s| s.2 != cost).unwrap_or(rest.len());
+            let level = verify(&rest[..end]);
+            progress.advance(end as u64);
+            rest.drain(..end);
+            let found = level
+                .iter()
+                .any(|(_, _, o)| matches!(o, Some(Outcome::Feasible(_))));
+            results.extend(level);
+            if found {
+                cheapest = cost;
+                break;
+            }
+        }
+    }
+    let key = |cost: f64, error: f64| match goal {
+        Goal::Balanced(_) => cost / cheapest + error / req.accuracy,
+        _ => error / req.accuracy,
+    };
+    let bounds: Vec<f64> = rest
+        .par_iter()
+        .map(|(_, spec, cost)| {
+            let b = resolve(catalog, spec)
+                .ok()
+                .and_then(|d| Evaluator::new(req, &d, solves).probe_bound())
+                .unwrap_or(0.0);
+            key(*cost, b)
+        })
+        .collect();
+    let mut order: Vec<usize> = (0..rest.len()).collect();
+    order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
+    let mut keys: Vec<f64> = results
+        .iter()
+        .filter_map(|(_, _, o)| match o {
+            Some(Outcome::Feasible(e)) => Some(key(e.cost, e.figures.error_total)),
+            _ => None,
+        })
+        .collect();
+    const BATCH: usize = 64;
+    let mut i = 0;
+    while i < order.len() {
+        if keys.len() >= n {
+            keys.sort_by(f64::total_cmp);
+            if keys[n - 1] < bounds[order[i]] {
+                break;
+            }
+        }
+        let end = (i + BATCH).min(order.len());
+        let batch: Vec<Survivor> = order[i..end].iter().map(|&j| rest[j].clone()).collect();
+        let level = verify(&batch);
+        progress.advance((end - i) as u64);
+        keys.extend(level.iter().filter_map(|(_, _, o)| match o {
+            Some(Outcome::Feasible(e)) => Some(key(e.cost, e.figures.error_total)),
+            _ => None,
+        }));
+        results.extend(level);
+        i = end;
+    }
+    results.extend(
+        order[i..]
+            .iter()
+            .map(|&j| (rest[j].0, rest[j].1.clone(), None)),
+    );
+    merge(results, v);
+}
+
+fn merge(mut results: Vec<(usize, DesignSpec, Option<Outcome>)>, v: &mut Verdicts) {
     results.sort_by_key(|r| r.0);
     // Merge back in enumeration order.
     let mut feasible: Vec<(usize, DesignSpec, Evaluation)> = Vec::new();
@@ -201,6 +338,23 @@ fn verify_survivors(
         .extend(feasible.into_iter().map(|(_, s, e)| (s, e)));
     v.rejected
         .extend(rejected.into_iter().map(|(_, s, c)| (s, c)));
+}
+
+/// Designs that differ only in resistor value: topology, pair, helper, resistor class.
+type FamilyKey = (
+    crate::model::Topology,
+    String,
+    Option<String>,
+    Option<String>,
+);
+
+pub fn family(s: &DesignSpec) -> FamilyKey {
+    (
+        s.topology,
+        s.pair.clone(),
+        s.helper.clone(),
+        s.resistor.clone(),
+    )
 }
 
 /// A screened candidate: enumeration index, spec, cost.

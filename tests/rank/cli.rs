@@ -187,3 +187,20 @@ fn cheaper_and_second_source() {
     assert!(!alts.is_empty());
     assert!(alts.iter().all(|a| a["part"] != "npn-pair-monolithic"));
 }
+
+#[test]
+fn led_loads_get_their_caution() {
+    cmd()
+        .args([
+            "rank",
+            "requirements-examples/led-string-sinks.yaml",
+            "--top",
+            "2",
+            "--samples",
+            "50",
+        ])
+        .assert()
+        .code(0)
+        .stdout(predicate::str::contains("LED string"))
+        .stdout(predicate::str::contains("datasheet"));
+}

@@ -6,6 +6,8 @@ use mirrorpick::check::MonteCarlo;
 use mirrorpick::rank::{check_design, rank, render, RankOptions, Silent};
 use mirrorpick::report::{Format, Style};
 
+use mirrorpick::model::Series;
+
 use super::*;
 
 const MC: MonteCarlo = MonteCarlo {
@@ -155,4 +157,90 @@ fn same_seed_same_numbers() {
     assert_eq!(json(&a), json(&b));
     assert_eq!(a.seed, 3);
     assert_eq!(a.samples, 300);
+}
+
+#[test]
+fn cheaper_alternatives_pass_check_and_cost_less() {
+    let (cat, mut req) = ltp();
+    req.topologies.allow = vec!["simple".into(), "wilson".into()];
+    let reference = spec(
+        mirrorpick::model::Topology::Wilson,
+        "npn-dual-prematched",
+        1000.0,
+        Some("thick-film-1pct"),
+    );
+    let r = mirrorpick::rank::cheaper(&req, &cat, &reference, MC, false, &Silent).unwrap();
+    assert!(r.reference_pass);
+    assert!(!r.alternatives.is_empty());
+    for a in &r.alternatives {
+        assert!(a.saving > 0.0);
+        assert!((a.saving - (r.reference.cost - a.candidate.cost)).abs() < 1e-12);
+        let s = DesignSpec {
+            topology: mirrorpick::model::Topology::from_name(a.candidate.topology).unwrap(),
+            pair: a.candidate.part.clone(),
+            helper: a.candidate.helper.clone(),
+            re1_ohm: a.candidate.re1_ohm,
+            re2_ohm: a.candidate.re2_ohm,
+            resistor: a.candidate.resistor.clone(),
+        };
+        assert!(
+            check_design(&req, &cat, &s, MC, false).unwrap().pass,
+            "{s:?}"
+        );
+    }
+    // The cheapest feasible design has nothing cheaper that passes; the report names
+    // the nearest cheaper design and a check it fails.
+    let run = rank(
+        &req,
+        &cat,
+        &RankOptions {
+            top: 1,
+            mc: MC,
+            ..Default::default()
+        },
+        &Silent,
+    )
+    .unwrap();
+    let (cheapest, _) = &run.ranked[0];
+    let r = mirrorpick::rank::cheaper(&req, &cat, cheapest, MC, false, &Silent).unwrap();
+    assert!(r.alternatives.is_empty());
+    if let Some(m) = &r.nearest_failing {
+        assert!(m.cost < r.reference.cost);
+        let s = DesignSpec {
+            topology: mirrorpick::model::Topology::from_name(m.topology).unwrap(),
+            pair: m.part.clone(),
+            helper: m.helper.clone(),
+            re1_ohm: m.re1_ohm,
+            re2_ohm: m.re2_ohm,
+            resistor: m.resistor.clone(),
+        };
+        let c = check_design(&req, &cat, &s, MC, false).unwrap();
+        assert!(!c.candidate.check(m.failed_check).unwrap().pass);
+        assert!(r.summary.contains(m.failed_check.as_str()));
+    }
+}
+
+#[test]
+fn first_order_and_re_solved_yield_agree_on_a_mid_yield_design() {
+    // Same draws; the two differ only by the nonlinearity of the circuit in the
+    // mismatch inputs, which is small at these sigmas.
+    let cat = catalog(
+        vec![npn("pair", 2, 200.0, None, 1e-3)],
+        vec![resistor("r1", Series::E96, 0.01)],
+    );
+    let req = requirement(0.016);
+    let s = spec(
+        mirrorpick::model::Topology::Simple,
+        "pair",
+        249.0,
+        Some("r1"),
+    );
+    let mc = MonteCarlo {
+        seed: 11,
+        samples: 1000,
+    };
+    let r = check_design(&req, &cat, &s, mc, false).unwrap();
+    let (lin, solved) = (r.candidate.yield_fraction, r.candidate.yield_solved);
+    assert!((0.5..0.98).contains(&lin), "first-order yield {lin}");
+    assert!((lin - solved).abs() < 0.04, "{lin} vs {solved}");
 }

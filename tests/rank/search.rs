@@ -1,14 +1,21 @@
 //! The default (pruning) search returns exactly the exhaustive search's top rows.
 
 use mirrorpick::check::MonteCarlo;
-use mirrorpick::rank::{rank, CandidateRow, RankOptions, Silent};
+use mirrorpick::rank::{rank, CandidateRow, Prefer, RankOptions, Silent};
 
 use super::*;
 
-fn top(req: &Requirement, cat: &Catalog, exhaustive: bool, n: usize) -> (Vec<CandidateRow>, u64) {
+fn top(
+    req: &Requirement,
+    cat: &Catalog,
+    exhaustive: bool,
+    n: usize,
+    prefer: Prefer,
+) -> (Vec<CandidateRow>, u64) {
     let opts = RankOptions {
         top: n,
         exhaustive,
+        prefer,
         mc: MonteCarlo {
             seed: 1,
             samples: 100,
@@ -19,10 +26,14 @@ fn top(req: &Requirement, cat: &Catalog, exhaustive: bool, n: usize) -> (Vec<Can
     (r.candidates, r.solves)
 }
 
-fn same_top(req: &Requirement, cat: &Catalog, n: usize) {
-    let (d, d_solves) = top(req, cat, false, n);
-    let (e, e_solves) = top(req, cat, true, n);
-    assert_eq!(d, e, "{}: default and exhaustive top {n} differ", req.name);
+fn same_top(req: &Requirement, cat: &Catalog, n: usize, prefer: Prefer) {
+    let (d, d_solves) = top(req, cat, false, n, prefer);
+    let (e, e_solves) = top(req, cat, true, n, prefer);
+    assert_eq!(
+        d, e,
+        "{}: default and exhaustive top {n} by {prefer:?} differ",
+        req.name
+    );
     assert!(
         d_solves < e_solves,
         "{}: {d_solves} vs {e_solves} solves",
@@ -45,15 +56,17 @@ fn default_equals_exhaustive_on_a_narrowed_example() {
         "thick-film-5pct".into(),
     ];
     req.topologies.allow = vec!["simple".into(), "wilson".into()];
-    same_top(&req, &cat, 20);
+    for prefer in [Prefer::Cost, Prefer::Accuracy, Prefer::Balanced] {
+        same_top(&req, &cat, 20, prefer);
+    }
 }
 
 #[test]
-#[ignore = "slow: solves every candidate of every shipped example (about a minute in release)"]
+#[ignore = "slow: solves every candidate of every shipped example (about three minutes in release)"]
 fn default_equals_exhaustive_top_20_on_every_shipped_example() {
     let cat = default_catalog();
     for path in examples() {
         let req = load_example(&path, &cat);
-        same_top(&req, &cat, 20);
+        same_top(&req, &cat, 20, Prefer::Cost);
     }
 }
