@@ -14,11 +14,12 @@ use serde::Serialize;
 
 use super::rank::Bar;
 use super::{load_catalog, read_file, AppError, CatalogSource, Config, Outcome};
-use crate::bom::candidates::{chosen_cautions, design_problem, DesignProblem};
+use crate::bom::candidates::{design_problem, DesignProblem};
 use crate::bom::{self, render, BoardPlan, BomOutcome, Infeasibility};
 use crate::check::MonteCarlo;
 use crate::input;
-use crate::rank::Caution;
+use crate::model::BoardDesign;
+use crate::rank::{self, Caution};
 use crate::report::Format;
 
 /// Arguments of `bom`.
@@ -48,14 +49,15 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
     let outcome = bom::optimise(&dp.problem)?;
 
     let mut notes = Vec::new();
-    let result = match &outcome {
-        BomOutcome::Optimal(plan) => {
-            write_plan(plan, &dp, a, out)?;
-            notes.extend(caution_lines(plan, &dp, &design_requirements(&design)));
+    let result = match outcome {
+        BomOutcome::Optimal(mut plan) => {
+            notes.extend(render_cautions(&plan));
+            notes.extend(verify_chosen(&mut plan, &dp, &design, a.mc));
+            write_plan(&plan, &dp, a, out)?;
             Outcome::Success
         }
         BomOutcome::Infeasible(why) => {
-            write_infeasible(why, &dp, a, out)?;
+            write_infeasible(&why, &dp, a, out)?;
             Outcome::NothingPasses
         }
     };
@@ -66,14 +68,6 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
         let _ = writeln!(err, "{n}");
     }
     Ok(result)
-}
-
-fn design_requirements(design: &crate::model::BoardDesign) -> Vec<crate::model::Requirement> {
-    design
-        .channels
-        .iter()
-        .map(|c| c.requirement.clone())
-        .collect()
 }
 
 /// Channel counts: how many candidates were judged, found feasible and passed on.
@@ -118,24 +112,58 @@ fn write_plan(
     Ok(())
 }
 
-fn caution_lines(
-    plan: &BoardPlan,
+fn render_cautions(plan: &BoardPlan) -> Vec<String> {
+    let mut buf = Vec::new();
+    match render::write_cautions(plan, &mut buf) {
+        Ok(()) => String::from_utf8_lossy(&buf)
+            .lines()
+            .map(str::to_string)
+            .collect(),
+        Err(_) => Vec::new(),
+    }
+}
+
+/// Verify each chosen design fully (every figure, as `check` does) and report its
+/// governing check and margin from that, not from the search's screening depth, whose
+/// margins only decide pass or fail. Returns the cautions of the chosen designs.
+fn verify_chosen(
+    plan: &mut BoardPlan,
     dp: &DesignProblem,
-    reqs: &[crate::model::Requirement],
+    design: &BoardDesign,
+    mc: MonteCarlo,
 ) -> Vec<String> {
     let mut lines = Vec::new();
-    let mut buf = Vec::new();
-    if render::write_cautions(plan, &mut buf).is_ok() {
-        lines.extend(String::from_utf8_lossy(&buf).lines().map(str::to_string));
-    }
-    for (i, a) in plan.channels.iter().enumerate() {
-        if let (Some(c), Some(req)) = (dp.channels.get(i), reqs.get(i)) {
-            if let Some((spec, ev)) = c.designs.get(a.option) {
-                for l in chosen_cautions(&a.channel, req, spec, ev) {
-                    if !lines.iter().any(|x| x.ends_with(&l)) {
-                        lines.push(format!("Caution: {l}"));
-                    }
-                }
+    for (i, a) in plan.channels.iter_mut().enumerate() {
+        let (Some(c), Some(ch)) = (dp.channels.get(i), design.channels.get(i)) else {
+            continue;
+        };
+        let Some((spec, _)) = c.designs.get(a.option) else {
+            continue;
+        };
+        let Ok(report) = rank::check_design(&ch.requirement, &dp.catalog, spec, mc, false) else {
+            continue;
+        };
+        let row = &report.candidate;
+        if let Some(g) = row.governing_check {
+            a.governing_check = g.to_string();
+            a.governing_margin = row.governing_margin();
+        }
+        if !report.pass {
+            let failed: Vec<String> = row
+                .checks
+                .iter()
+                .filter(|c| !c.pass)
+                .map(|c| c.name.to_string())
+                .collect();
+            lines.push(format!(
+                "Caution: channel `{}`: the chosen design fails {} when verified in full; check it with `mirrorpick check`",
+                a.channel,
+                failed.join(", ")
+            ));
+        }
+        for caution in report.cautions {
+            if caution != Caution::TypicalValues {
+                lines.push(format!("Caution: channel `{}`: {caution}", a.channel));
             }
         }
     }

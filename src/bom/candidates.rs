@@ -41,7 +41,7 @@ use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
 use crate::check::{CheckName, MonteCarlo};
 use crate::model::{BoardDesign, Catalog, Filters, Requirement};
-use crate::rank::{cautions, enumerate, search, CandidateRow, Caution, Goal, Progress};
+use crate::rank::{enumerate, search, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
 
 /// One channel's candidates as passed to the program, with what is needed to report on
@@ -358,20 +358,4 @@ fn rejection_reason(
         Some((s, c, _)) => format!("its cheapest candidate, {}, fails {c}; {tally}", label(s)),
         None => tally,
     }
-}
-
-/// Cautions for the chosen designs (`channel` names which), as the ranking words them;
-/// the always-shown "typical values" caution comes once, last.
-pub fn chosen_cautions(
-    name: &str,
-    req: &Requirement,
-    spec: &DesignSpec,
-    ev: &Evaluation,
-) -> Vec<String> {
-    let row = CandidateRow::new(None, spec, ev, false);
-    cautions(req, std::slice::from_ref(&row))
-        .into_iter()
-        .filter(|c| *c != Caution::TypicalValues)
-        .map(|c| format!("channel `{name}`: {c}"))
-        .collect()
 }
