@@ -246,3 +246,23 @@ fn an_unmeetable_line_item_limit_gives_the_smallest_feasible_number() {
         .unwrap()
         .contains("no board meets max_line_items = 1"));
 }
+
+#[test]
+fn the_shipped_board_example_reads_with_every_channel() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("requirements-examples");
+    let file = root.join("board-synth-voice.yaml");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let draft = mirrorpick::input::load_design("board-synth-voice.yaml", &text, &root).unwrap();
+    let catalog = mirrorpick::input::load_default_catalog().unwrap();
+    let design = draft.finish(&catalog).unwrap();
+    let names: Vec<&str> = design.channels.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(names.len(), 6, "{names:?}");
+    // `count` absent: the requirement's quantity (the LED example builds four).
+    let leds = design
+        .channels
+        .iter()
+        .find(|c| c.name == "panel LEDs")
+        .unwrap();
+    assert_eq!(leds.count, leds.requirement.quantity);
+    assert_eq!(leds.count, 4);
+}
