@@ -76,9 +76,10 @@ fn candidate_lines(dp: &DesignProblem) -> Vec<String> {
         .iter()
         .map(|c| {
             format!(
-                "  {}: {} candidates judged, {} feasible, {} distinct part usage{} offered to the board",
+                "  {}: {} candidate{} judged, {} feasible, {} distinct part usage{} offered to the board",
                 c.options.name,
                 c.evaluated,
+                if c.evaluated == 1 { "" } else { "s" },
                 c.feasible,
                 c.options.options.len(),
                 if c.options.options.len() == 1 { "" } else { "s" }

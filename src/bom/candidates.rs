@@ -31,16 +31,17 @@
 //! **No feasible design.** The channel gets no option and a reason: the check that
 //! rejected its cheapest candidate, with the count of rejections by check.
 //!
-//! Board-wide `allow`/`deny` act on top of each channel's own filters: denied or
-//! not-allowed classes are removed from the catalog the channel is ranked against (so a
-//! helper falls back to the next permitted single), and topologies are filtered alike.
+//! Board-wide `allow`/`deny` act on top of each channel's own filters: every class and
+//! topology the board excludes joins the channel's `deny` list, so both must permit a
+//! part (a helper falls back to the next permitted single), and the channel's own
+//! `allow` keeps its meaning.
 
 use std::collections::BTreeMap;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
 use crate::check::{CheckName, MonteCarlo};
-use crate::model::{BoardDesign, Catalog, Filters, Requirement};
+use crate::model::{BoardDesign, Catalog, Filters, Requirement, ALL_TOPOLOGIES};
 use crate::rank::{enumerate, search, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
 
@@ -61,7 +62,7 @@ pub struct ChannelCandidates {
 pub struct DesignProblem {
     pub problem: BoardProblem,
     pub channels: Vec<ChannelCandidates>,
-    /// The catalog the channels were ranked against (after board-wide allow/deny).
+    /// The catalog the channels were ranked against.
     pub catalog: Catalog,
 }
 
@@ -72,24 +73,26 @@ pub fn design_problem(
     mc: MonteCarlo,
     progress: &dyn Progress,
 ) -> DesignProblem {
-    let catalog = board_catalog(catalog, &design.classes);
+    let excluded = excluded_classes(catalog, &design.classes);
     let channels: Vec<ChannelCandidates> = design
         .channels
         .iter()
         .map(|ch| {
-            channel_candidates(
-                &ch.name,
-                ch.count,
-                &ch.requirement,
-                &catalog,
-                &design.topologies,
-                mc,
-                progress,
-            )
+            // Board-wide exclusions join the channel's own `deny`: the channel's `allow`
+            // keeps its meaning, and both filters must permit a part.
+            let mut req = ch.requirement.clone();
+            req.classes.deny.extend(excluded.iter().cloned());
+            req.topologies.deny.extend(
+                ALL_TOPOLOGIES
+                    .iter()
+                    .filter(|t| !design.topologies.permits(t.name()))
+                    .map(|t| t.name().to_string()),
+            );
+            channel_candidates(&ch.name, ch.count, &req, catalog, mc, progress)
         })
         .collect();
     let channels = merge_private_values(channels);
-    let (transistors, resistors) = BoardProblem::parts_from(&catalog);
+    let (transistors, resistors) = BoardProblem::parts_from(catalog);
     let problem = BoardProblem {
         board: design.name.clone(),
         boards: design.boards,
@@ -103,14 +106,14 @@ pub fn design_problem(
     DesignProblem {
         problem,
         channels,
-        catalog,
+        catalog: catalog.clone(),
     }
 }
 
-/// The catalog with the board-wide class filter applied. As in a requirement, an
-/// `allow` list restricts transistor classes only if it names one, and resistor classes
-/// only if it names one.
-pub fn board_catalog(catalog: &Catalog, classes: &Filters) -> Catalog {
+/// The class ids the board-wide filter excludes. As in a requirement, an `allow` list
+/// restricts transistor classes only if it names one, and resistor classes only if it
+/// names one.
+pub fn excluded_classes(catalog: &Catalog, classes: &Filters) -> Vec<String> {
     let names_t = classes
         .allow
         .iter()
@@ -119,10 +122,17 @@ pub fn board_catalog(catalog: &Catalog, classes: &Filters) -> Catalog {
     let keep = |id: &str, applies: bool| {
         (!applies || classes.allow.iter().any(|a| a == id)) && !classes.deny.iter().any(|d| d == id)
     };
-    let mut out = catalog.clone();
-    out.transistors.retain(|t| keep(&t.id, names_t));
-    out.resistors.retain(|r| keep(&r.id, names_r));
-    out
+    let t = catalog
+        .transistors
+        .iter()
+        .filter(|t| !keep(&t.id, names_t))
+        .map(|t| t.id.clone());
+    let r = catalog
+        .resistors
+        .iter()
+        .filter(|r| !keep(&r.id, names_r))
+        .map(|r| r.id.clone());
+    t.chain(r).collect()
 }
 
 /// Rank one channel and keep its feasible designs, one per part usage.
@@ -131,14 +141,10 @@ pub fn channel_candidates(
     count: u32,
     req: &Requirement,
     catalog: &Catalog,
-    topologies: &Filters,
     mc: MonteCarlo,
     progress: &dyn Progress,
 ) -> ChannelCandidates {
-    let groups: Vec<_> = enumerate(req, catalog)
-        .into_iter()
-        .filter(|g| topologies.permits(g.topology.name()))
-        .collect();
+    let groups = enumerate(req, catalog);
     let verdicts = search(req, catalog, &groups, false, Goal::All, mc, progress);
     let evaluated = verdicts.feasible.len() + verdicts.rejected.len();
     let feasible = verdicts.feasible.len();

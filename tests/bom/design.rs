@@ -266,3 +266,17 @@ fn the_shipped_board_example_reads_with_every_channel() {
     assert_eq!(leds.count, leds.requirement.quantity);
     assert_eq!(leds.count, 4);
 }
+
+#[test]
+fn a_board_wide_deny_applies_on_top_of_the_channel_allow_list() {
+    // The sinks channel allows one resistor class; the board denies it. The channel must
+    // not fall back to other resistor classes: only the undegenerated mirror is left.
+    cmd()
+        .args(["bom", &fixture("board-deny.yaml"), "--samples", SAMPLES])
+        .assert()
+        .code(1)
+        .stdout(predicate::str::contains(
+            "channel `sinks` has no feasible design",
+        ))
+        .stdout(predicate::str::contains("1 candidate judged"));
+}
