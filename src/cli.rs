@@ -9,6 +9,7 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
+use mirrorpick::app::bom::BomArgs;
 use mirrorpick::app::rank::{CheaperArgs, CheckArgs, DesignArgs, RankArgs};
 use mirrorpick::app::solve::SolveArgs;
 use mirrorpick::app::{CatalogSource, Command as AppCommand, Config, FitArgs, ReportArgs};
@@ -155,7 +156,33 @@ mirrorpick export --spice requirements-examples/ltp-tail-sink.yaml --part npn-du
         #[arg(long, value_name = "FILE")]
         out: Option<PathBuf>,
     },
+    /// Cheapest bill of materials for a whole board: one design per channel, shared packages.
+    #[command(after_help = BOM_HELP)]
+    Bom(BomCli),
 }
+
+const BOM_HELP: &str = "\
+The design file names the board, the boards per build and the channels; each channel is a
+requirement file (path relative to the design file) or an inline requirement, with a
+`count` of identical copies. Optional: `catalog` (relative path), `line_item_cost` (fixed
+cost per distinct part per build), `max_line_items`, and board-wide `allow`/`deny` lists
+of topologies and class ids. README.md describes the format.
+
+Every channel is ranked against its requirement; every feasible design (one per distinct
+set of parts) goes into an integer program that picks one design per channel and the
+packages to build them from, sharing packages and resistor values across channels where
+that is cheaper. The table shows the BOM, the assignment (channel -> design, package and
+slot), the total per build and what each channel's cheapest design on its own would
+cost. CSV is the BOM alone. Cautions go to stderr.
+
+Exit status: 0 a board was found, 1 no board meets the design (the output says which
+channel has no feasible design and why, or the fewest line items any board needs),
+2 bad input.
+
+Example:
+  mirrorpick bom requirements-examples/board-synth-voice.yaml
+  mirrorpick bom requirements-examples/board-synth-voice.yaml --format csv > bom.csv
+  mirrorpick bom board.yaml --format json --seed 7 --samples 200";
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum PreferChoice {
@@ -228,6 +255,16 @@ pub struct CheckCli {
     /// Also print the table of every corner.
     #[arg(long)]
     pub corners: bool,
+    #[command(flatten)]
+    pub format: FormatArg,
+    #[command(flatten)]
+    pub mc: MonteCarloArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct BomCli {
+    /// Board design file (YAML).
+    pub file: PathBuf,
     #[command(flatten)]
     pub format: FormatArg,
     #[command(flatten)]
@@ -620,6 +657,11 @@ impl Cli {
                 design: design.into_args(helper),
                 out,
             },
+            Command::Bom(a) => AppCommand::Bom(BomArgs {
+                file: a.file,
+                format: a.format.format.into(),
+                mc: a.mc.into(),
+            }),
             Command::Cheaper(a) => AppCommand::Cheaper(CheaperArgs {
                 file: a.file,
                 design: a.design.into_args(None),

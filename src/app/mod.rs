@@ -6,6 +6,7 @@
 //! (`main` maps the outcome to an exit code). Adding a command: add a variant to
 //! [`Command`], handle it in [`run`], and map the clap subcommand onto it in `cli.rs`.
 
+pub mod bom;
 pub mod outputs;
 pub mod rank;
 pub mod report_cmd;
@@ -75,6 +76,7 @@ pub enum Command {
     Rank(rank::RankArgs),
     Check(rank::CheckArgs),
     Cheaper(rank::CheaperArgs),
+    Bom(bom::BomArgs),
 }
 
 /// `fit` settings as typed (quantities still text: they are parsed here with located
@@ -156,6 +158,8 @@ pub enum AppError {
         problem: String,
         expected: &'static str,
     },
+    #[error(transparent)]
+    Bom(#[from] crate::bom::BomError),
     #[error(transparent)]
     Rank(#[from] crate::rank::RankError),
     /// A command-line value that makes no sense (unknown name, bad quantity).
@@ -295,6 +299,7 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
         Command::Rank(a) => return rank::run_rank(cfg, a, out),
         Command::Check(a) => return rank::run_check(cfg, a, out),
         Command::Cheaper(a) => return rank::run_cheaper(cfg, a, out),
+        Command::Bom(a) => return bom::run_bom(cfg, a, out),
     }
     Ok(Outcome::Success)
 }

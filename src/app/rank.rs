@@ -259,7 +259,7 @@ fn hint(s: Option<String>) -> String {
 
 /// Progress on stderr: hidden unless stderr is a terminal, and drawn only once the run
 /// has taken about a second.
-struct Bar {
+pub(crate) struct Bar {
     bar: ProgressBar,
     started: Instant,
     shown: Mutex<bool>,
@@ -267,7 +267,7 @@ struct Bar {
 }
 
 impl Bar {
-    fn new() -> Self {
+    pub(crate) fn new() -> Self {
         let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
         if let Ok(style) =
             ProgressStyle::with_template("{spinner} {pos}/{len} candidates {wide_bar} {eta}")
@@ -282,7 +282,7 @@ impl Bar {
         }
     }
 
-    fn finish(&self) {
+    pub(crate) fn finish(&self) {
         self.bar.finish_and_clear();
     }
 }

@@ -7,7 +7,9 @@
 //! found; the ranking engine, a test or a script can fill it in. Output is a
 //! [`BoardPlan`] or an explained infeasibility ([`Infeasibility`]); renderers in
 //! [`render`] write a plan as a table, JSON or CSV. This module must not print, read
-//! files, or know about circuits.
+//! files, or know about circuits. [`candidates`] fills a [`BoardProblem`] from a board
+//! design through the ranking engine (which candidates it passes, and why that is
+//! exact, is stated there).
 //!
 //! # Formulation
 //!
@@ -84,6 +86,7 @@
 //! **Thermal note.** Copies sharing a package heat each other; each channel was verified
 //! alone. Shared packages are listed in the plan so reports can say so.
 
+pub mod candidates;
 mod milp;
 mod needs;
 mod plan;

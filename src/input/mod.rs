@@ -11,6 +11,7 @@
 //! convert, looking up the position of any offending value by its YAML path.
 
 mod catalog;
+mod design;
 mod positions;
 mod raw;
 mod requirement;
@@ -19,6 +20,7 @@ use std::fmt;
 
 pub use catalog::{catalog_to_yaml, load_catalog, load_default_catalog, DEFAULT_CATALOG_NAME};
 pub use catalog::{DEFAULT_CATALOG_YAML, TRANSISTOR_FIELDS};
+pub use design::{load_design, DesignDraft};
 pub use positions::Position;
 pub use requirement::{load_requirement, requirement_to_yaml, REQUIREMENT_FIELDS};
 
@@ -291,10 +293,13 @@ fn unknown_value(path: &str, value: &str, expected: &[String]) -> Problem {
     }
 }
 
-/// Validation context: the file name and where each value sits.
+/// Validation context: the file name, where each value sits, and the YAML path of the
+/// part being validated (empty for a whole file; `channels[1].requirement.` for a
+/// requirement written inline in a design file).
 struct Ctx<'a> {
     file: &'a str,
     positions: positions::Positions,
+    prefix: String,
 }
 
 impl<'a> Ctx<'a> {
@@ -302,13 +307,27 @@ impl<'a> Ctx<'a> {
         Ctx {
             file,
             positions: positions::Positions::of(text),
+            prefix: String::new(),
         }
+    }
+
+    /// A context for the mapping at `prefix` (ending in `.`) of the same document.
+    fn nested(&self, prefix: String) -> Ctx<'a> {
+        Ctx {
+            file: self.file,
+            positions: self.positions.clone(),
+            prefix,
+        }
+    }
+
+    fn full(&self, path: &str) -> String {
+        format!("{}{path}", self.prefix)
     }
 
     fn error(&self, path: &str, problem: Problem) -> InputError {
         InputError {
             file: self.file.to_string(),
-            position: self.positions.get(path),
+            position: self.positions.get(&self.full(path)),
             problem: Box::new(problem),
         }
     }
@@ -322,7 +341,7 @@ impl<'a> Ctx<'a> {
         self.error(
             path,
             Problem::Invalid {
-                path: path.to_string(),
+                path: self.full(path),
                 what: what.into(),
                 expected: expected.into(),
             },
@@ -353,7 +372,7 @@ impl<'a> Ctx<'a> {
             self.error(
                 path,
                 Problem::Quantity {
-                    path: path.to_string(),
+                    path: self.full(path),
                     error,
                 },
             )

@@ -21,7 +21,7 @@ impl Position {
     pub const START: Position = Position { line: 1, col: 1 };
 }
 
-#[derive(Debug, Default)]
+#[derive(Debug, Default, Clone)]
 pub struct Positions {
     map: HashMap<String, Position>,
     /// Where the document, with every alias expanded, first grows past

@@ -218,3 +218,67 @@ pub struct RawRequirement {
     #[serde(default)]
     pub deny: Vec<String>,
 }
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a board design: a mapping with `name`, `boards` and `channels`"
+)]
+pub struct RawDesign {
+    pub name: String,
+    pub boards: u32,
+    pub channels: Vec<RawChannel>,
+    #[serde(default)]
+    pub max_line_items: Option<u32>,
+    #[serde(default)]
+    pub line_item_cost: Option<RawQty>,
+    #[serde(default)]
+    pub allow: Vec<String>,
+    #[serde(default)]
+    pub deny: Vec<String>,
+    #[serde(default)]
+    pub catalog: Option<String>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a channel: a mapping with `name`, `count` and `requirement`"
+)]
+pub struct RawChannel {
+    pub name: String,
+    #[serde(default)]
+    pub count: Option<u32>,
+    pub requirement: RawRequirementSource,
+}
+
+/// A channel's requirement: a path to a requirement file, or the requirement inline.
+#[derive(Debug)]
+pub enum RawRequirementSource {
+    Path(String),
+    Inline(Box<RawRequirement>),
+}
+
+impl<'de> Deserialize<'de> for RawRequirementSource {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawRequirementSource;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a path to a requirement file (relative to the design file) or a requirement mapping",
+                )
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<Self::Value, E> {
+                Ok(RawRequirementSource::Path(v.to_string()))
+            }
+            // Deserialising the mapping in place (not through a `Value`) keeps serde_yaml's
+            // positions, so errors inside an inline requirement point into the design file.
+            fn visit_map<A: de::MapAccess<'de>>(self, map: A) -> Result<Self::Value, A::Error> {
+                RawRequirement::deserialize(de::value::MapAccessDeserializer::new(map))
+                    .map(|r| RawRequirementSource::Inline(Box::new(r)))
+            }
+        }
+        d.deserialize_any(V)
+    }
+}

@@ -90,7 +90,16 @@ pub fn load_requirement(
         text,
         "a requirement with `name`, `kind`, `supply`, `input_current`, `output_voltage`, `ambient` and `accuracy`",
     )?;
-    let cx = Ctx::new(file, text);
+    validate_requirement(&raw, &Ctx::new(file, text), catalog)
+}
+
+/// Validate a deserialised requirement; `cx` locates its values (in its own file, or
+/// inside a design file for an inline requirement).
+pub(super) fn validate_requirement(
+    raw: &RawRequirement,
+    cx: &Ctx,
+    catalog: Option<&Catalog>,
+) -> Result<Requirement, InputError> {
     let q = |f: &str, r| cx.qty(f, r, rf(f));
     let range = |f: &str, r: &RawRange| -> Result<Range, InputError> {
         let min = cx.qty(&format!("{f}.min"), &r.min, rf(f))?;
@@ -193,7 +202,7 @@ pub fn load_requirement(
                     expected.extend(c.transistors.iter().map(|t| t.id.clone()));
                     expected.extend(c.resistors.iter().map(|r| r.id.clone()));
                 }
-                return Err(cx.error(&path, unknown_value(&path, n, &expected)));
+                return Err(cx.error(&path, unknown_value(&cx.full(&path), n, &expected)));
             };
             if is_allow {
                 filters.allow.push(name);

@@ -6,12 +6,14 @@
 //! errors) or built directly by tests; this module must not parse files or print.
 
 mod catalog;
+mod design;
 mod requirement;
 mod resistor;
 mod topology;
 mod transistor;
 
 pub use catalog::Catalog;
+pub use design::{BoardDesign, DesignChannel};
 pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
 pub use resistor::{ResistorClass, Series};
 pub use topology::{

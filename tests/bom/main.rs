@@ -5,6 +5,7 @@
 //! sum is exact in floating point and totals can be compared with `==`.
 
 mod brute_force;
+mod design;
 mod fixtures;
 mod optimum;
 mod random;
