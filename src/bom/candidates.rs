@@ -23,6 +23,18 @@
 //! is what keeps the program small: an E96 series offers dozens of feasible values per
 //! channel, most of which no other channel can use.
 //!
+//! A third reduction, exact as well, removes resistor values that another value of the
+//! same class dominates. An option whose resistors all take one value `w` of class `r`
+//! (every degenerated 1:1 design and every Widlar) is described, apart from `w`, by its
+//! channel, its transistors and its resistor count; the *signature* of `w` is the set of
+//! those descriptions over all channels. When another value `v` of `r` has a signature
+//! that contains `w`'s, and no option with two different values uses `w`, any board using
+//! `w` can use `v` instead in the same places: the same parts at the same prices
+//! (resistor prices depend on the class, not the value) and no more line items (the
+//! item for `w` goes; the one for `v` may already be bought). So dropping `w` loses no
+//! optimum and never breaks `max_line_items`. Overlapping E96 ranges collapse to a few
+//! values this way, which is what keeps a six-channel board small.
+//!
 //! **Helpers.** A helper that sits in a spare device of the pair's own package was
 //! verified there, so the copy is kept together and only the pair class's spares may
 //! take it; a helper verified as a separate single may only be a single of that class
@@ -91,7 +103,7 @@ pub fn design_problem(
             channel_candidates(&ch.name, ch.count, &req, catalog, mc, progress)
         })
         .collect();
-    let channels = merge_private_values(channels);
+    let channels = drop_dominated_values(merge_private_values(channels));
     let (transistors, resistors) = BoardProblem::parts_from(catalog);
     let problem = BoardProblem {
         board: design.name.clone(),
@@ -313,6 +325,91 @@ fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidat
             c
         })
         .collect()
+}
+
+/// Drop options whose single resistor value another value of the same class dominates
+/// (see the module docs).
+fn drop_dominated_values(mut channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidates> {
+    type Value = (String, u64);
+    let single = |o: &DesignUsage| -> Option<(Value, u32)> {
+        let first = o.resistors.first()?;
+        let v = first.value_ohm.to_bits();
+        o.resistors
+            .iter()
+            .all(|r| r.class == first.class && r.value_ohm.to_bits() == v)
+            .then(|| {
+                (
+                    (first.class.clone(), v),
+                    o.resistors.iter().map(|r| r.count).sum(),
+                )
+            })
+    };
+    let transistors = |o: &DesignUsage| {
+        format!(
+            "{}|{}|{}|{:?}|{:?}|{}",
+            o.pair_class,
+            o.pairs,
+            o.helpers,
+            o.helper_single_class,
+            o.helper_spare_classes,
+            o.keep_together
+        )
+    };
+    let mut signature: BTreeMap<Value, std::collections::BTreeSet<(usize, String, u32)>> =
+        BTreeMap::new();
+    let mut margin_sum: BTreeMap<Value, f64> = BTreeMap::new();
+    let mut in_multi: std::collections::BTreeSet<Value> = Default::default();
+    for (i, c) in channels.iter().enumerate() {
+        for o in &c.options.options {
+            match single(o) {
+                Some((value, count)) => {
+                    *margin_sum.entry(value.clone()).or_default() += o.governing_margin;
+                    signature
+                        .entry(value)
+                        .or_default()
+                        .insert((i, transistors(o), count));
+                }
+                None => {
+                    for r in &o.resistors {
+                        in_multi.insert((r.class.clone(), r.value_ohm.to_bits()));
+                    }
+                }
+            }
+        }
+    }
+    // Largest signatures first, so a dominating value is kept before those it covers;
+    // of equal signatures the one whose designs keep the most margin stays.
+    let mut order: Vec<&Value> = signature.keys().collect();
+    order.sort_by(|a, b| {
+        signature[*b]
+            .len()
+            .cmp(&signature[*a].len())
+            .then(margin_sum[*b].total_cmp(&margin_sum[*a]))
+            .then(a.cmp(b))
+    });
+    let mut kept: Vec<&Value> = Vec::new();
+    let mut dropped: std::collections::BTreeSet<Value> = Default::default();
+    for w in order {
+        let covered = !in_multi.contains(w)
+            && kept
+                .iter()
+                .any(|v| v.0 == w.0 && signature[*v].is_superset(&signature[w]));
+        if covered {
+            dropped.insert(w.clone());
+        } else {
+            kept.push(w);
+        }
+    }
+    for c in &mut channels {
+        let options = std::mem::take(&mut c.options.options);
+        let designs = std::mem::take(&mut c.designs);
+        (c.options.options, c.designs) = options
+            .into_iter()
+            .zip(designs)
+            .filter(|(o, _)| single(o).is_none_or(|(value, _)| !dropped.contains(&value)))
+            .unzip();
+    }
+    channels
 }
 
 fn same_transistors(a: &DesignUsage, b: &DesignUsage) -> bool {
