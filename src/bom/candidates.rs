@@ -328,8 +328,27 @@ fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidat
 }
 
 /// Drop options whose single resistor value another value of the same class dominates
-/// (see the module docs).
+/// (see the module docs), with the designs they came from.
 fn drop_dominated_values(mut channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidates> {
+    let options: Vec<ChannelOptions> = channels.iter().map(|c| c.options.clone()).collect();
+    let keep = undominated_options(&options);
+    for (c, keep) in channels.iter_mut().zip(keep) {
+        let options = std::mem::take(&mut c.options.options);
+        let designs = std::mem::take(&mut c.designs);
+        (c.options.options, c.designs) = options
+            .into_iter()
+            .zip(designs)
+            .zip(keep)
+            .filter_map(|(od, k)| k.then_some(od))
+            .unzip();
+    }
+    channels
+}
+
+/// For every channel's options, whether it survives the dominated-value reduction of the
+/// module docs: `false` for an option whose one resistor value another value of the same
+/// class dominates.
+pub fn undominated_options(channels: &[ChannelOptions]) -> Vec<Vec<bool>> {
     type Value = (String, u64);
     let single = |o: &DesignUsage| -> Option<(Value, u32)> {
         let first = o.resistors.first()?;
@@ -360,7 +379,7 @@ fn drop_dominated_values(mut channels: Vec<ChannelCandidates>) -> Vec<ChannelCan
     let mut margin_sum: BTreeMap<Value, f64> = BTreeMap::new();
     let mut in_multi: std::collections::BTreeSet<Value> = Default::default();
     for (i, c) in channels.iter().enumerate() {
-        for o in &c.options.options {
+        for o in &c.options {
             match single(o) {
                 Some((value, count)) => {
                     *margin_sum.entry(value.clone()).or_default() += o.governing_margin;
@@ -400,16 +419,15 @@ fn drop_dominated_values(mut channels: Vec<ChannelCandidates>) -> Vec<ChannelCan
             kept.push(w);
         }
     }
-    for c in &mut channels {
-        let options = std::mem::take(&mut c.options.options);
-        let designs = std::mem::take(&mut c.designs);
-        (c.options.options, c.designs) = options
-            .into_iter()
-            .zip(designs)
-            .filter(|(o, _)| single(o).is_none_or(|(value, _)| !dropped.contains(&value)))
-            .unzip();
-    }
     channels
+        .iter()
+        .map(|c| {
+            c.options
+                .iter()
+                .map(|o| single(o).is_none_or(|(value, _)| !dropped.contains(&value)))
+                .collect()
+        })
+        .collect()
 }
 
 fn same_transistors(a: &DesignUsage, b: &DesignUsage) -> bool {

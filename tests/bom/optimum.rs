@@ -267,3 +267,54 @@ fn helper_only_takes_spares_of_the_classes_allowed() {
     let plan = solve(&p);
     assert!(transistor_lines(&plan).contains(&("npn-single".to_string(), 1)));
 }
+
+/// The dominated-value reduction of `bom::candidates` keeps the optimum: channels whose
+/// feasible resistor ranges overlap collapse to the shared values, and the board costs
+/// the same with and without the reduction (and the same as the brute force).
+#[test]
+fn dominated_resistor_values_are_dropped_without_losing_the_optimum() {
+    use mirrorpick::bom::candidates::undominated_options;
+    let range = |lo: usize, hi: usize, pair: &str| -> Vec<_> {
+        [100.0, 110.0, 120.0, 130.0, 150.0, 160.0][lo..hi]
+            .iter()
+            .map(|&v| with_resistors(design(pair, 1, 0), "res-1pc", v, 2))
+            .collect()
+    };
+    for line_item_cost in [0.0, 1.0, 10.0] {
+        let mut a = range(0, 4, "npn-dual");
+        // A ratio design with two values keeps 130 Ω in play for every channel.
+        a.push(with_resistors(
+            with_resistors(design("npn-dual", 1, 0), "res-1pc", 130.0, 1),
+            "res-1pc",
+            65.0,
+            1,
+        ));
+        let channels = vec![
+            channel("a", 1, a),
+            channel("b", 2, range(2, 6, "npn-dual")),
+            channel("c", 1, range(3, 5, "npn-dual")),
+        ];
+        let keep = undominated_options(&channels);
+        let reduced: Vec<_> = channels
+            .iter()
+            .zip(&keep)
+            .map(|(c, k)| {
+                let mut c = c.clone();
+                c.options = c
+                    .options
+                    .iter()
+                    .zip(k)
+                    .filter_map(|(o, &k)| k.then(|| o.clone()))
+                    .collect();
+                c
+            })
+            .collect();
+        let kept: usize = keep.iter().flatten().filter(|&&k| k).count();
+        assert!(kept < 15, "nothing was dropped: {kept} of 15 options kept");
+        let mut full = problem(channels);
+        full.line_item_cost = line_item_cost;
+        let mut small = full.clone();
+        small.channels = reduced;
+        assert_eq!(solve(&small).total_cost, solve(&full).total_cost);
+    }
+}
