@@ -304,7 +304,8 @@ fn dominated_resistor_values_are_dropped_without_losing_the_optimum() {
                     .options
                     .iter()
                     .zip(k)
-                    .filter_map(|(o, &k)| k.then(|| o.clone()))
+                    .filter(|(_, &k)| k)
+                    .map(|(o, _)| o.clone())
                     .collect();
                 c
             })
