@@ -60,13 +60,22 @@ pub fn derated_power(rating_w: f64, t_amb_k: f64) -> f64 {
 }
 
 /// The V_CB >= 0 rule of MODEL.md for every transistor whose collector is not on the
-/// supply rail (those are judged by [`helper_headroom`]).
+/// supply rail (those are judged by [`helper_headroom`]), read as `V_CB >= -V_T`.
+///
+/// Some transistors sit at V_CB = 0 by design: the diode-connected ones, and the
+/// four-transistor Wilson's Q1, whose V_CB is V_BE(Q3) - V_BE(Q4) and so lands a few
+/// millivolts either side of zero whatever the output voltage. Read literally, the rule
+/// would fail that topology at every output voltage. One thermal voltage of forward
+/// collector bias changes a transistor's collector current by about
+/// exp(-(V_BE - V_BC)/V_T), below 1e-8 at V_BE near 0.55 V, so the allowance changes no
+/// result that the rule is meant to protect; an output transistor entering saturation
+/// still fails it within a few tens of millivolts of output voltage.
 pub fn all_forward_active(state: &CornerState) -> bool {
     state
         .devices
         .iter()
         .filter(|d| !d.collector_at_supply)
-        .all(|d| d.v_cb_v() >= 0.0)
+        .all(|d| d.v_cb_v() >= -crate::device::thermal_voltage(d.t_junction_k))
 }
 
 /// Largest V_CE of any transistor against its class's derated VCEO. The value reported
