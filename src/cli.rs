@@ -68,7 +68,7 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
     Fit(FitCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(
-        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --every-value --top 20\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
     )]
     Rank(RankCli),
     /// Verify one named design against a requirement: every check with its margin.
@@ -208,7 +208,7 @@ pub struct MonteCarloArgs {
 pub struct RankCli {
     /// Requirement file (YAML).
     pub file: PathBuf,
-    /// Rows to show.
+    /// Rows to show (families, or designs with --every-value).
     #[arg(long, default_value_t = 10)]
     pub top: usize,
     /// How to order the feasible designs.
@@ -224,6 +224,10 @@ pub struct RankCli {
     /// Print the full reasoning for row K (1 = the first).
     #[arg(long, value_name = "K")]
     pub explain: Option<usize>,
+    /// List every resistor value as its own row; by default each design family
+    /// (topology, pair, helper, resistor class, or no degeneration) shows its best row.
+    #[arg(long)]
+    pub every_value: bool,
 }
 
 #[derive(Debug, Args)]
@@ -607,6 +611,7 @@ impl Cli {
                 mc: a.mc.into(),
                 exhaustive: a.exhaustive,
                 explain: a.explain,
+                every_value: a.every_value,
             }),
             Command::Check(a) => AppCommand::Check(CheckArgs {
                 file: a.file,

@@ -41,6 +41,7 @@ pub struct RankArgs {
     pub mc: MonteCarlo,
     pub exhaustive: bool,
     pub explain: Option<usize>,
+    pub every_value: bool,
 }
 
 /// Arguments of `check`.
@@ -77,6 +78,7 @@ pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outco
         mc: a.mc,
         exhaustive: a.exhaustive,
         explain: a.explain,
+        every_value: a.every_value,
     };
     let bar = Bar::new();
     let run = rank::rank(&req, &catalog, &opts, &bar);

@@ -16,13 +16,13 @@ use std::sync::atomic::{AtomicU64, Ordering};
 use rayon::prelude::*;
 use thiserror::Error;
 
-pub use order::{pareto, sort, Prefer};
+pub use order::{family, first_per, pareto, sort, FamilyKey, Prefer};
 pub use report::{
     cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
     CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
     SCHEMA_VERSION,
 };
-pub use search::{search, Goal, Progress, Silent, Verdicts};
+pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
 pub use space::{enumerate, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
 
 use crate::check::{
@@ -39,6 +39,8 @@ pub struct RankOptions {
     pub exhaustive: bool,
     /// 1-based row to explain.
     pub explain: Option<usize>,
+    /// List every resistor value as its own row instead of each family's best row.
+    pub every_value: bool,
 }
 
 impl Default for RankOptions {
@@ -49,14 +51,15 @@ impl Default for RankOptions {
             mc: MonteCarlo::default(),
             exhaustive: false,
             explain: None,
+            every_value: false,
         }
     }
 }
 
 #[derive(Debug, Clone, PartialEq, Error)]
 pub enum RankError {
-    #[error("--explain {k}: rows are counted from 1 and {feasible} design{} {} feasible; choose a row from 1 to {feasible}", if *.feasible == 1 { "" } else { "s" }, if *.feasible == 1 { "is" } else { "are" })]
-    ExplainOutOfRange { k: usize, feasible: usize },
+    #[error("--explain {k}: rows are counted from 1 and there {} {rows} row{} to show; choose a row from 1 to {rows}", if *.rows == 1 { "is" } else { "are" }, if *.rows == 1 { "" } else { "s" })]
+    ExplainOutOfRange { k: usize, rows: usize },
     #[error(transparent)]
     Design(#[from] DesignError),
 }
@@ -64,8 +67,12 @@ pub enum RankError {
 /// A finished ranking and what it was built from (for tests and `cheaper`).
 pub struct RankRun {
     pub report: RankReport,
-    /// Every feasible candidate, in ranking order, with its verdict-depth evaluation.
+    /// Every feasible candidate verified, in ranking order, with its verdict-depth
+    /// evaluation (all of them with `--exhaustive`): what a board-level optimiser wants.
     pub ranked: Vec<(DesignSpec, Evaluation)>,
+    /// Indices into `ranked` of the rows the ranking lists, in order, before `--top`:
+    /// each family's best row, or every row with `every_value`.
+    pub rows: Vec<usize>,
     /// Every rejected candidate and the check it was counted under.
     pub rejected: Vec<(DesignSpec, CheckName)>,
 }
@@ -78,10 +85,16 @@ pub fn rank(
     progress: &dyn Progress,
 ) -> Result<RankRun, RankError> {
     let groups = enumerate(req, catalog);
+    let n = opts.top.max(opts.explain.unwrap_or(0)).max(1);
+    let unit = if opts.every_value {
+        Unit::Rows
+    } else {
+        Unit::Families
+    };
     let goal = match opts.prefer {
-        Prefer::Cost => Goal::Cheapest(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
-        Prefer::Accuracy => Goal::MostAccurate(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
-        Prefer::Balanced => Goal::Balanced(opts.top.max(opts.explain.unwrap_or(0)).max(1)),
+        Prefer::Cost => Goal::Cheapest(n, unit),
+        Prefer::Accuracy => Goal::MostAccurate(n, unit),
+        Prefer::Balanced => Goal::Balanced(n, unit),
     };
     rank_with_goal(req, catalog, opts, goal, &groups, progress)
 }
@@ -109,44 +122,55 @@ fn rank_with_goal(
         .iter()
         .map(|(_, e)| (e.cost, e.figures.error_total))
         .collect();
+    // Pareto flags over every verified feasible design: a family's best row is on the
+    // front exactly when it is among the family bests, as its family's other rows cost
+    // the same and are no more accurate.
     let front = pareto(&points);
+    let families = first_per(&ranked, |(s, _)| family(s));
+    let listed: Vec<usize> = if opts.every_value {
+        (0..ranked.len()).collect()
+    } else {
+        families.clone()
+    };
     if let Some(k) = opts.explain {
-        if !ranked.is_empty() && (k == 0 || k > ranked.len()) {
+        if !listed.is_empty() && (k == 0 || k > listed.len()) {
             return Err(RankError::ExplainOutOfRange {
                 k,
-                feasible: ranked.len(),
+                rows: listed.len(),
             });
         }
     }
     let extra = AtomicU64::new(0);
-    let shown = opts.top.min(ranked.len());
+    let shown = opts.top.min(listed.len());
+    // Positions in `listed` to evaluate fully: the shown rows and the explained one.
     let mut wanted: Vec<usize> = (0..shown).collect();
-    if let Some(k) = opts.explain.filter(|&k| k >= 1 && k <= ranked.len()) {
+    if let Some(k) = opts.explain.filter(|&k| k >= 1 && k <= listed.len()) {
         if k > shown {
             wanted.push(k - 1);
         }
     }
     let full: Vec<(usize, Evaluation)> = wanted
         .par_iter()
-        .map(|&i| {
-            let (spec, verdict) = &ranked[i];
-            (i, full_or(req, catalog, spec, verdict, opts.mc, &extra))
+        .map(|&p| {
+            let (spec, verdict) = &ranked[listed[p]];
+            (p, full_or(req, catalog, spec, verdict, opts.mc, &extra))
         })
         .collect();
     let mut rows = Vec::with_capacity(shown);
     let mut explain = None;
-    for (i, ev) in &full {
-        let mut row = CandidateRow::new(Some(i + 1), &ranked[*i].0, ev, front[*i]);
-        if opts.explain == Some(i + 1) {
+    for (p, ev) in &full {
+        let i = listed[*p];
+        let mut row = CandidateRow::new(Some(p + 1), &ranked[i].0, ev, front[i]);
+        if opts.explain == Some(p + 1) {
             let mut e = Explanation::new(req, row.clone(), ev);
             e.candidate.yield_solved =
-                check::solved_yield(req, catalog, &ranked[*i].0, opts.mc, &extra)?;
-            if *i < shown {
+                check::solved_yield(req, catalog, &ranked[i].0, opts.mc, &extra)?;
+            if *p < shown {
                 row.yield_solved = e.candidate.yield_solved;
             }
             explain = Some(e);
         }
-        if *i < shown {
+        if *p < shown {
             rows.push(row);
         }
     }
@@ -159,9 +183,11 @@ fn rank_with_goal(
         requirement: req.name.clone(),
         prefer: opts.prefer,
         exhaustive: opts.exhaustive,
+        every_value: opts.every_value,
         evaluated: ranked.len() + verdicts.rejected.len(),
         unverified: verdicts.unverified.len(),
         feasible: ranked.len(),
+        families: families.len(),
         rejected_by,
         seed: opts.mc.seed,
         samples: opts.mc.samples,
@@ -173,6 +199,7 @@ fn rank_with_goal(
     Ok(RankRun {
         report,
         ranked,
+        rows: listed,
         rejected: verdicts.rejected,
     })
 }
@@ -255,24 +282,11 @@ pub fn cheaper(
     let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
     let governing = reference.governing_check;
     let ref_margin = reference.governing_margin();
-    // One design per family (topology, pair, helper, resistor class): the first in
-    // ranking order, i.e. the one with the largest accuracy margin (a family's resistor
-    // values all cost the same, so listing each would repeat one saving many times; the
-    // search verifies each family best-first for that reason).
-    let family = |s: &DesignSpec| {
-        if second_source {
-            (s.pair.clone(), None, None, None)
-        } else {
-            (
-                s.pair.clone(),
-                Some(s.topology),
-                s.helper.clone(),
-                s.resistor.clone(),
-            )
-        }
-    };
-    let mut seen = Vec::new();
-    let picked: Vec<&(DesignSpec, Evaluation)> = run
+    // One design per family: the first in ranking order, i.e. the one with the largest
+    // accuracy margin (a family's resistor values all cost the same, so listing each
+    // would repeat one saving many times; the search verifies each family best-first for
+    // that reason). With `--second-source`, one per pair class: its cheapest.
+    let eligible: Vec<&(DesignSpec, Evaluation)> = run
         .ranked
         .iter()
         .filter(|(s, e)| {
@@ -282,16 +296,15 @@ pub fn cheaper(
                 e.cost < ref_ev.cost - 1e-12
             }
         })
-        .filter(|(s, _)| {
-            let f = family(s);
-            if seen.contains(&f) {
-                false
-            } else {
-                seen.push(f);
-                true
-            }
-        })
         .collect();
+    let picked: Vec<&(DesignSpec, Evaluation)> = if second_source {
+        first_per(&eligible, |(s, _)| s.pair.clone())
+    } else {
+        first_per(&eligible, |(s, _)| family(s))
+    }
+    .into_iter()
+    .map(|i| eligible[i])
+    .collect();
     let alternatives: Vec<Alternative> = picked
         .par_iter()
         .enumerate()

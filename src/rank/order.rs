@@ -10,12 +10,17 @@
 //!
 //! Remaining ties are broken by topology, class ids and resistor values, so the order is
 //! deterministic.
+//!
+//! A *family* is every design that differs only in resistor value (topology, pair,
+//! helper, resistor class; no degeneration has no resistor class, so it is a family of
+//! its own). `rank` shows each family's first row in the order, and so does `cheaper`.
 
 use std::cmp::Ordering;
 
 use serde::Serialize;
 
 use crate::check::{DesignSpec, Evaluation};
+use crate::model::Topology;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "kebab-case")]
@@ -76,6 +81,33 @@ fn tie_break(a: &DesignSpec, b: &DesignSpec) -> Ordering {
         .then_with(|| a.re2_ohm.total_cmp(&b.re2_ohm))
 }
 
+/// Designs that differ only in resistor value: topology, pair, helper, resistor class.
+pub type FamilyKey = (Topology, String, Option<String>, Option<String>);
+
+pub fn family(s: &DesignSpec) -> FamilyKey {
+    (
+        s.topology,
+        s.pair.clone(),
+        s.helper.clone(),
+        s.resistor.clone(),
+    )
+}
+
+/// Indices of the first item of each key in `items` (already in ranking order): the best
+/// row of each family, or of whatever `key` groups by.
+pub fn first_per<T, K: PartialEq>(items: &[T], key: impl Fn(&T) -> K) -> Vec<usize> {
+    let mut seen: Vec<K> = Vec::new();
+    let mut out = Vec::new();
+    for (i, item) in items.iter().enumerate() {
+        let k = key(item);
+        if !seen.contains(&k) {
+            seen.push(k);
+            out.push(i);
+        }
+    }
+    out
+}
+
 /// Pareto flags for (cost, error) pairs: a point is on the front when no other point is
 /// at most as costly and at most as wrong, and strictly better in one of the two.
 pub fn pareto(points: &[(f64, f64)]) -> Vec<bool> {
@@ -123,5 +155,12 @@ mod tests {
         ];
         assert_eq!(pareto(&pts), vec![true, false, true, true, false, true]);
         assert!(pareto(&[]).is_empty());
+    }
+
+    #[test]
+    fn first_per_keeps_the_first_of_each_key_in_order() {
+        let items = [("a", 1), ("a", 2), ("b", 3), ("a", 4), ("c", 5), ("b", 6)];
+        assert_eq!(first_per(&items, |i| i.0), vec![0, 2, 4]);
+        assert!(first_per(&[] as &[(&str, i32)], |i| i.0).is_empty());
     }
 }

@@ -270,10 +270,12 @@ fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
 
 fn rejection_line(r: &RankReport) -> String {
     let mut s = format!(
-        "{} candidate{} evaluated, {} feasible",
+        "{} candidate{} evaluated, {} feasible in {} famil{}",
         r.evaluated,
         if r.evaluated == 1 { "" } else { "s" },
-        r.feasible
+        r.feasible,
+        r.families,
+        if r.families == 1 { "y" } else { "ies" }
     );
     if !r.rejected_by.is_empty() {
         let parts: Vec<String> = r

@@ -363,9 +363,14 @@ pub struct RankReport {
     pub requirement: String,
     pub prefer: Prefer,
     pub exhaustive: bool,
+    /// `--every-value`: every resistor value is its own row; otherwise each family
+    /// (topology, pair, helper, resistor class) shows its best row.
+    pub every_value: bool,
     /// Candidates judged: verified, or rejected by a screen that proves the failure.
     pub evaluated: usize,
     pub feasible: usize,
+    /// Families with a feasible design among those verified.
+    pub families: usize,
     /// Candidates that passed every screen but cost more than the shown rows need, so
     /// were not verified (0 with `--exhaustive` or a non-cost preference).
     pub unverified: usize,

@@ -25,6 +25,7 @@ use std::sync::atomic::{AtomicU64, Ordering};
 
 use rayon::prelude::*;
 
+use super::order::{family, FamilyKey};
 use super::space::Group;
 use crate::check::{resolve, CheckName, Depth, DesignSpec, Evaluation, Evaluator, MonteCarlo};
 use crate::model::{Catalog, Requirement};
@@ -43,12 +44,20 @@ impl Progress for Silent {
     fn advance(&self, _: u64) {}
 }
 
+/// What a goal of `n` counts: rows (every resistor value its own) or families (see
+/// `order::family`), whose best rows the ranking shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Unit {
+    Rows,
+    Families,
+}
+
 /// What the ranking needs verified; the default search verifies only that much.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Goal {
-    /// The `n` cheapest feasible designs (and every feasible design as cheap as the
-    /// `n`-th, so ties and Pareto flags are exact).
-    Cheapest(usize),
+    /// The `n` cheapest feasible designs or families (and every feasible design as cheap
+    /// as the `n`-th, so ties, each family's best row and Pareto flags are exact).
+    Cheapest(usize, Unit),
     /// Every feasible design cheaper than this cost.
     CheaperThan(f64),
     /// The cheapest feasible design(s) of every transistor class.
@@ -56,10 +65,11 @@ pub enum Goal {
     /// The most accurate feasible design of every family (topology, pair, helper,
     /// resistor class) cheaper than this cost.
     CheaperFamilies(f64),
-    /// The `n` designs with the smallest total error (largest accuracy margin).
-    MostAccurate(usize),
-    /// The `n` designs with the smallest balanced score (see `order`).
-    Balanced(usize),
+    /// The `n` designs or families with the smallest total error (largest accuracy
+    /// margin).
+    MostAccurate(usize, Unit),
+    /// The `n` designs or families with the smallest balanced score (see `order`).
+    Balanced(usize, Unit),
     /// Every feasible design.
     All,
 }
@@ -146,8 +156,10 @@ fn verify_survivors(
     v: &mut Verdicts,
 ) {
     survivors.sort_by(|a, b| a.2.total_cmp(&b.2).then(a.0.cmp(&b.0)));
-    if let Goal::MostAccurate(n) | Goal::Balanced(n) = goal {
-        return verify_by_bound(req, catalog, survivors, goal, n, mc, solves, progress, v);
+    if let Goal::MostAccurate(n, unit) | Goal::Balanced(n, unit) = goal {
+        return verify_by_bound(
+            req, catalog, survivors, goal, n, unit, mc, solves, progress, v,
+        );
     }
     if let Goal::CheaperFamilies(limit) = goal {
         let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
@@ -163,8 +175,8 @@ fn verify_survivors(
             }
         }
         for (_, f) in families {
-            let g = Goal::MostAccurate(1);
-            verify_by_bound(req, catalog, f, g, 1, mc, solves, progress, v);
+            let g = Goal::MostAccurate(1, Unit::Rows);
+            verify_by_bound(req, catalog, f, g, 1, Unit::Rows, mc, solves, progress, v);
         }
         return;
     }
@@ -179,17 +191,23 @@ fn verify_survivors(
     }
     let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
     for (_, bucket) in buckets {
+        // Feasible rows found, and the distinct families they belong to. A family's
+        // members all cost the same (resistor price does not depend on value), so a
+        // verified cost level holds whole families: once `n` families have a feasible
+        // row, every member of each is verified and its best row is exact.
         let mut found = 0usize;
+        let mut families: Vec<FamilyKey> = Vec::new();
         let mut i = 0;
         while i < bucket.len() {
             let cost = bucket[i].2;
             let done = match goal {
-                Goal::Cheapest(n) => found >= n,
+                Goal::Cheapest(n, Unit::Rows) => found >= n,
+                Goal::Cheapest(n, Unit::Families) => families.len() >= n,
                 Goal::CheaperThan(c) => cost >= c - 1e-12,
                 Goal::CheapestPerClass => found >= 1,
                 Goal::All
-                | Goal::MostAccurate(_)
-                | Goal::Balanced(_)
+                | Goal::MostAccurate(..)
+                | Goal::Balanced(..)
                 | Goal::CheaperFamilies(_) => false,
             };
             let mut end = i;
@@ -210,10 +228,15 @@ fn verify_survivors(
                 })
                 .collect();
             progress.advance((end - i) as u64);
-            found += level
-                .iter()
-                .filter(|(_, _, o)| matches!(o, Some(Outcome::Feasible(_))))
-                .count();
+            for (_, spec, o) in &level {
+                if matches!(o, Some(Outcome::Feasible(_))) {
+                    found += 1;
+                    let f = family(spec);
+                    if !families.contains(&f) {
+                        families.push(f);
+                    }
+                }
+            }
             results.extend(level);
             i = end;
         }
@@ -225,8 +248,11 @@ fn verify_survivors(
 /// lower bound of its sort key from the probe corner (`|e| + k sigma` there is at most
 /// the total error); survivors are verified in order of that bound until the `n`-th best
 /// verified key is below the next bound, so no unverified design could enter the rows
-/// (nor dominate one of them on the cost/error front). The balanced key needs the
-/// cheapest feasible cost, found first by verifying cost levels.
+/// (nor dominate one of them on the cost/error front). Counting families, the `n`-th
+/// best family key (a family's key is its best verified row's) is compared instead: an
+/// unverified design above it can neither improve a shown family's best row nor bring
+/// a new family into the first `n`. The balanced key needs the cheapest feasible cost,
+/// found first by verifying cost levels.
 #[allow(clippy::too_many_arguments)]
 fn verify_by_bound(
     req: &Requirement,
@@ -234,6 +260,7 @@ fn verify_by_bound(
     survivors: Vec<Survivor>,
     goal: Goal,
     n: usize,
+    unit: Unit,
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
@@ -254,7 +281,7 @@ fn verify_by_bound(
     let mut rest = survivors;
     // The cheapest feasible cost (balanced only): verify whole cost levels until found.
     let mut cheapest = f64::NAN;
-    if matches!(goal, Goal::Balanced(_)) {
+    if matches!(goal, Goal::Balanced(..)) {
         while !rest.is_empty() {
             let cost = rest[0].2;
             let end = rest.iter().position(|s| s.2 != cost).unwrap_or(rest.len());
@@ -272,7 +299,7 @@ fn verify_by_bound(
         }
     }
     let key = |cost: f64, error: f64| match goal {
-        Goal::Balanced(_) => cost / cheapest + error / req.accuracy,
+        Goal::Balanced(..) => cost / cheapest + error / req.accuracy,
         _ => error / req.accuracy,
     };
     let bounds: Vec<f64> = rest
@@ -287,30 +314,29 @@ fn verify_by_bound(
         .collect();
     let mut order: Vec<usize> = (0..rest.len()).collect();
     order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
-    let mut keys: Vec<f64> = results
-        .iter()
-        .filter_map(|(_, _, o)| match o {
-            Some(Outcome::Feasible(e)) => Some(key(e.cost, e.figures.error_total)),
-            _ => None,
-        })
-        .collect();
+    let feasible_keys = |level: &[(usize, DesignSpec, Option<Outcome>)]| -> Vec<(FamilyKey, f64)> {
+        level
+            .iter()
+            .filter_map(|(_, spec, o)| match o {
+                Some(Outcome::Feasible(e)) => {
+                    Some((family(spec), key(e.cost, e.figures.error_total)))
+                }
+                _ => None,
+            })
+            .collect()
+    };
+    let mut keys = feasible_keys(&results);
     const BATCH: usize = 64;
     let mut i = 0;
     while i < order.len() {
-        if keys.len() >= n {
-            keys.sort_by(f64::total_cmp);
-            if keys[n - 1] < bounds[order[i]] {
-                break;
-            }
+        if nth_key(&keys, n, unit).is_some_and(|k| k < bounds[order[i]]) {
+            break;
         }
         let end = (i + BATCH).min(order.len());
         let batch: Vec<Survivor> = order[i..end].iter().map(|&j| rest[j].clone()).collect();
         let level = verify(&batch);
         progress.advance((end - i) as u64);
-        keys.extend(level.iter().filter_map(|(_, _, o)| match o {
-            Some(Outcome::Feasible(e)) => Some(key(e.cost, e.figures.error_total)),
-            _ => None,
-        }));
+        keys.extend(feasible_keys(&level));
         results.extend(level);
         i = end;
     }
@@ -320,6 +346,26 @@ fn verify_by_bound(
             .map(|&j| (rest[j].0, rest[j].1.clone(), None)),
     );
     merge(results, v);
+}
+
+/// The `n`-th smallest key (1-based) over rows, or over families (each keyed by its
+/// smallest); `None` while fewer than `n` are known.
+fn nth_key(keys: &[(FamilyKey, f64)], n: usize, unit: Unit) -> Option<f64> {
+    let mut best: Vec<f64> = match unit {
+        Unit::Rows => keys.iter().map(|(_, k)| *k).collect(),
+        Unit::Families => {
+            let mut per: Vec<(&FamilyKey, f64)> = Vec::new();
+            for (f, k) in keys {
+                match per.iter_mut().find(|(g, _)| *g == f) {
+                    Some((_, b)) => *b = b.min(*k),
+                    None => per.push((f, *k)),
+                }
+            }
+            per.into_iter().map(|(_, k)| k).collect()
+        }
+    };
+    best.sort_by(f64::total_cmp);
+    n.checked_sub(1).and_then(|i| best.get(i).copied())
 }
 
 fn merge(mut results: Vec<(usize, DesignSpec, Option<Outcome>)>, v: &mut Verdicts) {
@@ -338,23 +384,6 @@ fn merge(mut results: Vec<(usize, DesignSpec, Option<Outcome>)>, v: &mut Verdict
         .extend(feasible.into_iter().map(|(_, s, e)| (s, e)));
     v.rejected
         .extend(rejected.into_iter().map(|(_, s, c)| (s, c)));
-}
-
-/// Designs that differ only in resistor value: topology, pair, helper, resistor class.
-type FamilyKey = (
-    crate::model::Topology,
-    String,
-    Option<String>,
-    Option<String>,
-);
-
-pub fn family(s: &DesignSpec) -> FamilyKey {
-    (
-        s.topology,
-        s.pair.clone(),
-        s.helper.clone(),
-        s.resistor.clone(),
-    )
 }
 
 /// A screened candidate: enumeration index, spec, cost.

@@ -47,7 +47,38 @@ fn rank_json_has_the_documented_keys_and_cautions_go_to_stderr() {
     assert_eq!(v["seed"], 9);
     assert_eq!(v["samples"], 50);
     assert_eq!(v["candidates"].as_array().unwrap().len(), 2);
+    assert_eq!(v["every_value"], false);
+    assert!(v["families"].as_u64().unwrap() >= 2);
     assert!(String::from_utf8_lossy(&out.stderr).contains("Cautions"));
+}
+
+#[test]
+fn rank_every_value_is_echoed_and_lists_values_of_one_family() {
+    let out = cmd()
+        .args([
+            "rank",
+            LTP,
+            "--top",
+            "3",
+            "--every-value",
+            "--format",
+            "json",
+            "--samples",
+            "50",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["every_value"], true);
+    let rows = v["candidates"].as_array().unwrap();
+    assert_eq!(rows.len(), 3);
+    // On this example the cheapest family holds the three cheapest feasible designs.
+    let fam = |r: &serde_json::Value| {
+        ["topology", "part", "helper", "resistor"].map(|k| r[k].to_string())
+    };
+    assert_eq!(fam(&rows[0]), fam(&rows[1]));
+    assert_ne!(rows[0]["re1_ohm"], rows[1]["re1_ohm"]);
 }
 
 #[test]

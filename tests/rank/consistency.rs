@@ -78,6 +78,8 @@ fn json_and_table_show_the_same_rows() {
         "requirement",
         "evaluated",
         "feasible",
+        "families",
+        "every_value",
         "rejected_by",
         "seed",
         "samples",
@@ -86,8 +88,8 @@ fn json_and_table_show_the_same_rows() {
         assert!(v.get(key).is_some(), "JSON lacks `{key}`");
     }
     assert!(table.contains(&format!(
-        "{} candidates evaluated, {} feasible",
-        v["evaluated"], v["feasible"]
+        "{} candidates evaluated, {} feasible in {} families",
+        v["evaluated"], v["feasible"], v["families"]
     )));
     let rows = v["candidates"].as_array().unwrap();
     assert_eq!(rows.len(), 6);

@@ -1,7 +1,8 @@
-//! The default (pruning) search returns exactly the exhaustive search's top rows.
+//! The default (pruning) search returns exactly the exhaustive search's top rows, one
+//! per design family by default and every resistor value with `every_value`.
 
 use mirrorpick::check::MonteCarlo;
-use mirrorpick::rank::{rank, CandidateRow, Prefer, RankOptions, Silent};
+use mirrorpick::rank::{family, first_per, rank, CandidateRow, Prefer, RankOptions, Silent};
 
 use super::*;
 
@@ -11,11 +12,13 @@ fn top(
     exhaustive: bool,
     n: usize,
     prefer: Prefer,
+    every_value: bool,
 ) -> (Vec<CandidateRow>, u64) {
     let opts = RankOptions {
         top: n,
         exhaustive,
         prefer,
+        every_value,
         mc: MonteCarlo {
             seed: 1,
             samples: 100,
@@ -26,16 +29,37 @@ fn top(
     (r.candidates, r.solves)
 }
 
-fn same_top(req: &Requirement, cat: &Catalog, n: usize, prefer: Prefer) {
-    let (d, d_solves) = top(req, cat, false, n, prefer);
-    let (e, e_solves) = top(req, cat, true, n, prefer);
+fn row_family(r: &CandidateRow) -> (&str, &str, Option<&str>, Option<&str>) {
+    (
+        r.topology,
+        &r.part,
+        r.helper.as_deref(),
+        r.resistor.as_deref(),
+    )
+}
+
+fn same_top(req: &Requirement, cat: &Catalog, n: usize, prefer: Prefer, every_value: bool) {
+    let (d, d_solves) = top(req, cat, false, n, prefer, every_value);
+    let (e, e_solves) = top(req, cat, true, n, prefer, every_value);
     assert!(!d.is_empty(), "{}: no feasible design to compare", req.name);
+    if !every_value {
+        for (i, a) in d.iter().enumerate() {
+            for b in &d[..i] {
+                assert_ne!(
+                    row_family(a),
+                    row_family(b),
+                    "{}: two rows of one family by {prefer:?}",
+                    req.name
+                );
+            }
+        }
+    }
     // Compared as JSON: missing figures are NaN in the rows (null in JSON).
     let json = |rows: &[CandidateRow]| serde_json::to_string(rows).unwrap();
     assert_eq!(
         json(&d),
         json(&e),
-        "{}: default and exhaustive top {n} by {prefer:?} differ",
+        "{}: default and exhaustive top {n} by {prefer:?} (every value: {every_value}) differ",
         req.name
     );
     assert!(
@@ -45,10 +69,9 @@ fn same_top(req: &Requirement, cat: &Catalog, n: usize, prefer: Prefer) {
     );
 }
 
-#[test]
-fn default_equals_exhaustive_on_a_narrowed_example() {
-    // The long-tailed-pair tail with three classes and two topologies: small enough to
-    // solve exhaustively on every test run, large enough to prune.
+/// The long-tailed-pair tail with three classes and two topologies: small enough to
+/// solve exhaustively on every test run, large enough to prune.
+fn narrowed() -> (Catalog, Requirement) {
     let cat = default_catalog();
     let mut req = load_example(
         &root().join("requirements-examples/ltp-tail-sink.yaml"),
@@ -60,8 +83,91 @@ fn default_equals_exhaustive_on_a_narrowed_example() {
         "thick-film-1pct".into(),
     ];
     req.topologies.allow = vec!["simple".into(), "wilson".into()];
+    (cat, req)
+}
+
+#[test]
+fn default_equals_exhaustive_on_a_narrowed_example() {
+    let (cat, req) = narrowed();
     for prefer in [Prefer::Cost, Prefer::Accuracy, Prefer::Balanced] {
-        same_top(&req, &cat, 20, prefer);
+        same_top(&req, &cat, 20, prefer, false);
+        same_top(&req, &cat, 20, prefer, true);
+    }
+}
+
+#[test]
+fn family_rows_are_each_familys_best_and_every_value_lists_every_row() {
+    let (cat, req) = narrowed();
+    for prefer in [Prefer::Cost, Prefer::Accuracy] {
+        let opts = RankOptions {
+            top: 20,
+            exhaustive: true,
+            prefer,
+            mc: MonteCarlo {
+                seed: 1,
+                samples: 100,
+            },
+            explain: Some(2),
+            ..Default::default()
+        };
+        let run = rank(&req, &cat, &opts, &Silent).unwrap();
+        let key = |s: &mirrorpick::check::DesignSpec| {
+            (
+                s.topology.name(),
+                s.pair.clone(),
+                s.helper.clone(),
+                s.resistor.clone(),
+                s.re1_ohm,
+                s.re2_ohm,
+            )
+        };
+        let row_key = |r: &CandidateRow| {
+            (
+                r.topology,
+                r.part.clone(),
+                r.helper.clone(),
+                r.resistor.clone(),
+                r.re1_ohm,
+                r.re2_ohm,
+            )
+        };
+        // Default: the first row of each family in the full ranking, in its order.
+        let bests: Vec<_> = first_per(&run.ranked, |(s, _)| family(s))
+            .into_iter()
+            .map(|i| key(&run.ranked[i].0))
+            .collect();
+        assert!(bests.len() >= 2, "{prefer:?}: {} families", bests.len());
+        assert_eq!(run.report.families, bests.len());
+        let shown: Vec<_> = run.report.candidates.iter().map(row_key).collect();
+        assert_eq!(shown, bests[..shown.len().min(20)].to_vec(), "{prefer:?}");
+        assert_eq!(shown.len(), bests.len().min(20));
+        // --explain counts displayed rows.
+        let explained = &run.report.explain.as_ref().unwrap().candidate;
+        assert_eq!(row_key(explained), shown[1]);
+        assert_eq!(explained.rank, Some(2));
+        // Every value: the full ranking's first rows, several of one family.
+        let every = RankOptions {
+            every_value: true,
+            ..opts
+        };
+        let run_every = rank(&req, &cat, &every, &Silent).unwrap();
+        let all: Vec<_> = run_every.report.candidates.iter().map(row_key).collect();
+        let expected: Vec<_> = run.ranked.iter().take(20).map(|(s, _)| key(s)).collect();
+        assert_eq!(all, expected, "{prefer:?}");
+        assert!(
+            first_per(&run_every.report.candidates, |r| {
+                (
+                    r.topology,
+                    r.part.clone(),
+                    r.helper.clone(),
+                    r.resistor.clone(),
+                )
+            })
+            .len()
+                < all.len(),
+            "{prefer:?}: every value shows no family twice"
+        );
+        assert!(run_every.report.every_value && !run.report.every_value);
     }
 }
 
@@ -71,6 +177,7 @@ fn default_equals_exhaustive_top_20_on_every_shipped_example() {
     let cat = default_catalog();
     for path in examples() {
         let req = load_example(&path, &cat);
-        same_top(&req, &cat, 20, Prefer::Cost);
+        same_top(&req, &cat, 20, Prefer::Cost, false);
+        same_top(&req, &cat, 20, Prefer::Cost, true);
     }
 }
