@@ -18,11 +18,17 @@ pub fn root() -> PathBuf {
 }
 
 /// The shipped examples, sorted.
+/// The shipped single-channel requirement examples (board designs, `board-*.yaml`, are
+/// not requirements).
 pub fn examples() -> Vec<PathBuf> {
     let mut v: Vec<PathBuf> = std::fs::read_dir(root().join("requirements-examples"))
         .unwrap()
         .map(|e| e.unwrap().path())
         .filter(|p| p.extension().is_some_and(|x| x == "yaml"))
+        .filter(|p| {
+            !p.file_name()
+                .is_some_and(|n| n.to_string_lossy().starts_with("board-"))
+        })
         .collect();
     v.sort();
     v
