@@ -275,10 +275,11 @@ impl fmt::Display for Caution {
                 fraction * 100.0,
                 fraction * VCEO_DERATING * 100.0
             ),
-            Caution::LightSource(load) => write!(
-                f,
-                "the load is a {}: an open or shorted string or a current step can destroy it or, for lasers, harm eyes; add protection and follow the emitter's datasheet and the applicable safety standard",
-                if *load == LoadKind::Laser { "laser" } else { "LED string" }
+            Caution::LightSource(load) if *load == LoadKind::Laser => f.write_str(
+                "the load is a laser: a current step or overshoot can destroy it and its beam can harm eyes; add protection and follow the emitter's datasheet and the applicable laser safety standard",
+            ),
+            Caution::LightSource(_) => f.write_str(
+                "the load is an LED string: an open or shorted string or a current step can destroy it; add protection and follow the emitter's datasheet and the applicable safety standard",
             ),
             Caution::HighVoltage { supply_v } => write!(
                 f,
