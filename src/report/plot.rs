@@ -37,6 +37,19 @@ const WINDOW_FILL: RGBColor = RGBColor(225, 235, 245);
 const BAND_FILL: RGBColor = RGBColor(215, 240, 215);
 const BALANCE: RGBColor = RGBColor(160, 0, 0);
 
+/// The house legend: lower right, on a light box, the same on every plot.
+fn draw_legend<'a, X: Ranged, Y: Ranged>(
+    chart: &mut ChartContext<'a, SVGBackend<'a>, Cartesian2d<X, Y>>,
+) -> Result<(), DrawingAreaErrorKind<std::io::Error>> {
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::LowerRight)
+        .label_font((FONT, 11))
+        .background_style(WHITE.mix(0.9))
+        .border_style(RGBColor(160, 160, 160))
+        .draw()
+}
+
 fn err<E: std::fmt::Debug>(what: &'static str) -> impl Fn(E) -> PlotError {
     move |e| PlotError {
         what,
@@ -239,14 +252,7 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
                 ))
                 .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK));
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .label_font((FONT, 11))
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(160, 160, 160))
-            .draw()
-            .map_err(&e)?;
+        draw_legend(&mut chart).map_err(&e)?;
 
         // Bottom: error against V_out, the accuracy band and the balance voltage.
         // Wide enough for every error inside the output window, at least 2.5 times the
@@ -319,14 +325,7 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
                 ))
                 .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .label_font((FONT, 11))
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(160, 160, 160))
-            .draw()
-            .map_err(&e)?;
+        draw_legend(&mut chart).map_err(&e)?;
         root.present().map_err(&e)?;
     }
     Ok(svg)
@@ -416,14 +415,7 @@ pub fn error_vs_input_svg(set: &CurveSet) -> Result<String, PlotError> {
                 }
             }
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .label_font((FONT, 11))
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(160, 160, 160))
-            .draw()
-            .map_err(&e)?;
+        draw_legend(&mut chart).map_err(&e)?;
         root.present().map_err(&e)?;
     }
     Ok(svg)
@@ -514,14 +506,7 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
                 super::eng::percent(accuracy)
             ))
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .label_font((FONT, 11))
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(160, 160, 160))
-            .draw()
-            .map_err(&e)?;
+        draw_legend(&mut chart).map_err(&e)?;
         root.present().map_err(&e)?;
     }
     Ok(svg)
