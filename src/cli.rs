@@ -36,6 +36,12 @@ pub struct Cli {
     #[arg(long, global = true, value_name = "FILE")]
     pub catalog: Option<PathBuf>,
 
+    /// Show every column of the candidate tables (rank, check, cheaper, bom) instead of
+    /// the ones a designer decides on. Tables fit the terminal (or `COLUMNS`) by wrapping
+    /// cells either way; JSON and CSV always carry every field.
+    #[arg(long, global = true)]
+    pub wide: bool,
+
     #[command(subcommand)]
     pub command: Command,
 }
@@ -68,17 +74,17 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
     Fit(FitCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(
-        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --every-value --top 20\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank requirements-examples/led-string-sinks.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml --every-value --top 20 --wide\n  mirrorpick rank requirements-examples/widlar-bias-source.yaml --format json --seed 7 --samples 500 > ranked.json"
     )]
     Rank(RankCli),
     /// Verify one named design against a requirement: every check with its margin.
     #[command(
-        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check board.yaml --part npn-dual-general --topology wilson --corners --format json"
+        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --corners --format json"
     )]
     Check(CheckCli),
     /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
     #[command(
-        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --re 2k --resistor thick-film-1pct --second-source"
     )]
     Cheaper(CheaperCli),
     /// Output current against output voltage for several input currents, and the error
@@ -281,7 +287,8 @@ pub struct CheaperCli {
     pub file: PathBuf,
     #[command(flatten)]
     pub design: DesignCli,
-    /// List every other transistor class that still passes, at any cost.
+    /// Drop-in second sources: the same topology and resistor values with another
+    /// transistor class that still passes, at any cost.
     #[arg(long)]
     pub second_source: bool,
     #[command(flatten)]
@@ -552,9 +559,9 @@ impl From<FormatChoice> for Format {
 }
 
 impl Cli {
-    /// Resolve what was typed into the library's configuration. `color` is decided by
-    /// `main` (terminal, NO_COLOR).
-    pub fn into_config(self, color: bool) -> Config {
+    /// Resolve what was typed into the library's configuration. `color` and `width` are
+    /// decided by `main` (terminal, NO_COLOR, COLUMNS).
+    pub fn into_config(self, color: bool, width: Option<u16>) -> Config {
         let command = match self.command {
             Command::Catalog(CatalogCommand::List(f)) => AppCommand::CatalogList {
                 format: f.format.into(),
@@ -681,7 +688,11 @@ impl Cli {
                 .map(CatalogSource::File)
                 .unwrap_or(CatalogSource::Default),
             command,
-            style: Style { color },
+            style: Style {
+                color,
+                width,
+                wide: self.wide,
+            },
         }
     }
 }
