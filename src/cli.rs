@@ -51,7 +51,7 @@ pub enum Command {
     /// List, show or check the catalog of part classes.
     #[command(
         subcommand,
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint catalog/default.yaml"
     )]
     Catalog(CatalogCommand),
     /// Check requirement files.
@@ -188,7 +188,7 @@ channel has no feasible design and why, or the fewest line items any board needs
 Example:
   mirrorpick bom requirements-examples/board-synth-voice.yaml
   mirrorpick bom requirements-examples/board-synth-voice.yaml --format csv > bom.csv
-  mirrorpick bom board.yaml --format json --seed 7 --samples 200";
+  mirrorpick bom requirements-examples/board-synth-voice.yaml --format json --seed 7 --samples 200";
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum PreferChoice {
@@ -442,7 +442,7 @@ Example (synthetic demo data shipped with the project, a simple mirror with 1 kÎ
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
   mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple \\
       --re1 1k --re2 1k --ambient 27C --supply 12V --self-heating --emit-class npn-dual-bench
-  mirrorpick fit bench.csv --topology wilson --part npn-dual-general --format json";
+  mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple --re1 1k --re2 1k --format json";
 
 #[derive(Debug, Args)]
 pub struct FitCommand {
@@ -499,7 +499,7 @@ pub enum FitFormat {
 pub enum CatalogCommand {
     /// List every transistor and resistor class in the catalog.
     #[command(
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog my-parts.yaml catalog list --format json"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog catalog/default.yaml catalog list --format json"
     )]
     List(FormatArg),
     /// Show one class in full: model parameters, matching, ratings, thermal, cost.
@@ -514,7 +514,7 @@ pub enum CatalogCommand {
     },
     /// Check a catalog file and report the first problem with its line and column.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint my-parts.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint catalog/default.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
     )]
     Lint {
         /// Catalog file; the active catalog (`--catalog` or built in) when absent.
@@ -526,7 +526,7 @@ pub enum CatalogCommand {
 pub enum SpecCommand {
     /// Check a requirement file against the schema and the active catalog.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog my-parts.yaml spec lint board.yaml"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog catalog/default.yaml spec lint requirements-examples/ltp-tail-sink.yaml"
     )]
     Lint {
         /// Requirement file (YAML).
