@@ -449,14 +449,19 @@ fn topology(t: &str) -> Result<Topology, String> {
 const FIT_HELP: &str = "\
 The CSV file has a header naming at least `i_in`, `v_out` and `i_out` (optionally
 `t_ambient`), one measured point per row; values may carry units (`100uA`, `2.5 V`,
-`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes.
+`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes,
+and so are columns named `note` or `comment`; any other column name is an error.
 Each programming current gives one curve: its straight line in the active region meets
 the voltage axis at -VAF_eff. The model fit solves the stated circuit for every point
 and reports standard errors, residuals and warnings for anything the data cannot pin
 down (no V_out variation leaves VAF open; a simple mirror without emitter resistors
 cannot tell a beta error from a V_BE offset).
 
-Exit status: 0 fitted, 1 no fit could be made (the report says why), 2 bad input.
+Errors are rounded to what the data support; a value held because the data cannot
+tell it apart makes the other errors conditional, and the report says by how much.
+
+Exit status: 0 fitted, 1 no fit the data can support (too few distinct points, nothing
+determinable, a value outside physics; the report says why), 2 bad input.
 
 Example (synthetic demo data shipped with the project, a simple mirror with 1 kΩ emitter
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
