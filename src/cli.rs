@@ -333,19 +333,19 @@ pub struct SolveCli {
     #[arg(long)]
     pub helper: Option<String>,
     /// RE1 (e.g. 220, 4k7); 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
+    #[arg(long, value_parser = resistance, default_value = "0", allow_hyphen_values = true)]
     pub re1: f64,
     /// RE2; 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
+    #[arg(long, value_parser = resistance, default_value = "0", allow_hyphen_values = true)]
     pub re2: f64,
     /// Programming current I_in (e.g. 100uA).
-    #[arg(long, value_parser = current)]
+    #[arg(long, value_parser = current, allow_hyphen_values = true)]
     pub iin: f64,
-    /// Output voltage from the mirror rail (e.g. 5V).
-    #[arg(long, value_parser = voltage)]
+    /// Output voltage from the mirror rail (e.g. 5V), a magnitude for NPN and PNP alike.
+    #[arg(long, value_parser = voltage, allow_hyphen_values = true)]
     pub vout: f64,
     /// Supply from the mirror rail to the opposite rail; defaults to --vout.
-    #[arg(long, value_parser = voltage)]
+    #[arg(long, value_parser = supply, allow_hyphen_values = true)]
     pub supply: Option<f64>,
     /// Ambient temperature (e.g. 25C, -40 °C).
     #[arg(long, value_parser = temperature, default_value = "25 °C", allow_hyphen_values = true)]
@@ -384,6 +384,9 @@ fn current(t: &str) -> Result<f64, String> {
 }
 fn voltage(t: &str) -> Result<f64, String> {
     requirement_field(t, "output_voltage")
+}
+fn supply(t: &str) -> Result<f64, String> {
+    requirement_field(t, "supply")
 }
 fn temperature(t: &str) -> Result<f64, String> {
     requirement_field(t, "ambient")

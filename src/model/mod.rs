@@ -15,7 +15,9 @@ mod transistor;
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel};
 pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
-pub use resistor::{ResistorClass, Series};
+pub use resistor::{
+    ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, LEAKAGE_CAUTION_OHM,
+};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
 };

@@ -252,6 +252,8 @@ pub enum Caution {
     HighVoltage {
         supply_v: f64,
     },
+    /// An emitter resistor of 10 MΩ or more: leakage and contamination.
+    HighValueResistor { who: String, ohms: f64 },
     /// Always shown: catalog values are typical, not guaranteed.
     TypicalValues,
 }
@@ -285,6 +287,11 @@ impl fmt::Display for Caution {
                 f,
                 "the supply is {supply_v:.0} V: mind clearances, ratings at temperature and safe handling"
             ),
+            Caution::HighValueResistor { who, ohms } => write!(
+                f,
+                "{who}: an emitter resistor of {}: at this value surface leakage through flux residue, moisture and dust on the board can rival the resistor; clean the board, consider a guard ring or conformal coating, and check the resistor datasheet's voltage coefficient",
+                crate::units::format_quantity(*ohms, crate::units::Dimension::Resistance)
+            ),
             Caution::TypicalValues => f.write_str(
                 "catalog values are typical of each class, not guaranteed: confirm with the datasheet of the part you buy, and follow local codes and licensed engineering practice",
             ),
@@ -314,6 +321,13 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
                     fraction,
                 });
             }
+        }
+        let ohms = r.re1_ohm.max(r.re2_ohm);
+        if ohms >= crate::model::LEAKAGE_CAUTION_OHM {
+            out.push(Caution::HighValueResistor {
+                who: who.clone(),
+                ohms,
+            });
         }
         if let Some(c) = r.check(CheckName::Vceo) {
             let fraction = c.value / c.limit;

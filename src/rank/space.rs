@@ -132,7 +132,7 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
             for r in &resistors {
                 let specs: Vec<DesignSpec> = r
                     .series
-                    .values_between(RE_MIN_OHM, re_max)
+                    .values_between(RE_MIN_OHM.max(r.min_ohm), re_max.min(r.max_ohm))
                     .into_iter()
                     .filter_map(|re1| {
                         let re2 = if unity {
@@ -140,7 +140,10 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                         } else {
                             r.series.nearest(re1 / n)?
                         };
-                        Some(spec(re1, re2, Some(r)))
+                        // Only values the class is made in.
+                        (r.min_ohm..=r.max_ohm)
+                            .contains(&re2)
+                            .then(|| spec(re1, re2, Some(r)))
                     })
                     .collect();
                 if !specs.is_empty() {
@@ -167,7 +170,9 @@ pub fn widlar_re2(req: &Requirement, r: &ResistorClass) -> Option<f64> {
     }
     let i_in = design_current(req);
     let re2 = thermal_voltage(ROOM_K) * (1.0 / n).ln() / (n * i_in);
-    r.series.nearest(re2)
+    r.series
+        .nearest(re2)
+        .filter(|v| (r.min_ohm..=r.max_ohm).contains(v))
 }
 
 /// V_T = kT/q with the exact SI values of k and q (SI Brochure, 9th edition, 2019).
