@@ -199,8 +199,9 @@ pub struct MonteCarloArgs {
     /// Seed of the Monte Carlo yield (same seed, same numbers).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
-    /// Monte Carlo builds per design.
-    #[arg(long, default_value_t = 1000)]
+    /// Monte Carlo builds per design (at least 100; yields are printed with their 95 %
+    /// confidence interval).
+    #[arg(long, default_value_t = 1000, value_parser = samples)]
     pub samples: u32,
 }
 
@@ -384,6 +385,21 @@ fn current(t: &str) -> Result<f64, String> {
 }
 fn voltage(t: &str) -> Result<f64, String> {
     requirement_field(t, "output_voltage")
+}
+fn samples(t: &str) -> Result<u32, String> {
+    use mirrorpick::check::MIN_SAMPLES;
+    let n: u32 = t.trim().parse().map_err(|_| {
+        format!(
+            "`{}` is not a whole number of builds; expected {MIN_SAMPLES} or more, like `1000`",
+            mirrorpick::text::shown(t)
+        )
+    })?;
+    if n < MIN_SAMPLES {
+        return Err(format!(
+            "{n} builds are too few to estimate a yield (one build that passes says nothing about 99.9 %); expected {MIN_SAMPLES} or more, like `1000`"
+        ));
+    }
+    Ok(n)
 }
 fn supply(t: &str) -> Result<f64, String> {
     requirement_field(t, "supply")

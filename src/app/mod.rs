@@ -142,7 +142,7 @@ pub enum AppError {
     Solve(#[from] solve::SolveCommandError),
     #[error(transparent)]
     Measurements(#[from] crate::fit::CsvError),
-    #[error("unknown topology `{name}`{}; expected one of {}", suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default(), crate::input::list(&crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name().to_string()).collect::<Vec<_>>()))]
+    #[error("unknown topology `{}`{}; expected one of {}", crate::text::shown(name), suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default(), crate::input::list(&crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name().to_string()).collect::<Vec<_>>()))]
     UnknownTopology {
         name: String,
         suggestion: Option<String>,

@@ -48,12 +48,12 @@ pub struct SolveArgs {
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum SolveCommandError {
-    #[error("unknown transistor class `{id}`{}", did_you_mean(.suggestions))]
+    #[error("unknown transistor class `{}`{}", crate::text::shown(id), did_you_mean(.suggestions))]
     UnknownPart {
         id: String,
         suggestions: Vec<String>,
     },
-    #[error("unknown helper class `{id}`{}", did_you_mean(.suggestions))]
+    #[error("unknown helper class `{}`{}", crate::text::shown(id), did_you_mean(.suggestions))]
     UnknownHelper {
         id: String,
         suggestions: Vec<String>,

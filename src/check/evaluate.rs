@@ -60,6 +60,8 @@ pub struct Figures {
     pub error_total: f64,
     /// Monte Carlo yield on the first-order model (NaN when not computed).
     pub yield_fraction: f64,
+    /// Monte Carlo builds behind `yield_fraction` (0 when no yield was sampled).
+    pub yield_samples: u32,
     /// Monte Carlo yield with every build re-solved (NaN unless asked for).
     pub yield_solved: f64,
     /// Smallest solved output resistance (NaN when not computed).
@@ -76,6 +78,7 @@ impl Default for Figures {
             error_random_sigma: f64::NAN,
             error_total: f64::NAN,
             yield_fraction: f64::NAN,
+            yield_samples: 0,
             yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
@@ -539,12 +542,22 @@ impl<'a> Evaluator<'a> {
             let nominal: Vec<f64> = states.iter().map(|s| s.error).collect();
             figures.yield_fraction =
                 linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples);
+            figures.yield_samples = mc.samples;
             if let Some(min) = req.min_yield {
                 checks.push(Check::at_least(
                     CheckName::Yield,
                     figures.yield_fraction,
                     min,
-                    format!("{} builds, seed {}", mc.samples, mc.seed),
+                    match super::wilson_interval(figures.yield_fraction, mc.samples) {
+                        Some([lo, hi]) => format!(
+                            "{} builds, seed {}; 95 % CI {:.1}–{:.1} %",
+                            mc.samples,
+                            mc.seed,
+                            lo * 100.0,
+                            hi * 100.0
+                        ),
+                        None => format!("{} builds, seed {}", mc.samples, mc.seed),
+                    },
                 ));
             }
         }
@@ -722,6 +735,7 @@ fn failure_check(f: &SolveFailure, c: &OperatingCorner) -> Check {
     );
     match f {
         SolveFailure::ThermalRunaway { .. } => Check::failed(CheckName::ThermalRunaway, at),
+        SolveFailure::InputAboveSupply { .. } => Check::failed(CheckName::InputVoltage, at),
         _ => Check::failed(CheckName::NoConvergence, at),
     }
 }

@@ -139,7 +139,10 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
         if chars > super::MAX_NAME_CHARS {
             return Err(cx.invalid(
                 &path,
-                format!("a class id of {chars} characters (`{}`)", crate::text::shown(id)),
+                format!(
+                    "a class id of {chars} characters (`{}`)",
+                    crate::text::shown(id)
+                ),
                 format!("an id of at most {} characters", super::MAX_NAME_CHARS),
             ));
         }

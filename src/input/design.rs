@@ -36,6 +36,7 @@ use crate::units::{Dimension as D, Field};
 const LINE_ITEM_COST: Field = Field::new("a line-item cost", D::Number, 0.0, 1e6);
 /// Most boards per build accepted (a typo guard, not a physical limit).
 const MAX_BOARDS: u32 = 10_000_000;
+use crate::model::MAX_COPIES;
 
 /// A design file read and checked on its own, waiting for its catalog.
 #[derive(Debug)]
@@ -98,7 +99,12 @@ pub fn load_design(file: &str, text: &str, base_dir: &Path) -> Result<DesignDraf
     };
     // Read the catalog now, so a missing one is reported at the design's `catalog:` line.
     let catalog_text = match &catalog {
-        Some(path) => Some(read_named(&cx, "catalog", path, "a path to a catalog file, relative to the design file")?),
+        Some(path) => Some(read_named(
+            &cx,
+            "catalog",
+            path,
+            "a path to a catalog file, relative to the design file",
+        )?),
         None => None,
     };
     let mut included = Vec::with_capacity(raw.channels.len());
@@ -118,12 +124,22 @@ pub fn load_design(file: &str, text: &str, base_dir: &Path) -> Result<DesignDraf
             ));
         }
         first_named.insert(ch.name.trim(), i);
-        if ch.count == Some(0) {
-            return Err(cx.invalid(
-                &at("count"),
-                "a count of 0 copies",
-                "1 or more identical copies (or no `count`: the requirement's `quantity`)",
-            ));
+        match ch.count {
+            Some(0) => {
+                return Err(cx.invalid(
+                    &at("count"),
+                    "a count of 0 copies",
+                    "1 or more identical copies (or no `count`: the requirement's `quantity`)",
+                ))
+            }
+            Some(n) if n > MAX_COPIES => {
+                return Err(cx.invalid(
+                    &at("count"),
+                    format!("a count of {n} copies"),
+                    format!("1 to {MAX_COPIES} identical copies of one channel per board"),
+                ))
+            }
+            _ => {}
         }
         included.push(match &ch.requirement {
             RawRequirementSource::Inline(_) => None,
@@ -163,10 +179,7 @@ fn read_named(
         Err(super::ReadError::Input(e)) => Err(e),
         Err(super::ReadError::Io(e)) => Err(cx.invalid(
             path_in_design,
-            format!(
-                "cannot read `{}`: {e}",
-                crate::text::shown(&name)
-            ),
+            format!("cannot read `{}`: {e}", crate::text::shown(&name)),
             expected,
         )),
     }
@@ -206,6 +219,16 @@ impl DesignDraft {
                     unreachable!("load_design reads every included requirement")
                 }
             };
+            if ch.count.is_none() && requirement.quantity > MAX_COPIES {
+                return Err(cx.invalid(
+                    &format!("channels[{i}].requirement"),
+                    format!(
+                        "the channel has no `count`, so it takes the requirement's `quantity`, {} copies",
+                        requirement.quantity
+                    ),
+                    format!("1 to {MAX_COPIES} copies per board: give the channel a `count`"),
+                ));
+            }
             channels.push(DesignChannel {
                 name: ch.name.trim().to_string(),
                 count: ch.count.unwrap_or(requirement.quantity),

@@ -23,9 +23,9 @@ pub use catalog::{catalog_to_yaml, load_catalog, load_default_catalog, DEFAULT_C
 pub use catalog::{DEFAULT_CATALOG_YAML, TRANSISTOR_FIELDS};
 pub use design::{load_design, DesignDraft};
 pub use positions::Position;
+pub use positions::{MAX_DEPTH, MAX_SCALAR_CHARS};
 pub use requirement::{load_requirement, requirement_to_yaml, REQUIREMENT_FIELDS};
 pub use source::{read_text, text_of, ReadError, MAX_INPUT_BYTES};
-pub use positions::{MAX_DEPTH, MAX_SCALAR_CHARS};
 
 use crate::text::shown;
 
@@ -59,7 +59,10 @@ pub enum Problem {
     NotUtf8 { byte: u8 },
     #[error("mappings and lists nest more than {limit} levels deep here; expected a flatter file (the formats need fewer than 10 levels)")]
     TooDeep { limit: usize },
-    #[error("a {what} of {chars} characters (`{}`); expected at most {limit} characters", shown(start))]
+    #[error(
+        "a {what} of {chars} characters (`{}…`); expected at most {limit} characters",
+        crate::text::escaped(start)
+    )]
     TooLong {
         /// "value" or "key".
         what: &'static str,
@@ -106,7 +109,10 @@ pub enum Problem {
         what: String,
         expected: String,
     },
-    #[error("duplicate id `{}` (first used on line {first_line}); expected every class id to be unique", shown(id))]
+    #[error(
+        "duplicate id `{}` (first used on line {first_line}); expected every class id to be unique",
+        shown(id)
+    )]
     DuplicateId { id: String, first_line: usize },
 }
 
@@ -133,9 +139,16 @@ pub fn did_you_mean<'a, I>(word: &str, candidates: I) -> Option<String>
 where
     I: IntoIterator<Item = &'a str>,
 {
-    let limit = (word.chars().count() / 3).max(1);
+    let len = word.chars().count();
+    // Edit distance costs the product of the lengths: a word far longer than any name
+    // cannot be a typo of one, so huge values are not compared at all.
+    if len > 2 * MAX_NAME_CHARS {
+        return None;
+    }
+    let limit = (len / 3).max(1);
     candidates
         .into_iter()
+        .filter(|c| c.len() <= 4 * MAX_NAME_CHARS)
         .map(|c| (edit_distance(&word.to_lowercase(), &c.to_lowercase()), c))
         .filter(|(d, _)| *d <= limit)
         .min_by_key(|(d, _)| *d)
@@ -241,9 +254,36 @@ fn backticked(s: &str) -> Vec<String> {
         .collect()
 }
 
+/// `msg` with every double-quoted value longer than a message should repeat cut with an
+/// ellipsis (serde quotes the offending value: a whole CSV read as one YAML string).
+fn cut_quoted(msg: &str) -> String {
+    let parts: Vec<&str> = msg.split('"').collect();
+    if parts.len() < 3 {
+        return crate::text::escaped(msg).into_owned();
+    }
+    let mut out = String::with_capacity(msg.len().min(1024));
+    for (i, p) in parts.iter().enumerate() {
+        if i > 0 {
+            out.push('"');
+        }
+        // Odd pieces sit between quotes (an unmatched last quote leaves the tail as is).
+        if i % 2 == 1 && i + 1 < parts.len() {
+            out.push_str(&shown(p));
+        } else {
+            out.push_str(&crate::text::escaped(p));
+        }
+    }
+    out
+}
+
 fn serde_problem(raw: &str) -> Problem {
-    let msg = strip_marks(raw);
-    if msg.contains("repetition limit exceeded") || msg.contains("recursion limit exceeded") {
+    let msg = cut_quoted(&strip_marks(raw));
+    if msg.contains("recursion limit exceeded") {
+        return Problem::TooDeep {
+            limit: positions::MAX_DEPTH,
+        };
+    }
+    if msg.contains("repetition limit exceeded") {
         return Problem::AliasBomb(msg);
     }
     // serde_yaml prefixes a path (`transistor_classes[0].model: ...`); keep it.
@@ -416,7 +456,9 @@ impl<'a> Ctx<'a> {
         if s.trim().is_empty() {
             return Err(self.invalid(path, "the text is empty", "a short description"));
         }
-        Ok(s.trim().to_string())
+        // Free text reaches terminals, tables and reports: control characters (ESC, BEL)
+        // are kept visible but harmless, escaped as `\e`, `\a`.
+        Ok(crate::text::escaped(s.trim()).into_owned())
     }
 
     /// A class id, channel or board name: not empty, at most [`MAX_NAME_CHARS`]

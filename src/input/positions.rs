@@ -59,12 +59,29 @@ impl Positions {
     /// Walk `text`. A document that fails to scan yields the map up to the failure (the
     /// caller reports syntax errors through serde).
     pub fn of(text: &str) -> Positions {
+        if let Some(line) = too_indented(text) {
+            return Positions {
+                refused: Some((
+                    Position { line, col: 1 },
+                    Problem::TooDeep { limit: MAX_DEPTH },
+                )),
+                ..Positions::default()
+            };
+        }
         let mut walker = Walker::default();
         let mut parser = Parser::new_from_str(text);
         while walker.refused.is_none() {
             match parser.next_token() {
-                Ok((Event::StreamEnd, _)) | Err(_) => break,
+                Ok((Event::StreamEnd, _)) => break,
                 Ok((ev, mark)) => walker.on_event(ev, mark),
+                Err(e) => {
+                    // The scanner's own nesting limit (flow collections, 255 levels) can
+                    // trip before the walk reaches MAX_DEPTH: the same refusal.
+                    if e.info().contains("recursion limit") {
+                        walker.refuse(*e.marker(), Problem::TooDeep { limit: MAX_DEPTH });
+                    }
+                    break;
+                }
             }
         }
         Positions {
@@ -87,6 +104,31 @@ impl Positions {
             }
         }
     }
+}
+
+/// Block nesting takes at least one column per level: a line whose indentation and
+/// leading `- ` / `? ` / `: ` indicators reach past this column nests far too deep, and
+/// is refused before the parser builds its indentation stack.
+const MAX_INDENT_COLUMNS: usize = 512;
+
+/// The first line (1-based) indented past [`MAX_INDENT_COLUMNS`], if any.
+fn too_indented(text: &str) -> Option<usize> {
+    for (i, line) in text.lines().enumerate() {
+        let b = line.as_bytes();
+        let mut c = 0;
+        while c < b.len() {
+            let indicator = matches!(b[c], b'-' | b'?' | b':')
+                && b.get(c + 1).is_none_or(|x| *x == b' ' || *x == b'\t');
+            if !(b[c] == b' ' || b[c] == b'\t' || indicator) {
+                break;
+            }
+            c += 1;
+            if c > MAX_INDENT_COLUMNS {
+                return Some(i + 1);
+            }
+        }
+    }
+    None
 }
 
 enum Frame {
@@ -211,7 +253,7 @@ impl Walker {
                             what: limit.0,
                             chars: value.chars().count(),
                             limit: limit.1,
-                            start: value.chars().take(crate::text::SHOWN_CHARS + 1).collect(),
+                            start: value.chars().take(crate::text::SHOWN_CHARS).collect(),
                         },
                     );
                     return;
@@ -369,10 +411,17 @@ mod tests {
         let flow = format!("a: {}1{}", "[".repeat(100_000), "]".repeat(100_000));
         for t in [text, flow] {
             let (at, problem) = Positions::of(&t).refused.expect("too deep");
-            assert!(matches!(problem, Problem::TooDeep { limit: MAX_DEPTH }), "{problem:?}");
+            assert!(
+                matches!(problem, Problem::TooDeep { limit: MAX_DEPTH }),
+                "{problem:?}"
+            );
             assert!(at.line >= 1);
         }
-        let nested = format!("a: {}1{}", "[".repeat(MAX_DEPTH - 1), "]".repeat(MAX_DEPTH - 1));
+        let nested = format!(
+            "a: {}1{}",
+            "[".repeat(MAX_DEPTH - 1),
+            "]".repeat(MAX_DEPTH - 1)
+        );
         assert!(Positions::of(&nested).refused.is_none());
     }
 

@@ -30,6 +30,9 @@ use crate::model::{
 };
 use crate::units::{Dimension as D, Field};
 
+/// Largest `quantity` (the table above).
+pub const MAX_QUANTITY: u32 = 1_000_000;
+
 /// Every quantity field of a requirement with its plausible range.
 pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
     (
@@ -155,8 +158,12 @@ pub(super) fn validate_requirement(
     }
     let max_cost = opt("max_cost", &raw.max_cost)?;
     let quantity = raw.quantity.unwrap_or(1);
-    if quantity == 0 {
-        return Err(cx.invalid("quantity", "the quantity is 0", "1 or more mirrors"));
+    if quantity == 0 || quantity > MAX_QUANTITY {
+        return Err(cx.invalid(
+            "quantity",
+            format!("a quantity of {quantity}"),
+            format!("1 to {MAX_QUANTITY} mirrors"),
+        ));
     }
 
     let mut topologies = Filters::default();

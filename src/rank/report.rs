@@ -61,6 +61,10 @@ pub struct CandidateRow {
     pub error_total: f64,
     #[serde(rename = "yield")]
     pub yield_fraction: f64,
+    /// 95 % Wilson interval of `yield` from the number of builds; `null` without a yield.
+    pub yield_ci_95: Option<[f64; 2]>,
+    /// Monte Carlo builds behind `yield` and `yield_solved` (0 without a yield).
+    pub yield_samples: u32,
     /// Yield with every sampled build re-solved (`check` and `--explain` only).
     pub yield_solved: f64,
     pub r_out_min_ohm: f64,
@@ -72,6 +76,19 @@ pub struct CandidateRow {
 }
 
 impl CandidateRow {
+    /// The yield as printed: `98.0 % (95 % CI 96.9–98.7 %)`, or `—` without one.
+    pub fn yield_text(&self) -> String {
+        yield_with_interval(self.yield_fraction, self.yield_ci_95)
+    }
+
+    /// The re-solved yield as printed, with its own 95 % interval.
+    pub fn yield_solved_text(&self) -> String {
+        yield_with_interval(
+            self.yield_solved,
+            crate::check::wilson_interval(self.yield_solved, self.yield_samples),
+        )
+    }
+
     pub fn new(rank: Option<usize>, spec: &DesignSpec, ev: &Evaluation, pareto: bool) -> Self {
         let f = &ev.figures;
         CandidateRow {
@@ -88,6 +105,8 @@ impl CandidateRow {
             error_random_sigma: f.error_random_sigma,
             error_total: f.error_total,
             yield_fraction: f.yield_fraction,
+            yield_ci_95: crate::check::wilson_interval(f.yield_fraction, f.yield_samples),
+            yield_samples: f.yield_samples,
             yield_solved: f.yield_solved,
             r_out_min_ohm: f.r_out_min_ohm,
             compliance_v: f.compliance_v,
@@ -253,7 +272,10 @@ pub enum Caution {
         supply_v: f64,
     },
     /// An emitter resistor of 10 MΩ or more: leakage and contamination.
-    HighValueResistor { who: String, ohms: f64 },
+    HighValueResistor {
+        who: String,
+        ohms: f64,
+    },
     /// Always shown: catalog values are typical, not guaranteed.
     TypicalValues,
 }
@@ -346,6 +368,22 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
     }
     out.push(Caution::TypicalValues);
     out
+}
+
+/// A yield with its 95 % interval, as every printed yield reads.
+pub fn yield_with_interval(y: f64, ci: Option<[f64; 2]>) -> String {
+    if !y.is_finite() {
+        return "—".to_string();
+    }
+    match ci {
+        Some([lo, hi]) => format!(
+            "{:.1} % (95 % CI {:.1}–{:.1} %)",
+            y * 100.0,
+            lo * 100.0,
+            hi * 100.0
+        ),
+        None => format!("{:.1} %", y * 100.0),
+    }
 }
 
 /// Full reasoning for one row.

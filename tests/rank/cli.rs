@@ -38,7 +38,7 @@ fn rank_json_has_the_documented_keys_and_cautions_go_to_stderr() {
             "--seed",
             "9",
             "--samples",
-            "50",
+            "100",
         ])
         .output()
         .unwrap();
@@ -64,7 +64,7 @@ fn rank_every_value_is_echoed_and_lists_values_of_one_family() {
             "--format",
             "json",
             "--samples",
-            "50",
+            "100",
         ])
         .output()
         .unwrap();
@@ -228,7 +228,7 @@ fn led_loads_get_their_caution() {
             "--top",
             "2",
             "--samples",
-            "50",
+            "100",
         ])
         .assert()
         .code(0)
