@@ -490,7 +490,7 @@ fn range_hint(text: &str, value: f64, field: &Field) -> String {
     let t = text.trim();
     // A negative value where only magnitudes make sense (voltages from the mirror rail,
     // currents, resistances): say so instead of only giving the range.
-    if value < 0.0 && field.min >= 0.0 && fits(-value) {
+    if value < 0.0 && field.min >= 0.0 && fits(-value) && field.dimension == Dimension::Voltage {
         let unsigned = t.trim_start_matches(['-', '\u{2212}']);
         return format!(
             "; {} is a magnitude here (measured from the mirror rail for NPN and PNP mirrors alike): write it without the sign, as in `{unsigned}`",
@@ -607,7 +607,7 @@ fn round_sig3(x: f64) -> f64 {
 }
 
 /// A number with 3 significant digits, without an exponent for |x| in [1e-3, 1e6).
-fn sig3(x: f64) -> String {
+pub fn sig3(x: f64) -> String {
     if x == 0.0 {
         return "0".to_string();
     }

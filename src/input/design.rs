@@ -179,7 +179,11 @@ fn read_named(
         Err(super::ReadError::Input(e)) => Err(e),
         Err(super::ReadError::Io(e)) => Err(cx.invalid(
             path_in_design,
-            format!("cannot read `{}`: {e}", crate::text::shown(&name)),
+            format!(
+                "cannot read the {} file `{}`: {e}",
+                path_in_design.rsplit('.').next().unwrap_or(path_in_design),
+                crate::text::shown(&name)
+            ),
             expected,
         )),
     }

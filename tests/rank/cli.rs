@@ -19,7 +19,7 @@ fn rank_succeeds_with_rows_and_cautions() {
         .args(["rank", LTP, "--top", "3", "--samples", "100"])
         .assert()
         .code(0)
-        .stdout(predicate::str::contains("candidates evaluated"))
+        .stdout(predicate::str::contains("candidates: "))
         .stdout(predicate::str::contains(
             "typical of each class, not guaranteed",
         ));
@@ -45,7 +45,7 @@ fn rank_json_has_the_documented_keys_and_cautions_go_to_stderr() {
     assert_eq!(out.status.code(), Some(0));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["seed"], 9);
-    assert_eq!(v["samples"], 50);
+    assert_eq!(v["samples"], 100);
     assert_eq!(v["candidates"].as_array().unwrap().len(), 2);
     assert_eq!(v["every_value"], false);
     assert!(v["families"].as_u64().unwrap() >= 2);
@@ -234,4 +234,15 @@ fn led_loads_get_their_caution() {
         .code(0)
         .stdout(predicate::str::contains("LED string"))
         .stdout(predicate::str::contains("datasheet"));
+}
+
+#[test]
+fn top_zero_is_a_usage_error() {
+    for command in ["rank", "report"] {
+        cmd()
+            .args([command, LTP, "--top", "0"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("--top 0"));
+    }
 }
