@@ -129,6 +129,7 @@ pub(crate) mod tests {
             min_output_resistance_ohm: None,
             input_voltage_max_v: None,
             max_cost: None,
+            max_noise: None,
             quantity: 1,
             load: LoadKind::General,
             topologies: Filters::default(),

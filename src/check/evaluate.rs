@@ -15,9 +15,12 @@ use super::budget::{self, ErrorBudget, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
 use super::montecarlo::{self, linear_yield};
+use super::noise::{self, NoiseFigure};
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
-use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions};
+use crate::circuit::{
+    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, SolveFailure, SolveOptions,
+};
 use crate::model::{Requirement, TransistorClass};
 
 /// Beta used to switch base current off in the error budget.
@@ -66,6 +69,9 @@ pub struct Figures {
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
     pub v_in_max_v: f64,
+    /// White output current noise density at the worst corner, A/√Hz (NaN when not
+    /// computed: it is computed at `Full` depth and wherever `max_noise` is set).
+    pub noise_a_per_rthz: f64,
 }
 
 impl Default for Figures {
@@ -80,6 +86,7 @@ impl Default for Figures {
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
             v_in_max_v: f64::NAN,
+            noise_a_per_rthz: f64::NAN,
         }
     }
 }
@@ -107,6 +114,8 @@ pub struct Evaluation {
     pub budget: Option<ErrorBudget>,
     /// Junction temperatures at the corner with the hottest junction.
     pub hottest: Option<CornerState>,
+    /// Output noise at the worst corner, with its breakdown (see `Figures`).
+    pub noise: Option<NoiseFigure>,
     /// False when a screen stopped early (only the failing check is then certain).
     pub complete: bool,
 }
@@ -214,6 +223,10 @@ impl<'a> Evaluator<'a> {
         };
         self.solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating })?;
+        Ok(self.state(&sol, corner))
+    }
+
+    fn state(&self, sol: &crate::circuit::Solution, corner: &OperatingCorner) -> CornerState {
         let desc = self.design.spec.topology.desc();
         let devices = sol
             .transistors()
@@ -231,13 +244,31 @@ impl<'a> Evaluator<'a> {
                     .any(|l| l.name == t.name && l.collector == "S"),
             })
             .collect();
-        Ok(CornerState {
+        CornerState {
             corner: *corner,
             i_out_a: sol.i_out_a,
             v_in_v: sol.v_in_v,
             error: sol.i_out_a / (self.req.ratio * corner.i_in_a) - 1.0,
             devices,
-        })
+        }
+    }
+
+    /// The nominal solve at one corner together with its noise analysis (one solve).
+    fn solve_net_noise(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+    ) -> Result<(CornerState, NoiseAnalysis), SolveFailure> {
+        let op = OperatingPoint {
+            i_in_a: corner.i_in_a,
+            v_out_v: corner.v_out_v,
+            supply_v: self.req.supply_v,
+            t_amb_k: corner.t_amb_k,
+        };
+        self.solves.fetch_add(1, Ordering::Relaxed);
+        // The same solve as `solve_net` (bit for bit), plus the small-signal analysis.
+        let (sol, noise) = net.solve_with_noise(&op, &SolveOptions { self_heating: true })?;
+        Ok((self.state(&sol, corner), noise))
     }
 
     fn solve_with(
@@ -425,11 +456,22 @@ impl<'a> Evaluator<'a> {
         };
         let mut states: Vec<Option<CornerState>> = vec![None; self.corners.len()];
         let mut sens: Vec<Sensitivities> = vec![[0.0; budget::RANDOM_INPUTS]; self.corners.len()];
+        // Noise rides on the nominal solves: wherever the requirement limits it, and for
+        // the figures of a full evaluation (the shown rows), never in a screen.
+        let want_noise = depth != Depth::Screen && (req.max_noise.is_some() || depth == Depth::Full);
+        let mut noises: Vec<Option<NoiseAnalysis>> = vec![None; self.corners.len()];
         for &i in &order {
             let c = self.corners[i];
-            let solved = self
-                .solve_net(&net, &c, true)
-                .and_then(|s| self.sensitivities(&sens_nets, &c, &s).map(|d| (s, d)));
+            let nominal = if want_noise {
+                self.solve_net_noise(&net, &c)
+                    .map(|(s, n)| (s, Some(n)))
+            } else {
+                self.solve_net(&net, &c, true).map(|s| (s, None))
+            };
+            let solved = nominal.and_then(|(s, n)| {
+                noises[i] = n;
+                self.sensitivities(&sens_nets, &c, &s).map(|d| (s, d))
+            });
             let (state, d) = match solved {
                 Ok(x) => x,
                 Err(f) => {
@@ -573,6 +615,22 @@ impl<'a> Evaluator<'a> {
             }
         }
 
+        let noise_fig = if want_noise {
+            let analysed: Vec<(OperatingCorner, &NoiseAnalysis)> = self
+                .corners
+                .iter()
+                .zip(&noises)
+                .filter_map(|(c, n)| n.as_ref().map(|n| (*c, n)))
+                .collect();
+            noise::figure(&analysed, req.max_noise.as_ref())
+        } else {
+            None
+        };
+        figures.noise_a_per_rthz = noise_fig.as_ref().map_or(f64::NAN, |f| f.white_a_per_rthz);
+        if let Some(limit) = &req.max_noise {
+            checks.push(noise::check(noise_fig.as_ref(), limit));
+        }
+
         if let Some(h) = ratings::helper_headroom(&states, req.supply_v) {
             checks.push(h);
         }
@@ -590,6 +648,7 @@ impl<'a> Evaluator<'a> {
             corners: Vec::new(),
             budget: None,
             hottest: None,
+            noise: noise_fig,
             complete: !unsolved,
         };
         if depth == Depth::Full {
@@ -699,6 +758,7 @@ fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
         corners: Vec::new(),
         budget: None,
         hottest: None,
+        noise: None,
         complete: false,
     }
 }

@@ -11,6 +11,7 @@ mod corners;
 mod design;
 mod evaluate;
 mod montecarlo;
+mod noise;
 mod ratings;
 mod verdict;
 
@@ -25,6 +26,7 @@ pub use design::{
 };
 pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
 pub use montecarlo::linear_yield;
+pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};
 pub use ratings::{
     derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
 };

@@ -24,6 +24,7 @@ pub enum CheckName {
     Accuracy,
     Yield,
     OutputResistance,
+    Noise,
     HelperHeadroom,
     Vceo,
     IcMax,
@@ -31,7 +32,7 @@ pub enum CheckName {
 }
 
 impl CheckName {
-    pub const ALL: [CheckName; 12] = [
+    pub const ALL: [CheckName; 13] = [
         CheckName::Cost,
         CheckName::ThermalRunaway,
         CheckName::NoConvergence,
@@ -40,6 +41,7 @@ impl CheckName {
         CheckName::Accuracy,
         CheckName::Yield,
         CheckName::OutputResistance,
+        CheckName::Noise,
         CheckName::HelperHeadroom,
         CheckName::Vceo,
         CheckName::IcMax,
@@ -56,6 +58,7 @@ impl CheckName {
             CheckName::Accuracy => "accuracy",
             CheckName::Yield => "yield",
             CheckName::OutputResistance => "output-resistance",
+            CheckName::Noise => "noise",
             CheckName::HelperHeadroom => "helper-headroom",
             CheckName::Vceo => "vceo",
             CheckName::IcMax => "ic-max",
@@ -73,6 +76,7 @@ impl CheckName {
             | CheckName::HelperHeadroom
             | CheckName::Vceo => "V",
             CheckName::OutputResistance => "Ω",
+            CheckName::Noise => "A/√Hz",
             CheckName::IcMax => "A",
             CheckName::Dissipation => "W",
         }

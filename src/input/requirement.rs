@@ -15,6 +15,8 @@
 //! | `min_output_resistance` | 1 Ω to 1 TΩ |
 //! | `input_voltage_max` | 0.1 V to 1000 V |
 //! | `max_cost` | 0 to 1e6 |
+//! | `max_noise` (or `max_noise.density`) | 1e-18 A/√Hz to 1e-6 A/√Hz |
+//! | `max_noise.frequency`, `max_noise.band.min/max` | 1 mHz to 1 MHz, min < max |
 //! | `quantity` | 1 to 1000000 (default 1) |
 //!
 //! `allow`/`deny` name topologies (`simple`, `wilson`, ...) or catalog class ids; each
@@ -23,15 +25,16 @@
 
 use serde_yaml::{Mapping, Value};
 
-use super::raw::{RawKind, RawLoad, RawRange, RawRequirement};
+use super::raw::{RawKind, RawLoad, RawNoiseLimit, RawRange, RawRequirement};
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
-    Catalog, Filters, LoadKind, MirrorKind, Polarity, Range, Requirement, Topology, ALL_TOPOLOGIES,
+    Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Range, Requirement,
+    Topology, ALL_TOPOLOGIES,
 };
 use crate::units::{Dimension as D, Field};
 
 /// Every quantity field of a requirement with its plausible range.
-pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
+pub const REQUIREMENT_FIELDS: [(&str, Field); 14] = [
     (
         "supply",
         Field::new("a supply voltage", D::Voltage, 0.5, 1000.0),
@@ -68,6 +71,14 @@ pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
     ),
     ("max_cost", Field::new("a cost", D::Number, 0.0, 1e6)),
     ("quantity", Field::new("a quantity", D::Number, 1.0, 1e6)),
+    (
+        "max_noise",
+        Field::new("a noise density", D::NoiseDensity, 1e-18, 1e-6),
+    ),
+    (
+        "max_noise.frequency",
+        Field::new("a noise frequency", D::Frequency, 1e-3, 1e6),
+    ),
 ];
 
 fn rf(name: &str) -> &'static Field {
@@ -154,6 +165,44 @@ pub(super) fn validate_requirement(
         }
     }
     let max_cost = opt("max_cost", &raw.max_cost)?;
+    let max_noise = match &raw.max_noise {
+        None => None,
+        Some(RawNoiseLimit::Density(d)) => Some(NoiseLimit {
+            density_a_per_rthz: cx.qty("max_noise", d, rf("max_noise"))?,
+            band: NoiseBand::White,
+        }),
+        Some(RawNoiseLimit::Spec(spec)) => {
+            let density_a_per_rthz = cx.qty("max_noise.density", &spec.density, rf("max_noise"))?;
+            let f = rf("max_noise.frequency");
+            let band = match (&spec.frequency, &spec.band) {
+                (Some(_), Some(_)) => {
+                    return Err(cx.invalid(
+                        "max_noise.band",
+                        "both a frequency and a band are given",
+                        "either `frequency` or `band`",
+                    ))
+                }
+                (Some(fr), None) => NoiseBand::At(cx.qty("max_noise.frequency", fr, f)?),
+                (None, Some(b)) => {
+                    let min = cx.qty("max_noise.band.min", &b.min, f)?;
+                    let max = cx.qty("max_noise.band.max", &b.max, f)?;
+                    if min >= max {
+                        return Err(cx.invalid(
+                            "max_noise.band.min",
+                            format!("min `{}` is not below max `{}`", b.min.text(), b.max.text()),
+                            "min < max",
+                        ));
+                    }
+                    NoiseBand::Band(Range { min, max })
+                }
+                (None, None) => NoiseBand::White,
+            };
+            Some(NoiseLimit {
+                density_a_per_rthz,
+                band,
+            })
+        }
+    };
     let quantity = raw.quantity.unwrap_or(1);
     if quantity == 0 {
         return Err(cx.invalid("quantity", "the quantity is 0", "1 or more mirrors"));
@@ -226,6 +275,7 @@ pub(super) fn validate_requirement(
         min_output_resistance_ohm,
         input_voltage_max_v,
         max_cost,
+        max_noise,
         quantity,
         load: match raw.load.unwrap_or(RawLoad::General) {
             RawLoad::General => LoadKind::General,
@@ -278,6 +328,23 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
         if let Some(v) = v {
             put(k, num(v));
         }
+    }
+    if let Some(n) = &r.max_noise {
+        let mut mm = Mapping::new();
+        mm.insert(s("density"), s(&format!("{:?} A/rtHz", n.density_a_per_rthz)));
+        match n.band {
+            NoiseBand::White => {}
+            NoiseBand::At(f) => {
+                mm.insert(s("frequency"), s(&format!("{f:?} Hz")));
+            }
+            NoiseBand::Band(b) => {
+                let mut bm = Mapping::new();
+                bm.insert(s("min"), s(&format!("{:?} Hz", b.min)));
+                bm.insert(s("max"), s(&format!("{:?} Hz", b.max)));
+                mm.insert(s("band"), Value::Mapping(bm));
+            }
+        }
+        put("max_noise", Value::Mapping(mm));
     }
     put("quantity", Value::Number(r.quantity.into()));
     put("load", s(r.load.as_str()));

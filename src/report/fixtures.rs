@@ -81,6 +81,7 @@ pub fn requirement() -> Requirement {
         min_output_resistance_ohm: None,
         input_voltage_max_v: None,
         max_cost: None,
+        max_noise: None,
         quantity: 1,
         load: LoadKind::General,
         topologies: Filters::default(),
