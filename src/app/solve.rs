@@ -10,7 +10,10 @@
 //! for widlar, else 1), `r_out` (ohm; null when infinite, i.e. no Early effect), `v_in`,
 //! `balance_voltage` (V, null when the error does not cross zero between V(in) and the
 //! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `name`,
-//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`) and `iterations`.
+//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`), `iterations`,
+//! `noise_a_per_rthz` (white output current noise density, A/√Hz) and `noise_sources`
+//! (list of `source`, `kind`, `transfer` = dI_out/di, `density_a_per_rthz` = that source's
+//! white output density, and `flicker_a2` = its output flicker coefficient, density `/ f`).
 
 use std::collections::BTreeMap;
 use std::io;
@@ -133,6 +136,19 @@ pub struct SolveReport {
     pub nodes: BTreeMap<String, f64>,
     pub transistors: Vec<TransistorReport>,
     pub iterations: u32,
+    /// White output current noise density, A/√Hz (small-signal; docs/model.md).
+    pub noise_a_per_rthz: f64,
+    pub noise_sources: Vec<NoiseSourceReport>,
+}
+
+/// One noise source of the solved point and what it puts on the output current.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoiseSourceReport {
+    pub source: String,
+    pub kind: String,
+    pub transfer: f64,
+    pub density_a_per_rthz: f64,
+    pub flicker_a2: f64,
 }
 
 fn role_name(role: Role) -> String {
@@ -281,7 +297,7 @@ pub fn solve_command(
         other => SolveCommandError::Failed(other),
     };
     let net = Netlist::compile(&design, &mm).map_err(fail)?;
-    let sol = net.solve(&op, &opts).map_err(fail)?;
+    let (sol, noise) = net.solve_with_noise(&op, &opts).map_err(fail)?;
     let r_out = net.output_resistance(&op, &opts).map_err(fail)?;
     let n = design.intended_ratio(op.i_in_a);
     let mut nodes: BTreeMap<String, f64> = sol
@@ -313,6 +329,18 @@ pub fn solve_command(
             })
             .collect(),
         iterations: sol.iterations,
+        noise_a_per_rthz: noise.white_density(),
+        noise_sources: noise
+            .sources
+            .iter()
+            .map(|s| NoiseSourceReport {
+                source: s.element.to_string(),
+                kind: s.kind.as_str().to_string(),
+                transfer: s.transfer,
+                density_a_per_rthz: s.output_white_a2_per_hz().sqrt(),
+                flicker_a2: s.output_flicker_a2(),
+            })
+            .collect(),
     })
 }
 
@@ -345,6 +373,10 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
     for (name, v) in &report.nodes {
         figures.add_row(vec![format!("V({name})"), eng(*v, "V")]);
     }
+    figures.add_row(vec![
+        "output noise (white)".to_string(),
+        eng(report.noise_a_per_rthz, "A/√Hz"),
+    ]);
     figures.add_row(vec![
         "Newton iterations".to_string(),
         report.iterations.to_string(),
