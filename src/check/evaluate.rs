@@ -456,9 +456,10 @@ impl<'a> Evaluator<'a> {
         };
         let mut states: Vec<Option<CornerState>> = vec![None; self.corners.len()];
         let mut sens: Vec<Sensitivities> = vec![[0.0; budget::RANDOM_INPUTS]; self.corners.len()];
-        // Noise rides on the nominal solves: wherever the requirement limits it, and for
-        // the figures of a full evaluation (the shown rows), never in a screen.
-        let want_noise = depth != Depth::Screen && (req.max_noise.is_some() || depth == Depth::Full);
+        // Noise rides on the nominal solves: wherever the requirement limits it (a screen
+        // that runs to the end is a verdict), and for the figures of a full evaluation
+        // (the shown rows). Otherwise it is not computed.
+        let want_noise = req.max_noise.is_some() || depth == Depth::Full;
         let mut noises: Vec<Option<NoiseAnalysis>> = vec![None; self.corners.len()];
         for &i in &order {
             let c = self.corners[i];
