@@ -666,7 +666,7 @@ mod tests {
         assert!(lines[0].ends_with(",governing_check,governing_margin,pareto,pass"));
         // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
         assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
-        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,2.5e-12,,accuracy,0.5,true,true"));
+        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,0.0000000000025,,accuracy,0.5,true,true"));
         assert_eq!(
             lines[0].split(',').count(),
             lines[1].replace("\"thick, 1 %\"", "x").split(',').count()
