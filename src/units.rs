@@ -579,7 +579,10 @@ mod tests {
             ("2.5 fA/sqrt(Hz)", 2.5e-15),
             ("1 nA/rHz", 1e-9),
         ] {
-            assert!(close(parse(text, Dimension::NoiseDensity).unwrap(), v), "{text}");
+            assert!(
+                close(parse(text, Dimension::NoiseDensity).unwrap(), v),
+                "{text}"
+            );
         }
         assert!(close(parse("1 kHz", Dimension::Frequency).unwrap(), 1e3));
         assert!(close(parse("100 mHz", Dimension::Frequency).unwrap(), 0.1));
@@ -587,7 +590,10 @@ mod tests {
             parse("10 pA", Dimension::NoiseDensity),
             Err(QuantityError::WrongUnit { .. })
         ));
-        assert_eq!(format_quantity(12.3e-12, Dimension::NoiseDensity), "12.3 pA/√Hz");
+        assert_eq!(
+            format_quantity(12.3e-12, Dimension::NoiseDensity),
+            "12.3 pA/√Hz"
+        );
     }
 
     #[test]

@@ -133,17 +133,24 @@ mod formats {
         let r = load("max_noise: {density: 1 fA/sqrt(Hz), band: {min: 1 Hz, max: 10 Hz}}").unwrap();
         assert_eq!(
             r.max_noise.unwrap().band,
-            NoiseBand::Band(Range { min: 1.0, max: 10.0 })
+            NoiseBand::Band(Range {
+                min: 1.0,
+                max: 10.0
+            })
         );
         let text = input::requirement_to_yaml(&r);
         assert_eq!(
             input::load_requirement("round-trip.yaml", &text, Some(&cat)).unwrap(),
             r
         );
-        let e = load("max_noise: {density: 1 pA/rtHz, frequency: 1 Hz, band: {min: 1 Hz, max: 2 Hz}}")
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("noise.yaml:") && e.contains("either `frequency` or `band`"), "{e}");
+        let e =
+            load("max_noise: {density: 1 pA/rtHz, frequency: 1 Hz, band: {min: 1 Hz, max: 2 Hz}}")
+                .unwrap_err()
+                .to_string();
+        assert!(
+            e.contains("noise.yaml:") && e.contains("either `frequency` or `band`"),
+            "{e}"
+        );
         let e = load("max_noise: 3 pA").unwrap_err().to_string();
         assert!(e.contains("a current noise density"), "{e}");
         let e = load("max_noise: {density: 1 pA/rtHz, band: {min: 10 Hz, max: 1 Hz}}")

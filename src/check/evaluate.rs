@@ -464,8 +464,7 @@ impl<'a> Evaluator<'a> {
         for &i in &order {
             let c = self.corners[i];
             let nominal = if want_noise {
-                self.solve_net_noise(&net, &c)
-                    .map(|(s, n)| (s, Some(n)))
+                self.solve_net_noise(&net, &c).map(|(s, n)| (s, Some(n)))
             } else {
                 self.solve_net(&net, &c, true).map(|s| (s, None))
             };

@@ -200,7 +200,10 @@ mod tests {
         assert!((fig.judged_a_per_rthz.powi(2) / 8e-24 - 1.0).abs() < 1e-12);
         let band = NoiseLimit {
             density_a_per_rthz: 1e-12,
-            band: NoiseBand::Band(Range { min: 1.0, max: 101.0 }),
+            band: NoiseBand::Band(Range {
+                min: 1.0,
+                max: 101.0,
+            }),
         };
         let fig = figure(&[(corner(300.0), &a)], Some(&band)).unwrap();
         let power = 4e-24 * 100.0 + 4e-23 * 101f64.ln();

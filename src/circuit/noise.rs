@@ -133,7 +133,10 @@ impl NoiseAnalysis {
 
     /// Total flicker output coefficient, A² (density `/ f`).
     pub fn flicker_a2(&self) -> f64 {
-        self.sources.iter().map(NoiseSource::output_flicker_a2).sum()
+        self.sources
+            .iter()
+            .map(NoiseSource::output_flicker_a2)
+            .sum()
     }
 
     /// White output current density, A/√Hz.
@@ -269,11 +272,7 @@ impl CircuitSystem<'_> {
             base[i] = bi;
             let dic = [-ev.dic_dvbc, ev.dic_dvbe + ev.dic_dvbc, -ev.dic_dvbe];
             let dib = [-ev.dib_dvbc, ev.dib_dvbe + ev.dib_dvbc, -ev.dib_dvbe];
-            let die = [
-                -(dic[0] + dib[0]),
-                -(dic[1] + dib[1]),
-                -(dic[2] + dib[2]),
-            ];
+            let die = [-(dic[0] + dib[0]), -(dic[1] + dib[1]), -(dic[2] + dib[2])];
             let stamp = [dic, dib, die];
             let old = [self.row_of(t.c), self.row_of(t.b), self.row_of(t.e)];
             let new = [old[0], bi, old[2]];
@@ -449,8 +448,7 @@ mod tests {
     use super::*;
     use crate::circuit::{Design, Mismatch};
     use crate::model::{
-        BjtParams, Matching, Polarity, Ratings, Thermal, Topology, TransistorClass,
-        ALL_TOPOLOGIES,
+        BjtParams, Matching, Polarity, Ratings, Thermal, Topology, TransistorClass, ALL_TOPOLOGIES,
     };
 
     /// k and q exactly as defined by the SI (CODATA 2018), written out here so the test
@@ -540,7 +538,10 @@ mod tests {
             );
             let gain = sol.i_out_a / p.i_in_a;
             let exact = 2.0 * Q * sol.i_out_a * (1.0 + gain);
-            assert!((total / exact - 1.0).abs() < 1e-6, "BF {bf}: {total:e} vs {exact:e}");
+            assert!(
+                (total / exact - 1.0).abs() < 1e-6,
+                "BF {bf}: {total:e} vs {exact:e}"
+            );
             // The base-current terms are what separates the total from 4 q I_out.
             let base = sum(&n, |s| s.kind == NoiseKind::BaseShot);
             let ib: f64 = sol.transistors().iter().map(|t| t.i_b).sum();
@@ -617,16 +618,18 @@ mod tests {
         let pair = class(120.0, Some(60.0));
         for &t in ALL_TOPOLOGIES.iter() {
             for re in [0.0f64, 1e3] {
-                let re = if t == Topology::Widlar { re.max(500.0) } else { re };
+                let re = if t == Topology::Widlar {
+                    re.max(500.0)
+                } else {
+                    re
+                };
                 let d = design(t, &pair, re);
                 let net = Netlist::compile(&d, &Mismatch::default()).unwrap();
                 let p = op(200e-6);
                 let opts = SolveOptions::default();
                 let (_, n) = net.solve_with_noise(&p, &opts).unwrap();
                 for s in &n.sources {
-                    let fd = net
-                        .finite_difference_transfer(&p, &opts, s, 1e-8)
-                        .unwrap();
+                    let fd = net.finite_difference_transfer(&p, &opts, s, 1e-8).unwrap();
                     assert!(
                         (s.transfer - fd).abs() <= 1e-4 * s.transfer.abs() + 1e-6,
                         "{t:?} RE {re}: {} {}: small-signal {} vs finite difference {fd}",

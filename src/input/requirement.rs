@@ -331,7 +331,10 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
     }
     if let Some(n) = &r.max_noise {
         let mut mm = Mapping::new();
-        mm.insert(s("density"), s(&format!("{:?} A/rtHz", n.density_a_per_rthz)));
+        mm.insert(
+            s("density"),
+            s(&format!("{:?} A/rtHz", n.density_a_per_rthz)),
+        );
         match n.band {
             NoiseBand::White => {}
             NoiseBand::At(f) => {

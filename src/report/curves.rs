@@ -184,9 +184,18 @@ pub fn write(set: &CurveSet, format: Format, style: Style, out: &mut dyn Write) 
                 None => writeln!(out, "Balance voltage: none between V(in) and the supply")?,
             }
             if !set.noise_vs_re.is_empty() {
-                let mut t = new_table(style, &["RE1", "RE2", "output noise (white)", "largest share"]);
+                let mut t = new_table(
+                    style,
+                    &["RE1", "RE2", "output noise (white)", "largest share"],
+                );
                 for n in &set.noise_vs_re {
-                    let ohm = |r: f64| if r > 0.0 { eng(r, "Ω", u) } else { "none".into() };
+                    let ohm = |r: f64| {
+                        if r > 0.0 {
+                            eng(r, "Ω", u)
+                        } else {
+                            "none".into()
+                        }
+                    };
                     t.add_row(vec![
                         ohm(n.re1_ohm),
                         ohm(n.re2_ohm),

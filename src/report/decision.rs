@@ -429,10 +429,13 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             source: "total".into(),
             density_a_per_rthz: n.density_a_per_rthz,
         });
-        let dominant = n
-            .sources
-            .first()
-            .map_or(String::new(), |s| format!("; {} gives {} of the noise power", s.source, percent(s.fraction)));
+        let dominant = n.sources.first().map_or(String::new(), |s| {
+            format!(
+                "; {} gives {} of the noise power",
+                s.source,
+                percent(s.fraction)
+            )
+        });
         plots.push(Plot {
             id: "noise".into(),
             title: "Output current noise of the chosen design".into(),

@@ -580,10 +580,7 @@ pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<Stri
         if let Some(l) = limit {
             chart
                 .draw_series(DashedLineSeries::new(
-                    vec![
-                        (pa(l), SegmentValue::Exact(0)),
-                        (pa(l), SegmentValue::Last),
-                    ],
+                    vec![(pa(l), SegmentValue::Exact(0)), (pa(l), SegmentValue::Last)],
                     5,
                     4,
                     ShapeStyle::from(BALANCE).stroke_width(1),

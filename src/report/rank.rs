@@ -10,12 +10,12 @@ use std::io::{self, Write};
 
 use comfy_table::{Cell, CellAlignment, Table};
 
+use super::{new_table, Format, Style};
+use crate::check::CheckName;
 use crate::rank::{
     CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
     NoiseReport, RankReport, NOISE_VALIDITY,
 };
-use crate::check::CheckName;
-use super::{new_table, Format, Style};
 use crate::units::format_prefixed;
 
 struct Column {
@@ -453,8 +453,10 @@ fn write_noise(w: &mut dyn Write, n: &NoiseReport, style: Style) -> io::Result<(
         n.t_amb_c,
         n.measure,
         quantity(n.density_a_per_rthz, "A/√Hz"),
-        n.band_rms_a
-            .map_or(String::new(), |r| format!(", {} rms over the band", quantity(r, "A")))
+        n.band_rms_a.map_or(String::new(), |r| format!(
+            ", {} rms over the band",
+            quantity(r, "A")
+        ))
     )?;
     let mut t = new_table(style, &["source", "density", "share of power", ""]);
     for s in &n.sources {
