@@ -92,6 +92,9 @@ pub struct NoisePoint {
     pub noise_a_per_rthz: Option<f64>,
     /// The element giving the largest share of the noise power there.
     pub dominant: Option<String>,
+    /// Every transistor forward active (false: the resistor drop has pushed a device
+    /// into saturation, where the figure says little about the design).
+    pub forward_active: bool,
 }
 
 /// Points of the noise sweep: no degeneration, then 10 Ω to the largest value the
@@ -137,6 +140,11 @@ pub fn noise_against_re(
                 i_in_a: op.i_in_a,
                 re1_ohm: d.re1_ohm,
                 re2_ohm: d.re2_ohm,
+                forward_active: solved.as_ref().is_some_and(|(s, _)| {
+                    s.transistors()
+                        .iter()
+                        .all(|t| t.region == crate::device::Region::ForwardActive)
+                }),
                 noise_a_per_rthz: solved.as_ref().map(|(_, n)| n.white_density()),
                 dominant: solved.and_then(|(_, n)| {
                     n.by_element()

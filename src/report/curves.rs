@@ -6,7 +6,8 @@
 //! `output` (list of {`i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
 //! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
 //! `balance_voltage_v` (null when none), `failed_points`, `noise_vs_re` (list of
-//! {`re1_ohm`, `re2_ohm`, `noise_a_per_rthz` (null when unsolved), `dominant`}). CSV
+//! {`i_in_a`, `re1_ohm`, `re2_ohm`, `noise_a_per_rthz` (null when unsolved), `dominant`,
+//! `forward_active`}). CSV
 //! columns: `curve` (`output`, `error` or `noise`), `i_in_a`, `t_amb_c`, `v_out_v`,
 //! `i_out_a`, `error`, `re1_ohm`, `noise_a_per_rthz` (the last two on `noise` rows only).
 
@@ -199,8 +200,11 @@ pub fn write(set: &CurveSet, format: Format, style: Style, out: &mut dyn Write) 
                     t.add_row(vec![
                         ohm(n.re1_ohm),
                         ohm(n.re2_ohm),
-                        n.noise_a_per_rthz
-                            .map_or("no solution".into(), |x| eng(x, "A/√Hz", u)),
+                        match n.noise_a_per_rthz {
+                            None => "no solution".into(),
+                            Some(x) if n.forward_active => eng(x, "A/√Hz", u),
+                            Some(x) => format!("{} (saturated)", eng(x, "A/√Hz", u)),
+                        },
                         n.dominant.clone().unwrap_or_else(|| "—".into()),
                     ]);
                 }
