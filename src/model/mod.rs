@@ -14,7 +14,9 @@ mod transistor;
 
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel};
-pub use requirement::{Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Range, Requirement};
+pub use requirement::{
+    Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Range, Requirement, DEFAULT_MIN_VCE_V,
+};
 pub use resistor::{ResistorClass, Series};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
