@@ -5,7 +5,9 @@
 //! Owns the grids (which currents, voltages and temperatures are swept) and the finished
 //! data. The sweep itself takes any point solver ([`sweep`]); [`for_design`] runs it on
 //! a design through the circuit layer, nominal devices. A point that does not converge
-//! is kept as a gap (`None`), never as a guessed number.
+//! is kept as a gap (`None`), never as a guessed number. The white output noise against
+//! the emitter-resistor value shows the trade degeneration makes (transistor shot noise
+//! for resistor thermal noise).
 
 use serde::Serialize;
 
@@ -74,6 +76,85 @@ pub struct CurveSet {
     pub balance_voltage_v: Option<f64>,
     /// Points the solver could not converge on (gaps in the curves).
     pub failed_points: usize,
+    /// White output noise density against the emitter-resistor value (empty for the
+    /// Widlar, whose RE2 sets its ratio).
+    pub noise_vs_re: Vec<NoisePoint>,
+}
+
+/// The design's white output current noise with its emitter resistors scaled to
+/// `re1_ohm` (RE2 keeps its proportion to RE1), at I_in max, V_out min, 25 °C.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoisePoint {
+    pub i_in_a: f64,
+    pub re1_ohm: f64,
+    pub re2_ohm: f64,
+    /// A/√Hz; `None` where the solver did not converge.
+    pub noise_a_per_rthz: Option<f64>,
+    /// The element giving the largest share of the noise power there.
+    pub dominant: Option<String>,
+    /// Every transistor forward active (false: the resistor drop has pushed a device
+    /// into saturation, where the figure says little about the design).
+    pub forward_active: bool,
+}
+
+/// Points of the noise sweep: no degeneration, then 10 Ω to the largest value the
+/// candidate space offers (`V_out,min / I_in,max`), geometric.
+pub const NOISE_POINTS: usize = 25;
+
+/// Sweeps the white output noise against the emitter-resistor value (see `NoisePoint`).
+pub fn noise_against_re(
+    design: &Design,
+    req: &Requirement,
+    solve_opts: &SolveOptions,
+) -> Vec<NoisePoint> {
+    let desc = design.topology.desc();
+    if !desc.has_re1 || !desc.allows_degeneration {
+        return Vec::new();
+    }
+    let proportion = if design.re1_ohm > 0.0 {
+        design.re2_ohm / design.re1_ohm
+    } else {
+        1.0 / req.ratio
+    };
+    let top = (req.output_voltage_v.min / req.input_current_a.max).max(100.0);
+    let mut values = vec![0.0];
+    values.extend(geometric_grid(10.0, top, NOISE_POINTS - 1));
+    let op = OperatingPoint {
+        i_in_a: req.input_current_a.max,
+        v_out_v: req.output_voltage_v.min,
+        supply_v: req.supply_v,
+        t_amb_k: ROOM_K,
+    };
+    values
+        .into_iter()
+        .map(|re1| {
+            let d = Design {
+                re1_ohm: re1,
+                re2_ohm: re1 * proportion,
+                ..*design
+            };
+            let solved = Netlist::compile(&d, &Mismatch::default())
+                .and_then(|net| net.solve_with_noise(&op, solve_opts))
+                .ok();
+            NoisePoint {
+                i_in_a: op.i_in_a,
+                re1_ohm: d.re1_ohm,
+                re2_ohm: d.re2_ohm,
+                forward_active: solved.as_ref().is_some_and(|(s, _)| {
+                    s.transistors()
+                        .iter()
+                        .all(|t| t.region == crate::device::Region::ForwardActive)
+                }),
+                noise_a_per_rthz: solved.as_ref().map(|(_, n)| n.white_density()),
+                dominant: solved.and_then(|(_, n)| {
+                    n.by_element()
+                        .into_iter()
+                        .max_by(|a, b| a.white_a2_per_hz.total_cmp(&b.white_a2_per_hz))
+                        .map(|e| e.element.to_string())
+                }),
+            }
+        })
+        .collect()
 }
 
 fn range_as_map<S: serde::Serializer>(r: &Range, s: S) -> Result<S::Ok, S::Error> {
@@ -206,6 +287,7 @@ where
         error,
         balance_voltage_v,
         failed_points: failed,
+        noise_vs_re: Vec::new(),
     }
 }
 
@@ -233,11 +315,13 @@ pub fn for_design(
         &mm,
         solve_opts,
     );
-    Ok(sweep(req, opts, balance, |i, v, t| {
+    let mut set = sweep(req, opts, balance, |i, v, t| {
         net.solve(&point(i, v, t), solve_opts)
             .ok()
             .map(|s| s.i_out_a)
-    }))
+    });
+    set.noise_vs_re = noise_against_re(design, req, solve_opts);
+    Ok(set)
 }
 
 /// Voltages where a curve's error changes sign, interpolated linearly between the two

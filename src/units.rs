@@ -45,6 +45,10 @@ pub enum Dimension {
     Temperature,
     /// A plain number (beta, exponents, ratios, prices).
     Number,
+    /// A current noise density, A/√Hz (`pA/rtHz`, `pA/√Hz` in files).
+    NoiseDensity,
+    /// Hertz.
+    Frequency,
 }
 
 impl Dimension {
@@ -61,6 +65,8 @@ impl Dimension {
             Dimension::Energy => "an energy",
             Dimension::Temperature => "a temperature",
             Dimension::Number => "a plain number",
+            Dimension::NoiseDensity => "a current noise density",
+            Dimension::Frequency => "a frequency",
         }
     }
 
@@ -77,6 +83,8 @@ impl Dimension {
             Dimension::Energy => "`1.11 eV`",
             Dimension::Temperature => "`25 °C` or `298.15 K`",
             Dimension::Number => "`150`",
+            Dimension::NoiseDensity => "`10 pA/rtHz` or `10 pA/√Hz`",
+            Dimension::Frequency => "`10 Hz` or `1 kHz`",
         }
     }
 
@@ -93,13 +101,20 @@ impl Dimension {
             Dimension::Energy => "eV",
             Dimension::Temperature => "°C",
             Dimension::Number => "",
+            Dimension::NoiseDensity => "A/√Hz",
+            Dimension::Frequency => "Hz",
         }
     }
 
     fn takes_prefix(self) -> bool {
         matches!(
             self,
-            Dimension::Current | Dimension::Voltage | Dimension::Resistance | Dimension::Power
+            Dimension::Current
+                | Dimension::Voltage
+                | Dimension::Resistance
+                | Dimension::Power
+                | Dimension::NoiseDensity
+                | Dimension::Frequency
         )
     }
 }
@@ -185,7 +200,12 @@ const PREFIXES: [(&str, f64); 12] = [
 const GIGA: (&str, f64) = ("G", 1e9);
 
 /// Unit spellings and their dimension. Longest first so `K/W` wins over `K`.
-const UNITS: [(&str, Dimension); 21] = [
+const UNITS: [(&str, Dimension); 26] = [
+    ("A/sqrt(Hz)", Dimension::NoiseDensity),
+    ("A/rtHz", Dimension::NoiseDensity),
+    ("A/√Hz", Dimension::NoiseDensity),
+    ("A/rHz", Dimension::NoiseDensity),
+    ("Hz", Dimension::Frequency),
     ("ppm/°C", Dimension::TempCoefficient),
     ("ppm/K", Dimension::TempCoefficient),
     ("ppm/C", Dimension::TempCoefficient),
@@ -519,6 +539,8 @@ fn range_hint(text: &str, value: f64, field: &Field) -> String {
                         Dimension::Current => "amperes",
                         Dimension::Voltage => "volts",
                         Dimension::Resistance => "ohms",
+                        Dimension::NoiseDensity => "A/√Hz",
+                        Dimension::Frequency => "hertz",
                         _ => "watts",
                     },
                     field.dimension.example()
@@ -630,6 +652,31 @@ mod tests {
 
     fn close(a: f64, b: f64) -> bool {
         (a - b).abs() <= 1e-12 * a.abs().max(b.abs())
+    }
+
+    #[test]
+    fn noise_densities_and_frequencies_take_prefixes() {
+        for (text, v) in [
+            ("10 pA/rtHz", 10e-12),
+            ("10 pA/√Hz", 10e-12),
+            ("2.5 fA/sqrt(Hz)", 2.5e-15),
+            ("1 nA/rHz", 1e-9),
+        ] {
+            assert!(
+                close(parse(text, Dimension::NoiseDensity).unwrap(), v),
+                "{text}"
+            );
+        }
+        assert!(close(parse("1 kHz", Dimension::Frequency).unwrap(), 1e3));
+        assert!(close(parse("100 mHz", Dimension::Frequency).unwrap(), 0.1));
+        assert!(matches!(
+            parse("10 pA", Dimension::NoiseDensity),
+            Err(QuantityError::WrongUnit { .. })
+        ));
+        assert_eq!(
+            format_quantity(12.3e-12, Dimension::NoiseDensity),
+            "12.3 pA/√Hz"
+        );
     }
 
     #[test]

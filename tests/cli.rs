@@ -114,6 +114,63 @@ mod formats {
     }
 
     #[test]
+    fn requirement_reads_each_form_of_max_noise() {
+        use mirrorpick::model::{NoiseBand, Range};
+        let cat = test_catalog();
+        let base = read("requirement/valid.yaml").replace(
+            "max_noise: {density: 3 pA/rtHz, band: {min: 0.1 Hz, max: 10 Hz}}\n",
+            "",
+        );
+        let load = |line: &str| {
+            input::load_requirement("noise.yaml", &format!("{base}{line}\n"), Some(&cat))
+        };
+        let r = load("max_noise: 2.5 pA/√Hz").unwrap();
+        let n = r.max_noise.unwrap();
+        assert!((n.density_a_per_rthz - 2.5e-12).abs() < 1e-24);
+        assert_eq!(n.band, NoiseBand::White);
+        let r = load("max_noise: {density: 1 nA/rtHz, frequency: 1 kHz}").unwrap();
+        assert_eq!(r.max_noise.unwrap().band, NoiseBand::At(1e3));
+        let r = load("max_noise: {density: 1 fA/sqrt(Hz), band: {min: 1 Hz, max: 10 Hz}}").unwrap();
+        assert_eq!(
+            r.max_noise.unwrap().band,
+            NoiseBand::Band(Range {
+                min: 1.0,
+                max: 10.0
+            })
+        );
+        let text = input::requirement_to_yaml(&r);
+        assert_eq!(
+            input::load_requirement("round-trip.yaml", &text, Some(&cat)).unwrap(),
+            r
+        );
+        let e =
+            load("max_noise: {density: 1 pA/rtHz, frequency: 1 Hz, band: {min: 1 Hz, max: 2 Hz}}")
+                .unwrap_err()
+                .to_string();
+        assert!(
+            e.contains("noise.yaml:") && e.contains("either `frequency` or `band`"),
+            "{e}"
+        );
+        let e = load("max_noise: 3 pA").unwrap_err().to_string();
+        assert!(e.contains("a current noise density"), "{e}");
+        let e = load("max_noise: {density: 1 pA/rtHz, band: {min: 10 Hz, max: 1 Hz}}")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("min < max"), "{e}");
+    }
+
+    #[test]
+    fn catalog_writes_and_reads_the_noise_fields() {
+        let mut c = test_catalog();
+        let m = &mut c.transistors[0].model;
+        (m.flicker_kf, m.flicker_af, m.base_resistance_ohm) = (2e-15, 1.2, 150.0);
+        let text = input::catalog_to_yaml(&c);
+        assert!(text.contains("kf:") && text.contains("af:") && text.contains("rb:"));
+        let back = input::load_catalog("round-trip.yaml", &text).unwrap();
+        assert_eq!(back, c);
+    }
+
+    #[test]
     fn embedded_catalog_passes_lint() {
         let c = input::load_default_catalog().unwrap();
         assert!(c.transistors.len() >= 14);
@@ -276,7 +333,7 @@ mod bad_input {
     fn unknown_field_with_suggestion() {
         assert_eq!(
             located(&catalog_error("unknown-field.yaml")),
-            "unknown-field.yaml:12:7: `transistor_classes[0].model`: unknown field `bff` (did you mean `bf`?); expected one of `is`, `bf`, `br`, `vaf`, `ikf`, `xti`, `eg`, `xtb` or `tnom`"
+            "unknown-field.yaml:12:7: `transistor_classes[0].model`: unknown field `bff` (did you mean `bf`?); expected one of `is`, `bf`, `br`, `vaf`, `ikf`, `xti`, `eg`, `xtb`, `tnom`, `kf`, `af` or `rb`"
         );
         assert!(located(&requirement_error("unknown-field.yaml")).starts_with(
             "unknown-field.yaml:9:1: unknown field `acuracy` (did you mean `accuracy`?); expected one of `name`"

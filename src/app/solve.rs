@@ -11,10 +11,13 @@
 //! any transistor and no self-heating), `v_in`,
 //! `balance_voltage` (V, null when the error does not cross zero between V(in) and the
 //! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `name`,
-//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`), `iterations` and
+//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`), `iterations`,
 //! `cautions` (ratings against the class: V_CE against the derated VCEO, I_C against IC
 //! max, each package's dissipation against its rating derated at the ambient; the same
-//! rules `check` applies).
+//! rules `check` applies), `noise_a_per_rthz` (white output current noise density, A/√Hz)
+//! and `noise_sources` (list of `source`, `kind`, `transfer` = dI_out/di,
+//! `density_a_per_rthz` = that source's white output density, and `flicker_a2` = its
+//! output flicker coefficient, density `/ f`).
 //!
 //! Emitter resistors: `--re` sets RE1 = RE2; `--re1` and `--re2` go together (one
 //! without the other would solve a lopsided mirror, so it is refused with the RE2 the
@@ -154,6 +157,19 @@ pub struct SolveReport {
     pub ratio: f64,
     /// Ratings cautions (empty when every rating has room).
     pub cautions: Vec<String>,
+    /// White output current noise density, A/√Hz (small-signal; docs/model.md).
+    pub noise_a_per_rthz: f64,
+    pub noise_sources: Vec<NoiseSourceReport>,
+}
+
+/// One noise source of the solved point and what it puts on the output current.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoiseSourceReport {
+    pub source: String,
+    pub kind: String,
+    pub transfer: f64,
+    pub density_a_per_rthz: f64,
+    pub flicker_a2: f64,
 }
 
 fn role_name(role: Role) -> String {
@@ -303,7 +319,7 @@ pub fn solve_command(
         other => SolveCommandError::Failed(other),
     };
     let net = Netlist::compile(&design, &mm).map_err(fail)?;
-    let sol = net.solve(&op, &opts).map_err(fail)?;
+    let (sol, noise) = net.solve_with_noise(&op, &opts).map_err(fail)?;
     let r_out = net.output_resistance(&op, &opts).map_err(fail)?;
     let n = ratio;
     // Without an Early effect and without self-heating nothing but junction leakage
@@ -344,6 +360,18 @@ pub fn solve_command(
         iterations: sol.iterations,
         ratio: n,
         cautions: rating_cautions(&design, helper_used, &sol, &op),
+        noise_a_per_rthz: noise.white_density(),
+        noise_sources: noise
+            .sources
+            .iter()
+            .map(|s| NoiseSourceReport {
+                source: s.element.to_string(),
+                kind: s.kind.as_str().to_string(),
+                transfer: s.transfer,
+                density_a_per_rthz: s.output_white_a2_per_hz().sqrt(),
+                flicker_a2: s.output_flicker_a2(),
+            })
+            .collect(),
     })
 }
 
@@ -514,6 +542,10 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
     for (name, v) in &report.nodes {
         figures.add_row(vec![format!("V({name})"), eng(*v, "V")]);
     }
+    figures.add_row(vec![
+        "output noise (white)".to_string(),
+        eng(report.noise_a_per_rthz, "A/√Hz"),
+    ]);
     figures.add_row(vec![
         "Newton iterations".to_string(),
         report.iterations.to_string(),

@@ -15,9 +15,12 @@ use super::budget::{self, ErrorBudget, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
 use super::montecarlo::{self, linear_yield};
+use super::noise::{self, NoiseFigure};
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
-use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions};
+use crate::circuit::{
+    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, SolveFailure, SolveOptions,
+};
 use crate::model::{Requirement, TransistorClass};
 
 /// Beta used to switch base current off in the error budget.
@@ -68,6 +71,9 @@ pub struct Figures {
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
     pub v_in_max_v: f64,
+    /// White output current noise density at the worst corner, A/√Hz (NaN when not
+    /// computed: it is computed at `Full` depth and wherever `max_noise` is set).
+    pub noise_a_per_rthz: f64,
 }
 
 impl Default for Figures {
@@ -83,6 +89,7 @@ impl Default for Figures {
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
             v_in_max_v: f64::NAN,
+            noise_a_per_rthz: f64::NAN,
         }
     }
 }
@@ -110,6 +117,8 @@ pub struct Evaluation {
     pub budget: Option<ErrorBudget>,
     /// Junction temperatures at the corner with the hottest junction.
     pub hottest: Option<CornerState>,
+    /// Output noise at the worst corner, with its breakdown (see `Figures`).
+    pub noise: Option<NoiseFigure>,
     /// Transistors whose collector junction is forward biased (`V_CB < 0`) at `V_out` min
     /// at some corner: soft saturation, shown as a caution (MODEL.md).
     pub soft_saturation: Vec<&'static str>,
@@ -221,6 +230,10 @@ impl<'a> Evaluator<'a> {
         };
         self.solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating })?;
+        Ok(self.state(&sol, corner))
+    }
+
+    fn state(&self, sol: &crate::circuit::Solution, corner: &OperatingCorner) -> CornerState {
         let desc = self.design.spec.topology.desc();
         let devices = sol
             .transistors()
@@ -238,13 +251,31 @@ impl<'a> Evaluator<'a> {
                     .any(|l| l.name == t.name && l.collector == "S"),
             })
             .collect();
-        Ok(CornerState {
+        CornerState {
             corner: *corner,
             i_out_a: sol.i_out_a,
             v_in_v: sol.v_in_v,
             error: sol.i_out_a / (self.req.ratio * corner.i_in_a) - 1.0,
             devices,
-        })
+        }
+    }
+
+    /// The nominal solve at one corner together with its noise analysis (one solve).
+    fn solve_net_noise(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+    ) -> Result<(CornerState, NoiseAnalysis), SolveFailure> {
+        let op = OperatingPoint {
+            i_in_a: corner.i_in_a,
+            v_out_v: corner.v_out_v,
+            supply_v: self.req.supply_v,
+            t_amb_k: corner.t_amb_k,
+        };
+        self.solves.fetch_add(1, Ordering::Relaxed);
+        // The same solve as `solve_net` (bit for bit), plus the small-signal analysis.
+        let (sol, noise) = net.solve_with_noise(&op, &SolveOptions { self_heating: true })?;
+        Ok((self.state(&sol, corner), noise))
     }
 
     fn solve_with(
@@ -446,10 +477,23 @@ impl<'a> Evaluator<'a> {
         let n = self.corners.len();
         let mut states: Vec<Option<CornerState>> = vec![None; n];
         let mut sens: Vec<Option<Sensitivities>> = vec![None; n];
+        // Noise rides on the nominal solves: wherever the requirement limits it (a screen
+        // that runs to the end is a verdict), and for the figures of a full evaluation
+        // (the shown rows). Otherwise it is not computed.
+        let want_noise = req.max_noise.is_some() || depth == Depth::Full;
+        let mut noises: Vec<Option<NoiseAnalysis>> = vec![None; n];
         for &i in &order {
             let c = self.corners[i];
-            let state = match self.solve_net(&net, &c, true) {
-                Ok(s) => s,
+            let nominal = if want_noise {
+                self.solve_net_noise(&net, &c).map(|(s, nz)| (s, Some(nz)))
+            } else {
+                self.solve_net(&net, &c, true).map(|s| (s, None))
+            };
+            let state = match nominal {
+                Ok((s, nz)) => {
+                    noises[i] = nz;
+                    s
+                }
                 Err(f) => {
                     // A screen stops here; a verification goes on so every check that
                     // did not need this corner is still judged.
@@ -668,6 +712,28 @@ impl<'a> Evaluator<'a> {
             }
         }
 
+        let noise_fig = if want_noise {
+            let analysed: Vec<(OperatingCorner, &NoiseAnalysis)> = self
+                .corners
+                .iter()
+                .zip(&noises)
+                .filter_map(|(c, n)| n.as_ref().map(|n| (*c, n)))
+                .collect();
+            noise::figure(&analysed, req.max_noise.as_ref())
+        } else {
+            None
+        };
+        // Like every figure, the worst noise needs every corner.
+        let noise_fig = noise_fig.filter(|_| all_nominal);
+        figures.noise_a_per_rthz = noise_fig.as_ref().map_or(f64::NAN, |f| f.white_a_per_rthz);
+        if let Some(limit) = &req.max_noise {
+            checks.push(if all_nominal {
+                noise::check(noise_fig.as_ref(), limit)
+            } else {
+                Check::not_available(CheckName::Noise, limit.density_a_per_rthz, NEEDS_ALL)
+            });
+        }
+
         // Ratings: the stress at every corner, so none is available without all of them.
         if all_nominal {
             if let Some(h) = ratings::helper_headroom(&solved, req.supply_v) {
@@ -699,6 +765,7 @@ impl<'a> Evaluator<'a> {
             corners: Vec::new(),
             budget: None,
             hottest: None,
+            noise: noise_fig,
             soft_saturation: soft,
             complete: all_builds,
         };
@@ -838,6 +905,7 @@ fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
         corners: Vec::new(),
         budget: None,
         hottest: None,
+        noise: None,
         soft_saturation: Vec::new(),
         complete: false,
     }

@@ -12,6 +12,7 @@ mod corners;
 mod design;
 mod evaluate;
 mod montecarlo;
+mod noise;
 mod ratings;
 mod verdict;
 
@@ -28,6 +29,7 @@ pub use design::{
 };
 pub use evaluate::{compliance_rule, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
 pub use montecarlo::linear_yield;
+pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};
 pub use ratings::{
     derated_power, dissipation, forward_biased_collectors, ic_max, keeps_min_vce, vceo,
     CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,

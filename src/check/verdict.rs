@@ -27,6 +27,7 @@ pub enum CheckName {
     Accuracy,
     Yield,
     OutputResistance,
+    Noise,
     HelperHeadroom,
     Vceo,
     IcMax,
@@ -34,7 +35,7 @@ pub enum CheckName {
 }
 
 impl CheckName {
-    pub const ALL: [CheckName; 12] = [
+    pub const ALL: [CheckName; 13] = [
         CheckName::Cost,
         CheckName::ThermalRunaway,
         CheckName::NoSolution,
@@ -43,6 +44,7 @@ impl CheckName {
         CheckName::Accuracy,
         CheckName::Yield,
         CheckName::OutputResistance,
+        CheckName::Noise,
         CheckName::HelperHeadroom,
         CheckName::Vceo,
         CheckName::IcMax,
@@ -59,6 +61,7 @@ impl CheckName {
             CheckName::Accuracy => "accuracy",
             CheckName::Yield => "yield",
             CheckName::OutputResistance => "output-resistance",
+            CheckName::Noise => "noise",
             CheckName::HelperHeadroom => "helper-headroom",
             CheckName::Vceo => "vceo",
             CheckName::IcMax => "ic-max",
@@ -76,6 +79,7 @@ impl CheckName {
             | CheckName::HelperHeadroom
             | CheckName::Vceo => "V",
             CheckName::OutputResistance => "Ω",
+            CheckName::Noise => "A/√Hz",
             CheckName::IcMax => "A",
             CheckName::Dissipation => "W",
         }

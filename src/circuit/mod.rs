@@ -5,7 +5,8 @@
 //! Owns: package layout (which die sits in which package), netlist compilation, the
 //! circuit's `NonlinearSystem` (KCL per unknown node, one thermal equation per junction),
 //! the start point, failure classification (no convergence vs thermal runaway), and the
-//! solved small-signal figures (output resistance, balance voltage).
+//! solved small-signal figures (output resistance, balance voltage, output current noise
+//! in `noise`).
 //! Must not: match on the topology (descriptions are data), parse input or print.
 //!
 //! Package layout: when one package of the pair class holds every transistor of the
@@ -19,11 +20,13 @@
 #![allow(clippy::needless_range_loop)]
 
 mod netlist;
+mod noise;
 mod system;
 
 use crate::device::Region;
 use crate::model::{Role, Topology, TransistorClass};
 pub use netlist::{Netlist, MAX_JUNCTION_K, MAX_NODES, MAX_TRANSISTORS};
+pub use noise::{ElementNoise, NoiseAnalysis, NoiseKind, NoiseSource};
 
 /// A candidate design: topology, part classes and emitter resistors (nominal values).
 #[derive(Debug, Clone, Copy)]

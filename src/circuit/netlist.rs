@@ -46,10 +46,22 @@ pub(super) struct Tr {
     pub bjt: Bjt,
     pub package: u8,
     pub helper_class: bool,
+    /// Flicker and base-resistance data of the device's class (noise analysis only).
+    pub noise: DeviceNoise,
+}
+
+/// SPICE KF, AF and RB of one device (see `BjtParams`); zero KF and RB mean none.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub(super) struct DeviceNoise {
+    pub kf: f64,
+    pub af: f64,
+    pub rb_ohm: f64,
 }
 
 #[derive(Debug, Clone, Copy)]
 pub(super) struct Res {
+    /// The resistor's name in reports (`RE1`, `RE2`).
+    pub name: &'static str,
     /// The slot the resistor joins to R.
     pub slot: usize,
     /// Resistance at 25 °C with its deviation applied.
@@ -182,6 +194,7 @@ impl Netlist {
             bjt: Bjt::new(&design.pair.model, 0.0, 0.0),
             package: 0,
             helper_class: false,
+            noise: DeviceNoise::default(),
         };
         let mut tr = [dummy; MAX_TRANSISTORS];
         let mut theta = [[0.0; MAX_TRANSISTORS]; MAX_TRANSISTORS];
@@ -216,6 +229,11 @@ impl Netlist {
                 bjt: Bjt::new(p, dvbe, dbeta),
                 package: placement[i].package,
                 helper_class: placement[i].from_helper_class,
+                noise: DeviceNoise {
+                    kf: p.flicker_kf,
+                    af: p.flicker_af,
+                    rb_ohm: p.base_resistance_ohm,
+                },
             };
         }
         let n_tr = desc.transistors.len();
@@ -231,16 +249,18 @@ impl Netlist {
             }
         }
         let mut res = [Res {
+            name: "",
             slot: R_SLOT,
             ohm_25c: 0.0,
         }; 2];
         let mut n_res = 0;
-        for (name, ohm, dev) in [
-            ("e1", design.re1_ohm, mm.dre1),
-            ("e2", design.re2_ohm, mm.dre2),
+        for (name, label, ohm, dev) in [
+            ("e1", "RE1", design.re1_ohm, mm.dre1),
+            ("e2", "RE2", design.re2_ohm, mm.dre2),
         ] {
             if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
                 res[n_res] = Res {
+                    name: label,
                     slot: 3 + k,
                     ohm_25c: ohm * (1.0 + dev),
                 };
@@ -587,7 +607,7 @@ impl Netlist {
     }
 
     /// The solution, the system it was solved with and the unknown vector.
-    fn solve_full<'n>(
+    pub(super) fn solve_full<'n>(
         &'n self,
         op: &OperatingPoint,
         opts: &SolveOptions,

@@ -95,8 +95,10 @@ impl<'n> CircuitSystem<'n> {
         v
     }
 
+    /// The residual row of a slot: unknown nodes by index, `out` just past the last
+    /// unknown, the rails `NONE`.
     #[inline]
-    fn index(&self, slot: usize) -> usize {
+    pub(super) fn index(&self, slot: usize) -> usize {
         if slot >= 3 {
             slot - 3
         } else if slot == OUT_SLOT {

@@ -16,6 +16,9 @@
 //! | `model.eg` | 0.5 eV to 2.5 eV (default 1.11 eV) |
 //! | `model.xtb` | -2 to 5 (default 1.5) |
 //! | `model.tnom` | -60 °C to 200 °C (default 27 °C) |
+//! | `model.kf` | 0 to 1e-6 (flicker coefficient, SPICE KF; absent: no flicker noise) |
+//! | `model.af` | 0.5 to 3 (flicker exponent, SPICE AF; default 1) |
+//! | `model.rb` | 0 Ω to 100 kΩ (base spreading resistance, SPICE RB; default 0) |
 //! | `matching.vbe_offset_sigma` | 0 to 50 mV |
 //! | `matching.beta_mismatch_sigma` | 0 to 50 % |
 //! | `ratings.vceo` | 1 V to 2000 V |
@@ -47,7 +50,7 @@ pub const DEFAULT_CATALOG_YAML: &str = include_str!("../../catalog/default.yaml"
 pub const DEFAULT_CATALOG_NAME: &str = "catalog/default.yaml (built in)";
 
 /// Every field of a transistor class with its plausible range, in file order.
-pub const TRANSISTOR_FIELDS: [(&str, Field); 16] = [
+pub const TRANSISTOR_FIELDS: [(&str, Field); 19] = [
     ("model.is", Field::new("IS", D::Current, 1e-18, 1e-9)),
     ("model.bf", Field::new("BF", D::Number, 5.0, 5000.0)),
     ("model.br", Field::new("BR", D::Number, 0.01, 500.0)),
@@ -60,6 +63,9 @@ pub const TRANSISTOR_FIELDS: [(&str, Field); 16] = [
         "model.tnom",
         Field::new("TNOM", D::Temperature, 213.15, 473.15),
     ),
+    ("model.kf", Field::new("KF", D::Number, 0.0, 1e-6)),
+    ("model.af", Field::new("AF", D::Number, 0.5, 3.0)),
+    ("model.rb", Field::new("RB", D::Resistance, 0.0, 1e5)),
     (
         "matching.vbe_offset_sigma",
         Field::new("a V_BE offset sigma", D::Voltage, 0.0, 0.05),
@@ -183,6 +189,9 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
             eg_ev: oq("model.eg", &m.eg)?.unwrap_or(1.11),
             xtb: oq("model.xtb", &m.xtb)?.unwrap_or(1.5),
             t_nom_k: oq("model.tnom", &m.tnom)?.unwrap_or(300.15),
+            flicker_kf: oq("model.kf", &m.kf)?.unwrap_or(0.0),
+            flicker_af: oq("model.af", &m.af)?.unwrap_or(1.0),
+            base_resistance_ohm: oq("model.rb", &m.rb)?.unwrap_or(0.0),
         };
         let matching = match (&t.matching, t.devices_per_package) {
             (Some(mm), n) if n > 1 => Some(Matching {
@@ -337,6 +346,13 @@ pub fn catalog_to_yaml(c: &Catalog) -> String {
                 ("xtb", num(m.xtb)),
                 ("tnom", kelvin(m.t_nom_k)),
             ]);
+            if m.flicker_kf > 0.0 {
+                model.push(("kf", num(m.flicker_kf)));
+                model.push(("af", num(m.flicker_af)));
+            }
+            if m.base_resistance_ohm > 0.0 {
+                model.push(("rb", num(m.base_resistance_ohm)));
+            }
             let mut e = vec![
                 ("id", s(&t.id)),
                 ("summary", s(&t.summary)),

@@ -128,6 +128,12 @@ pub struct RawModel {
     pub xtb: Option<RawQty>,
     #[serde(default)]
     pub tnom: Option<RawQty>,
+    #[serde(default)]
+    pub kf: Option<RawQty>,
+    #[serde(default)]
+    pub af: Option<RawQty>,
+    #[serde(default)]
+    pub rb: Option<RawQty>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -228,6 +234,8 @@ pub struct RawRequirement {
     #[serde(default)]
     pub max_cost: Option<RawQty>,
     #[serde(default)]
+    pub max_noise: Option<RawNoiseLimit>,
+    #[serde(default)]
     pub quantity: Option<u32>,
     #[serde(default)]
     pub load: Option<RawLoad>,
@@ -235,6 +243,59 @@ pub struct RawRequirement {
     pub allow: Vec<String>,
     #[serde(default)]
     pub deny: Vec<String>,
+}
+
+/// `max_noise`: a density alone (the white density), or a mapping with the density and
+/// a `frequency` or a `band`.
+#[derive(Debug)]
+pub enum RawNoiseLimit {
+    Density(RawQty),
+    Spec(RawNoiseSpec),
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a noise limit: `{density: 10 pA/rtHz}`, with `frequency: 10 Hz` or `band: {min: 0.1 Hz, max: 10 Hz}`"
+)]
+pub struct RawNoiseSpec {
+    pub density: RawQty,
+    #[serde(default)]
+    pub frequency: Option<RawQty>,
+    #[serde(default)]
+    pub band: Option<RawRange>,
+}
+
+impl<'de> Deserialize<'de> for RawNoiseLimit {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawNoiseLimit;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a noise density such as `10 pA/rtHz`, or a mapping `{density: 10 pA/rtHz, frequency: 10 Hz}`",
+                )
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<Self::Value, E> {
+                Ok(RawNoiseLimit::Density(RawQty::Text(v.to_string())))
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<Self::Value, E> {
+                Ok(RawNoiseLimit::Density(RawQty::Number(v)))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<Self::Value, E> {
+                Ok(RawNoiseLimit::Density(RawQty::Number(v as f64)))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<Self::Value, E> {
+                Ok(RawNoiseLimit::Density(RawQty::Number(v as f64)))
+            }
+            // In place (not through a `Value`) so errors keep serde_yaml's positions.
+            fn visit_map<A: de::MapAccess<'de>>(self, map: A) -> Result<Self::Value, A::Error> {
+                RawNoiseSpec::deserialize(de::value::MapAccessDeserializer::new(map))
+                    .map(RawNoiseLimit::Spec)
+            }
+        }
+        d.deserialize_any(V)
+    }
 }
 
 #[derive(Debug, Deserialize)]

@@ -16,6 +16,8 @@
 //! | `input_voltage_max` | 0.1 V to 1000 V |
 //! | `min_vce` | 0 V to 10 V (default 0.3 V) |
 //! | `max_cost` | 0 to 1e6 |
+//! | `max_noise` (or `max_noise.density`) | 1e-18 A/√Hz to 1e-6 A/√Hz |
+//! | `max_noise.frequency`, `max_noise.band.min/max` | 1 mHz to 1 MHz, min < max |
 //! | `quantity` | 1 to 1000000 (default 1) |
 //!
 //! `allow`/`deny` name topologies (`simple`, `wilson`, ...) or catalog class ids; each
@@ -24,11 +26,11 @@
 
 use serde_yaml::{Mapping, Value};
 
-use super::raw::{RawKind, RawLoad, RawRange, RawRequirement};
+use super::raw::{RawKind, RawLoad, RawNoiseLimit, RawRange, RawRequirement};
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
-    Catalog, Filters, LoadKind, MirrorKind, Polarity, Range, Requirement, Topology, ALL_TOPOLOGIES,
-    DEFAULT_MIN_VCE_V,
+    Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Range, Requirement,
+    Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V,
 };
 use crate::units::{Dimension as D, Field};
 
@@ -36,7 +38,7 @@ use crate::units::{Dimension as D, Field};
 pub const MAX_QUANTITY: u32 = 1_000_000;
 
 /// Every quantity field of a requirement with its plausible range.
-pub const REQUIREMENT_FIELDS: [(&str, Field); 13] = [
+pub const REQUIREMENT_FIELDS: [(&str, Field); 15] = [
     (
         "supply",
         Field::new("a supply voltage", D::Voltage, 0.5, 1000.0),
@@ -77,6 +79,14 @@ pub const REQUIREMENT_FIELDS: [(&str, Field); 13] = [
     ),
     ("max_cost", Field::new("a cost", D::Number, 0.0, 1e6)),
     ("quantity", Field::new("a quantity", D::Number, 1.0, 1e6)),
+    (
+        "max_noise",
+        Field::new("a noise density", D::NoiseDensity, 1e-18, 1e-6),
+    ),
+    (
+        "max_noise.frequency",
+        Field::new("a noise frequency", D::Frequency, 1e-3, 1e6),
+    ),
 ];
 
 fn rf(name: &str) -> &'static Field {
@@ -164,6 +174,44 @@ pub(super) fn validate_requirement(
     }
     let min_vce_v = opt("min_vce", &raw.min_vce)?.unwrap_or(DEFAULT_MIN_VCE_V);
     let max_cost = opt("max_cost", &raw.max_cost)?;
+    let max_noise = match &raw.max_noise {
+        None => None,
+        Some(RawNoiseLimit::Density(d)) => Some(NoiseLimit {
+            density_a_per_rthz: cx.qty("max_noise", d, rf("max_noise"))?,
+            band: NoiseBand::White,
+        }),
+        Some(RawNoiseLimit::Spec(spec)) => {
+            let density_a_per_rthz = cx.qty("max_noise.density", &spec.density, rf("max_noise"))?;
+            let f = rf("max_noise.frequency");
+            let band = match (&spec.frequency, &spec.band) {
+                (Some(_), Some(_)) => {
+                    return Err(cx.invalid(
+                        "max_noise.band",
+                        "both a frequency and a band are given",
+                        "either `frequency` or `band`",
+                    ))
+                }
+                (Some(fr), None) => NoiseBand::At(cx.qty("max_noise.frequency", fr, f)?),
+                (None, Some(b)) => {
+                    let min = cx.qty("max_noise.band.min", &b.min, f)?;
+                    let max = cx.qty("max_noise.band.max", &b.max, f)?;
+                    if min >= max {
+                        return Err(cx.invalid(
+                            "max_noise.band.min",
+                            format!("min `{}` is not below max `{}`", b.min.text(), b.max.text()),
+                            "min < max",
+                        ));
+                    }
+                    NoiseBand::Band(Range { min, max })
+                }
+                (None, None) => NoiseBand::White,
+            };
+            Some(NoiseLimit {
+                density_a_per_rthz,
+                band,
+            })
+        }
+    };
     let quantity = raw.quantity.unwrap_or(1);
     if quantity == 0 || quantity > MAX_QUANTITY {
         return Err(cx.invalid(
@@ -241,6 +289,7 @@ pub(super) fn validate_requirement(
         input_voltage_max_v,
         min_vce_v,
         max_cost,
+        max_noise,
         quantity,
         load: match raw.load.unwrap_or(RawLoad::General) {
             RawLoad::General => LoadKind::General,
@@ -294,6 +343,26 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
         if let Some(v) = v {
             put(k, num(v));
         }
+    }
+    if let Some(n) = &r.max_noise {
+        let mut mm = Mapping::new();
+        mm.insert(
+            s("density"),
+            s(&format!("{:?} A/rtHz", n.density_a_per_rthz)),
+        );
+        match n.band {
+            NoiseBand::White => {}
+            NoiseBand::At(f) => {
+                mm.insert(s("frequency"), s(&format!("{f:?} Hz")));
+            }
+            NoiseBand::Band(b) => {
+                let mut bm = Mapping::new();
+                bm.insert(s("min"), s(&format!("{:?} Hz", b.min)));
+                bm.insert(s("max"), s(&format!("{:?} Hz", b.max)));
+                mm.insert(s("band"), Value::Mapping(bm));
+            }
+        }
+        put("max_noise", Value::Mapping(mm));
     }
     put("quantity", Value::Number(r.quantity.into()));
     put("load", s(r.load.as_str()));

@@ -95,9 +95,30 @@ pub struct Requirement {
     /// (MODEL.md "compliance voltage"; default [`DEFAULT_MIN_VCE_V`]).
     pub min_vce_v: f64,
     pub max_cost: Option<f64>,
+    /// Largest output current noise (`max_noise`), when set.
+    pub max_noise: Option<NoiseLimit>,
     /// How many identical mirrors are built (default 1).
     pub quantity: u32,
     pub load: LoadKind,
     pub topologies: Filters,
     pub classes: Filters,
+}
+
+/// Where a noise limit applies.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum NoiseBand {
+    /// The white density (shot and thermal noise; flicker excluded).
+    White,
+    /// The density at one frequency, hertz (white plus flicker).
+    At(f64),
+    /// The RMS noise over a band divided by the square root of its width, hertz: the
+    /// band's average density.
+    Band(Range),
+}
+
+/// The `max_noise` requirement: an output current noise density, A/√Hz.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NoiseLimit {
+    pub density_a_per_rthz: f64,
+    pub band: NoiseBand,
 }

@@ -38,6 +38,14 @@ pub struct BjtParams {
     pub xtb: f64,
     /// TNOM in kelvin (default 300.15 K)
     pub t_nom_k: f64,
+    /// KF, the flicker-noise coefficient (SPICE meaning: base-current noise
+    /// `KF I_B^AF / f`, A²/Hz); 0 = no flicker noise (the default).
+    pub flicker_kf: f64,
+    /// AF, the flicker-noise current exponent (default 1).
+    pub flicker_af: f64,
+    /// RB, the base spreading resistance in ohms (default 0). Used by the noise analysis
+    /// only: its DC drop `I_B RB` is not part of the operating point (docs/model.md).
+    pub base_resistance_ohm: f64,
 }
 
 impl BjtParams {
@@ -53,6 +61,9 @@ impl BjtParams {
             eg_ev: 1.11,
             xtb: 1.5,
             t_nom_k: 300.15,
+            flicker_kf: 0.0,
+            flicker_af: 1.0,
+            base_resistance_ohm: 0.0,
         }
     }
 }

@@ -20,8 +20,8 @@ pub use order::{family, first_per, pareto, sort, FamilyKey, Prefer};
 pub use relax::{relax, Relax, NEAREST};
 pub use report::{
     cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
-    CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
-    SCHEMA_VERSION,
+    CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, NoiseItem,
+    NoiseReport, RankReport, NOISE_VALIDITY, SCHEMA_VERSION,
 };
 pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
 pub use space::{enumerate, ratio_re2, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};

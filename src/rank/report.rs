@@ -9,8 +9,8 @@ use std::fmt;
 use serde::{Serialize, Serializer};
 
 use crate::check::{
-    Check, CheckName, CornerRow, CornerState, DesignSpec, ErrorBudget, Evaluation, RandomCause,
-    SystematicCause, VCEO_DERATING,
+    describe_noise_measure, Check, CheckName, CornerRow, CornerState, DesignSpec, ErrorBudget,
+    Evaluation, NoiseFigure, RandomCause, SystematicCause, VCEO_DERATING,
 };
 use crate::model::{LoadKind, Requirement, ZERO_CELSIUS_K};
 
@@ -70,6 +70,11 @@ pub struct CandidateRow {
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
     pub v_in_max: f64,
+    /// White output current noise density at the worst corner, A/√Hz (`null` when not
+    /// computed: shown rows, `check` and requirements with `max_noise` have it).
+    pub noise_a_per_rthz: f64,
+    /// The output noise at the worst corner by source.
+    pub noise: Option<NoiseReport>,
     pub governing_check: Option<CheckName>,
     pub pareto: bool,
     pub checks: Vec<CheckRow>,
@@ -77,6 +82,58 @@ pub struct CandidateRow {
     /// at `V_out` min at some corner; the compliance rule is `V_CE >= min_vce`, so this
     /// is a caution, not a failure.
     pub soft_saturation: Vec<&'static str>,
+}
+
+/// One element's share of the output noise.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoiseItem {
+    /// Transistor or resistor (`Q2`, `RE1`).
+    pub source: &'static str,
+    /// Its output current density in the judged measure, A/√Hz.
+    pub density_a_per_rthz: f64,
+    /// Its fraction of the output noise power.
+    pub fraction: f64,
+}
+
+/// The output current noise at the worst corner and its breakdown by source.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoiseReport {
+    pub i_in: f64,
+    pub v_out: f64,
+    pub t_amb_c: f64,
+    /// What was judged: `white density`, `density at F Hz` or the band's average density.
+    pub measure: String,
+    /// The judged measure (the white density when the requirement names none), A/√Hz.
+    pub density_a_per_rthz: f64,
+    /// RMS noise over the requirement's band, A (band limits only).
+    pub band_rms_a: Option<f64>,
+    /// Largest share first.
+    pub sources: Vec<NoiseItem>,
+}
+
+/// Where the small-signal noise figures hold (shown beside them).
+pub const NOISE_VALIDITY: &str = "small-signal, valid well below the transistors' poles (no capacitance modelled) and above the thermal corner (junction temperatures held)";
+
+impl From<&NoiseFigure> for NoiseReport {
+    fn from(f: &NoiseFigure) -> Self {
+        NoiseReport {
+            i_in: f.corner.i_in_a,
+            v_out: f.corner.v_out_v,
+            t_amb_c: f.corner.t_amb_k - ZERO_CELSIUS_K,
+            measure: describe_noise_measure(f.band),
+            density_a_per_rthz: f.judged_a_per_rthz,
+            band_rms_a: f.band_rms_a,
+            sources: f
+                .breakdown
+                .iter()
+                .map(|s| NoiseItem {
+                    source: s.element,
+                    density_a_per_rthz: s.density_a_per_rthz,
+                    fraction: s.fraction,
+                })
+                .collect(),
+        }
+    }
 }
 
 impl CandidateRow {
@@ -115,6 +172,8 @@ impl CandidateRow {
             r_out_min_ohm: f.r_out_min_ohm,
             compliance_v: f.compliance_v,
             v_in_max: f.v_in_max_v,
+            noise_a_per_rthz: f.noise_a_per_rthz,
+            noise: ev.noise.as_ref().map(NoiseReport::from),
             governing_check: ev.governing().map(|c| c.name),
             pareto,
             checks: ev.checks.iter().map(CheckRow::from).collect(),

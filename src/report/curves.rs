@@ -5,8 +5,11 @@
 //! JSON wire format: `ratio`, `supply_v`, `v_out_window_v` {`min`, `max`}, `accuracy`,
 //! `output` (list of {`i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
 //! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
-//! `balance_voltage_v` (null when none), `failed_points`. CSV columns: `curve` (`output`
-//! or `error`), `i_in_a`, `t_amb_c`, `v_out_v`, `i_out_a`, `error`.
+//! `balance_voltage_v` (null when none), `failed_points`, `noise_vs_re` (list of
+//! {`i_in_a`, `re1_ohm`, `re2_ohm`, `noise_a_per_rthz` (null when unsolved), `dominant`,
+//! `forward_active`}). CSV
+//! columns: `curve` (`output`, `error` or `noise`), `i_in_a`, `t_amb_c`, `v_out_v`,
+//! `i_out_a`, `error`, `re1_ohm`, `noise_a_per_rthz` (the last two on `noise` rows only).
 
 use std::io::{self, Write};
 
@@ -26,9 +29,11 @@ struct Point {
     v_out_v: f64,
     i_out_a: Option<f64>,
     error: Option<f64>,
+    re1_ohm: Option<f64>,
+    noise_a_per_rthz: Option<f64>,
 }
 
-const COLUMNS: [Column<Point>; 6] = [
+const COLUMNS: [Column<Point>; 8] = [
     Column {
         name: "curve",
         get: |p| p.curve.to_string(),
@@ -53,6 +58,14 @@ const COLUMNS: [Column<Point>; 6] = [
         name: "error",
         get: |p| csv::opt(p.error),
     },
+    Column {
+        name: "re1_ohm",
+        get: |p| csv::opt(p.re1_ohm),
+    },
+    Column {
+        name: "noise_a_per_rthz",
+        get: |p| csv::opt(p.noise_a_per_rthz),
+    },
 ];
 
 fn points(set: &CurveSet) -> Vec<Point> {
@@ -66,6 +79,8 @@ fn points(set: &CurveSet) -> Vec<Point> {
                 v_out_v: vo,
                 i_out_a: c.i_out_a[k],
                 error: c.i_out_a[k].map(|i| i / (set.ratio * c.i_in_a) - 1.0),
+                re1_ohm: None,
+                noise_a_per_rthz: None,
             });
         }
     }
@@ -78,8 +93,22 @@ fn points(set: &CurveSet) -> Vec<Point> {
                 v_out_v: c.v_out_v,
                 i_out_a: c.error[k].map(|e| (1.0 + e) * set.ratio * i),
                 error: c.error[k],
+                re1_ohm: None,
+                noise_a_per_rthz: None,
             });
         }
+    }
+    for n in &set.noise_vs_re {
+        v.push(Point {
+            curve: "noise",
+            i_in_a: n.i_in_a,
+            t_amb_k: crate::curves::ROOM_K,
+            v_out_v: set.v_out_window_v.min,
+            i_out_a: None,
+            error: None,
+            re1_ohm: Some(n.re1_ohm),
+            noise_a_per_rthz: n.noise_a_per_rthz,
+        });
     }
     v
 }
@@ -154,6 +183,38 @@ pub fn write(set: &CurveSet, format: Format, style: Style, out: &mut dyn Write) 
                     eng(v, "V", u)
                 )?,
                 None => writeln!(out, "Balance voltage: none between V(in) and the supply")?,
+            }
+            if !set.noise_vs_re.is_empty() {
+                let mut t = new_table(
+                    style,
+                    &["RE1", "RE2", "output noise (white)", "largest share"],
+                );
+                for n in &set.noise_vs_re {
+                    let ohm = |r: f64| {
+                        if r > 0.0 {
+                            eng(r, "Ω", u)
+                        } else {
+                            "none".into()
+                        }
+                    };
+                    t.add_row(vec![
+                        ohm(n.re1_ohm),
+                        ohm(n.re2_ohm),
+                        match n.noise_a_per_rthz {
+                            None => "no solution".into(),
+                            Some(x) if n.forward_active => eng(x, "A/√Hz", u),
+                            Some(x) => format!("{} (saturated)", eng(x, "A/√Hz", u)),
+                        },
+                        n.dominant.clone().unwrap_or_else(|| "—".into()),
+                    ]);
+                }
+                writeln!(
+                    out,
+                    "Output current noise against the emitter resistors (I_in {}, V_out {}, 25 °C; small-signal, valid well below the transistors' poles):",
+                    eng(set.noise_vs_re[0].i_in_a, "A", u),
+                    eng(set.v_out_window_v.min, "V", u)
+                )?;
+                writeln!(out, "{t}")?;
             }
             if set.failed_points > 0 {
                 writeln!(

@@ -5,7 +5,7 @@
 
 use super::eng::{celsius, eng, eng_sig, percent, Charset};
 use super::page::{CheckRow, DesignView, Figure, Page, Plot, Rejected, Table};
-use super::plot::{self, BudgetBar, PlotError};
+use super::plot::{self, BudgetBar, NoiseBar, PlotError};
 use super::Provenance;
 use crate::check::CheckName;
 use crate::curves::CurveSet;
@@ -61,6 +61,14 @@ fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String
             U,
             sig,
         ),
+    }
+}
+
+fn capitalised(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),
+        None => String::new(),
     }
 }
 
@@ -166,6 +174,14 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
         ),
     ];
     let mut figures = figures;
+    if c.noise_a_per_rthz.is_finite() {
+        figures.push(num(
+            "noise_a_per_rthz",
+            "output noise, white (worst corner)",
+            c.noise_a_per_rthz,
+            eng(c.noise_a_per_rthz, "A/√Hz", U),
+        ));
+    }
     // What each class is, in the catalog's own words (user text: escaped by the renderers).
     let classes = [
         (
@@ -412,6 +428,42 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
                 eng(b.v_out, "V", U),
                 celsius(b.t_amb_c + ZERO_CELSIUS_K, U),
                 req.confidence_sigma
+            ),
+        });
+    }
+    if let Some(n) = report.candidates.first().and_then(|c| c.noise.as_ref()) {
+        let mut bars: Vec<NoiseBar> = n
+            .sources
+            .iter()
+            .map(|s| NoiseBar {
+                source: s.source.to_string(),
+                density_a_per_rthz: s.density_a_per_rthz,
+            })
+            .collect();
+        bars.push(NoiseBar {
+            source: "total".into(),
+            density_a_per_rthz: n.density_a_per_rthz,
+        });
+        let dominant = n.sources.first().map_or(String::new(), |s| {
+            format!(
+                "; {} gives {} of the noise power",
+                s.source,
+                percent(s.fraction)
+            )
+        });
+        plots.push(Plot {
+            id: "noise".into(),
+            title: "Output current noise of the chosen design".into(),
+            svg: plot::noise_breakdown_svg(&bars, req.max_noise.map(|l| l.density_a_per_rthz))?,
+            caption: format!(
+                "At the worst corner: I_in {}, V_out {}, ambient {}; {} {}{}. Sources add in power. {}",
+                eng(n.i_in, "A", U),
+                eng(n.v_out, "V", U),
+                celsius(n.t_amb_c + ZERO_CELSIUS_K, U),
+                n.measure,
+                eng(n.density_a_per_rthz, "A/√Hz", U),
+                dominant,
+                capitalised(crate::rank::NOISE_VALIDITY)
             ),
         });
     }

@@ -512,6 +512,89 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
     Ok(svg)
 }
 
+/// One bar of the output-noise breakdown.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NoiseBar {
+    /// Transistor or resistor (`Q2`, `RE1`), or `total`.
+    pub source: String,
+    /// Its output current density, A/√Hz.
+    pub density_a_per_rthz: f64,
+}
+
+/// The output noise by source as horizontal bars (like the error budget), in pA/√Hz,
+/// with the requirement's limit as a dashed line when there is one. Sources add in
+/// power, so the bars do not add up to the total.
+pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<String, PlotError> {
+    let what = "noise-breakdown";
+    let e = err(what);
+    let mut svg = String::new();
+    let n = bars.len().max(1);
+    let height = 150 + 40 * n as u32;
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
+        root.fill(&WHITE).map_err(&e)?;
+        let pa = |x: f64| x * 1e12;
+        let most = bars
+            .iter()
+            .map(|b| pa(b.density_a_per_rthz))
+            .fold(limit.map_or(0.0, pa), f64::max)
+            .max(1e-6)
+            * 1.15;
+        let names: Vec<String> = bars.iter().map(|b| b.source.clone()).collect();
+        let mut chart = ChartBuilder::on(&root)
+            .caption("Output current noise by source", (FONT, 18))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(120)
+            .build_cartesian_2d(0.0..most, (0..(n - 1).max(1)).into_segmented())
+            .map_err(&e)?;
+        chart
+            .configure_mesh()
+            .disable_y_mesh()
+            .x_desc("output current noise density (pA/√Hz; sources add in power)")
+            .y_labels(n)
+            .y_label_formatter(&|v| match v {
+                SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
+                _ => String::new(),
+            })
+            .label_style((FONT, 12))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        for (k, b) in bars.iter().enumerate() {
+            let color = if b.source == "total" {
+                PALETTE[1]
+            } else {
+                PALETTE[0]
+            };
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [
+                        (0.0, SegmentValue::Exact(k)),
+                        (pa(b.density_a_per_rthz), SegmentValue::Exact(k + 1)),
+                    ],
+                    color.filled(),
+                )))
+                .map_err(&e)?;
+        }
+        if let Some(l) = limit {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(pa(l), SegmentValue::Exact(0)), (pa(l), SegmentValue::Last)],
+                    5,
+                    4,
+                    ShapeStyle::from(BALANCE).stroke_width(1),
+                ))
+                .map_err(&e)?
+                .label(format!("limit {}", eng(l, "A/√Hz", Charset::Unicode)))
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
+            draw_legend(&mut chart).map_err(&e)?;
+        }
+        root.present().map_err(&e)?;
+    }
+    Ok(svg)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -14,7 +14,7 @@ use super::{new_table, wrap, wrap_indented, Format, Style};
 use crate::check::CheckName;
 use crate::rank::{
     CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
-    RankReport, Relax,
+    NoiseReport, RankReport, Relax, NOISE_VALIDITY,
 };
 use crate::units::format_prefixed;
 
@@ -123,6 +123,18 @@ const COLUMNS: &[Column] = &[
         table_value: |r| quantity(r.v_in_max, "V"),
     },
     Column {
+        csv: "noise_a_per_rthz",
+        title: "noise",
+        csv_value: |r| num(r.noise_a_per_rthz),
+        table_value: |r| quantity(r.noise_a_per_rthz, "A/√Hz"),
+    },
+    Column {
+        csv: "noise_dominant",
+        title: "noise from",
+        csv_value: |r| dominant(r).unwrap_or_default(),
+        table_value: |r| dominant(r).unwrap_or_else(|| "—".into()),
+    },
+    Column {
         csv: "governing_check",
         title: "governing",
         csv_value: |r| r.governing_check.map_or(String::new(), |c| c.to_string()),
@@ -141,6 +153,13 @@ const COLUMNS: &[Column] = &[
         table_value: |r| if r.pareto { "*".into() } else { String::new() },
     },
 ];
+
+/// The element giving the largest share of the output noise, with its share.
+fn dominant(r: &CandidateRow) -> Option<String> {
+    let n = r.noise.as_ref()?;
+    let s = n.sources.first()?;
+    Some(format!("{} {:.0} %", s.source, s.fraction * 100.0))
+}
 
 fn num(x: f64) -> String {
     if x.is_finite() {
@@ -203,6 +222,7 @@ fn check_value(name: CheckName, x: f64) -> String {
 /// Titles of the columns that hold numbers (right-aligned).
 const NUMERIC: &[&str] = &[
     "#",
+    "noise",
     "RE1",
     "RE2",
     "cost",
@@ -509,6 +529,9 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         ]);
         writeln!(w, "{t}")?;
     }
+    if let Some(n) = &c.noise {
+        write_noise(w, n, style)?;
+    }
     if let Some(h) = &e.hottest {
         writeln!(
             w,
@@ -530,6 +553,35 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         writeln!(w, "{t}")?;
     }
     Ok(())
+}
+
+/// The output noise breakdown at the worst corner, with a bar per source.
+fn write_noise(w: &mut dyn Write, n: &NoiseReport, style: Style) -> io::Result<()> {
+    writeln!(
+        w,
+        "Output current noise at the worst corner (I_in {}, V_out {}, ambient {:.1} °C): {} {}{}",
+        quantity(n.i_in, "A"),
+        quantity(n.v_out, "V"),
+        n.t_amb_c,
+        n.measure,
+        quantity(n.density_a_per_rthz, "A/√Hz"),
+        n.band_rms_a.map_or(String::new(), |r| format!(
+            ", {} rms over the band",
+            quantity(r, "A")
+        ))
+    )?;
+    let mut t = new_table(style, &["source", "density", "share of power", ""]);
+    for s in &n.sources {
+        let bar = "#".repeat((s.fraction * 30.0).round().max(0.0) as usize);
+        t.add_row(vec![
+            s.source.to_string(),
+            quantity(s.density_a_per_rthz, "A/√Hz"),
+            pct(s.fraction),
+            bar,
+        ]);
+    }
+    writeln!(w, "{t}")?;
+    writeln!(w, "Noise figures are {NOISE_VALIDITY}.")
 }
 
 /// Write the check report.
@@ -712,6 +764,8 @@ mod tests {
             r_out_min_ohm: f64::NAN,
             compliance_v: 0.7,
             v_in_max: 1.2,
+            noise_a_per_rthz: 2.5e-12,
+            noise: None,
             governing_check: Some(CheckName::Accuracy),
             pareto: true,
             checks: vec![CheckRow {
@@ -737,7 +791,7 @@ mod tests {
         assert!(lines[0].ends_with(",governing_check,governing_margin,pareto,pass"));
         // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
         assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
-        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,accuracy,0.5,true,true"));
+        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,0.0000000000025,,accuracy,0.5,true,true"));
         assert_eq!(
             lines[0].split(',').count(),
             lines[1].replace("\"thick, 1 %\"", "x").split(',').count()
@@ -746,11 +800,16 @@ mod tests {
 
     #[test]
     fn table_uses_engineering_notation() {
-        let mut t = candidates_table(Style::default(), &[row()], &[]).to_string();
+        let wide = Style {
+            wide: true,
+            ..Style::default()
+        };
+        let mut t = candidates_table(wide, &[row()], &[]).to_string();
         t.retain(|c| c != '\n');
         assert!(t.contains("4.70 kΩ"));
         assert!(t.contains("0.500 %"));
         assert!(t.contains("700 mV"));
         assert!(t.contains("98.0 %"));
+        assert!(t.contains("2.50 pA/√Hz"));
     }
 }

@@ -4,6 +4,11 @@
 //! (no warm start), the way the corner checks use the engine. Speed goals: >= 1,000,000
 //! solves/s for simple and >= 400,000 for cascode and wilson4 with self-heating off; a
 //! quarter of that with self-heating on.
+//!
+//! `noise/*`: one self-heated solve with and without the output-noise analysis (issue 14),
+//! emitter resistors 1 kΩ where the topology takes them. The difference is the cost the
+//! noise adds per corner of a shown row; `rank` shows at most 10 rows (and the explained
+//! one) at up to 18 corners, so the added time is at most 198 times the difference.
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion, Throughput};
 use mirrorpick::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveOptions};
@@ -76,6 +81,32 @@ fn bench(c: &mut Criterion) {
         }
         group.finish();
     }
+    let mut group = c.benchmark_group("noise");
+    group.throughput(Throughput::Elements(1));
+    let opts = SolveOptions { self_heating: true };
+    for t in ALL_TOPOLOGIES {
+        let design = Design {
+            topology: t,
+            pair: &class,
+            helper: None,
+            re1_ohm: if t.desc().has_re1 { 1000.0 } else { 0.0 },
+            re2_ohm: 1000.0,
+            re_tcr_per_k: 0.0,
+        };
+        let net = Netlist::compile(&design, &mm).unwrap();
+        group.bench_function(format!("{}/solve", t.name()), |b| {
+            b.iter(|| net.solve(black_box(&op), &opts).unwrap().i_out_a)
+        });
+        group.bench_function(format!("{}/solve-with-noise", t.name()), |b| {
+            b.iter(|| {
+                net.solve_with_noise(black_box(&op), &opts)
+                    .unwrap()
+                    .1
+                    .white_density()
+            })
+        });
+    }
+    group.finish();
 }
 
 criterion_group!(benches, bench);

@@ -66,6 +66,8 @@ fn json_has_exactly_the_documented_keys() {
             "i_out",
             "iterations",
             "nodes",
+            "noise_a_per_rthz",
+            "noise_sources",
             "r_out",
             "ratio",
             "transistors",

@@ -121,6 +121,7 @@ pub fn requirement(accuracy: f64) -> Requirement {
         input_voltage_max_v: None,
         min_vce_v: 0.3,
         max_cost: None,
+        max_noise: None,
         quantity: 1,
         load: LoadKind::General,
         topologies: Filters::default(),

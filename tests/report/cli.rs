@@ -57,9 +57,13 @@ fn curves_table_csv_json_and_svg() {
     let csv = String::from_utf8(out.stdout).unwrap();
     assert_eq!(
         csv.lines().next().unwrap(),
-        "curve,i_in_a,t_amb_c,v_out_v,i_out_a,error"
+        "curve,i_in_a,t_amb_c,v_out_v,i_out_a,error,re1_ohm,noise_a_per_rthz"
     );
     assert!(csv.lines().count() > 121);
+    // The noise against the emitter resistors: no degeneration, then 24 values.
+    let noise: Vec<&str> = csv.lines().filter(|l| l.starts_with("noise,")).collect();
+    assert_eq!(noise.len(), 25);
+    assert!(noise[0].contains(",,,0.0,"), "{}", noise[0]);
 
     let out = mirrorpick()
         .args([

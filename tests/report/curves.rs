@@ -39,6 +39,7 @@ fn requirement() -> Requirement {
         input_voltage_max_v: None,
         min_vce_v: 0.3,
         max_cost: None,
+        max_noise: None,
         quantity: 1,
         load: LoadKind::General,
         topologies: Filters::default(),
