@@ -12,6 +12,7 @@ mod design;
 mod evaluate;
 mod montecarlo;
 mod ratings;
+pub mod refdes;
 mod verdict;
 
 use std::sync::atomic::AtomicU64;
@@ -21,7 +22,8 @@ pub use budget::{
 };
 pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, ResolvedDesign,
+    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package,
+    ResolvedDesign,
 };
 pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
 pub use montecarlo::linear_yield;
