@@ -16,7 +16,8 @@ use super::{load_catalog, load_requirement, AppError, Config, Outcome};
 use crate::check::{DesignSpec, MonteCarlo};
 use crate::input::did_you_mean;
 use crate::model::{Catalog, Requirement, Topology, ALL_TOPOLOGIES};
-use crate::rank::{self, render, Caution, Prefer, Progress, RankOptions};
+use crate::rank::{self, Caution, Prefer, Progress, RankOptions};
+use crate::report::rank as render;
 use crate::report::Format;
 use crate::units::{self, Dimension};
 

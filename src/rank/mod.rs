@@ -2,10 +2,9 @@
 //! exhaustively), order the feasible designs, mark the Pareto front, and build the
 //! finished reports of `rank`, `check` and `cheaper`.
 //!
-//! Builds on `check` for every verdict; prints nothing (see `render` for the formats).
+//! Builds on `check` for every verdict; prints nothing (`report::rank` writes the formats).
 
 mod order;
-pub mod render;
 mod report;
 mod search;
 mod space;

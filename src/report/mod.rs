@@ -17,6 +17,7 @@ pub mod html;
 pub mod markdown;
 pub mod page;
 pub mod plot;
+pub mod rank;
 pub mod schematic;
 pub mod spice;
 

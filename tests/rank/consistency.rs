@@ -3,7 +3,8 @@
 use std::collections::BTreeSet;
 
 use mirrorpick::check::MonteCarlo;
-use mirrorpick::rank::{check_design, rank, render, RankOptions, Silent};
+use mirrorpick::rank::{check_design, rank, RankOptions, Silent};
+use mirrorpick::report::rank as render;
 use mirrorpick::report::{Format, Style};
 
 use mirrorpick::model::Series;

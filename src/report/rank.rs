@@ -1,4 +1,4 @@
-//! Writers for the `rank`, `check` and `cheaper` reports: table, JSON and CSV. Each is a
+//! Writers for the `rank`, `check` and `cheaper` reports (built by `crate::rank`): table, JSON and CSV. Each is a
 //! pure function from a finished report into any `io::Write`.
 //!
 //! One column list drives the table, the CSV header and the CSV rows, so they cannot
@@ -10,11 +10,12 @@ use std::io::{self, Write};
 
 use comfy_table::{Cell, CellAlignment, Table};
 
-use super::report::{
-    CandidateRow, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation, RankReport,
+use crate::rank::{
+    CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
+    RankReport,
 };
 use crate::check::CheckName;
-use crate::report::{new_table, Format, Style};
+use super::{new_table, Format, Style};
 use crate::units::format_prefixed;
 
 struct Column {
@@ -518,7 +519,7 @@ pub fn write_cheaper(
 }
 
 /// Write cautions, one per line, under a heading.
-pub fn write_cautions(w: &mut dyn Write, cautions: &[super::report::Caution]) -> io::Result<()> {
+pub fn write_cautions(w: &mut dyn Write, cautions: &[Caution]) -> io::Result<()> {
     if cautions.is_empty() {
         return Ok(());
     }
