@@ -395,6 +395,8 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
         let mut chart = ChartBuilder::on(&top_chart)
             .caption("Output current against output voltage", (FONT, 18))
             .margin(12)
+            // Room for the last x tick label, centred on the plot's right edge.
+            .margin_right(30)
             .x_label_area_size(44)
             .y_label_area_size(64)
             .build_cartesian_2d(0.0..vmax, y_lo..y_hi)
@@ -445,6 +447,8 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
         let mut chart = ChartBuilder::on(&bottom_chart)
             .caption("Error against output voltage", (FONT, 18))
             .margin(12)
+            // Room for the last x tick label, centred on the plot's right edge.
+            .margin_right(30)
             .x_label_area_size(44)
             .y_label_area_size(64)
             .build_cartesian_2d(0.0..vmax, -lim * 100.0..lim * 100.0)
@@ -562,6 +566,8 @@ pub fn error_vs_input_svg(set: &CurveSet) -> Result<String, PlotError> {
         let mut chart = ChartBuilder::on(&area)
             .caption("Error against programming current", (FONT, 18))
             .margin(12)
+            // Room for the last x tick label, centred on the plot's right edge.
+            .margin_right(30)
             .x_label_area_size(44)
             .y_label_area_size(64)
             .build_cartesian_2d((lo * scale..hi * scale).log_scale(), -lim..lim)
@@ -636,6 +642,8 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
         let mut chart = ChartBuilder::on(&area)
             .caption("Error budget by cause", (FONT, 18))
             .margin(12)
+            // Room for the last x tick label, centred on the plot's right edge.
+            .margin_right(30)
             .x_label_area_size(44)
             .y_label_area_size(180)
             // A segmented 0..k range has k + 1 slots; one slot needs 0..1 (one left blank).

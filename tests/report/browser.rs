@@ -223,6 +223,11 @@ fn report_and_schematic_render_cleanly_in_a_browser() {
             "excitation-source",
         ),
         ("requirements-examples/led-string-sinks.yaml", "led-sinks"),
+        // Three decades of input current: a log axis and the error-against-input plot.
+        (
+            "requirements-examples/expo-converter-sink.yaml",
+            "expo-sink",
+        ),
     ] {
         let f = check_report(&bin, req, name, &shots);
         assert!(f["figures"].as_u64().unwrap() >= 3, "{name}: {f}");
