@@ -214,8 +214,8 @@ pub fn resolve<'a>(
     })
 }
 
-/// Place every transistor of the topology in a package (`helper`: the single-device
-/// class of helpers that do not fit in spare devices, `None` when they do).
+/// Place every transistor of the topology in a package (MODEL.md): each matched pair in
+/// one package of the pair class, helpers in spare devices or, with `helper`, in singles.
 pub fn place<'a>(
     topology: Topology,
     pair: &'a TransistorClass,

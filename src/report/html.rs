@@ -188,7 +188,7 @@ pub fn render(page: &Page) -> String {
 
                     section id="rejected" {
                         h2 { "4 What was rejected and why" }
-                        p { (page.evaluated) " candidate designs evaluated, " (page.feasible_count) " feasible. Each rejected design is counted under the first check it failed." }
+                        p { (page.counts) }
                         @if !page.rejected_by.is_empty() {
                             (table(&page.rejected_by_table(), "rejected-by"))
                         }
