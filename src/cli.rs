@@ -123,17 +123,24 @@ mirrorpick curves requirements-examples/ltp-tail-sink.yaml --part npn-dual-prema
     /// and/or a Markdown file with its plots beside it.
     #[command(
         after_help = "Exit status: 0 when a design passes, 1 when none does (the record is still written), \
-2 on bad input or an unwritable path. Files are written whole or not at all. Without --out or \
---markdown the HTML goes to standard output.\n\nExample:\n  \
+2 on bad input or an unwritable path. Files are written whole or not at all, and one line names \
+each file written. Without --out or --markdown the page goes to <requirement>.report.html beside \
+the requirement, or to standard output when that is not a terminal; --out - always writes it to \
+standard output.\n\nExample:\n  \
 mirrorpick report requirements-examples/ltp-tail-sink.yaml --out tail.html\n  \
+mirrorpick report requirements-examples/ltp-tail-sink.yaml --schematic tail-schematic.svg\n  \
 mirrorpick report requirements-examples/led-string-sinks.yaml --markdown docs/led-sinks.md"
     )]
     Report {
         /// Requirement file (YAML).
         requirement: PathBuf,
-        /// Write the HTML page to FILE.
+        /// Write the HTML page to FILE (`-`: standard output). Default: <requirement>.report.html
+        /// beside the requirement (standard output when that is not a terminal).
         #[arg(long, value_name = "FILE.html")]
         out: Option<PathBuf>,
+        /// Also write the chosen design's schematic to FILE as its own SVG.
+        #[arg(long, value_name = "FILE.svg")]
+        schematic: Option<PathBuf>,
         /// Write the Markdown form to FILE, plots as <stem>-*.svg beside it.
         #[arg(long, value_name = "FILE.md")]
         markdown: Option<PathBuf>,
@@ -604,8 +611,9 @@ impl From<FormatChoice> for Format {
 
 impl Cli {
     /// Resolve what was typed into the library's configuration. `color` and `width` are
-    /// decided by `main` (terminal, NO_COLOR, COLUMNS).
-    pub fn into_config(self, color: bool, width: Option<u16>) -> Config {
+    /// decided by `main` (terminal, NO_COLOR, COLUMNS); `stdout_is_terminal` decides where
+    /// `report` writes by default.
+    pub fn into_config(self, color: bool, width: Option<u16>, stdout_is_terminal: bool) -> Config {
         let command = match self.command {
             Command::Catalog(CatalogCommand::List(f)) => AppCommand::CatalogList {
                 format: f.format.into(),
@@ -691,6 +699,7 @@ impl Cli {
             Command::Report {
                 requirement,
                 out,
+                schematic,
                 markdown,
                 top,
                 mc,
@@ -698,6 +707,8 @@ impl Cli {
             } => AppCommand::Report(ReportArgs {
                 requirement,
                 html: out,
+                stdout_is_terminal,
+                schematic,
                 markdown,
                 top,
                 mc: mc.into(),

@@ -11,9 +11,9 @@ use clap::Parser;
 
 fn main() -> ExitCode {
     let args = cli::Cli::parse();
-    let color =
-        io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
-    let config = args.into_config(color, width());
+    let terminal = io::stdout().is_terminal();
+    let color = terminal && std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
+    let config = args.into_config(color, width(), terminal);
 
     let stdout = io::stdout();
     let mut out = BufWriter::new(stdout.lock());

@@ -28,8 +28,14 @@ const NEAR_MISS_SAMPLE: usize = 48;
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct ReportArgs {
     pub requirement: PathBuf,
-    /// The HTML page; `None` with no Markdown either means HTML on stdout.
+    /// The HTML page (`-`: standard output). `None` with no Markdown either: standard
+    /// output when it is not a terminal, else `<requirement stem>.report.html` beside the
+    /// requirement.
     pub html: Option<PathBuf>,
+    /// Whether standard output is a terminal (decided by `main`).
+    pub stdout_is_terminal: bool,
+    /// The chosen design's schematic as its own SVG file.
+    pub schematic: Option<PathBuf>,
     pub markdown: Option<PathBuf>,
     /// Designs shown (the chosen one and the runners-up).
     pub top: usize,
@@ -58,21 +64,26 @@ fn design_of<'a>(catalog: &'a Catalog, row: &CandidateRow) -> Option<Design<'a>>
 }
 
 /// The rejected design that misses by the least: its row, the check it fails by most,
-/// and that check's margin.
+/// and that check's margin. With a chosen design costing `chosen_cost`, only cheaper
+/// designs are considered: a costlier design that fails teaches nothing.
 fn nearest_miss(
     req: &Requirement,
     catalog: &Catalog,
     rejected: &[(DesignSpec, CheckName)],
     mc: MonteCarlo,
+    chosen_cost: Option<f64>,
 ) -> Option<(CandidateRow, CheckName, f64)> {
-    let step = rejected.len().div_ceil(NEAR_MISS_SAMPLE).max(1);
-    let picked: Vec<&DesignSpec> = rejected
+    let eligible: Vec<&DesignSpec> = rejected
         .iter()
         // Over budget needs no solve to explain; the interesting misses are electrical.
         .filter(|(_, c)| *c != CheckName::Cost)
         .map(|(s, _)| s)
-        .step_by(step)
+        .filter(|s| {
+            chosen_cost.is_none_or(|limit| check::resolve(catalog, s).is_ok_and(|d| d.cost < limit))
+        })
         .collect();
+    let step = eligible.len().div_ceil(NEAR_MISS_SAMPLE).max(1);
+    let picked: Vec<&DesignSpec> = eligible.into_iter().step_by(step).collect();
     let solves = AtomicU64::new(0);
     let misses: Vec<(CandidateRow, CheckName, f64)> = picked
         .par_iter()
@@ -94,6 +105,38 @@ fn nearest_miss(
         .max_by(|a, b| a.2.total_cmp(&b.2).then(b.0.cost.total_cmp(&a.0.cost)))
 }
 
+/// Where the HTML page goes.
+#[derive(Debug, Clone, PartialEq, Eq)]
+enum HtmlDest {
+    /// A file; `true` when it is the default name beside the requirement.
+    File(PathBuf, bool),
+    Stdout,
+    /// Markdown only.
+    None,
+}
+
+/// The page's destination: `--out FILE`, `--out -`, nothing when only Markdown was asked
+/// for, standard output when it is a pipe, else `<stem>.report.html` beside the
+/// requirement (67 kB of HTML is of no use on a terminal).
+fn html_destination(args: &ReportArgs) -> HtmlDest {
+    match (&args.html, &args.markdown) {
+        (Some(p), _) if p.as_os_str() == "-" => HtmlDest::Stdout,
+        (Some(p), _) => HtmlDest::File(p.clone(), false),
+        (None, Some(_)) => HtmlDest::None,
+        (None, None) if !args.stdout_is_terminal => HtmlDest::Stdout,
+        (None, None) => HtmlDest::File(default_html_path(&args.requirement), true),
+    }
+}
+
+/// `dir/name.yaml` -> `dir/name.report.html`.
+pub fn default_html_path(requirement: &Path) -> PathBuf {
+    let stem = requirement
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "requirement".into());
+    requirement.with_file_name(format!("{stem}.report.html"))
+}
+
 pub fn run_report(
     source: &CatalogSource,
     args: &ReportArgs,
@@ -106,7 +149,16 @@ pub fn run_report(
     }
     let (catalog, _, prov) = load_catalog_with_provenance(source)?;
     let req = load_requirement(&args.requirement, &catalog)?;
-    let html_file = args.html.as_deref().map(PendingFile::create).transpose()?;
+    let dest = html_destination(args);
+    let html_file = match &dest {
+        HtmlDest::File(p, _) => Some(PendingFile::create(p)?),
+        _ => None,
+    };
+    let schematic_file = args
+        .schematic
+        .as_deref()
+        .map(PendingFile::create)
+        .transpose()?;
     let md_file = args
         .markdown
         .as_deref()
@@ -121,7 +173,8 @@ pub fn run_report(
         ..RankOptions::default()
     };
     let run = rank::rank(&req, &catalog, &opts, &Silent)?;
-    let best_rejected = nearest_miss(&req, &catalog, &run.rejected, mc);
+    let chosen_cost = run.report.candidates.first().map(|c| c.cost);
+    let best_rejected = nearest_miss(&req, &catalog, &run.rejected, mc, chosen_cost);
     let curve_set = match run.report.candidates.first() {
         Some(row) => match design_of(&catalog, row) {
             Some(d) => Some(curves::for_design(
@@ -148,10 +201,37 @@ pub fn run_report(
         date: crate::calendar::today_utc(),
     })?;
 
-    match (html_file, &md_file) {
-        (Some(f), _) => f.commit(html::render(&page).as_bytes())?,
-        (None, None) => out.write_all(html::render(&page).as_bytes())?,
-        (None, Some(_)) => {}
+    let mut written: Vec<String> = Vec::new();
+    if let (Some(f), Some(path)) = (schematic_file, &args.schematic) {
+        match &page.schematic_file {
+            Some(svg) => {
+                f.commit(svg.as_bytes())?;
+                written.push(format!("the schematic to {}", path.display()));
+            }
+            // Nothing was chosen: no schematic, and the pending file is dropped unwritten.
+            None => written.push(format!(
+                "no schematic ({} not written: no design was chosen)",
+                path.display()
+            )),
+        }
+    }
+    match (html_file, &dest) {
+        (Some(f), HtmlDest::File(path, defaulted)) => {
+            f.commit(html::render(&page).as_bytes())?;
+            written.insert(
+                0,
+                if *defaulted {
+                    format!(
+                        "the report to {} (the default beside the requirement; --out FILE to choose, --out - for standard output)",
+                        path.display()
+                    )
+                } else {
+                    format!("the report to {}", path.display())
+                },
+            );
+        }
+        (_, HtmlDest::Stdout) => out.write_all(html::render(&page).as_bytes())?,
+        _ => {}
     }
     if let (Some(f), Some(path)) = (md_file, &args.markdown) {
         let stem = path
@@ -168,10 +248,62 @@ pub fn run_report(
             .collect::<Result<_, AppError>>()?;
         files.push((f, text.into_bytes()));
         crate::atomic_file::commit_all(files)?;
+        written.push(format!("the Markdown record to {}", path.display()));
+    }
+    if !written.is_empty() {
+        let verdict = if run.report.candidates.is_empty() {
+            "no design meets every requirement"
+        } else {
+            "a design meets every requirement"
+        };
+        let line = format!("Wrote {}; {verdict}.", written.join(", "));
+        // Standard output carries the page itself when asked to: the line goes aside.
+        if matches!(dest, HtmlDest::Stdout) {
+            eprintln!("{line}");
+        } else {
+            writeln!(out, "{line}")?;
+        }
     }
     Ok(if run.report.candidates.is_empty() {
         Outcome::NothingPasses
     } else {
         Outcome::Success
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn args(html: Option<&str>, md: bool, terminal: bool) -> ReportArgs {
+        ReportArgs {
+            requirement: PathBuf::from("specs/tail.yaml"),
+            html: html.map(PathBuf::from),
+            stdout_is_terminal: terminal,
+            schematic: None,
+            markdown: md.then(|| PathBuf::from("x.md")),
+            top: 5,
+            mc: MonteCarlo::default(),
+            extremes: false,
+        }
+    }
+
+    #[test]
+    fn the_page_goes_to_a_file_beside_the_requirement_on_a_terminal() {
+        let default = HtmlDest::File(PathBuf::from("specs/tail.report.html"), true);
+        assert_eq!(html_destination(&args(None, false, true)), default);
+        assert_eq!(
+            html_destination(&args(None, false, false)),
+            HtmlDest::Stdout
+        );
+        assert_eq!(
+            html_destination(&args(Some("-"), false, true)),
+            HtmlDest::Stdout
+        );
+        assert_eq!(
+            html_destination(&args(Some("a.html"), true, true)),
+            HtmlDest::File(PathBuf::from("a.html"), false)
+        );
+        assert_eq!(html_destination(&args(None, true, true)), HtmlDest::None);
+    }
 }

@@ -10,7 +10,8 @@
 //! requested ratio, never RE1/RE2), `r_out` (ohm; null when infinite: no Early effect in
 //! any transistor and no self-heating), `v_in`,
 //! `balance_voltage` (V, null when the error does not cross zero between V(in) and the
-//! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `name`,
+//! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `designator`
+//! (`Q1A`: IEEE 315 reference designator, as in the report and the SPICE export), `name`,
 //! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`), `iterations`,
 //! `cautions` (ratings against the class: V_CE against the derated VCEO, I_C against IC
 //! max, each package's dissipation against its rating derated at the ambient; the same
@@ -130,6 +131,9 @@ fn suggestions(catalog: &Catalog, id: &str) -> Vec<String> {
 /// One transistor in the report.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TransistorReport {
+    /// The reference designator (`Q1A`), as in the report, the schematic and SPICE.
+    pub designator: String,
+    /// The name in the topology's netlist (MODEL.md: `Q1`..`Q4`).
     pub name: String,
     /// `pair1-ref`, `pair1-mirror`, `pair2-ref`, `pair2-mirror` or `helper`.
     pub role: String,
@@ -335,6 +339,18 @@ pub fn solve_command(
         .map(|nv| (nv.name.to_string(), nv.volts))
         .collect();
     nodes.insert("R".to_string(), 0.0);
+    let placed_helper = if crate::check::helpers_fit_in_spares(args.topology, pair) {
+        None
+    } else {
+        helper
+    };
+    let parts = crate::check::refdes::elements(
+        args.topology,
+        &crate::check::place(args.topology, pair, placed_helper),
+        re1_ohm,
+        re2_ohm,
+        None,
+    );
     Ok(SolveReport {
         i_in: op.i_in_a,
         i_out: sol.i_out_a,
@@ -347,6 +363,9 @@ pub fn solve_command(
             .transistors()
             .iter()
             .map(|q| TransistorReport {
+                designator: crate::check::refdes::designator_of(&parts, q.name)
+                    .unwrap_or(q.name)
+                    .to_string(),
                 name: q.name.to_string(),
                 role: role_name(q.role),
                 v_be: q.v_be,
@@ -557,6 +576,7 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         .set_content_arrangement(ContentArrangement::Disabled)
         .set_header(vec![
             "transistor",
+            "netlist",
             "role",
             "V_BE",
             "V_CE",
@@ -567,6 +587,7 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         ]);
     for q in &report.transistors {
         devices.add_row(vec![
+            q.designator.clone(),
             q.name.clone(),
             q.role.clone(),
             eng(q.v_be, "V"),

@@ -63,18 +63,21 @@ pub struct Occupant {
 /// One transistor package on each board.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PackagePlacement {
-    /// `U1`, `U2`, ... (per board; every board is the same).
+    /// `Q1`, `Q2`, ... (per board; every board is the same).
     pub designator: String,
     pub class: String,
     /// One entry per device (device 1 first); `None` is an unused device.
     pub devices: Vec<Option<Occupant>>,
 }
 
-/// A transistor of one copy: package designator and 1-based device number.
+/// A transistor of one copy: package designator, 1-based device number, and the
+/// device's own reference designator (`Q1B`: device 2 of package `Q1`; a single is just
+/// `Q3`), per IEEE 315 / ASME Y14.44 as in `check::refdes`.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct DeviceSlot {
     pub designator: String,
     pub device: u32,
+    pub reference: String,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -280,11 +283,23 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
     order.sort_by_key(|&i| (pkgs[i].class, i));
     let mut designator = vec![String::new(); pkgs.len()];
     for (n, &i) in order.iter().enumerate() {
-        designator[i] = format!("U{}", n + 1);
+        designator[i] = format!("Q{}", n + 1);
     }
+    let number: Vec<usize> = {
+        let mut v = vec![0; pkgs.len()];
+        for (n, &i) in order.iter().enumerate() {
+            v[i] = n + 1;
+        }
+        v
+    };
     let slot = |(p, dev): (usize, u32)| DeviceSlot {
         designator: designator[p].clone(),
         device: dev + 1,
+        reference: crate::check::refdes::device_designator(
+            number[p],
+            dev as usize,
+            pkgs[p].devices.len() as u32,
+        ),
     };
     let assignments: Vec<ChannelAssignment> = channels
         .into_iter()

@@ -9,7 +9,7 @@
 //!            extended_cost }],
 //!    channels: [{ channel, count, option, label, topology, pair_class, helper_class,
 //!                 resistors: [{ class, value_ohm, count }], governing_check,
-//!                 governing_margin, copies: [{ copy, matched: ["U1.1", ...],
+//!                 governing_margin, copies: [{ copy, matched: ["Q1A", ...],
 //!                 helpers: [...] }] }],
 //!    parts_cost_per_board, parts_cost_per_build, line_items_cost, total_cost,
 //!    baseline: { options, parts_cost_per_board, line_items, total_cost,
@@ -32,7 +32,7 @@ fn ohms(v: f64) -> String {
 }
 
 fn slot(s: &DeviceSlot) -> String {
-    format!("{}.{}", s.designator, s.device)
+    s.reference.clone()
 }
 
 fn slots(v: &[DeviceSlot]) -> String {
@@ -128,7 +128,7 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             "pair class",
             "helper single",
             "R_E",
-            "devices (package.device)",
+            "devices (designators)",
             "governing check",
             "margin",
         ]
@@ -137,7 +137,7 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             "channel",
             "copies",
             "design",
-            "devices (package.device)",
+            "devices (designators)",
             "governing check",
             "margin",
         ]

@@ -59,6 +59,17 @@ impl ResolvedDesign<'_> {
     pub fn class_of(&self, name: &str) -> Option<&TransistorClass> {
         self.package_of(name).map(|i| self.packages[i].class)
     }
+
+    /// Every part with its reference designator (`Q1A`, `R1`).
+    pub fn elements(&self) -> Vec<super::refdes::Element> {
+        super::refdes::elements(
+            self.spec.topology,
+            &self.packages,
+            self.spec.re1_ohm,
+            self.spec.re2_ohm,
+            self.spec.resistor.as_deref(),
+        )
+    }
 }
 
 #[derive(Debug, Clone, PartialEq, Error)]
@@ -236,13 +247,15 @@ pub fn place<'a>(
                 class: h,
                 members: vec![line.name],
             }),
-            None => {
-                let spare = packages
-                    .iter_mut()
-                    .find(|p| p.members.len() < dpp)
-                    .expect("helpers placed in spares only when spares exist");
-                spare.members.push(line.name);
-            }
+            None => match packages.iter_mut().find(|p| p.members.len() < dpp) {
+                Some(spare) => spare.members.push(line.name),
+                // No spare and no helper class named: one more package of the pair class
+                // (`resolve` always names a helper class here; the SPICE export may not).
+                None => packages.push(Package {
+                    class: pair,
+                    members: vec![line.name],
+                }),
+            },
         }
     }
     packages

@@ -14,6 +14,7 @@ mod evaluate;
 mod montecarlo;
 mod noise;
 mod ratings;
+pub mod refdes;
 mod verdict;
 
 use std::sync::atomic::AtomicU64;

@@ -6,10 +6,12 @@
 use super::eng::{celsius, eng, eng_sig, percent, Charset};
 use super::page::{CheckRow, DesignView, Figure, Page, Plot, Rejected, Table};
 use super::plot::{self, BudgetBar, NoiseBar, PlotError};
+use super::schematic;
 use super::Provenance;
-use crate::check::CheckName;
+use crate::check::refdes::{Element, ElementKind};
+use crate::check::{CheckName, DesignSpec};
 use crate::curves::CurveSet;
-use crate::model::{Catalog, Requirement, ZERO_CELSIUS_K};
+use crate::model::{Catalog, Polarity, Requirement, Role, ZERO_CELSIUS_K};
 use crate::rank::{CandidateRow, RankReport};
 
 const U: Charset = Charset::Unicode;
@@ -110,7 +112,15 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
     };
     let figures = vec![
         text("topology", "topology", c.topology.to_string()),
-        text("part", "matched pair class", c.part.clone()),
+        text(
+            "part",
+            if separate_singles(catalog, c) {
+                "transistor class (two separate singles, not a matched pair)"
+            } else {
+                "matched pair class"
+            },
+            c.part.clone(),
+        ),
         text(
             "helper",
             "helper class",
@@ -156,7 +166,7 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
         ),
         num(
             "r_out_min_ohm",
-            "smallest output resistance",
+            "output resistance, DC with self-heating (smallest over the corners)",
             c.r_out_min_ohm,
             eng(c.r_out_min_ohm, "ohm", U),
         ),
@@ -247,7 +257,186 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             .unwrap_or_else(|| "none".into()),
         governing_margin: c.governing_margin(),
         cost: money(catalog, c.cost),
+        total_error: percent(c.error_total),
     }
+}
+
+/// The matched devices are two single-transistor packages (no shared die).
+fn separate_singles(catalog: &Catalog, c: &CandidateRow) -> bool {
+    catalog
+        .transistor(&c.part)
+        .is_some_and(|t| t.devices_per_package < 2)
+}
+
+/// A failed check in a designer's terms: what the design needs against what the
+/// requirement (or the part's rating) allows.
+pub fn shortfall(catalog: &Catalog, name: CheckName, value: f64, limit: f64) -> String {
+    let (mut v, mut l) = (
+        check_value(catalog, name, value, 3),
+        check_value(catalog, name, limit, 3),
+    );
+    if v == l && value != limit {
+        v = check_value(catalog, name, value, 6);
+        l = check_value(catalog, name, limit, 6);
+    }
+    match name {
+        CheckName::Compliance => {
+            format!("needs {v} of headroom, the requirement allows {l}")
+        }
+        CheckName::InputVoltage => format!("needs {v} at its input, the requirement allows {l}"),
+        CheckName::Accuracy => format!("reaches {v} total error, the requirement allows {l}"),
+        CheckName::Yield => format!("yields {v}, the requirement asks for {l}"),
+        CheckName::OutputResistance => {
+            format!("has {v} of output resistance, the requirement asks for at least {l}")
+        }
+        CheckName::HelperHeadroom => {
+            format!("needs {v} of headroom for its helper transistor, {l} is available")
+        }
+        CheckName::Vceo => format!("puts {v} across a transistor rated (derated) for {l}"),
+        CheckName::IcMax => format!("carries {v} in a transistor rated for {l}"),
+        CheckName::Dissipation => format!("dissipates {v} in a package rated (derated) for {l}"),
+        CheckName::Cost => format!("costs {v}, the requirement allows {l}"),
+        CheckName::ThermalRunaway => "runs away thermally at an operating corner".into(),
+        CheckName::NoSolution => "has an operating corner with no solution".into(),
+    }
+}
+
+/// The design's parts with their designators, from the catalog (`None` when a class
+/// is missing, which a ranked row never has).
+pub fn elements_of(catalog: &Catalog, c: &CandidateRow) -> Option<Vec<Element>> {
+    let spec = DesignSpec {
+        topology: crate::model::Topology::from_name(c.topology)?,
+        pair: c.part.clone(),
+        helper: c.helper.clone(),
+        re1_ohm: c.re1_ohm,
+        re2_ohm: c.re2_ohm,
+        resistor: c.resistor.clone(),
+    };
+    crate::check::resolve(catalog, &spec)
+        .ok()
+        .map(|d| d.elements())
+}
+
+/// The parts list of a design (the report's BOM table).
+pub fn parts_table(catalog: &Catalog, parts: &[Element]) -> Table {
+    let rows = parts
+        .iter()
+        .map(|e| match &e.kind {
+            ElementKind::Transistor {
+                polarity,
+                role,
+                class,
+                devices_per_package,
+                ..
+            } => {
+                let package = catalog.transistor(class).map_or(String::new(), |t| {
+                    if *devices_per_package > 1 {
+                        format!("{} ({} devices)", t.package, devices_per_package)
+                    } else {
+                        t.package.clone()
+                    }
+                });
+                let role = match role {
+                    Role::Matched { pair, member } => format!(
+                        "{}: matched pair {}, {}",
+                        e.netlist_name,
+                        pair + 1,
+                        if *member == 0 { "reference" } else { "mirror" }
+                    ),
+                    Role::Helper => format!("{}: helper", e.netlist_name),
+                };
+                vec![
+                    e.designator.clone(),
+                    format!("{} transistor", polarity.as_str().to_uppercase()),
+                    class.clone(),
+                    package,
+                    role,
+                ]
+            }
+            ElementKind::Resistor { ohm, class, .. } => {
+                let value = match class.as_deref().and_then(|r| catalog.resistor(r)) {
+                    Some(r) => format!(
+                        "{} {} ({} tolerance)",
+                        eng(*ohm, "ohm", U),
+                        r.id,
+                        percent(r.tolerance)
+                    ),
+                    None => eng(*ohm, "ohm", U),
+                };
+                vec![
+                    e.designator.clone(),
+                    "resistor".into(),
+                    value,
+                    String::new(),
+                    e.netlist_name.to_string(),
+                ]
+            }
+        })
+        .collect();
+    Table {
+        header: ["designator", "part", "value", "package", "netlist role"]
+            .map(String::from)
+            .to_vec(),
+        rows,
+    }
+}
+
+/// The caution for a mirror built from separate single transistors: their dies do not
+/// share a temperature, and each kelvin between them shifts V_BE and so the output.
+fn separate_singles_caution(
+    catalog: &Catalog,
+    req: &Requirement,
+    c: &CandidateRow,
+    parts: &[Element],
+) -> Option<String> {
+    let class = catalog.transistor(&c.part)?;
+    if class.devices_per_package >= 2 {
+        return None;
+    }
+    let m = &class.model;
+    let t = crate::check::ROOM_K;
+    let vt = crate::device::thermal_voltage(t);
+    let i = req.input_current_a.max;
+    // V_BE at the current, and its slope at constant collector current from the
+    // Gummel-Poon temperature law of IS (XTI, EG): dV_BE/dT = (V_BE - EG - XTI V_T) / T
+    // (Gray, Hurst, Lewis & Meyer, ch. 4, band-gap reference section).
+    let vbe = vt * (i / m.saturation_current_a).ln();
+    let slope = (vbe - m.eg_ev - m.xti * vt) / t;
+    let plain = slope.abs() / vt;
+    let re = c.re1_ohm.max(c.re2_ohm);
+    let names: Vec<&str> = parts
+        .iter()
+        .filter(|e| {
+            matches!(
+                e.kind,
+                ElementKind::Transistor {
+                    role: Role::Matched { pair: 0, .. },
+                    ..
+                }
+            )
+        })
+        .map(|e| e.designator.as_str())
+        .collect();
+    let who = if names.len() == 2 {
+        format!("{} and {}", names[0], names[1])
+    } else {
+        "The matched devices".into()
+    };
+    let degenerated = if re > 0.0 {
+        format!(
+            "; with {} of emitter resistance the shift is divided by 1 + I·R_E/V_T, to about {} per kelvin",
+            eng(re, "ohm", U),
+            percent(slope.abs() / (vt + i * re))
+        )
+    } else {
+        String::new()
+    };
+    Some(format!(
+        "{who} are two separate packages, not a matched pair: their dies do not share a temperature, and separate packages track poorly. At {} V_BE changes by {:.2} mV per kelvin (from the class's EG and XTI), so each kelvin of difference between the two dies shifts the output current by about {}{degenerated}. Mount them touching under one heat spreader, or choose a monolithic pair",
+        eng(i, "A", U),
+        slope * 1e3,
+        percent(plain)
+    ))
 }
 
 fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String)> {
@@ -341,6 +530,13 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         .skip(1)
         .map(|c| view(catalog, c))
         .collect();
+    let short = |row: &CandidateRow, check: CheckName| {
+        row.checks
+            .iter()
+            .find(|k| k.name == check)
+            .map(|k| shortfall(catalog, check, k.value, k.limit))
+            .unwrap_or_else(|| format!("fails {check}"))
+    };
     let best_rejected = inp
         .best_rejected
         .as_ref()
@@ -348,6 +544,16 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             design: view(catalog, row),
             check: check.to_string(),
             margin: *margin,
+            headline: match chosen_row {
+                Some(c) => format!(
+                    "{} costs {}, {} less per mirror than the chosen design, but {}",
+                    design_title(row),
+                    money(catalog, row.cost),
+                    money(catalog, c.cost - row.cost),
+                    short(row, *check)
+                ),
+                None => format!("{} {}", design_title(row), short(row, *check)),
+            },
         });
     let verdict = match (chosen_row, &inp.best_rejected) {
         (Some(c), _) => format!(
@@ -363,12 +569,11 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             c.governing_check.map(|g| g.to_string()).unwrap_or_else(|| "none".into()),
             percent(c.governing_margin())
         ),
-        (None, Some((row, check, margin))) => format!(
-            "No design among {} candidates meets every requirement. The nearest miss, {}, fails {} by {}.",
+        (None, Some((row, check, _))) => format!(
+            "No design among {} candidates meets every requirement. The nearest, {}, {}.",
             report.candidate_space,
             design_title(row),
-            check,
-            percent(-margin)
+            short(row, *check)
         ),
         (None, None) => format!(
             "No design among {} candidates meets every requirement.",
@@ -376,13 +581,39 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         ),
     };
 
+    let parts = chosen_row
+        .and_then(|c| elements_of(catalog, c))
+        .unwrap_or_default();
+    let polarity = req.kind.polarity();
+    let schematic_plot = (!parts.is_empty()).then(|| Plot {
+        id: "schematic".into(),
+        title: "Schematic of the chosen design".into(),
+        svg: schematic::schematic_svg(&parts, polarity, None),
+        caption: format!(
+            "Drawn from the {} netlist; designators as in the parts list and the SPICE export. {}",
+            chosen_row.map_or("", |c| c.topology),
+            if polarity == Polarity::Npn {
+                "Current sink: the mirror rail (R) at the bottom, current flowing down into it"
+            } else {
+                "Current source: the mirror rail (R) at the top, current flowing up out of it"
+            }
+        ),
+    });
+    let schematic_file = chosen_row.filter(|_| !parts.is_empty()).map(|c| {
+        schematic::schematic_svg(
+            &parts,
+            polarity,
+            Some(&format!("{}: {}", req.name, design_title(c))),
+        )
+    });
+
     let explain = report.explain.as_ref();
     let mut budget = Vec::new();
     let mut budget_table = Table {
         header: ["cause", "kind", "error"].map(String::from).to_vec(),
         rows: vec![],
     };
-    let mut plots = Vec::new();
+    let mut plots: Vec<Plot> = schematic_plot.into_iter().collect();
     if let Some(b) = explain.and_then(|e| e.budget.as_ref()) {
         for item in &b.systematic {
             budget.push(BudgetBar {
@@ -583,6 +814,9 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             }
         }
     }
+    if let Some(c) = chosen_row.and_then(|c| separate_singles_caution(catalog, req, c, &parts)) {
+        cautions.push(c);
+    }
     cautions.push(
         "This record documents a computed choice. Dissipation near a rating, high voltage and LED or laser drive are for the part's datasheet, local codes and licensed engineering practice to settle; confirm the design on the bench before release".into(),
     );
@@ -592,6 +826,12 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         verdict,
         feasible: chosen_row.is_some(),
         requirement: requirement_rows(req, catalog),
+        parts: if parts.is_empty() {
+            Table::default()
+        } else {
+            parts_table(catalog, &parts)
+        },
+        schematic_file,
         chosen,
         runners_up,
         counts: counts_sentence(report),

@@ -147,12 +147,18 @@ pub fn page() -> super::page::Page {
         governing_check: "accuracy".into(),
         governing_margin: 0.385,
         cost: "0.16 EUR".into(),
+        total_error: "1.23 %".into(),
     };
     Page {
         title: "tail <script>alert(1)</script> & sink".into(),
         verdict: "wilson with npn-dual-test meets every requirement".into(),
         feasible: true,
         requirement: vec![("name".into(), "tail <i>sink</i>".into())],
+        parts: Table {
+            header: vec!["designator".into(), "value".into()],
+            rows: vec![vec!["Q1A".into(), "npn-dual-test <b>".into()]],
+        },
+        schematic_file: None,
         chosen: Some(design(1, "wilson · npn-dual-test <b>bold</b>")),
         runners_up: vec![design(2, "simple · npn-dual-test")],
         counts: "120 candidate designs: 7 feasible. A rejected design is counted under the check that rejected it.".into(),
@@ -161,6 +167,9 @@ pub fn page() -> super::page::Page {
             design: design(0, "simple · cheap"),
             check: "accuracy".into(),
             margin: -0.2,
+            headline:
+                "simple · cheap <u>x</u> reaches 2.40 % total error, the requirement allows 2.00 %"
+                    .into(),
         }),
         budget_table: Table {
             header: vec!["cause".into(), "error".into()],

@@ -1,30 +1,18 @@
 //! The decision page as one self-contained HTML document.
 //!
 //! Inline CSS and inline SVG only: no scripts, no external references, so the file can
-//! be mailed, archived and opened offline years later. Every text that may come from a
-//! user's file goes through [`escape`]. The look is a plain engineering document:
-//! numbered sections, ruled tables, numbers right-aligned in tabular figures.
+//! be mailed, archived and opened offline years later. The page is a maud template,
+//! checked at compile time and escaping every interpolated value by default, so a
+//! string from a user's file cannot reach the page as markup by accident; the only
+//! pre-escaped inserts are the constant style sheet and the SVG our own plot and
+//! schematic code produced (which escape their own labels). The look is a plain
+//! engineering document: numbered sections, ruled tables, numbers right-aligned in
+//! tabular figures.
 
-use std::fmt::Write as _;
+use maud::{html, Markup, PreEscaped, DOCTYPE};
 
 use super::eng::percent;
-use super::page::{DesignView, Page, Table};
-
-/// Escapes text for HTML element content and quoted attribute values.
-pub fn escape(s: &str) -> String {
-    let mut o = String::with_capacity(s.len());
-    for c in s.chars() {
-        match c {
-            '&' => o.push_str("&amp;"),
-            '<' => o.push_str("&lt;"),
-            '>' => o.push_str("&gt;"),
-            '"' => o.push_str("&quot;"),
-            '\'' => o.push_str("&#39;"),
-            c => o.push(c),
-        }
-    }
-    o
-}
+use super::page::{DesignView, Page, Plot, Table};
 
 const CSS: &str = "
 body{font:15px/1.45 Georgia,'Times New Roman',serif;color:#1b1b1b;background:#fdfdfb;margin:0}
@@ -50,25 +38,25 @@ footer{margin-top:3em;font:11px system-ui,sans-serif;color:#666;border-top:1px s
 @media print{body{background:#fff}main{padding:0}h2{break-after:avoid}figure,table{break-inside:avoid}}
 ";
 
-fn table(o: &mut String, t: &Table, class: &str) {
-    let _ = write!(o, "<table class=\"{class}\"><thead><tr>");
-    for h in &t.header {
-        let _ = write!(o, "<th>{}</th>", escape(h));
-    }
-    o.push_str("</tr></thead><tbody>\n");
-    for r in &t.rows {
-        o.push_str("<tr>");
-        for (k, c) in r.iter().enumerate() {
-            let cls = if k > 0 && looks_numeric(c) {
-                " class=\"num\""
-            } else {
-                ""
-            };
-            let _ = write!(o, "<td{cls}>{}</td>", escape(c));
+fn table(t: &Table, class: &str) -> Markup {
+    html! {
+        table class=(class) {
+            thead { tr { @for h in &t.header { th { (h) } } } }
+            tbody {
+                @for r in &t.rows {
+                    tr {
+                        @for (k, c) in r.iter().enumerate() {
+                            @if k > 0 && looks_numeric(c) {
+                                td.num { (c) }
+                            } @else {
+                                td { (c) }
+                            }
+                        }
+                    }
+                }
+            }
         }
-        o.push_str("</tr>\n");
     }
-    o.push_str("</tbody></table>\n");
 }
 
 fn looks_numeric(s: &str) -> bool {
@@ -76,77 +64,66 @@ fn looks_numeric(s: &str) -> bool {
         .starts_with(|c: char| c.is_ascii_digit())
 }
 
-fn kv(o: &mut String, rows: &[(String, String)], id: &str) {
-    let _ = writeln!(o, "<table class=\"kv\" id=\"{id}\"><tbody>");
-    for (k, v) in rows {
-        let _ = writeln!(o, "<tr><th>{}</th><td>{}</td></tr>", escape(k), escape(v));
+fn kv(rows: &[(String, String)], id: &str) -> Markup {
+    html! {
+        table.kv id=(id) {
+            tbody {
+                @for (k, v) in rows {
+                    tr { th { (k) } td { (v) } }
+                }
+            }
+        }
     }
-    o.push_str("</tbody></table>\n");
 }
 
-fn design(o: &mut String, d: &DesignView, id: &str) {
-    let _ = writeln!(o, "<p><strong>{}</strong></p>", escape(&d.title));
-    let _ = writeln!(o, "<table class=\"kv figures\" id=\"{id}\"><tbody>");
-    for f in &d.figures {
-        let raw = f
-            .raw
-            .map(|r| format!(" data-value=\"{r:e}\""))
-            .unwrap_or_default();
-        let key = if f.key.is_empty() {
-            String::new()
-        } else {
-            format!(" data-key=\"{}\"", escape(&f.key))
-        };
-        let class = if f.raw.is_some() {
-            " class=\"num\""
-        } else {
-            ""
-        };
-        let _ = writeln!(
-            o,
-            "<tr><th>{}</th><td{class}{key}{raw}>{}</td></tr>",
-            escape(&f.label),
-            escape(&f.text)
-        );
-    }
-    o.push_str("</tbody></table>\n");
-    if !d.checks.is_empty() {
-        let _ = writeln!(
-            o,
-            "<h3>Checks (governing: {}, margin {})</h3>",
-            escape(&d.governing_check),
-            percent(d.governing_margin)
-        );
-        o.push_str("<table class=\"checks\"><thead><tr><th>check</th><th>value</th><th>limit</th><th>margin</th><th>verdict</th></tr></thead><tbody>\n");
-        for c in &d.checks {
-            let (cls, word) = if c.pass {
-                ("pass", "pass")
-            } else {
-                ("fail", "FAIL")
-            };
-            let _ = writeln!(
-                o,
-                "<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"{cls}\">{word}</td></tr>",
-                escape(&c.name),
-                escape(&c.value),
-                escape(&c.limit),
-                percent(c.margin)
-            );
+fn design(d: &DesignView, id: &str) -> Markup {
+    html! {
+        p { strong { (d.title) } }
+        table.kv.figures id=(id) {
+            tbody {
+                @for f in &d.figures {
+                    tr {
+                        th { (f.label) }
+                        td class=[f.raw.map(|_| "num")]
+                            data-key=[(!f.key.is_empty()).then_some(&f.key)]
+                            data-value=[f.raw.map(|r| format!("{r:e}"))] { (f.text) }
+                    }
+                }
+            }
         }
-        o.push_str("</tbody></table>\n");
+        @if !d.checks.is_empty() {
+            h3 { "Checks (governing: " (d.governing_check) ", margin " (percent(d.governing_margin)) ")" }
+            table.checks {
+                thead { tr { th { "check" } th { "value" } th { "limit" } th { "margin" } th { "verdict" } } }
+                tbody {
+                    @for c in &d.checks {
+                        tr {
+                            td { (c.name) }
+                            td.num { (c.value) }
+                            td.num { (c.limit) }
+                            td.num { (percent(c.margin)) }
+                            @if c.pass { td.pass { "pass" } } @else { td.fail { "FAIL" } }
+                        }
+                    }
+                }
+            }
+        }
+    }
+}
+
+fn figure(p: &Plot) -> Markup {
+    html! {
+        figure id=(format!("plot-{}", p.id)) {
+            // The SVG comes from our own plot and schematic code, whose writers escape
+            // every label.
+            (PreEscaped(&p.svg))
+            figcaption { (p.title) ". " (p.caption) }
+        }
     }
 }
 
 /// Renders the page as a complete HTML document.
 pub fn render(page: &Page) -> String {
-    let mut o = String::with_capacity(64 * 1024);
-    let _ = write!(
-        o,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
-         <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
-         <title>Mirror design record: {}</title>\n<style>{CSS}</style>\n</head>\n<body>\n<main>\n",
-        escape(&page.title)
-    );
     let meta = page
         .assumptions
         .iter()
@@ -154,110 +131,125 @@ pub fn render(page: &Page) -> String {
         .map(|(k, v)| format!("{k}: {v}"))
         .collect::<Vec<_>>()
         .join(" · ");
-    let _ = write!(
-        o,
-        "<header>\n<p class=\"kicker\">Current-mirror design record</p>\n<h1>{}</h1>\n<p class=\"meta\">{}</p>\n</header>\n",
-        escape(&page.title),
-        escape(&meta)
-    );
-    let _ = writeln!(
-        o,
-        "<p class=\"verdict{}\" id=\"verdict\">{}</p>",
-        if page.feasible { "" } else { " fail" },
-        escape(&page.verdict)
-    );
+    let plot = |id: &str| page.plots.iter().find(|p| p.id == id);
+    let curves: Vec<&Plot> = page
+        .plots
+        .iter()
+        .filter(|p| p.id != "budget" && p.id != "schematic")
+        .collect();
+    let doc = html! {
+        (DOCTYPE)
+        html lang="en" {
+            head {
+                meta charset="utf-8";
+                meta name="viewport" content="width=device-width, initial-scale=1";
+                title { "Mirror design record: " (page.title) }
+                style { (PreEscaped(CSS)) }
+            }
+            body {
+                main {
+                    header {
+                        p.kicker { "Current-mirror design record" }
+                        h1 { (page.title) }
+                        p.meta { (meta) }
+                    }
+                    p.verdict.fail[!page.feasible] id="verdict" { (page.verdict) }
 
-    o.push_str("<section id=\"requirement\">\n<h2>1 Requirement</h2>\n");
-    kv(&mut o, &page.requirement, "requirement-table");
-    o.push_str("</section>\n");
+                    section id="requirement" {
+                        h2 { "1 Requirement" }
+                        (kv(&page.requirement, "requirement-table"))
+                    }
 
-    o.push_str("<section id=\"decision\">\n<h2>2 Chosen design</h2>\n");
-    match &page.chosen {
-        Some(d) => design(&mut o, d, "chosen"),
-        None => o.push_str(
-            "<p>No design meets every requirement; see section 4 for the nearest miss.</p>\n",
-        ),
-    }
-    o.push_str("</section>\n");
+                    section id="decision" {
+                        h2 { "2 Chosen design" }
+                        @match &page.chosen {
+                            Some(d) => {
+                                (design(d, "chosen"))
+                                @if let Some(p) = plot("schematic") {
+                                    h3 { "Schematic and parts" }
+                                    (figure(p))
+                                }
+                                @if !page.parts.rows.is_empty() {
+                                    (table(&page.parts, "parts"))
+                                }
+                            }
+                            None => p { "No design meets every requirement; see section 4 for the nearest miss." }
+                        }
+                    }
 
-    o.push_str("<section id=\"runners-up\">\n<h2>3 Runners-up</h2>\n");
-    if page.runners_up.is_empty() {
-        o.push_str("<p>No other design passes every check.</p>\n");
-    } else {
-        table(&mut o, &page.runners_up_table(), "runners-up");
-    }
-    o.push_str("</section>\n");
+                    section id="runners-up" {
+                        h2 { "3 Runners-up" }
+                        @if page.runners_up.is_empty() {
+                            p { "No other design passes every check." }
+                        } @else {
+                            (table(&page.runners_up_table(), "runners-up"))
+                        }
+                    }
 
-    o.push_str("<section id=\"rejected\">\n<h2>4 What was rejected and why</h2>\n");
-    let _ = writeln!(o, "<p>{}</p>", escape(&page.counts));
-    if !page.rejected_by.is_empty() {
-        table(&mut o, &page.rejected_by_table(), "rejected-by");
-    }
-    if let Some(r) = &page.best_rejected {
-        let _ = writeln!(
-            o,
-            "<h3>Nearest miss: failed {} by {}</h3>",
-            escape(&r.check),
-            percent(-r.margin)
-        );
-        design(&mut o, &r.design, "best-rejected");
-    }
-    o.push_str("</section>\n");
+                    section id="rejected" {
+                        h2 { "4 What was rejected and why" }
+                        p { (page.counts) }
+                        @if !page.rejected_by.is_empty() {
+                            (table(&page.rejected_by_table(), "rejected-by"))
+                        }
+                        @if let Some(r) = &page.best_rejected {
+                            @if page.feasible {
+                                h3 { "Nearest miss: a cheaper design that fails" }
+                            } @else {
+                                h3 { "Nearest miss" }
+                            }
+                            p id="nearest-miss" { (r.headline) "." }
+                            (design(&r.design, "best-rejected"))
+                        }
+                    }
 
-    o.push_str("<section id=\"budget\">\n<h2>5 Error budget</h2>\n");
-    if page.chosen.is_none() {
-        o.push_str("<p>No design was chosen, so there is no budget to show.</p>\n");
-    }
-    let mut plots = page.plots.iter();
-    if let Some(p) = plots.by_ref().find(|p| p.id == "budget") {
-        figure(&mut o, p);
-    }
-    if !page.budget_table.rows.is_empty() {
-        table(&mut o, &page.budget_table, "budget");
-    }
-    o.push_str("</section>\n");
+                    section id="budget" {
+                        h2 { "5 Error budget" }
+                        @if page.chosen.is_none() {
+                            p { "No design was chosen, so there is no budget to show." }
+                        }
+                        @if let Some(p) = plot("budget") { (figure(p)) }
+                        @if !page.budget_table.rows.is_empty() {
+                            (table(&page.budget_table, "budget"))
+                        }
+                    }
 
-    o.push_str("<section id=\"curves\">\n<h2>6 Curves</h2>\n");
-    if page.chosen.is_none() {
-        o.push_str("<p>No design was chosen, so there are no curves to show.</p>\n");
-    }
-    for p in page.plots.iter().filter(|p| p.id != "budget") {
-        figure(&mut o, p);
-    }
-    o.push_str("</section>\n");
+                    section id="curves" {
+                        h2 { "6 Curves" }
+                        @if page.chosen.is_none() {
+                            p { "No design was chosen, so there are no curves to show." }
+                        }
+                        @for p in &curves { (figure(p)) }
+                    }
 
-    o.push_str("<section id=\"corners\">\n<h2>7 Corners</h2>\n");
-    if page.corners.rows.is_empty() {
-        o.push_str("<p>No corner data.</p>\n");
-    } else {
-        table(&mut o, &page.corners, "corners");
-    }
-    o.push_str("</section>\n");
+                    section id="corners" {
+                        h2 { "7 Corners" }
+                        @if page.corners.rows.is_empty() {
+                            p { "No corner data." }
+                        } @else {
+                            (table(&page.corners, "corners"))
+                        }
+                    }
 
-    o.push_str("<section id=\"assumptions\">\n<h2>8 Assumptions</h2>\n");
-    kv(&mut o, &page.assumptions, "assumptions-table");
-    o.push_str("</section>\n");
+                    section id="assumptions" {
+                        h2 { "8 Assumptions" }
+                        (kv(&page.assumptions, "assumptions-table"))
+                    }
 
-    o.push_str("<section id=\"cautions\">\n<h2>9 Cautions</h2>\n<ul class=\"cautions\">\n");
-    for c in &page.cautions {
-        let _ = writeln!(o, "<li>{}</li>", escape(c));
-    }
-    o.push_str("</ul>\n</section>\n");
-    o.push_str("<footer>Written by mirrorpick from solved circuits. A record of a design decision, not a datasheet.</footer>\n");
-    o.push_str("</main>\n</body>\n</html>\n");
-    o
-}
-
-fn figure(o: &mut String, p: &super::page::Plot) {
-    let _ = writeln!(o, "<figure id=\"plot-{}\">", escape(&p.id));
-    // The SVG comes from our own plot code, whose backend escapes every label.
-    o.push_str(&p.svg);
-    let _ = writeln!(
-        o,
-        "<figcaption>{}. {}</figcaption>\n</figure>",
-        escape(&p.title),
-        escape(&p.caption)
-    );
+                    section id="cautions" {
+                        h2 { "9 Cautions" }
+                        ul.cautions {
+                            @for c in &page.cautions { li { (c) } }
+                        }
+                    }
+                    footer { "Written by mirrorpick from solved circuits. A record of a design decision, not a datasheet." }
+                }
+            }
+        }
+    };
+    let mut s = doc.into_string();
+    s.push('\n');
+    s
 }
 
 #[cfg(test)]
@@ -313,10 +305,10 @@ mod tests {
     }
 
     #[test]
-    fn escape_covers_the_metacharacters() {
-        assert_eq!(
-            escape(r#"<a href="x">&'"#),
-            "&lt;a href=&quot;x&quot;&gt;&amp;&#39;"
-        );
+    fn the_nearest_miss_headline_and_parts_table_are_text() {
+        let html = render(&fixtures::page());
+        assert!(html.contains("cheap &lt;u&gt;x&lt;/u&gt; reaches 2.40 % total error"));
+        assert!(html.contains("<table class=\"parts\">"));
+        assert!(html.contains("npn-dual-test &lt;b&gt;"));
     }
 }

@@ -134,9 +134,29 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     o.push_str("## 1 Requirement\n\n");
     kv(&mut o, &page.requirement);
 
+    let mut plot = |o: &mut String, p: &super::page::Plot| {
+        let name = format!("{stem}-{}.svg", p.id);
+        let _ = writeln!(
+            o,
+            "![{}]({})\n\n*{}*\n",
+            escape(&p.title),
+            name.replace(' ', "%20"),
+            escape(&p.caption)
+        );
+        files.push((name, p.svg.clone()));
+    };
     o.push_str("## 2 Chosen design\n\n");
     match &page.chosen {
-        Some(d) => design(&mut o, d),
+        Some(d) => {
+            design(&mut o, d);
+            for p in page.plots.iter().filter(|p| p.id == "schematic") {
+                o.push_str("### Schematic and parts\n\n");
+                plot(&mut o, p);
+            }
+            if !page.parts.rows.is_empty() {
+                table(&mut o, &page.parts);
+            }
+        }
         None => {
             o.push_str("No design meets every requirement; see section 4 for the nearest miss.\n\n")
         }
@@ -157,24 +177,16 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     if let Some(r) = &page.best_rejected {
         let _ = writeln!(
             o,
-            "### Nearest miss: failed {} by {}\n",
-            escape(&r.check),
-            percent(-r.margin)
+            "### {}\n\n{}.\n",
+            if page.feasible {
+                "Nearest miss: a cheaper design that fails"
+            } else {
+                "Nearest miss"
+            },
+            escape(&r.headline)
         );
         design(&mut o, &r.design);
     }
-
-    let mut plot = |o: &mut String, p: &super::page::Plot| {
-        let name = format!("{stem}-{}.svg", p.id);
-        let _ = writeln!(
-            o,
-            "![{}]({})\n\n*{}*\n",
-            escape(&p.title),
-            name.replace(' ', "%20"),
-            escape(&p.caption)
-        );
-        files.push((name, p.svg.clone()));
-    };
     o.push_str("## 5 Error budget\n\n");
     if page.chosen.is_none() {
         o.push_str("No design was chosen, so there is no budget to show.\n\n");
@@ -189,7 +201,11 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     if page.chosen.is_none() {
         o.push_str("No design was chosen, so there are no curves to show.\n\n");
     }
-    for p in page.plots.iter().filter(|p| p.id != "budget") {
+    for p in page
+        .plots
+        .iter()
+        .filter(|p| p.id != "budget" && p.id != "schematic")
+    {
         plot(&mut o, p);
     }
     o.push_str("## 7 Corners\n\n");

@@ -18,6 +18,7 @@ pub mod markdown;
 pub mod page;
 pub mod plot;
 pub mod rank;
+pub mod schematic;
 pub mod spice;
 
 #[cfg(test)]

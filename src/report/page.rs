@@ -41,15 +41,21 @@ pub struct DesignView {
     pub governing_check: String,
     pub governing_margin: f64,
     pub cost: String,
+    /// Total error (systematic + k sigma), formatted.
+    pub total_error: String,
 }
 
-/// The nearest miss: the best design that failed, and the check it failed by most.
+/// The nearest miss: a cheaper design than the chosen one that fails (any design when
+/// nothing passes), and the check it fails by most.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Rejected {
     pub design: DesignView,
     pub check: String,
     /// The (negative) margin it missed by.
     pub margin: f64,
+    /// One sentence in engineering terms: what it saves and what it needs against what
+    /// the requirement allows.
+    pub headline: String,
 }
 
 /// A plot, as standalone SVG text.
@@ -79,6 +85,10 @@ pub struct Page {
     pub verdict: String,
     pub feasible: bool,
     pub requirement: Vec<(String, String)>,
+    /// The chosen design's parts with their designators (empty when none was chosen).
+    pub parts: Table,
+    /// The chosen design's schematic as a standalone, titled SVG file.
+    pub schematic_file: Option<String>,
     pub chosen: Option<DesignView>,
     pub runners_up: Vec<DesignView>,
     /// The candidate space and feasible count in words ("at least" where the search did
@@ -98,9 +108,16 @@ impl Page {
     /// The runners-up as a table (the same rows in every format).
     pub fn runners_up_table(&self) -> Table {
         Table {
-            header: ["rank", "design", "cost", "governing check", "margin"]
-                .map(String::from)
-                .to_vec(),
+            header: [
+                "rank",
+                "design",
+                "cost",
+                "total error",
+                "governing check",
+                "margin",
+            ]
+            .map(String::from)
+            .to_vec(),
             rows: self
                 .runners_up
                 .iter()
@@ -109,6 +126,7 @@ impl Page {
                         d.rank.map(|r| r.to_string()).unwrap_or_default(),
                         d.title.clone(),
                         d.cost.clone(),
+                        d.total_error.clone(),
                         d.governing_check.clone(),
                         percent(d.governing_margin),
                     ]

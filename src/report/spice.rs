@@ -12,6 +12,7 @@ use std::fmt::Write as _;
 
 use super::eng::{celsius, eng, percent, Charset};
 use super::Provenance;
+use crate::check::refdes::{Element, ElementKind};
 use crate::model::{
     BjtParams, Polarity, Requirement, ResistorClass, Role, Topology, TransistorClass,
     ZERO_CELSIUS_K,
@@ -114,6 +115,23 @@ fn model_card(class: &TransistorClass, name: &str) -> String {
     let tnom_c = ((m.t_nom_k - ZERO_CELSIUS_K) * 1e6).round() / 1e6;
     params.push(format!("TNOM={}", num(tnom_c)));
     format!(".model {name} {kind}({})", params.join(" "))
+}
+
+/// The design's parts with their reference designators (the same list the report's
+/// schematic and parts table draw).
+pub fn elements(design: &SpiceDesign) -> Vec<Element> {
+    let packages = crate::check::place(design.topology, design.pair, design.helper);
+    crate::check::refdes::elements(
+        design.topology,
+        &packages,
+        if design.topology.desc().has_re1 {
+            design.re1_ohm
+        } else {
+            0.0
+        },
+        design.re2_ohm,
+        design.resistor.map(|r| r.id.as_str()),
+    )
 }
 
 /// The nodes of a topology's netlist for this design, in order of first appearance,
@@ -220,7 +238,16 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
          * Model notes: the advisor applies IKF to the base current only; a Gummel-Poon\n\
          * simulator also bends the collector current with it, so results differ near IKF.\n\
          * Nominal (matched) devices. To try a V_BE offset dV on the second device of a pair,\n\
-         * give its Q line an area factor exp(dV/V_T), e.g. 1.08 for 2 mV at 300 K.\n",
+         * give its Q line an area factor exp(dV/V_T), e.g. 1.08 for 2 mV at 300 K.\n\
+         * Not modelled in this deck: self-heating. The advisor's figures include each\n\
+         * junction's rise above ambient (dissipation times the class's thermal resistance,\n\
+         * plus the mutual heating of devices in one package); this deck runs every device\n\
+         * at the .temp ambient. To add it, give each Q line its rise as an instance\n\
+         * temperature offset (dtemp=<kelvin> in ngspice-compatible simulators), taken from\n\
+         * the junction temperatures `mirrorpick solve` reports, or model the thermal\n\
+         * network with behavioural sources if your simulator supports them.\n\
+         * Element names are the design's reference designators (Q1A, R1), as on the\n\
+         * report's schematic and parts list.\n",
     );
     o.push('\n');
 
@@ -235,46 +262,65 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         desc.name
     );
     let _ = writeln!(o, ".subckt {subckt} {}", SUBCKT_PINS.join(" "));
-    for t in desc.transistors {
-        let model = match t.role {
-            Role::Helper => &helper_model,
-            Role::Matched { .. } => &pair_model,
-        };
-        let role = match t.role {
-            Role::Matched { pair, member } => {
-                format!("matched pair {}, device {}", pair + 1, member + 1)
+    let parts = elements(design);
+    for el in &parts {
+        match &el.kind {
+            ElementKind::Transistor {
+                collector,
+                base,
+                emitter,
+                role,
+                ..
+            } => {
+                let model = match role {
+                    Role::Helper => &helper_model,
+                    Role::Matched { .. } => &pair_model,
+                };
+                let role = match role {
+                    Role::Matched { pair, member } => {
+                        format!("matched pair {}, device {}", pair + 1, member + 1)
+                    }
+                    Role::Helper => "helper".to_string(),
+                };
+                let _ = writeln!(
+                    o,
+                    "{} {collector} {base} {emitter} {model}  ; netlist {}, {role}",
+                    el.designator, el.netlist_name
+                );
             }
-            Role::Helper => "helper".to_string(),
-        };
-        let _ = writeln!(
-            o,
-            "{} {} {} {} {model}  ; {role}",
-            t.name, t.collector, t.base, t.emitter
-        );
+            ElementKind::Resistor {
+                a: n1, b: n2, ohm, ..
+            } => {
+                let tcr = design
+                    .resistor
+                    .map(|r| format!(", TCR {} ppm/K", ppm(r.tcr_per_k)))
+                    .unwrap_or_default();
+                let _ = writeln!(
+                    o,
+                    "{} {n1} {n2} {}  ; netlist {}, {}{tcr}",
+                    el.designator,
+                    num(*ohm),
+                    el.netlist_name,
+                    eng(*ohm, "ohm", a)
+                );
+            }
+        }
     }
-    let resistor = |o: &mut String, name: &str, node: &str, ohm: f64| {
-        if ohm > 0.0 {
-            let tcr = design
-                .resistor
-                .map(|r| format!(", TCR {} ppm/K", ppm(r.tcr_per_k)))
-                .unwrap_or_default();
+    // An emitter resistor of 0 ohm is a wire, not a part: a 0 V source keeps the node
+    // and reads the emitter current.
+    let shorts = [
+        ("RE1", "e1", design.re1_ohm, desc.has_re1),
+        ("RE2", "e2", design.re2_ohm, true),
+    ];
+    for (name, node, ohm, exists) in shorts {
+        if exists && ohm <= 0.0 {
             let _ = writeln!(
                 o,
-                "R{name} {node} R {}  ; {}{tcr}",
-                num(ohm),
-                eng(ohm, "ohm", a)
-            );
-        } else {
-            let _ = writeln!(
-                o,
-                "V{name} {node} R DC 0  ; {name} = 0 ohm: a short that also reads the emitter current"
+                "V{} {node} R DC 0  ; {name} = 0 ohm: a short (no part) that also reads the emitter current",
+                &name[1..]
             );
         }
-    };
-    if desc.has_re1 {
-        resistor(&mut o, "E1", "e1", design.re1_ohm);
     }
-    resistor(&mut o, "E2", "e2", design.re2_ohm);
     let _ = writeln!(o, ".ends {subckt}");
     o.push('\n');
 
@@ -442,10 +488,14 @@ mod tests {
                     })
                     .chain(sub[0].split_whitespace().skip(2))
                     .collect();
+                let parts = elements(&d);
                 for line in t.desc().transistors {
                     let q = format!(
                         "{} {} {} {} ",
-                        line.name, line.collector, line.base, line.emitter
+                        crate::check::refdes::designator_of(&parts, line.name).unwrap(),
+                        line.collector,
+                        line.base,
+                        line.emitter
                     );
                     assert!(
                         sub.iter().any(|l| l.starts_with(&q)),
@@ -488,7 +538,7 @@ mod tests {
             &fixtures::provenance(),
         );
         assert!(!deck.contains("E1 e1"), "{deck}");
-        assert!(deck.contains("\nRE2 e2 R 4.7e3 "), "{deck}");
+        assert!(deck.contains("\nR1 e2 R 4.7e3 "), "{deck}");
     }
 
     #[test]
@@ -506,7 +556,7 @@ mod tests {
         };
         let deck = render(&d, &req, &fixtures::provenance());
         assert!(card(&deck, &model_name(&pair.id)).contains(" PNP("));
-        assert!(deck.contains("\nQ1 in in e1 "), "{deck}");
+        assert!(deck.contains("\nQ1A in in e1 "), "{deck}");
         assert!(deck.contains("\nVS rail 0 DC 1.2e1\n"), "{deck}");
         assert!(deck.contains("\nIIN in 0 DC "), "{deck}");
         assert!(deck.contains("\nVOUT rail out DC "), "{deck}");

@@ -51,7 +51,7 @@ fn json_carries_schema_and_totals() {
     assert_eq!(v["total_cost"], 6.0 + 3.0);
     assert_eq!(v["bom"].as_array().unwrap().len(), 3);
     assert_eq!(v["bom"][2]["value_ohm"], 4700.0);
-    assert_eq!(v["channels"][1]["copies"][0]["helpers"][0], "U2.3");
+    assert_eq!(v["channels"][1]["copies"][0]["helpers"][0], "Q2C");
     assert_eq!(v["shared_packages"][0]["occupants"][0], "led#1");
 }
 
@@ -63,8 +63,8 @@ fn table_shows_bom_assignment_totals_and_caution() {
     for needle in [
         "4.70 kΩ, 1 %",
         "npn-quad",
-        "#1: U2.1 U2.2",
-        "helper U2.3",
+        "#1: Q2A Q2B",
+        "helper Q2C",
         "Total per build: 9.00 EUR",
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
@@ -74,7 +74,7 @@ fn table_shows_bom_assignment_totals_and_caution() {
     write_cautions(&plan(), &mut out).unwrap();
     let text = String::from_utf8(out).unwrap();
     assert!(
-        text.starts_with("Caution: U2 is shared by led #1, bias #1;"),
+        text.starts_with("Caution: Q2 is shared by led #1, bias #1;"),
         "{text}"
     );
     assert!(text.contains("datasheet"), "{text}");

@@ -80,6 +80,7 @@ fn json_has_exactly_the_documented_keys() {
     assert_eq!(
         tk,
         [
+            "designator",
             "i_b",
             "i_c",
             "name",
@@ -93,6 +94,14 @@ fn json_has_exactly_the_documented_keys() {
     // The Wilson needs a helper: the dual has no spare device, so the cheapest single is used.
     assert_eq!(v["transistors"].as_array().unwrap().len(), 3);
     assert_eq!(v["transistors"][2]["role"], "helper");
+    // IEEE 315 designators: the pair shares the dual (Q1A, Q1B), the helper is a single.
+    let refs: Vec<&str> = v["transistors"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| t["designator"].as_str().unwrap())
+        .collect();
+    assert_eq!(refs, ["Q1A", "Q1B", "Q2"]);
     assert!(v["nodes"]["in"].as_f64().unwrap() > 1.0);
     // Early effect (V_CE1 - V_CE2 ~ V_BE) and the dice's temperature difference dominate;
     // both are a few percent at most here.

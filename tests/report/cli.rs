@@ -159,7 +159,7 @@ fn export_writes_the_deck_atomically_or_not_at_all() {
         .stdout("");
     let deck = std::fs::read_to_string(&cir).unwrap();
     assert!(deck.contains(".subckt mirror_wilson4 in out R S"));
-    assert!(deck.contains("\nRE1 e1 R 1e3 "));
+    assert!(deck.contains("\nR1 e1 R 1e3 "), "RE1 is part R1");
     assert!(deck.contains("long-tailed pair tail"));
 
     // An unwritable location: exit 2, the path named, and nothing left behind.
@@ -270,5 +270,6 @@ fn helpers_on_spare_devices_share_the_pair_model() {
         mirrorpick::report::spice::defined_models(&deck),
         std::collections::BTreeSet::from(["npn_array_5".to_string()])
     );
-    assert!(deck.contains("\nQ3 S in b npn_array_5 "));
+    // All three devices in package Q1: the helper is its third unit.
+    assert!(deck.contains("\nQ1C S in b npn_array_5 "), "{deck}");
 }

@@ -27,7 +27,10 @@ fn page_is_well_formed_self_contained_and_agrees_with_rank_json() {
         .arg(&page)
         .assert()
         .success()
-        .stdout("");
+        .stdout(format!(
+            "Wrote the report to {}; a design meets every requirement.\n",
+            page.display()
+        ));
     let html = std::fs::read_to_string(&page).unwrap();
     let doc = Html::parse_document(&html);
     assert!(
@@ -157,4 +160,145 @@ fn an_unwritable_path_fails_first_and_leaves_nothing() {
     let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
     assert_eq!(names.len(), 1);
     assert!(!Path::new(&target).exists());
+}
+
+#[test]
+fn designators_agree_between_schematic_parts_table_and_spice() {
+    let dir = tempfile::tempdir().unwrap();
+    let page = dir.path().join("tail.html");
+    let svg = dir.path().join("tail-schematic.svg");
+    mirrorpick()
+        .args(["report", TAIL, "--out"])
+        .arg(&page)
+        .arg("--schematic")
+        .arg(&svg)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("the schematic to"));
+    let html = std::fs::read_to_string(&page).unwrap();
+    let doc = Html::parse_document(&html);
+    let figure = |key: &str| -> String {
+        let cell = select(&doc, &format!("#chosen td[data-key={key}]"));
+        cell[0].text().collect()
+    };
+    let raw = |key: &str| -> f64 {
+        select(&doc, &format!("#chosen td[data-key={key}]"))[0]
+            .value()
+            .attr("data-value")
+            .unwrap()
+            .parse()
+            .unwrap()
+    };
+    // Every part of the schematic file exactly once, with its designator and value.
+    let file = Html::parse_fragment(&std::fs::read_to_string(&svg).unwrap());
+    let mut drawn: Vec<String> = select(&file, "g.part")
+        .iter()
+        .map(|g| {
+            let words: Vec<String> = g
+                .text()
+                .map(|t| t.trim().to_string())
+                .filter(|t| !t.is_empty())
+                .collect();
+            assert_eq!(words[0], g.value().attr("data-designator").unwrap());
+            assert_eq!(words[1], g.value().attr("data-value").unwrap());
+            words[0].clone()
+        })
+        .collect();
+    drawn.sort();
+    let n = drawn.len();
+    drawn.dedup();
+    assert_eq!(drawn.len(), n, "each part once");
+    // The page's parts table lists the same designators.
+    let mut listed: Vec<String> = select(&doc, "table.parts tbody tr td:first-child")
+        .iter()
+        .map(|td| td.text().collect())
+        .collect();
+    listed.sort();
+    assert_eq!(listed, drawn);
+    // The SPICE export of the same design names its elements the same way.
+    let (re1, re2) = (raw("re1_ohm"), raw("re2_ohm"));
+    let mut cmd = mirrorpick();
+    cmd.args(["export", "--spice", TAIL, "--part"])
+        .arg(figure("part"))
+        .arg("--topology")
+        .arg(figure("topology"));
+    let helper = figure("helper");
+    if helper != "none" {
+        cmd.args(["--helper", &helper]);
+    }
+    if re1 > 0.0 || re2 > 0.0 {
+        cmd.args(["--re", &format!("{re2}"), "--resistor", &figure("resistor")]);
+    }
+    let out = cmd.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let deck = String::from_utf8(out.stdout).unwrap();
+    let mut elements: Vec<String> = deck
+        .lines()
+        .skip_while(|l| !l.starts_with(".subckt"))
+        .skip(1)
+        .take_while(|l| !l.starts_with(".ends"))
+        .filter(|l| l.starts_with('Q') || l.starts_with('R'))
+        .map(|l| l.split_whitespace().next().unwrap().to_string())
+        .collect();
+    elements.sort();
+    assert_eq!(
+        elements, drawn,
+        "SPICE element names are the schematic's designators"
+    );
+    assert!(deck.contains("Not modelled in this deck: self-heating"));
+}
+
+#[test]
+fn report_on_a_terminal_writes_beside_the_requirement_and_says_so() {
+    // Library-level: assert_cmd's stdout is a pipe, so the terminal case is set directly.
+    let dir = tempfile::tempdir().unwrap();
+    let req = dir.path().join("tail.yaml");
+    std::fs::copy(Path::new(env!("CARGO_MANIFEST_DIR")).join(TAIL), &req).unwrap();
+    let args = mirrorpick::app::ReportArgs {
+        requirement: req.clone(),
+        html: None,
+        stdout_is_terminal: true,
+        schematic: None,
+        markdown: None,
+        top: 3,
+        mc: mirrorpick::check::MonteCarlo::default(),
+        extremes: false,
+    };
+    let mut out = Vec::new();
+    mirrorpick::app::report_cmd::run_report(
+        &mirrorpick::app::CatalogSource::Default,
+        &args,
+        &mut out,
+    )
+    .unwrap();
+    let text = String::from_utf8(out).unwrap();
+    let expected = dir.path().join("tail.report.html");
+    assert_eq!(text.lines().count(), 1, "{text}");
+    assert!(text.contains(&expected.display().to_string()), "{text}");
+    assert!(
+        text.contains("the default beside the requirement"),
+        "{text}"
+    );
+    assert!(std::fs::read_to_string(&expected)
+        .unwrap()
+        .starts_with("<!DOCTYPE html>"));
+    // `--out -` puts the page on standard output even on a terminal.
+    let args = mirrorpick::app::ReportArgs {
+        html: Some("-".into()),
+        ..args
+    };
+    let mut out = Vec::new();
+    mirrorpick::app::report_cmd::run_report(
+        &mirrorpick::app::CatalogSource::Default,
+        &args,
+        &mut out,
+    )
+    .unwrap();
+    assert!(String::from_utf8(out)
+        .unwrap()
+        .starts_with("<!DOCTYPE html>"));
 }
