@@ -60,6 +60,8 @@ pub struct CheaperArgs {
     pub file: PathBuf,
     pub design: DesignArgs,
     pub second_source: bool,
+    /// List at most this many alternatives (the largest savings); `None`: all.
+    pub top: Option<usize>,
     pub format: Format,
     pub mc: MonteCarlo,
 }
@@ -123,7 +125,7 @@ pub fn run_cheaper(
     let (catalog, req) = inputs(cfg, &a.file)?;
     let spec = design_spec(&req, &catalog, &a.design)?;
     let bar = Bar::new();
-    let report = rank::cheaper(&req, &catalog, &spec, a.mc, a.second_source, &bar);
+    let report = rank::cheaper_top(&req, &catalog, &spec, a.mc, a.second_source, a.top, &bar);
     bar.finish();
     let report = report?;
     render::write_cheaper(out, &report, a.format, cfg.style)?;

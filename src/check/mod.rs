@@ -23,7 +23,9 @@ pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
 pub use design::{
     helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, ResolvedDesign,
 };
-pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use evaluate::{
+    CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo, YIELD_SCREEN_BAND,
+};
 pub use montecarlo::linear_yield;
 pub use ratings::{
     derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,

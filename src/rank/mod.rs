@@ -22,7 +22,7 @@ pub use report::{
     CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
     SCHEMA_VERSION,
 };
-pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
+pub use search::{screen_only, search, verify_each, Goal, Progress, Silent, Unit, Verdicts};
 pub use space::{enumerate, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
 
 use crate::check::{
@@ -237,7 +237,9 @@ pub fn check_design(
 ) -> Result<CheckReport, RankError> {
     let solves = AtomicU64::new(0);
     let (spec, mut ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
-    ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
+    if ev.figures.yield_solved.is_nan() {
+        ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
+    }
     let pass = ev.feasible();
     let row = CandidateRow::new(None, &spec, &ev, false);
     let explanation = Explanation::new(req, row.clone(), &ev);
@@ -265,6 +267,20 @@ pub fn cheaper(
     second_source: bool,
     progress: &dyn Progress,
 ) -> Result<CheaperReport, RankError> {
+    cheaper_top(req, catalog, spec, mc, second_source, None, progress)
+}
+
+/// `cheaper` listing at most `top` alternatives: the `top` cheapest families (the largest
+/// savings), each with its most accurate value; only those are verified.
+pub fn cheaper_top(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    mc: MonteCarlo,
+    second_source: bool,
+    top: Option<usize>,
+    progress: &dyn Progress,
+) -> Result<CheaperReport, RankError> {
     let solves = AtomicU64::new(0);
     let (spec, ref_ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
     let reference = CandidateRow::new(None, &spec, &ref_ev, false);
@@ -276,7 +292,7 @@ pub fn cheaper(
     let goal = if second_source {
         Goal::CheapestPerClass
     } else {
-        Goal::CheaperFamilies(ref_ev.cost)
+        Goal::CheaperFamilies(ref_ev.cost, top.unwrap_or(usize::MAX))
     };
     let groups = enumerate(req, catalog);
     let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
@@ -304,6 +320,7 @@ pub fn cheaper(
     }
     .into_iter()
     .map(|i| eligible[i])
+    .take(top.unwrap_or(usize::MAX))
     .collect();
     let alternatives: Vec<Alternative> = picked
         .par_iter()
