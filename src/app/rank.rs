@@ -82,7 +82,7 @@ pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outco
         explain: a.explain,
         every_value: a.every_value,
     };
-    let bar = Bar::new();
+    let bar = Bar::for_format(a.format);
     let run = rank::rank(&req, &catalog, &opts, &bar);
     bar.finish();
     let report = run?.report;
@@ -124,7 +124,7 @@ pub fn run_cheaper(
 ) -> Result<Outcome, AppError> {
     let (catalog, req) = inputs(cfg, &a.file)?;
     let spec = design_spec(&req, &catalog, &a.design)?;
-    let bar = Bar::new();
+    let bar = Bar::for_format(a.format);
     let report = rank::cheaper_top(&req, &catalog, &spec, a.mc, a.second_source, a.top, &bar);
     bar.finish();
     let report = report?;
@@ -271,6 +271,14 @@ pub(crate) struct Bar {
 }
 
 impl Bar {
+    /// A bar for a command writing `format` on stdout: shown only for the table, only
+    /// when stderr is a terminal, and only once the work has taken a second.
+    pub(crate) fn for_format(format: Format) -> Self {
+        let mut b = Bar::new();
+        b.terminal &= format == Format::Table;
+        b
+    }
+
     pub(crate) fn new() -> Self {
         let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
         if let Ok(style) =

@@ -370,6 +370,10 @@ pub fn cheaper_top(
             m.topology, m.part, m.failed_check
         ),
         (false, 0, None) => "no cheaper design exists in the catalog".to_string(),
+        (false, n, _) if top == Some(n) => format!(
+            "the {n} cheapest famil{} of cheaper designs (topology and classes) that meet the requirement, largest saving first (--top {n}; others may exist); the most accurate resistor value of each is shown",
+            if n == 1 { "y" } else { "ies" }
+        ),
         (false, n, _) => format!(
             "{n} famil{} of cheaper designs (topology and classes) meet{} the requirement; the most accurate resistor value of each is shown",
             if n == 1 { "y" } else { "ies" },
