@@ -988,6 +988,7 @@ fn placeholder(o: &Cand) -> Evaluation {
         corners: Vec::new(),
         budget: None,
         hottest: None,
+        soft_saturation: Vec::new(),
         complete: false,
     }
 }
