@@ -5,6 +5,7 @@
 use std::sync::atomic::AtomicU64;
 
 use mirrorpick::check::{resolve, CheckName, Depth, Evaluator, MonteCarlo, YIELD_SCREEN_BAND};
+use mirrorpick::model::Series;
 use mirrorpick::rank::{check_design, enumerate};
 
 use super::*;
