@@ -89,7 +89,7 @@ with the class's ratings as `check` does."
     Check(CheckCli),
     /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
     #[command(
-        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --re 2k --resistor thick-film-1pct --second-source"
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --re 2k --resistor thick-film-1pct --second-source\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson --top 5"
     )]
     Cheaper(CheaperCli),
     /// Output current against output voltage for several input currents, and the error
@@ -309,6 +309,10 @@ pub struct CheaperCli {
     /// transistor class that still passes, at any cost.
     #[arg(long)]
     pub second_source: bool,
+    /// Show at most N alternatives, largest saving first (default: all); only those are
+    /// verified, so a small N answers sooner.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
+    pub top: Option<u64>,
     #[command(flatten)]
     pub format: FormatArg,
     #[command(flatten)]
@@ -734,6 +738,7 @@ impl Cli {
                 file: a.file,
                 design: a.design.into_args(None),
                 second_source: a.second_source,
+                top: a.top.map(|n| n as usize),
                 format: a.format.format.into(),
                 mc: a.mc.into(),
             }),

@@ -42,7 +42,7 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
     };
     let design = draft.finish(&catalog)?;
 
-    let bar = Bar::new();
+    let bar = Bar::for_format(a.format);
     let dp = design_problem(&design, &catalog, a.mc, &bar);
     bar.finish();
     let outcome = bom::optimise(&dp.problem)?;

@@ -63,6 +63,8 @@ pub struct CheaperArgs {
     pub file: PathBuf,
     pub design: DesignArgs,
     pub second_source: bool,
+    /// List at most this many alternatives (the largest savings); `None`: all.
+    pub top: Option<usize>,
     pub format: Format,
     pub mc: MonteCarlo,
 }
@@ -88,7 +90,7 @@ pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outco
         explain: a.explain,
         every_value: a.every_value,
     };
-    let bar = Bar::new();
+    let bar = Bar::for_format(a.format);
     let run = rank::rank(&req, &catalog, &opts, &bar);
     bar.finish();
     let report = run?.report;
@@ -130,8 +132,8 @@ pub fn run_cheaper(
 ) -> Result<Outcome, AppError> {
     let (catalog, req) = inputs(cfg, &a.file)?;
     let spec = design_spec(&req, &catalog, &a.design)?;
-    let bar = Bar::new();
-    let report = rank::cheaper(&req, &catalog, &spec, a.mc, a.second_source, &bar);
+    let bar = Bar::for_format(a.format);
+    let report = rank::cheaper_top(&req, &catalog, &spec, a.mc, a.second_source, a.top, &bar);
     bar.finish();
     let report = report?;
     render::write_cheaper(out, &report, a.format, cfg.style)?;
@@ -305,6 +307,14 @@ pub(crate) struct Bar {
 }
 
 impl Bar {
+    /// A bar for a command writing `format` on stdout: shown only for the table, only
+    /// when stderr is a terminal, and only once the work has taken a second.
+    pub(crate) fn for_format(format: Format) -> Self {
+        let mut b = Bar::new();
+        b.terminal &= format == Format::Table;
+        b
+    }
+
     pub(crate) fn new() -> Self {
         let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
         if let Ok(style) =

@@ -17,7 +17,7 @@ use crate::check::{self, CheckName, Depth, DesignSpec, MonteCarlo};
 use crate::circuit::{Design, SolveOptions};
 use crate::curves::{self, CurveOptions};
 use crate::model::{Catalog, Requirement, Topology};
-use crate::rank::{self, CandidateRow, RankOptions, Silent};
+use crate::rank::{self, CandidateRow, RankOptions};
 use crate::report::decision::{build_page, DecisionInputs};
 use crate::report::{html, markdown};
 
@@ -172,7 +172,11 @@ pub fn run_report(
         explain: Some(1),
         ..RankOptions::default()
     };
-    let run = rank::rank(&req, &catalog, &opts, &Silent)?;
+    // The report goes to a file: the bar (stderr, terminals only) never mixes with it.
+    let bar = super::rank::Bar::new();
+    let run = rank::rank(&req, &catalog, &opts, &bar);
+    bar.finish();
+    let run = run?;
     let chosen_cost = run.report.candidates.first().map(|c| c.cost);
     let best_rejected = nearest_miss(&req, &catalog, &run.rejected, mc, chosen_cost);
     let curve_set = match run.report.candidates.first() {

@@ -35,6 +35,41 @@
 //! optimum and never breaks `max_line_items`. Overlapping E96 ranges collapse to a few
 //! values this way, which is what keeps a six-channel board small.
 //!
+//! **The fast feed** (what `bom` runs; [`design_problem_full`] is the reference above,
+//! verifying every candidate). Verifying tens of thousands of candidates per channel
+//! is what made a board slow, and nearly all of them cannot matter. Each channel is
+//! screened as in the ranking (only proven failures are dropped); then:
+//! 1. *Bounds from parts alone.* A copy's *share* is a lower bound of what it adds to the
+//!    parts cost of any board: each transistor at its package's price divided by the
+//!    devices per package (a package never holds more devices than that, so the board's
+//!    package cost is at least the sum of these shares), plus its resistors (priced per
+//!    piece). Its *items* are the line items it cannot do without (pair class, helper
+//!    single, each resistor value). The survivors of each channel are verified in
+//!    ascending share, whole levels at a time, until one is feasible: that gives `m_c`,
+//!    the smallest share of any feasible design of channel `c`; and in ascending cost
+//!    until a cost level has a feasible design, verified whole, so the baseline (every
+//!    channel's cheapest design on its own) is the full feed's.
+//! 2. *Upper bound.* The program solved on the designs verified so far gives a board
+//!    that is feasible in the full problem: `U` = its cost (no board if the line-item
+//!    limit cannot be met that way: then `U` is infinite and nothing is cut).
+//! 3. *Cut.* A board in which channel `c` uses candidate `o` costs at least
+//!    `B (sum over other channels of count x m) + B count_c share(o) + F lines(o)`, where
+//!    `lines(o)` counts `o`'s items plus one when some channel can only be built in the
+//!    other polarity (its transistor class cannot be one of `o`'s). A candidate whose
+//!    bound exceeds `U` is in no optimal board and is never verified.
+//! 4. *Lazy verification.* The program is solved with every remaining candidate not yet
+//!    disproved *taken as feasible*, after the exact reductions of this module (private
+//!    values, dominated values; verified designs are preferred within equal usages). That
+//!    optimum is at most the true one (more options). If it chooses only verified
+//!    designs, its board is feasible, so it *is* the true optimum; otherwise the chosen
+//!    unverified designs are verified (with up to 16 neighbours of the same family, so a
+//!    failure does not cost one round each) and the program solved again. Each round
+//!    disproves or confirms at least one chosen design, so it ends.
+//! The board is then built from every verified feasible design only, so its optimum equals
+//! the full feed's (`tests/bom/fast_feed.rs` checks it on the shipped board and on random
+//! boards); among designs of equal board cost the chosen one may differ, and the
+//! candidate counts printed per channel count what was verified.
+//!
 //! **Helpers.** A helper that sits in a spare device of the pair's own package was
 //! verified there, so the copy is kept together and only the pair class's spares may
 //! take it; a helper verified as a separate single may only be a single of that class
@@ -49,12 +84,13 @@
 //! `allow` keeps its meaning.
 
 use std::collections::BTreeMap;
+use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
 use crate::check::{CheckName, MonteCarlo};
-use crate::model::{BoardDesign, Catalog, Filters, Requirement, ALL_TOPOLOGIES};
-use crate::rank::{enumerate, search, Goal, Progress};
+use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
+use crate::rank::{enumerate, screen_only, search, verify_each, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
 
 /// One channel's candidates as passed to the program, with what is needed to report on
@@ -78,20 +114,14 @@ pub struct DesignProblem {
     pub catalog: Catalog,
 }
 
-/// Rank every channel of `design` and build the integer program's input.
-pub fn design_problem(
-    design: &BoardDesign,
-    catalog: &Catalog,
-    mc: MonteCarlo,
-    progress: &dyn Progress,
-) -> DesignProblem {
+/// Every channel's requirement with the board-wide exclusions joined to its `deny` lists:
+/// the channel's `allow` keeps its meaning, and both filters must permit a part.
+fn channel_requirements(design: &BoardDesign, catalog: &Catalog) -> Vec<Requirement> {
     let excluded = excluded_classes(catalog, &design.classes);
-    let channels: Vec<ChannelCandidates> = design
+    design
         .channels
         .iter()
         .map(|ch| {
-            // Board-wide exclusions join the channel's own `deny`: the channel's `allow`
-            // keeps its meaning, and both filters must permit a part.
             let mut req = ch.requirement.clone();
             req.classes.deny.extend(excluded.iter().cloned());
             req.topologies.deny.extend(
@@ -100,9 +130,63 @@ pub fn design_problem(
                     .filter(|t| !design.topologies.permits(t.name()))
                     .map(|t| t.name().to_string()),
             );
-            channel_candidates(&ch.name, ch.count, &req, catalog, mc, progress)
+            req
+        })
+        .collect()
+}
+
+/// Rank every channel of `design` and build the integer program's input, verifying only
+/// the candidates that can matter to the board (see the module docs, "The fast feed").
+pub fn design_problem(
+    design: &BoardDesign,
+    catalog: &Catalog,
+    mc: MonteCarlo,
+    progress: &dyn Progress,
+) -> DesignProblem {
+    let reqs = channel_requirements(design, catalog);
+    let feeds = fast_feed(design, &reqs, catalog, mc, progress);
+    let channels = design
+        .channels
+        .iter()
+        .zip(feeds)
+        .map(|(ch, f)| {
+            candidates_from(
+                &ch.name,
+                ch.count,
+                f.feasible,
+                &f.rejected,
+                f.nothing,
+                catalog,
+            )
         })
         .collect();
+    assemble(design, catalog, channels)
+}
+
+/// The same problem built from every feasible design of every channel (search goal
+/// `All`): the reference the fast feed is tested against, and what `bom` did before it.
+pub fn design_problem_full(
+    design: &BoardDesign,
+    catalog: &Catalog,
+    mc: MonteCarlo,
+    progress: &dyn Progress,
+) -> DesignProblem {
+    let reqs = channel_requirements(design, catalog);
+    let channels = design
+        .channels
+        .iter()
+        .zip(&reqs)
+        .map(|(ch, req)| channel_candidates(&ch.name, ch.count, req, catalog, mc, progress))
+        .collect();
+    assemble(design, catalog, channels)
+}
+
+/// Apply the cross-channel reductions and build the program's input.
+fn assemble(
+    design: &BoardDesign,
+    catalog: &Catalog,
+    channels: Vec<ChannelCandidates>,
+) -> DesignProblem {
     let channels = drop_dominated_values(merge_private_values(channels));
     let (transistors, resistors) = BoardProblem::parts_from(catalog);
     let problem = BoardProblem {
@@ -120,6 +204,278 @@ pub fn design_problem(
         channels,
         catalog: catalog.clone(),
     }
+}
+
+/// One line item of the board: a transistor class, or a resistor class and value.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
+enum Item {
+    Transistor(String),
+    Resistor(String, u64),
+}
+
+/// A screened candidate of one channel and what the board bound needs to know of it.
+struct Cand {
+    spec: DesignSpec,
+    /// Lower bound of what one copy adds to the parts cost of any board: each device at
+    /// its package's price divided by the devices per package, plus its resistors.
+    share: f64,
+    /// The distinct line items one copy cannot do without.
+    items: Vec<Item>,
+    polarity: Polarity,
+    /// `None` until verified; then the evaluation, or the check it failed.
+    verdict: Option<Result<Evaluation, CheckName>>,
+}
+
+/// One channel's screen and verifications.
+struct Feed {
+    nothing: bool,
+    rejected: Vec<(DesignSpec, CheckName)>,
+    feasible: Vec<(DesignSpec, Evaluation)>,
+}
+
+fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
+    let d = resolve(catalog, &spec).ok()?;
+    let pair = d.pair;
+    let per_device =
+        |c: &crate::model::TransistorClass| c.unit_cost / f64::from(c.devices_per_package.max(1));
+    let pairs = u32::from(spec.topology.desc().matched_pairs);
+    let helpers = helper_count(spec.topology) as u32;
+    let in_spares = helpers > 0 && helpers_fit_in_spares(spec.topology, pair);
+    let mut share = f64::from(2 * pairs) * per_device(pair);
+    let mut items = vec![Item::Transistor(pair.id.clone())];
+    if helpers > 0 {
+        if in_spares {
+            share += f64::from(helpers) * per_device(pair);
+        } else {
+            let h = d.helper?;
+            share += f64::from(helpers) * per_device(h);
+            items.push(Item::Transistor(h.id.clone()));
+        }
+    }
+    if let Some(r) = d.resistor {
+        share += f64::from(spec.resistor_count()) * r.unit_cost;
+        for v in [spec.re1_ohm, spec.re2_ohm] {
+            let it = Item::Resistor(r.id.clone(), v.to_bits());
+            if v > 0.0 && !items.contains(&it) {
+                items.push(it);
+            }
+        }
+    }
+    items.sort();
+    items.dedup();
+    Some(Cand {
+        polarity: pair.polarity,
+        share,
+        items,
+        spec,
+        verdict: None,
+    })
+}
+
+/// Verify the candidates `idx` of one channel (those not yet verified), in parallel.
+fn verify_some(
+    req: &Requirement,
+    catalog: &Catalog,
+    cands: &mut [Cand],
+    idx: &[usize],
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+) {
+    let todo: Vec<usize> = idx
+        .iter()
+        .copied()
+        .filter(|&i| cands[i].verdict.is_none())
+        .collect();
+    if todo.is_empty() {
+        return;
+    }
+    let specs: Vec<&DesignSpec> = todo.iter().map(|&i| &cands[i].spec).collect();
+    let out = verify_each(req, catalog, &specs, mc, solves);
+    progress.advance(todo.len() as u64);
+    for (i, v) in todo.into_iter().zip(out) {
+        cands[i].verdict = Some(v);
+    }
+}
+
+fn is_feasible(c: &Cand) -> bool {
+    matches!(c.verdict, Some(Ok(_)))
+}
+
+/// Screen every channel, then verify only what can matter to the board (module docs).
+fn fast_feed(
+    design: &BoardDesign,
+    reqs: &[Requirement],
+    catalog: &Catalog,
+    mc: MonteCarlo,
+    progress: &dyn Progress,
+) -> Vec<Feed> {
+    let solves = AtomicU64::new(0);
+    let groups: Vec<_> = reqs.iter().map(|r| enumerate(r, catalog)).collect();
+    progress.start(
+        groups
+            .iter()
+            .flat_map(|g| g.iter().map(|g| g.specs.len() as u64))
+            .sum(),
+    );
+    let mut screened: Vec<(Vec<(DesignSpec, CheckName)>, Vec<Cand>)> = reqs
+        .iter()
+        .zip(&groups)
+        .map(|(req, g)| {
+            let (rejected, survivors) = screen_only(req, catalog, g, &solves);
+            progress.advance(rejected.len() as u64);
+            let cands = survivors
+                .into_iter()
+                .filter_map(|(spec, _)| cand(spec, catalog))
+                .collect();
+            (rejected, cands)
+        })
+        .collect();
+
+    // Stage 1: each channel's smallest share among feasible designs, verifying whole
+    // levels of equal share in ascending order until one is feasible.
+    let mut least: Vec<Option<f64>> = vec![None; reqs.len()];
+    for (c, (req, (_, cands))) in reqs.iter().zip(screened.iter_mut()).enumerate() {
+        let mut order: Vec<usize> = (0..cands.len()).collect();
+        order.sort_by(|&a, &b| cands[a].share.total_cmp(&cands[b].share).then(a.cmp(&b)));
+        let mut i = 0;
+        while i < order.len() {
+            let share = cands[order[i]].share;
+            let end = order[i..]
+                .iter()
+                .position(|&j| cands[j].share != share)
+                .map_or(order.len(), |p| i + p);
+            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
+                least[c] = Some(share);
+                break;
+            }
+            i = end;
+        }
+        // And the cheapest cost level with a feasible design, whole, so the baseline
+        // (every channel's cheapest design on its own) is the one the full feed gives.
+        let cost = |c: &Cand| resolve(catalog, &c.spec).map_or(f64::INFINITY, |d| d.cost);
+        let costs: Vec<f64> = cands.iter().map(cost).collect();
+        order.sort_by(|&a, &b| costs[a].total_cmp(&costs[b]).then(a.cmp(&b)));
+        let mut i = 0;
+        while i < order.len() {
+            let level = costs[order[i]];
+            let end = order[i..]
+                .iter()
+                .position(|&j| costs[j] != level)
+                .map_or(order.len(), |p| i + p);
+            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
+                break;
+            }
+            i = end;
+        }
+    }
+
+    // A channel without a feasible design makes the board infeasible whatever the
+    // others offer: nothing more to verify.
+    if least.iter().all(Option::is_some) {
+        let least: Vec<f64> = least.iter().map(|m| m.unwrap_or(0.0)).collect();
+        // An upper bound of the optimum: the best board built from what is verified.
+        let partial: Vec<ChannelCandidates> = design
+            .channels
+            .iter()
+            .zip(&screened)
+            .map(|(ch, (rej, cands))| {
+                let feasible = cands
+                    .iter()
+                    .filter_map(|c| match &c.verdict {
+                        Some(Ok(ev)) => Some((c.spec.clone(), ev.clone())),
+                        _ => None,
+                    })
+                    .collect();
+                candidates_from(&ch.name, ch.count, feasible, rej, false, catalog)
+            })
+            .collect();
+        let upper = match crate::bom::optimise(&assemble(design, catalog, partial).problem) {
+            Ok(crate::bom::BomOutcome::Optimal(plan)) => plan.total_cost,
+            _ => f64::INFINITY,
+        };
+        let boards = f64::from(design.boards);
+        let base: f64 = design
+            .channels
+            .iter()
+            .zip(&least)
+            .map(|(ch, m)| f64::from(ch.count) * m)
+            .sum();
+        // Polarities each channel can still be built in.
+        let polarities: Vec<Vec<Polarity>> = screened
+            .iter()
+            .map(|(_, cands)| {
+                let mut p: Vec<Polarity> = cands
+                    .iter()
+                    .filter(|c| !matches!(c.verdict, Some(Err(_))))
+                    .map(|c| c.polarity)
+                    .collect();
+                p.dedup();
+                p.sort_by_key(|p| *p as u8);
+                p.dedup();
+                p
+            })
+            .collect();
+        // Stage 2: keep a candidate only if a board using it can cost no more than
+        // `upper`; a tolerance covers the rounding of sums.
+        let slack = 1e-9 * upper.abs().max(1.0);
+        let mut kept: Vec<Vec<usize>> = Vec::new();
+        for (c, (_, cands)) in screened.iter().enumerate() {
+            let count = f64::from(design.channels[c].count);
+            let keep: Vec<usize> = (0..cands.len())
+                .filter(|&i| {
+                    let o = &cands[i];
+                    if matches!(o.verdict, Some(Err(_))) {
+                        return false;
+                    }
+                    let other_polarity = polarities
+                        .iter()
+                        .any(|p| !p.is_empty() && !p.contains(&o.polarity));
+                    let lines = o.items.len() + usize::from(other_polarity);
+                    let bound = boards * (base + count * (o.share - least[c]))
+                        + design.line_item_cost * lines as f64;
+                    bound <= upper + slack
+                })
+                .collect();
+            kept.push(keep);
+        }
+        lazy_verify(
+            design,
+            reqs,
+            catalog,
+            &mut screened,
+            &kept,
+            mc,
+            &solves,
+            progress,
+        );
+    }
+    let total: u64 = groups
+        .iter()
+        .flat_map(|g| g.iter().map(|g| g.specs.len() as u64))
+        .sum();
+    progress.advance(total);
+    screened
+        .into_iter()
+        .zip(&groups)
+        .map(|((mut rejected, cands), g)| {
+            let mut feasible = Vec::new();
+            for c in cands {
+                match c.verdict {
+                    Some(Ok(ev)) => feasible.push((c.spec, ev)),
+                    Some(Err(check)) => rejected.push((c.spec, check)),
+                    None => {}
+                }
+            }
+            Feed {
+                nothing: g.is_empty(),
+                rejected,
+                feasible,
+            }
+        })
+        .collect()
 }
 
 /// The class ids the board-wide filter excludes. As in a requirement, an `allow` list
@@ -147,7 +503,8 @@ pub fn excluded_classes(catalog: &Catalog, classes: &Filters) -> Vec<String> {
     t.chain(r).collect()
 }
 
-/// Rank one channel and keep its feasible designs, one per part usage.
+/// Rank one channel (every feasible design) and keep its feasible designs, one per part
+/// usage.
 pub fn channel_candidates(
     name: &str,
     count: u32,
@@ -158,25 +515,50 @@ pub fn channel_candidates(
 ) -> ChannelCandidates {
     let groups = enumerate(req, catalog);
     let verdicts = search(req, catalog, &groups, false, Goal::All, mc, progress);
-    let evaluated = verdicts.feasible.len() + verdicts.rejected.len();
-    let feasible = verdicts.feasible.len();
+    candidates_from(
+        name,
+        count,
+        verdicts.feasible,
+        &verdicts.rejected,
+        groups.is_empty(),
+        catalog,
+    )
+}
+
+/// Keep one verified feasible design per part usage (the one with the largest governing
+/// margin; ties: the earlier in enumeration order).
+fn candidates_from(
+    name: &str,
+    count: u32,
+    verified: Vec<(DesignSpec, Evaluation)>,
+    rejected: &[(DesignSpec, CheckName)],
+    nothing: bool,
+    catalog: &Catalog,
+) -> ChannelCandidates {
+    let evaluated = verified.len() + rejected.len();
+    let feasible = verified.len();
     let mut kept: Vec<(DesignUsage, (DesignSpec, Evaluation))> = Vec::new();
-    for (spec, ev) in verdicts.feasible {
+    let mut at: BTreeMap<String, usize> = BTreeMap::new();
+    for (spec, ev) in verified {
         let Some(usage) = design_usage(&spec, &ev, catalog) else {
             continue;
         };
-        match kept.iter_mut().find(|(u, _)| same_parts(u, &usage)) {
-            Some(slot) => {
+        match at.get(&parts_key(&usage)) {
+            Some(&k) => {
+                let slot = &mut kept[k];
                 if usage.governing_margin > slot.0.governing_margin {
                     *slot = (usage, (spec, ev));
                 }
             }
-            None => kept.push((usage, (spec, ev))),
+            None => {
+                at.insert(parts_key(&usage), kept.len());
+                kept.push((usage, (spec, ev)));
+            }
         }
     }
     let no_candidate_reason = kept
         .is_empty()
-        .then(|| rejection_reason(catalog, groups.is_empty(), &verdicts.rejected));
+        .then(|| rejection_reason(catalog, nothing, rejected));
     let (options, designs): (Vec<_>, Vec<_>) = kept.into_iter().unzip();
     ChannelCandidates {
         options: ChannelOptions {
@@ -267,6 +649,350 @@ pub fn label(spec: &DesignSpec) -> String {
     s
 }
 
+/// Verify lazily against the board (module docs, "The fast feed"): solve the program with
+/// every kept candidate not yet disproved taken as feasible; verify the unverified designs
+/// it chooses (with a few neighbours of the same family); repeat until it chooses only
+/// verified ones.
+#[allow(clippy::too_many_arguments)]
+fn lazy_verify(
+    design: &BoardDesign,
+    reqs: &[Requirement],
+    catalog: &Catalog,
+    screened: &mut [(Vec<(DesignSpec, CheckName)>, Vec<Cand>)],
+    kept: &[Vec<usize>],
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+) {
+    // Each kept candidate's usage, and the candidates grouped by the parts they put on
+    // the board, with those parts as small integers (computed once: the loop only picks
+    // a representative per group).
+    let mut usages: Vec<Vec<Option<DesignUsage>>> = Vec::new();
+    let mut groups: Vec<Vec<Vec<usize>>> = Vec::new();
+    let mut shape: Vec<Vec<Shape>> = Vec::new();
+    let mut tkeys: BTreeMap<String, u32> = BTreeMap::new();
+    let mut rclass: BTreeMap<String, u32> = BTreeMap::new();
+    for (c, (_, cands)) in screened.iter().enumerate() {
+        let mut u: Vec<Option<DesignUsage>> = (0..cands.len()).map(|_| None).collect();
+        let mut at: BTreeMap<String, usize> = BTreeMap::new();
+        let mut g: Vec<Vec<usize>> = Vec::new();
+        let mut sh: Vec<Shape> = Vec::new();
+        for &i in &kept[c] {
+            let Some(usage) = design_usage(&cands[i].spec, &placeholder(&cands[i]), catalog) else {
+                continue;
+            };
+            let key = parts_key(&usage);
+            match at.get(&key) {
+                Some(&k) => g[k].push(i),
+                None => {
+                    at.insert(key, g.len());
+                    g.push(vec![i]);
+                    let n = tkeys.len() as u32;
+                    let t = *tkeys.entry(transistors_key(&usage)).or_insert(n);
+                    let mut rs: Vec<(u32, u64, u32)> = usage
+                        .resistors
+                        .iter()
+                        .map(|r| {
+                            let n = rclass.len() as u32;
+                            let k = *rclass.entry(r.class.clone()).or_insert(n);
+                            (k, r.value_ohm.to_bits(), r.count)
+                        })
+                        .collect();
+                    rs.sort_unstable();
+                    sh.push((t, rs));
+                }
+            }
+            u[i] = Some(usage);
+        }
+        usages.push(u);
+        groups.push(g);
+        shape.push(sh);
+    }
+    loop {
+        let state = |c: usize, i: usize| &screened[c].1[i].verdict;
+        // Per group: the verified design with the largest governing margin, else the
+        // first not yet verified; `None` once every member failed.
+        let reps: Vec<Vec<Option<(usize, f64)>>> = groups
+            .iter()
+            .enumerate()
+            .map(|(c, gs)| {
+                gs.iter()
+                    .map(|g| {
+                        let mut best: Option<(usize, f64)> = None;
+                        let mut open = None;
+                        for &i in g {
+                            match state(c, i) {
+                                Some(Ok(ev)) => {
+                                    let m = ev.governing().map_or(f64::INFINITY, |x| x.margin);
+                                    if best.is_none_or(|(_, b)| m > b) {
+                                        best = Some((i, m));
+                                    }
+                                }
+                                Some(Err(_)) => {}
+                                None => {
+                                    if open.is_none() {
+                                        open = Some(i);
+                                    }
+                                }
+                            }
+                        }
+                        best.or(open.map(|i| (i, UNVERIFIED_MARGIN)))
+                    })
+                    .collect()
+            })
+            .collect();
+        let live: Vec<Vec<(usize, (usize, f64))>> = reps
+            .iter()
+            .map(|r| {
+                r.iter()
+                    .enumerate()
+                    .filter_map(|(k, x)| x.map(|x| (k, x)))
+                    .collect()
+            })
+            .collect();
+        let keep = reduce_optimistic(&shape, &live);
+        let mut channels = Vec::new();
+        for (c, (rej, cands)) in screened.iter().enumerate() {
+            let mut options = Vec::new();
+            let mut designs = Vec::new();
+            for &(k, (i, margin)) in &live[c] {
+                if !keep[c].contains(&k) {
+                    continue;
+                }
+                let ev = match &cands[i].verdict {
+                    Some(Ok(ev)) => ev.clone(),
+                    _ => placeholder(&cands[i]),
+                };
+                let Some(mut u) = usages[c][i].clone() else {
+                    continue;
+                };
+                u.label = label(&cands[i].spec);
+                u.governing_margin = margin;
+                if let Some(g) = ev.governing() {
+                    u.governing_check = g.name.to_string();
+                }
+                options.push(u);
+                designs.push((cands[i].spec.clone(), ev));
+            }
+            let ch = &design.channels[c];
+            let no_candidate_reason = options
+                .is_empty()
+                .then(|| rejection_reason(catalog, false, rej));
+            channels.push(ChannelCandidates {
+                options: ChannelOptions {
+                    name: ch.name.clone(),
+                    count: ch.count,
+                    options,
+                    no_candidate_reason,
+                },
+                designs,
+                feasible: 0,
+                evaluated: 0,
+            });
+        }
+        let dp = assemble(design, catalog, channels);
+        let Ok(crate::bom::BomOutcome::Optimal(plan)) = crate::bom::optimise(&dp.problem) else {
+            return;
+        };
+        let mut todo: Vec<(usize, usize)> = Vec::new();
+        for (c, a) in plan.channels.iter().enumerate() {
+            let Some((spec, ev)) = dp.channels[c].designs.get(a.option) else {
+                continue;
+            };
+            if !ev.complete {
+                let cands = &screened[c].1;
+                if let Some(i) = kept[c].iter().copied().find(|&i| cands[i].spec == *spec) {
+                    todo.push((c, i));
+                }
+            }
+        }
+        if todo.is_empty() {
+            return;
+        }
+        for (c, i) in todo {
+            let cands = &mut screened[c].1;
+            // The chosen design and its nearest unverified neighbours in the same family:
+            // should it fail, the next choice is likely one of them.
+            let fam = family_key(&cands[i].spec);
+            let mut near: Vec<usize> = kept[c]
+                .iter()
+                .copied()
+                .filter(|&j| cands[j].verdict.is_none() && family_key(&cands[j].spec) == fam)
+                .collect();
+            near.sort_by_key(|&j| j.abs_diff(i));
+            near.truncate(NEIGHBOURS);
+            if !near.contains(&i) {
+                near.push(i);
+            }
+            verify_some(&reqs[c], catalog, cands, &near, mc, solves, progress);
+        }
+    }
+}
+
+/// A group's parts: its transistors (interned) and resistor items `(class, value bits,
+/// count)`, sorted.
+type Shape = (u32, Vec<(u32, u64, u32)>);
+
+/// The two exact reductions of the module docs (private values, dominated values) on the
+/// optimistic feed, on integers because that feed is large. `live[c]` lists channel `c`'s
+/// groups still standing, each with its representative and margin; returns, per channel,
+/// the groups to offer.
+fn reduce_optimistic(
+    shape: &[Vec<Shape>],
+    live: &[Vec<(usize, (usize, f64))>],
+) -> Vec<std::collections::BTreeSet<usize>> {
+    use std::collections::{BTreeSet, HashMap};
+    // Channels that still use each resistor value.
+    let mut users: HashMap<(u32, u64), Vec<usize>> = HashMap::new();
+    for (c, l) in live.iter().enumerate() {
+        for &(k, _) in l {
+            for &(cl, v, _) in &shape[c][k].1 {
+                let u = users.entry((cl, v)).or_default();
+                if !u.contains(&c) {
+                    u.push(c);
+                }
+            }
+        }
+    }
+    // Private values: one group per (transistors, resistor classes and counts), the one
+    // with the largest margin (ties: the first).
+    let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
+    for (c, l) in live.iter().enumerate() {
+        let mut at: HashMap<(u32, Vec<(u32, Option<u64>, u32)>), usize> = HashMap::new();
+        let mut out: Vec<(usize, f64)> = Vec::new();
+        for &(k, (_, m)) in l {
+            let (t, rs) = &shape[c][k];
+            let key: Vec<(u32, Option<u64>, u32)> = rs
+                .iter()
+                .map(|&(cl, v, n)| {
+                    let shared = users[&(cl, v)].iter().any(|&x| x != c);
+                    (cl, shared.then_some(v), n)
+                })
+                .collect();
+            match at.get(&(*t, key.clone())) {
+                Some(&j) => {
+                    if m > out[j].1 {
+                        out[j] = (k, m);
+                    }
+                }
+                None => {
+                    at.insert((*t, key), out.len());
+                    out.push((k, m));
+                }
+            }
+        }
+        merged.push(out);
+    }
+    // Dominated values: the signature of a value is every (channel, transistors, count)
+    // of the options whose resistors all take that one value.
+    let single = |rs: &[(u32, u64, u32)]| -> Option<((u32, u64), u32)> {
+        let f = rs.first()?;
+        rs.iter()
+            .all(|r| r.0 == f.0 && r.1 == f.1)
+            .then(|| ((f.0, f.1), rs.iter().map(|r| r.2).sum()))
+    };
+    let mut sig: HashMap<(u32, u64), Vec<(usize, u32, u32)>> = HashMap::new();
+    let mut margin: HashMap<(u32, u64), f64> = HashMap::new();
+    let mut in_multi: BTreeSet<(u32, u64)> = BTreeSet::new();
+    for (c, out) in merged.iter().enumerate() {
+        for &(k, m) in out {
+            let (t, rs) = &shape[c][k];
+            match single(rs) {
+                Some((v, n)) => {
+                    sig.entry(v).or_default().push((c, *t, n));
+                    *margin.entry(v).or_default() += m;
+                }
+                None => in_multi.extend(rs.iter().map(|r| (r.0, r.1))),
+            }
+        }
+    }
+    for s in sig.values_mut() {
+        s.sort_unstable();
+        s.dedup();
+    }
+    let mut order: Vec<(u32, u64)> = sig.keys().copied().collect();
+    order.sort_by(|a, b| {
+        sig[b]
+            .len()
+            .cmp(&sig[a].len())
+            .then(margin[b].total_cmp(&margin[a]))
+            .then(a.cmp(b))
+    });
+    let superset = |big: &[(usize, u32, u32)], small: &[(usize, u32, u32)]| {
+        let mut j = 0;
+        for x in small {
+            while j < big.len() && big[j] < *x {
+                j += 1;
+            }
+            if j == big.len() || big[j] != *x {
+                return false;
+            }
+        }
+        true
+    };
+    let mut kept: Vec<(u32, u64)> = Vec::new();
+    let mut dropped: BTreeSet<(u32, u64)> = BTreeSet::new();
+    for w in order {
+        let covered = !in_multi.contains(&w)
+            && kept
+                .iter()
+                .any(|v| v.0 == w.0 && superset(&sig[v], &sig[&w]));
+        if covered {
+            dropped.insert(w);
+        } else {
+            kept.push(w);
+        }
+    }
+    merged
+        .iter()
+        .enumerate()
+        .map(|(c, out)| {
+            out.iter()
+                .filter(|&&(k, _)| {
+                    single(&shape[c][k].1).is_none_or(|(v, _)| !dropped.contains(&v))
+                })
+                .map(|&(k, _)| k)
+                .collect()
+        })
+        .collect()
+}
+
+/// Margin given to a design not yet verified, so equal usages keep a verified design.
+const UNVERIFIED_MARGIN: f64 = -1e9;
+/// Designs verified together when the program chooses an unverified one.
+const NEIGHBOURS: usize = 16;
+
+fn family_key(
+    s: &DesignSpec,
+) -> (
+    crate::model::Topology,
+    String,
+    Option<String>,
+    Option<String>,
+) {
+    (
+        s.topology,
+        s.pair.clone(),
+        s.helper.clone(),
+        s.resistor.clone(),
+    )
+}
+
+/// An evaluation that stands for a design not yet verified (never shown: the final feed
+/// holds verified designs only).
+fn placeholder(o: &Cand) -> Evaluation {
+    Evaluation {
+        cost: o.share,
+        checks: Vec::new(),
+        figures: crate::check::Figures::default(),
+        corners: Vec::new(),
+        budget: None,
+        hottest: None,
+        soft_saturation: Vec::new(),
+        complete: false,
+    }
+}
+
 /// Keep one option per usage where resistor values no other channel can use count only
 /// by class and count (see the module docs).
 fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidates> {
@@ -305,18 +1031,21 @@ fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidat
                 rs
             };
             let mut kept: Vec<(DesignUsage, (DesignSpec, Evaluation))> = Vec::new();
+            let mut at: BTreeMap<(Vec<(String, Option<u64>, u32)>, String), usize> =
+                BTreeMap::new();
             for (o, d) in c.options.options.drain(..).zip(c.designs.drain(..)) {
-                let k = key(&o);
-                match kept
-                    .iter_mut()
-                    .find(|(u, _)| key(u) == k && same_transistors(u, &o))
-                {
-                    Some(slot) => {
+                let k = (key(&o), transistors_key(&o));
+                match at.get(&k) {
+                    Some(&j) => {
+                        let slot = &mut kept[j];
                         if o.governing_margin > slot.0.governing_margin {
                             *slot = (o, d);
                         }
                     }
-                    None => kept.push((o, d)),
+                    None => {
+                        at.insert(k, kept.len());
+                        kept.push((o, d));
+                    }
                 }
             }
             let (options, designs) = kept.into_iter().unzip();
@@ -430,22 +1159,28 @@ pub fn undominated_options(channels: &[ChannelOptions]) -> Vec<Vec<bool>> {
         .collect()
 }
 
-fn same_transistors(a: &DesignUsage, b: &DesignUsage) -> bool {
-    a.pair_class == b.pair_class
-        && a.pairs == b.pairs
-        && a.helpers == b.helpers
-        && a.helper_single_class == b.helper_single_class
-        && a.helper_spare_classes == b.helper_spare_classes
-        && a.keep_together == b.keep_together
+/// Equal exactly when two usages take the same transistors the same way.
+fn transistors_key(o: &DesignUsage) -> String {
+    format!(
+        "{}|{}|{}|{:?}|{:?}|{}",
+        o.pair_class,
+        o.pairs,
+        o.helpers,
+        o.helper_single_class,
+        o.helper_spare_classes,
+        o.keep_together
+    )
 }
 
-fn same_parts(a: &DesignUsage, b: &DesignUsage) -> bool {
-    let mut ra = a.resistors.clone();
-    let mut rb = b.resistors.clone();
-    let key = |r: &ResistorUse| (r.class.clone(), r.value_ohm.to_bits(), r.count);
-    ra.sort_by_key(key);
-    rb.sort_by_key(key);
-    same_transistors(a, b) && ra == rb
+/// Equal exactly when two usages put the same parts on the board.
+fn parts_key(o: &DesignUsage) -> String {
+    let mut rs: Vec<(String, u64, u32)> = o
+        .resistors
+        .iter()
+        .map(|r| (r.class.clone(), r.value_ohm.to_bits(), r.count))
+        .collect();
+    rs.sort();
+    format!("{}#{rs:?}", transistors_key(o))
 }
 
 /// Why a channel has no feasible design: the check that rejected its cheapest

@@ -25,6 +25,16 @@ use crate::model::{Requirement, TransistorClass};
 
 /// Beta used to switch base current off in the error budget.
 const NO_BASE_CURRENT_BETA: f64 = 1e9;
+/// Where `min_yield` is set, a first-order yield farther than this from the limit decides
+/// the yield check on its own; nearer, every sampled build is re-solved at every corner
+/// and that yield decides (MODEL.md). The first-order model moves each build's error by
+/// solved sensitivities, so it differs from the re-solved one only through the curvature
+/// of the circuit over one build's deviations (a few points of yield at the offsets of
+/// discrete parts: 46.5 % against 51.3 % on the design that prompted this rule). Fifteen
+/// points is three times that; `tests/rank/yield_verdict.rs` checks on the shipped
+/// example with `min_yield` that re-solving the designs just outside the band changes no
+/// verdict.
+pub const YIELD_SCREEN_BAND: f64 = 0.15;
 /// Compliance bisection stops at this width (volts).
 const COMPLIANCE_RESOLUTION_V: f64 = 1e-3;
 
@@ -464,6 +474,15 @@ impl<'a> Evaluator<'a> {
         if let Some(p) = self.corners.iter().position(|c| *c == probe) {
             order.swap(0, p);
         }
+        // Then the input corner (V_out max): the largest V_CE, so a screen meets a VCEO
+        // failure after two corners instead of all of them.
+        let ic = corners::input_corner(req);
+        if let Some(p) = self.corners.iter().position(|c| *c == ic) {
+            if p != order[0] && order.len() > 1 {
+                let q = order.iter().position(|&x| x == p).unwrap_or(1);
+                order.swap(1, q);
+            }
+        }
         let nets = self
             .compile(&Mismatch::default(), NOMINAL)
             .and_then(|n| self.sensitivity_nets().map(|s| (n, s)));
@@ -516,6 +535,22 @@ impl<'a> Evaluator<'a> {
                 }
             };
             let bound = state.error.abs() + k * budget::random_sigma(&d);
+            if depth == Depth::Screen {
+                // Each rating is judged on its worst corner, so one corner over a rating
+                // already fails it (and stops a screen before the costly corners).
+                let one = std::slice::from_ref(&state);
+                let rating = [
+                    ratings::vceo(self.design, one),
+                    ratings::ic_max(self.design, one),
+                    ratings::dissipation(self.design, one),
+                ]
+                .into_iter()
+                .find(|r| !r.pass);
+                if let Some(r) = rating {
+                    checks.push(r);
+                    return incomplete(cost, checks);
+                }
+            }
             states[i] = Some(state);
             sens[i] = Some(d);
             if depth == Depth::Screen && bound > req.accuracy {
@@ -660,25 +695,44 @@ impl<'a> Evaluator<'a> {
                 figures.yield_samples = mc.samples;
             }
             if let Some(min) = req.min_yield {
-                checks.push(if all_builds {
-                    Check::at_least(
-                        CheckName::Yield,
-                        figures.yield_fraction,
-                        min,
-                        match super::wilson_interval(figures.yield_fraction, mc.samples) {
-                            Some([lo, hi]) => format!(
-                                "{} builds, seed {}; 95 % CI {:.1}–{:.1} %",
+                // MODEL.md: the verdict rests on the re-solved yield. The first-order
+                // estimate only decides where it is far from the limit
+                // (`YIELD_SCREEN_BAND`).
+                if all_builds {
+                    let near = !(figures.yield_fraction - min).abs().gt(&YIELD_SCREEN_BAND);
+                    let interval = |y: f64| match super::wilson_interval(y, mc.samples) {
+                        Some([lo, hi]) => {
+                            format!("95 % CI {:.1}–{:.1} %", lo * 100.0, hi * 100.0)
+                        }
+                        None => String::new(),
+                    };
+                    let (value, detail) = if near {
+                        figures.yield_solved = self.solved_yield(mc);
+                        (
+                            figures.yield_solved,
+                            format!(
+                                "{} builds re-solved at every corner, seed {}; {}",
                                 mc.samples,
                                 mc.seed,
-                                lo * 100.0,
-                                hi * 100.0
+                                interval(figures.yield_solved)
                             ),
-                            None => format!("{} builds, seed {}", mc.samples, mc.seed),
-                        },
-                    )
+                        )
+                    } else {
+                        (
+                            figures.yield_fraction,
+                            format!(
+                                "{} builds, seed {}; {}; first-order estimate, more than {:.0} points from the limit",
+                                mc.samples,
+                                mc.seed,
+                                interval(figures.yield_fraction),
+                                100.0 * YIELD_SCREEN_BAND
+                            ),
+                        )
+                    };
+                    checks.push(Check::at_least(CheckName::Yield, value, min, detail));
                 } else {
-                    Check::not_available(CheckName::Yield, min, NEEDS_ALL)
-                });
+                    checks.push(Check::not_available(CheckName::Yield, min, NEEDS_ALL));
+                }
             }
         }
 

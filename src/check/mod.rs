@@ -28,7 +28,10 @@ pub use design::{
     helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package,
     ResolvedDesign,
 };
-pub use evaluate::{compliance_rule, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use evaluate::{
+    compliance_rule, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
+    YIELD_SCREEN_BAND,
+};
 pub use montecarlo::linear_yield;
 pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};
 pub use ratings::{

@@ -23,7 +23,7 @@ pub use report::{
     CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, NoiseItem,
     NoiseReport, RankReport, NOISE_VALIDITY, SCHEMA_VERSION,
 };
-pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
+pub use search::{screen_only, search, verify_each, Goal, Progress, Silent, Unit, Verdicts};
 pub use space::{enumerate, ratio_re2, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
 
 use crate::check::{
@@ -245,7 +245,9 @@ pub fn check_design(
 ) -> Result<CheckReport, RankError> {
     let solves = AtomicU64::new(0);
     let (spec, mut ev) = check::verify(req, catalog, spec, Depth::Full, mc, &solves)?;
-    ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
+    if ev.figures.yield_solved.is_nan() {
+        ev.figures.yield_solved = check::solved_yield(req, catalog, &spec, mc, &solves)?;
+    }
     let pass = ev.feasible();
     let row = CandidateRow::new(None, &spec, &ev, false);
     let explanation = Explanation::new(req, row.clone(), &ev);
@@ -272,6 +274,20 @@ pub fn cheaper(
     spec: &DesignSpec,
     mc: MonteCarlo,
     second_source: bool,
+    progress: &dyn Progress,
+) -> Result<CheaperReport, RankError> {
+    cheaper_top(req, catalog, spec, mc, second_source, None, progress)
+}
+
+/// `cheaper` listing at most `top` alternatives: the `top` cheapest families (the largest
+/// savings), each with its most accurate value; only those are verified.
+pub fn cheaper_top(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    mc: MonteCarlo,
+    second_source: bool,
+    top: Option<usize>,
     progress: &dyn Progress,
 ) -> Result<CheaperReport, RankError> {
     let solves = AtomicU64::new(0);
@@ -307,13 +323,14 @@ pub fn cheaper(
             })
             .collect();
         sort(&mut found, Prefer::Cost, req.accuracy);
+        found.truncate(top.unwrap_or(usize::MAX));
         (None, found)
     } else {
         let run = rank_with_goal(
             req,
             catalog,
             &opts,
-            Goal::CheaperFamilies(ref_ev.cost),
+            Goal::CheaperFamilies(ref_ev.cost, top.unwrap_or(usize::MAX)),
             &groups,
             progress,
         )?;
@@ -329,6 +346,7 @@ pub fn cheaper(
         let picked = first_per(&eligible, |(s, _)| family(s))
             .into_iter()
             .map(|i| eligible[i].clone())
+            .take(top.unwrap_or(usize::MAX))
             .collect();
         (Some(run), picked)
     };
@@ -382,6 +400,10 @@ pub fn cheaper(
             m.topology, m.part, m.failed_check
         ),
         (false, 0, None) => "no cheaper design exists in the catalog".to_string(),
+        (false, n, _) if top == Some(n) => format!(
+            "the {n} cheapest famil{} of cheaper designs (topology and classes) that meet the requirement, largest saving first (--top {n}; others may exist); the most accurate resistor value of each is shown",
+            if n == 1 { "y" } else { "ies" }
+        ),
         (false, n, _) => format!(
             "{n} famil{} of cheaper designs (topology and classes) meet{} the requirement; the most accurate resistor value of each is shown",
             if n == 1 { "y" } else { "ies" },

@@ -63,8 +63,9 @@ pub enum Goal {
     /// The cheapest feasible design(s) of every transistor class.
     CheapestPerClass,
     /// The most accurate feasible design of every family (topology, pair, helper,
-    /// resistor class) cheaper than this cost.
-    CheaperFamilies(f64),
+    /// resistor class) cheaper than this cost; of the cheapest `n` such families (and
+    /// every family as cheap as the `n`-th) when `n` is given (`usize::MAX`: all).
+    CheaperFamilies(f64, usize),
     /// The `n` designs or families with the smallest total error (largest accuracy
     /// margin).
     MostAccurate(usize, Unit),
@@ -142,6 +143,57 @@ pub fn search(
     v
 }
 
+/// The screen alone, for callers that choose what to verify themselves (the board
+/// optimiser): every candidate a screen proves infeasible, with the check it was counted
+/// under, and every survivor with its cost, both in enumeration order.
+pub fn screen_only(
+    req: &Requirement,
+    catalog: &Catalog,
+    groups: &[Group],
+    solves: &AtomicU64,
+) -> (Vec<(DesignSpec, CheckName)>, Vec<(DesignSpec, f64)>) {
+    let per_group: Vec<Vec<(DesignSpec, Outcome)>> = groups
+        .par_iter()
+        .map(|g| screen_group(req, catalog, g, solves))
+        .collect();
+    let mut rejected = Vec::new();
+    let mut survivors = Vec::new();
+    for (spec, o) in per_group.into_iter().flatten() {
+        match o {
+            Outcome::Rejected(c) => rejected.push((spec, c)),
+            Outcome::Survivor(cost) => survivors.push((spec, cost)),
+            // A screen verifies nothing; should it ever, the design is still a survivor.
+            Outcome::Feasible(ev) => survivors.push((spec, ev.cost)),
+        }
+    }
+    (rejected, survivors)
+}
+
+/// Verify each design as the search does (verdict depth, early stop at the first corner
+/// that breaks accuracy), in parallel: the evaluation when feasible, else the check it
+/// fails. A design the catalog cannot resolve fails `no-solution`, as in the search.
+pub fn verify_each(
+    req: &Requirement,
+    catalog: &Catalog,
+    specs: &[&DesignSpec],
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+) -> Vec<Result<Evaluation, CheckName>> {
+    specs
+        .par_iter()
+        .map(|spec| {
+            let o = resolve(catalog, spec)
+                .ok()
+                .map(|d| outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc)));
+            match o {
+                Some(Outcome::Feasible(ev)) => Ok(*ev),
+                Some(Outcome::Rejected(c)) => Err(c),
+                _ => Err(CheckName::NoSolution),
+            }
+        })
+        .collect()
+}
+
 /// Verify survivors cost level by cost level (per class for `CheapestPerClass`) until
 /// the goal is met; a level is always verified whole, so ties are exact.
 #[allow(clippy::too_many_arguments)]
@@ -161,7 +213,7 @@ fn verify_survivors(
             req, catalog, survivors, goal, n, unit, mc, solves, progress, v,
         );
     }
-    if let Goal::CheaperFamilies(limit) = goal {
+    if let Goal::CheaperFamilies(limit, n) = goal {
         let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
         for s in survivors {
             if s.2 >= limit - 1e-12 {
@@ -174,9 +226,23 @@ fn verify_survivors(
                 None => families.push((key, vec![s])),
             }
         }
+        // Families in ascending cost (a family's members share one cost); with a count,
+        // stop once that many have a feasible design and their cost level is complete.
+        let mut found = 0usize;
+        let mut last_cost = f64::NEG_INFINITY;
         for (_, f) in families {
+            let cost = f.first().map_or(0.0, |s| s.2);
+            if found >= n && cost > last_cost {
+                v.unverified.extend(f.into_iter().map(|s| s.1));
+                continue;
+            }
+            let before = v.feasible.len();
             let g = Goal::MostAccurate(1, Unit::Rows);
             verify_by_bound(req, catalog, f, g, 1, Unit::Rows, mc, solves, progress, v);
+            if v.feasible.len() > before {
+                found += 1;
+                last_cost = cost;
+            }
         }
         return;
     }
@@ -208,7 +274,7 @@ fn verify_survivors(
                 Goal::All
                 | Goal::MostAccurate(..)
                 | Goal::Balanced(..)
-                | Goal::CheaperFamilies(_) => false,
+                | Goal::CheaperFamilies(..) => false,
             };
             let mut end = i;
             while end < bucket.len() && bucket[end].2 == cost {

@@ -6,6 +6,7 @@
 
 mod brute_force;
 mod design;
+mod fast_feed;
 mod fixtures;
 mod optimum;
 mod random;

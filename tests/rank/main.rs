@@ -4,6 +4,7 @@ mod cli;
 mod consistency;
 mod facts;
 mod search;
+mod yield_verdict;
 
 use std::path::{Path, PathBuf};
 
