@@ -253,6 +253,7 @@ pub fn solve_command(
     )?;
 
     let design = Design {
+        r_ref: None,
         topology: args.topology,
         pair,
         helper,
@@ -266,6 +267,7 @@ pub fn solve_command(
         ..Mismatch::default()
     };
     let op = OperatingPoint {
+        rail_v: None,
         i_in_a: args.i_in_a,
         v_out_v: args.v_out_v,
         supply_v: supply,

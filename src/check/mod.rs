@@ -2,7 +2,8 @@
 //! the solved figures, ratings, error budget, Monte Carlo yield and the verdicts.
 //!
 //! Everything here is a function of (requirement, catalog, design) and the solver; it
-//! never prints, reads files or ranks. `evaluate` is the only file that calls the
+//! never prints, reads files or ranks. `evaluate` and `program` (which sizes the
+//! programming resistor from the solved input voltage) are the only files that call the
 //! circuit solver; the other files judge solved states and can be tested on hand-made
 //! operating points.
 
@@ -11,6 +12,7 @@ mod corners;
 mod design;
 mod evaluate;
 mod montecarlo;
+mod program;
 mod ratings;
 mod verdict;
 
@@ -19,12 +21,14 @@ use std::sync::atomic::AtomicU64;
 pub use budget::{
     BudgetLine, ErrorBudget, RandomCause, Sensitivities, SystematicCause, RANDOM_INPUTS,
 };
-pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
+pub use corners::{corners, design_current, temperatures, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, ResolvedDesign,
+    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, RefPick,
+    ResolvedDesign,
 };
-pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use evaluate::{tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
 pub use montecarlo::linear_yield;
+pub use program::{choose_r_ref, exact_r_ref, standard_around};
 pub use ratings::{
     derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
 };
@@ -43,6 +47,7 @@ pub fn verify(
     mc: MonteCarlo,
     solves: &AtomicU64,
 ) -> Result<(DesignSpec, Evaluation), DesignError> {
+    let spec = &choose_r_ref(req, catalog, spec, solves);
     let d = resolve(catalog, spec)?;
     let want = req.kind.polarity();
     if d.pair.polarity != want {
@@ -65,6 +70,7 @@ pub fn solved_yield(
     mc: MonteCarlo,
     solves: &AtomicU64,
 ) -> Result<f64, DesignError> {
+    let spec = &choose_r_ref(req, catalog, spec, solves);
     let d = resolve(catalog, spec)?;
     Ok(Evaluator::new(req, &d, solves).solved_yield(mc))
 }

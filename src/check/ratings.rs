@@ -47,8 +47,13 @@ impl DeviceState {
 pub struct CornerState {
     pub corner: OperatingCorner,
     pub i_out_a: f64,
+    /// The input current: forced, or solved through R_ref.
+    pub i_in_a: f64,
+    /// Power in R_ref, watts (0 without one).
+    pub r_ref_power_w: f64,
     pub v_in_v: f64,
-    /// MODEL.md error `I_out / (n I_in) - 1`.
+    /// MODEL.md error `I_out / (n I_in) - 1`, or `I_out / I_wanted - 1` when the
+    /// requirement's accuracy is of the output.
     pub error: f64,
     pub devices: Vec<DeviceState>,
 }
@@ -213,10 +218,13 @@ mod tests {
         CornerState {
             corner: OperatingCorner {
                 i_in_a: 1e-3,
+                rail_v: None,
                 v_out_v: 10.0,
                 t_amb_k,
             },
             i_out_a: 1e-3,
+            i_in_a: 1e-3,
+            r_ref_power_w: 0.0,
             v_in_v: 0.65,
             error: 0.0,
             devices,

@@ -28,10 +28,14 @@ pub enum CheckName {
     Vceo,
     IcMax,
     Dissipation,
+    /// Power in the programming resistor against its class's derated rating.
+    RefPower,
+    /// |output temperature coefficient| against `max_tempco`.
+    Tempco,
 }
 
 impl CheckName {
-    pub const ALL: [CheckName; 12] = [
+    pub const ALL: [CheckName; 14] = [
         CheckName::Cost,
         CheckName::ThermalRunaway,
         CheckName::NoConvergence,
@@ -44,6 +48,8 @@ impl CheckName {
         CheckName::Vceo,
         CheckName::IcMax,
         CheckName::Dissipation,
+        CheckName::RefPower,
+        CheckName::Tempco,
     ];
 
     pub fn as_str(self) -> &'static str {
@@ -60,6 +66,8 @@ impl CheckName {
             CheckName::Vceo => "vceo",
             CheckName::IcMax => "ic-max",
             CheckName::Dissipation => "dissipation",
+            CheckName::RefPower => "r-ref-power",
+            CheckName::Tempco => "tempco",
         }
     }
 
@@ -74,7 +82,8 @@ impl CheckName {
             | CheckName::Vceo => "V",
             CheckName::OutputResistance => "Ω",
             CheckName::IcMax => "A",
-            CheckName::Dissipation => "W",
+            CheckName::Dissipation | CheckName::RefPower => "W",
+            CheckName::Tempco => "1/K",
         }
     }
 }

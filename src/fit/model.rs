@@ -281,6 +281,7 @@ pub fn model_currents(
 ) -> Result<Vec<f64>, (usize, String)> {
     let class = class_with(&setup.base, values);
     let design = Design {
+        r_ref: None,
         topology: setup.topology,
         pair: &class,
         helper: Some(&class),
@@ -300,6 +301,7 @@ pub fn model_currents(
         .iter()
         .map(|p| {
             let op = OperatingPoint {
+                rail_v: None,
                 i_in_a: p.i_in_a,
                 v_out_v: p.v_out_v,
                 supply_v: setup.supply_v,

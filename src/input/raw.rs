@@ -154,6 +154,8 @@ pub struct RawResistor {
     pub tolerance: RawQty,
     pub tcr: RawQty,
     pub unit_cost: RawQty,
+    #[serde(default)]
+    pub power_rating: Option<RawQty>,
     pub provenance: String,
 }
 
@@ -165,6 +167,34 @@ pub struct RawResistor {
 pub struct RawRange {
     pub min: RawQty,
     pub max: RawQty,
+}
+
+/// A quantity or a `{min, max}` range (a rail voltage with its tolerance).
+#[derive(Debug, Deserialize)]
+#[serde(
+    untagged,
+    expecting = "a voltage such as `12 V`, or a range `{min: 11.4 V, max: 12.6 V}`"
+)]
+pub enum RawQtyOrRange {
+    Range(RawRange),
+    Qty(RawQty),
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a programming section: a mapping `{rail: ..., output_current: ...}`"
+)]
+pub struct RawProgram {
+    pub rail: RawQtyOrRange,
+    pub output_current: RawQty,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy)]
+#[serde(rename_all = "lowercase")]
+pub enum RawAccuracyOf {
+    Ratio,
+    Output,
 }
 
 #[derive(Debug, Deserialize, Clone, Copy)]
@@ -193,7 +223,14 @@ pub struct RawRequirement {
     pub name: String,
     pub kind: RawKind,
     pub supply: RawQty,
-    pub input_current: RawRange,
+    #[serde(default)]
+    pub input_current: Option<RawRange>,
+    #[serde(default)]
+    pub program: Option<RawProgram>,
+    #[serde(default)]
+    pub accuracy_of: Option<RawAccuracyOf>,
+    #[serde(default)]
+    pub max_tempco: Option<RawQty>,
     #[serde(default)]
     pub ratio: Option<RawQty>,
     pub output_voltage: RawRange,

@@ -14,8 +14,8 @@ mod transistor;
 
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel};
-pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
-pub use resistor::{ResistorClass, Series};
+pub use requirement::{AccuracyOf, Filters, LoadKind, MirrorKind, Program, Range, Requirement};
+pub use resistor::{ResistorClass, Series, DEFAULT_POWER_RATING_W};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
 };

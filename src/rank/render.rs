@@ -20,6 +20,10 @@ use crate::units::format_prefixed;
 struct Column {
     csv: &'static str,
     title: &'static str,
+    /// Right-aligned in tables (numbers).
+    right: bool,
+    /// Shown in tables only when a row has a programming resistor (always in CSV).
+    programmed_only: bool,
     csv_value: fn(&CandidateRow) -> String,
     table_value: fn(&CandidateRow) -> String,
 }
@@ -28,114 +32,190 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "rank",
         title: "#",
+        right: true,
+        programmed_only: false,
         csv_value: |r| r.rank.map_or(String::new(), |k| k.to_string()),
         table_value: |r| r.rank.map_or("—".into(), |k| k.to_string()),
     },
     Column {
         csv: "topology",
         title: "topology",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.topology.to_string(),
         table_value: |r| r.topology.to_string(),
     },
     Column {
         csv: "part",
         title: "part",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.part.clone(),
         table_value: |r| r.part.clone(),
     },
     Column {
         csv: "helper",
         title: "helper",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.helper.clone().unwrap_or_default(),
         table_value: |r| r.helper.clone().unwrap_or_else(|| "—".into()),
     },
     Column {
         csv: "re1_ohm",
         title: "RE1",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.re1_ohm),
         table_value: |r| ohms(r.re1_ohm),
     },
     Column {
         csv: "re2_ohm",
         title: "RE2",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.re2_ohm),
         table_value: |r| ohms(r.re2_ohm),
     },
     Column {
         csv: "resistor",
         title: "resistor",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.resistor.clone().unwrap_or_default(),
         table_value: |r| r.resistor.clone().unwrap_or_else(|| "—".into()),
     },
     Column {
         csv: "cost",
         title: "cost",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.cost),
         table_value: |r| format!("{:.3}", r.cost),
     },
     Column {
         csv: "ratio_achieved",
         title: "ratio",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.ratio_achieved),
         table_value: |r| fixed(r.ratio_achieved, 4),
     },
     Column {
         csv: "error_systematic",
         title: "sys. error",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.error_systematic),
         table_value: |r| pct(r.error_systematic),
     },
     Column {
         csv: "error_random_sigma",
         title: "random 1σ",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.error_random_sigma),
         table_value: |r| pct(r.error_random_sigma),
     },
     Column {
         csv: "error_total",
         title: "total error",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.error_total),
         table_value: |r| pct(r.error_total),
     },
     Column {
         csv: "yield",
         title: "yield",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.yield_fraction),
         table_value: |r| pct(r.yield_fraction),
     },
     Column {
         csv: "r_out_min_ohm",
         title: "r_out min",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.r_out_min_ohm),
         table_value: |r| ohms(r.r_out_min_ohm),
     },
     Column {
         csv: "compliance_v",
         title: "compliance",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.compliance_v),
         table_value: |r| quantity(r.compliance_v, "V"),
     },
     Column {
         csv: "v_in_max_v",
         title: "V_in max",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.v_in_max),
         table_value: |r| quantity(r.v_in_max, "V"),
     },
     Column {
+        csv: "r_ref_ohm",
+        title: "R_ref",
+        right: true,
+        programmed_only: true,
+        csv_value: |r| r.r_ref_ohm.map_or(String::new(), num),
+        table_value: |r| r.r_ref_ohm.map_or("—".into(), ohms),
+    },
+    Column {
+        csv: "r_ref_resistor",
+        title: "R_ref class",
+        right: false,
+        programmed_only: true,
+        csv_value: |r| r.r_ref_resistor.clone().unwrap_or_default(),
+        table_value: |r| r.r_ref_resistor.clone().unwrap_or_else(|| "—".into()),
+    },
+    Column {
+        csv: "r_ref_power_w",
+        title: "P(R_ref)",
+        right: true,
+        programmed_only: true,
+        csv_value: |r| r.r_ref_power_w.map_or(String::new(), num),
+        table_value: |r| r.r_ref_power_w.map_or("—".into(), |p| quantity(p, "W")),
+    },
+    Column {
+        csv: "tempco_ppm_per_k",
+        title: "tempco",
+        right: true,
+        programmed_only: false,
+        csv_value: |r| num(r.tempco_ppm_per_k),
+        table_value: |r| {
+            if r.tempco_ppm_per_k.is_finite() {
+                format!("{:+.0} ppm/K", r.tempco_ppm_per_k)
+            } else {
+                "—".into()
+            }
+        },
+    },
+    Column {
         csv: "governing_check",
         title: "governing",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.governing_check.map_or(String::new(), |c| c.to_string()),
         table_value: |r| r.governing_check.map_or("—".into(), |c| c.to_string()),
     },
     Column {
         csv: "governing_margin",
         title: "margin",
+        right: true,
+        programmed_only: false,
         csv_value: |r| num(r.governing_margin()),
         table_value: |r| pct(r.governing_margin()),
     },
     Column {
         csv: "pareto",
         title: "Pareto",
+        right: false,
+        programmed_only: false,
         csv_value: |r| r.pareto.to_string(),
         table_value: |r| if r.pareto { "*".into() } else { String::new() },
     },
@@ -195,25 +275,33 @@ fn check_value(name: CheckName, x: f64) -> String {
         CheckName::Accuracy | CheckName::Yield => pct(x),
         CheckName::Cost => fixed(x, 3),
         _ if !x.is_finite() => "—".into(),
+        CheckName::Tempco => format!("{:.0} ppm/K", x * 1e6),
         n => format_prefixed(x, n.unit()),
     }
 }
 
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
-    let mut header: Vec<&str> = COLUMNS.iter().map(|c| c.title).collect();
+    let programmed = rows.iter().any(|r| r.r_ref_resistor.is_some());
+    let columns: Vec<&Column> = COLUMNS
+        .iter()
+        .filter(|c| programmed || !c.programmed_only)
+        .collect();
+    let mut header: Vec<&str> = columns.iter().map(|c| c.title).collect();
     header.extend(extra.iter().map(|(t, _)| *t));
     let mut t = new_table(style, &header);
     for (i, r) in rows.iter().enumerate() {
-        let mut cells: Vec<Cell> = COLUMNS
+        let mut cells: Vec<Cell> = columns
             .iter()
             .map(|c| Cell::new((c.table_value)(r)))
             .collect();
         cells.extend(extra.iter().map(|(_, v)| Cell::new(&v[i])));
         t.add_row(cells);
     }
-    for i in [0, 4, 5, 7, 8, 9, 10, 11, 12, 13, 14, 15, 17] {
-        if let Some(col) = t.column_mut(i) {
-            col.set_cell_alignment(CellAlignment::Right);
+    for (i, c) in columns.iter().enumerate() {
+        if c.right {
+            if let Some(col) = t.column_mut(i) {
+                col.set_cell_alignment(CellAlignment::Right);
+            }
         }
     }
     t

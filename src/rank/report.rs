@@ -66,6 +66,15 @@ pub struct CandidateRow {
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
     pub v_in_max: f64,
+    /// The programming resistor (null when the input current is forced).
+    pub r_ref_ohm: Option<f64>,
+    pub r_ref_resistor: Option<String>,
+    /// R_ref's power at the worst corner, watts (null without R_ref).
+    pub r_ref_power_w: Option<f64>,
+    /// The output's temperature coefficient, ppm/K, averaged over the ambient range.
+    pub tempco_ppm_per_k: f64,
+    /// The steepest slope between neighbouring ambient points, ppm/K (signed).
+    pub tempco_worst_ppm_per_k: f64,
     pub governing_check: Option<CheckName>,
     pub pareto: bool,
     pub checks: Vec<CheckRow>,
@@ -92,6 +101,11 @@ impl CandidateRow {
             r_out_min_ohm: f.r_out_min_ohm,
             compliance_v: f.compliance_v,
             v_in_max: f.v_in_max_v,
+            r_ref_ohm: (spec.r_ref_ohm > 0.0).then_some(spec.r_ref_ohm),
+            r_ref_resistor: spec.r_ref_resistor.clone(),
+            r_ref_power_w: (spec.r_ref_ohm > 0.0).then_some(f.r_ref_power_w),
+            tempco_ppm_per_k: f.tempco_per_k * 1e6,
+            tempco_worst_ppm_per_k: f.tempco_worst_per_k * 1e6,
             governing_check: ev.governing().map(|c| c.name),
             pareto,
             checks: ev.checks.iter().map(CheckRow::from).collect(),
@@ -121,7 +135,11 @@ impl CandidateRow {
 /// One corner of the corner table.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CornerLine {
+    /// The input current: forced, or solved through R_ref.
     pub i_in: f64,
+    /// The programming rail, volts (programmed designs only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rail: Option<f64>,
     pub v_out: f64,
     pub t_amb_c: f64,
     pub i_out: f64,
@@ -135,7 +153,8 @@ pub struct CornerLine {
 impl From<&CornerRow> for CornerLine {
     fn from(r: &CornerRow) -> Self {
         CornerLine {
-            i_in: r.corner.i_in_a,
+            i_in: r.i_in_a,
+            rail: r.corner.rail_v,
             v_out: r.corner.v_out_v,
             t_amb_c: r.corner.t_amb_k - ZERO_CELSIUS_K,
             i_out: r.i_out_a,
@@ -158,6 +177,9 @@ pub struct BudgetItem {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct BudgetReport {
     pub i_in: f64,
+    /// The programming rail at the worst corner, volts (programmed designs only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rail: Option<f64>,
     pub v_out: f64,
     pub t_amb_c: f64,
     /// Signed systematic error by cause; the lines add up to `systematic_total`.
@@ -172,6 +194,7 @@ impl From<&ErrorBudget> for BudgetReport {
     fn from(b: &ErrorBudget) -> Self {
         BudgetReport {
             i_in: b.corner.i_in_a,
+            rail: b.corner.rail_v,
             v_out: b.corner.v_out_v,
             t_amb_c: b.corner.t_amb_k - ZERO_CELSIUS_K,
             systematic: b

@@ -73,6 +73,7 @@ pub fn npn(id: &str, dpp: u32, bf: f64, vaf: Option<f64>, vbe_sigma: f64) -> Tra
 
 pub fn resistor(id: &str, series: Series, tolerance: f64) -> ResistorClass {
     ResistorClass {
+        power_rating_w: None,
         id: id.into(),
         summary: "test resistor".into(),
         series,
@@ -96,6 +97,9 @@ pub fn catalog(transistors: Vec<TransistorClass>, resistors: Vec<ResistorClass>)
 pub fn requirement(accuracy: f64) -> Requirement {
     let room = ZERO_CELSIUS_K + 25.0;
     Requirement {
+        program: None,
+        accuracy_of: mirrorpick::model::AccuracyOf::Ratio,
+        max_tempco_per_k: None,
         name: "test".into(),
         kind: MirrorKind::Sink,
         supply_v: 12.0,
