@@ -250,6 +250,9 @@ mod tests {
             re1_ohm: 0.0,
             re2_ohm: 0.0,
             resistor: None,
+            r_ref_ohm: 0.0,
+            r_ref_resistor: None,
+            r_ref_pick: None,
         };
         let d = resolve(&cat, &spec).unwrap();
         // Q2 at 40 V and 5 mA: 200 mW in a 300 mW package at 87.5 °C (150 mW allowed).

@@ -678,6 +678,11 @@ mod tests {
             r_out_min_ohm: f64::NAN,
             compliance_v: 0.7,
             v_in_max: 1.2,
+            r_ref_ohm: None,
+            r_ref_resistor: None,
+            r_ref_power_w: None,
+            tempco_ppm_per_k: 12.0,
+            tempco_worst_ppm_per_k: 15.0,
             governing_check: Some(CheckName::Accuracy),
             pareto: true,
             checks: vec![CheckRow {
@@ -702,7 +707,10 @@ mod tests {
         assert!(lines[0].ends_with(",governing_check,governing_margin,pareto,pass"));
         // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
         assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
-        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,accuracy,0.5,true,true"));
+        // No programming resistor: its columns are empty; the tempco is there for every row.
+        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,,,,12,accuracy,0.5,true,true"));
+        assert!(lines[0]
+            .contains(",v_in_max_v,r_ref_ohm,r_ref_resistor,r_ref_power_w,tempco_ppm_per_k,"));
         assert_eq!(
             lines[0].split(',').count(),
             lines[1].replace("\"thick, 1 %\"", "x").split(',').count()

@@ -448,6 +448,9 @@ pub struct NearMiss {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<String>,
+    /// R_ref (null when forced, or not yet sized: screened out before any solve).
+    pub r_ref_ohm: Option<f64>,
+    pub r_ref_resistor: Option<String>,
     pub cost: f64,
     pub failed_check: CheckName,
 }

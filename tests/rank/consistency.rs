@@ -184,6 +184,9 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
             re1_ohm: a.candidate.re1_ohm,
             re2_ohm: a.candidate.re2_ohm,
             resistor: a.candidate.resistor.clone(),
+            r_ref_ohm: a.candidate.r_ref_ohm.unwrap_or(0.0),
+            r_ref_resistor: a.candidate.r_ref_resistor.clone(),
+            r_ref_pick: None,
         };
         assert!(
             check_design(&req, &cat, &s, MC, false).unwrap().pass,
@@ -215,6 +218,9 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
             re1_ohm: m.re1_ohm,
             re2_ohm: m.re2_ohm,
             resistor: m.resistor.clone(),
+            r_ref_ohm: m.r_ref_ohm.unwrap_or(0.0),
+            r_ref_resistor: m.r_ref_resistor.clone(),
+            r_ref_pick: None,
         };
         let c = check_design(&req, &cat, &s, MC, false).unwrap();
         assert!(!c.candidate.check(m.failed_check).unwrap().pass);

@@ -137,5 +137,8 @@ pub fn spec(t: Topology, part: &str, re: f64, resistor: Option<&str>) -> DesignS
         re1_ohm: re,
         re2_ohm: re,
         resistor: resistor.map(Into::into),
+        r_ref_ohm: 0.0,
+        r_ref_resistor: None,
+        r_ref_pick: None,
     }
 }
