@@ -3,6 +3,7 @@
 mod cli;
 mod consistency;
 mod facts;
+mod program;
 mod search;
 
 use std::path::{Path, PathBuf};
