@@ -326,23 +326,28 @@ fn checks_table(style: Style, checks: &[CheckRow]) -> Table {
 }
 
 fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
-    let mut t = new_table(
-        style,
-        &[
-            "I_in",
-            "V_out",
-            "ambient",
-            "I_out",
-            "error",
-            "random 1σ",
-            "r_out",
-            "V_in",
-            "T_j max",
-        ],
-    );
+    let programmed = corners.iter().any(|c| c.rail.is_some());
+    let mut header = vec!["I_in"];
+    if programmed {
+        header.push("rail");
+    }
+    header.extend([
+        "V_out",
+        "ambient",
+        "I_out",
+        "error",
+        "random 1σ",
+        "r_out",
+        "V_in",
+        "T_j max",
+    ]);
+    let mut t = new_table(style, &header);
     for c in corners {
-        t.add_row(vec![
-            quantity(c.i_in, "A"),
+        let mut row = vec![quantity(c.i_in, "A")];
+        if programmed {
+            row.push(c.rail.map_or("—".into(), |v| quantity(v, "V")));
+        }
+        row.extend([
             quantity(c.v_out, "V"),
             format!("{:.1} °C", c.t_amb_c),
             quantity(c.i_out, "A"),
@@ -352,6 +357,7 @@ fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
             quantity(c.v_in, "V"),
             format!("{:.1} °C", c.t_junction_max_c),
         ]);
+        t.add_row(row);
     }
     t
 }
@@ -440,6 +446,19 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         c.resistor.as_deref().unwrap_or("—"),
         c.cost
     )?;
+    if let (Some(r), Some(class)) = (c.r_ref_ohm, &c.r_ref_resistor) {
+        writeln!(
+            w,
+            "Programming resistor: R_ref {} ({class}), {} at the worst corner.",
+            ohms(r),
+            c.r_ref_power_w.map_or("—".into(), |p| quantity(p, "W")),
+        )?;
+    }
+    writeln!(
+        w,
+        "Output tempco: {:+.0} ppm/K averaged over the ambient range, {:+.0} ppm/K steepest.",
+        c.tempco_ppm_per_k, c.tempco_worst_ppm_per_k
+    )?;
     if c.yield_solved.is_finite() {
         writeln!(
             w,
@@ -459,10 +478,13 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         writeln!(w, "{}", corners_table(style, &e.corners))?;
     }
     if let Some(b) = &e.budget {
+        let input = match b.rail {
+            Some(v) => format!("rail {}", quantity(v, "V")),
+            None => format!("I_in {}", quantity(b.i_in, "A")),
+        };
         writeln!(
             w,
-            "Error budget at the worst corner (I_in {}, V_out {}, ambient {:.1} °C):",
-            quantity(b.i_in, "A"),
+            "Error budget at the worst corner ({input}, V_out {}, ambient {:.1} °C):",
             quantity(b.v_out, "V"),
             b.t_amb_c
         )?;

@@ -271,6 +271,11 @@ pub enum Caution {
         who: String,
         fraction: f64,
     },
+    /// The programming resistor runs above half its derated power rating.
+    RefPower {
+        who: String,
+        fraction: f64,
+    },
     LightSource(LoadKind),
     HighVoltage {
         supply_v: f64,
@@ -297,6 +302,11 @@ impl fmt::Display for Caution {
                 "{who}: a transistor sees {:.0} % of its derated VCEO ({:.0} % of the rating); allow for supply transients",
                 fraction * 100.0,
                 fraction * VCEO_DERATING * 100.0
+            ),
+            Caution::RefPower { who, fraction } => write!(
+                f,
+                "{who}: R_ref dissipates {:.0} % of its class's derated power rating at the worst corner; choose a larger case or a higher-rated class, and check the datasheet's derating curve",
+                fraction * 100.0
             ),
             Caution::LightSource(load) if *load == LoadKind::Laser => f.write_str(
                 "the load is a laser: a current step or overshoot can destroy it and its beam can harm eyes; add protection and follow the emitter's datasheet and the applicable laser safety standard",
@@ -333,6 +343,16 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
             let fraction = c.value / c.limit;
             if fraction > 0.5 {
                 out.push(Caution::Dissipation {
+                    who: who.clone(),
+                    fraction,
+                });
+            }
+        }
+        if let Some(c) = r.check(CheckName::RefPower) {
+            // Half the rating: the usual resistor derating (common practice, no source).
+            let fraction = c.value / c.limit;
+            if fraction > 0.5 {
+                out.push(Caution::RefPower {
                     who: who.clone(),
                     fraction,
                 });
