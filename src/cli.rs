@@ -36,6 +36,12 @@ pub struct Cli {
     #[arg(long, global = true, value_name = "FILE")]
     pub catalog: Option<PathBuf>,
 
+    /// Show every column of the candidate tables (rank, check, cheaper, bom) instead of
+    /// the ones a designer decides on. Tables fit the terminal (or `COLUMNS`) by wrapping
+    /// cells either way; JSON and CSV always carry every field.
+    #[arg(long, global = true)]
+    pub wide: bool,
+
     #[command(subcommand)]
     pub command: Command,
 }
@@ -45,7 +51,7 @@ pub enum Command {
     /// List, show or check the catalog of part classes.
     #[command(
         subcommand,
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint catalog/default.yaml"
     )]
     Catalog(CatalogCommand),
     /// Check requirement files.
@@ -60,7 +66,12 @@ pub enum Command {
 from the mirror rail; a PNP class is solved as a source.\n\nExit status: 0 solved, 1 the engine \
 could not give a trusted answer (no convergence, thermal runaway), 2 bad input.\n\nExample:\n  \
 mirrorpick solve --topology simple --part npn-dual-prematched --iin 1mA --vout 10V --self-heating\n  \
-mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 --iin 100uA --vout 5V --supply 12V --format json"
+mirrorpick solve --topology wilson --part npn-dual-general --re 220 --iin 100uA --vout 5V --supply 12V --format json\n  \
+mirrorpick solve --topology beta-helper --part npn-dual-prematched --re1 24.9k --re2 2.43k --ratio 10 --iin 100uA --vout 5V --supply 12V\n\n\
+Emitter resistors: --re for equal ones, or --re1 and --re2 together (one alone would be a lopsided \
+mirror; the message gives the RE2 a ratio needs: n I_in RE2 = I_in RE1 - V_T ln n). The error is \
+I_out/(n I_in) - 1 against --ratio (default 1). Cautions compare V_CE, I_C and package dissipation \
+with the class's ratings as `check` does."
     )]
     Solve(SolveCli),
     /// Fit BF, VAF and the pair's V_BE offset to bench measurements of a mirror.
@@ -68,17 +79,17 @@ mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 -
     Fit(FitCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(
-        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --every-value --top 20\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank requirements-examples/led-string-sinks.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml --every-value --top 20 --wide\n  mirrorpick rank requirements-examples/widlar-bias-source.yaml --format json --seed 7 --samples 500 > ranked.json"
     )]
     Rank(RankCli),
     /// Verify one named design against a requirement: every check with its margin.
     #[command(
-        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check board.yaml --part npn-dual-general --topology wilson --corners --format json"
+        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --corners --format json"
     )]
     Check(CheckCli),
     /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
     #[command(
-        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --re 2k --resistor thick-film-1pct --second-source"
     )]
     Cheaper(CheaperCli),
     /// Output current against output voltage for several input currents, and the error
@@ -182,7 +193,7 @@ channel has no feasible design and why, or the fewest line items any board needs
 Example:
   mirrorpick bom requirements-examples/board-synth-voice.yaml
   mirrorpick bom requirements-examples/board-synth-voice.yaml --format csv > bom.csv
-  mirrorpick bom board.yaml --format json --seed 7 --samples 200";
+  mirrorpick bom requirements-examples/board-synth-voice.yaml --format json --seed 7 --samples 200";
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum PreferChoice {
@@ -238,10 +249,15 @@ pub struct DesignCli {
     /// Topology: simple, beta-helper, wilson, wilson4, cascode or widlar.
     #[arg(long, value_name = "T")]
     pub topology: String,
-    /// Emitter resistor RE1 (`100`, `4k7`, `1.5 kΩ`); RE2 follows the ratio. For a
-    /// Widlar it is RE2, and without it RE2 is sized for the ratio.
+    /// Emitter resistors (`100`, `4k7`, `1.5 kΩ`): RE1, and RE2 equal to it at ratio 1.
+    /// At a ratio n != 1 RE2 is sized from n I_in RE2 = I_in RE1 - V_T ln(n) (design
+    /// current, 25 °C) to the nearest standard value, unless --re2 names it. For a Widlar
+    /// it is RE2, and without it RE2 is sized for the ratio.
     #[arg(long, value_name = "R")]
     pub re: Option<String>,
+    /// Output-side emitter resistor RE2, named directly (with --re for RE1).
+    #[arg(long, value_name = "R")]
+    pub re2: Option<String>,
     /// Resistor class of the emitter resistors.
     #[arg(long, value_name = "CLASS")]
     pub resistor: Option<String>,
@@ -288,7 +304,8 @@ pub struct CheaperCli {
     pub file: PathBuf,
     #[command(flatten)]
     pub design: DesignCli,
-    /// List every other transistor class that still passes, at any cost.
+    /// Drop-in second sources: the same topology and resistor values with another
+    /// transistor class that still passes, at any cost.
     #[arg(long)]
     pub second_source: bool,
     #[command(flatten)]
@@ -323,6 +340,7 @@ impl DesignCli {
             topology: self.topology,
             helper,
             re: self.re,
+            re2: self.re2,
             resistor: self.resistor,
             rref: self.rref,
             rref_resistor: self.rref_resistor,
@@ -341,12 +359,18 @@ pub struct SolveCli {
     /// Single-device class for helper transistors (default: the cheapest single).
     #[arg(long)]
     pub helper: Option<String>,
-    /// RE1 (e.g. 220, 4k7); 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
-    pub re1: f64,
-    /// RE2; 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
-    pub re2: f64,
+    /// Equal emitter resistors RE1 = RE2 (e.g. 220, 4k7).
+    #[arg(long, value_parser = resistance, conflicts_with_all = ["re1", "re2"])]
+    pub re: Option<f64>,
+    /// RE1, the input side (e.g. 220, 4k7); give --re2 with it.
+    #[arg(long, value_parser = resistance)]
+    pub re1: Option<f64>,
+    /// RE2, the output side; give --re1 with it (a Widlar takes --re2 only).
+    #[arg(long, value_parser = resistance)]
+    pub re2: Option<f64>,
+    /// The intended ratio n = I_out / I_in the error is measured against [default: 1].
+    #[arg(long, value_parser = ratio_value)]
+    pub ratio: Option<f64>,
     /// Programming current I_in (e.g. 100uA).
     #[arg(long, value_parser = current)]
     pub iin: f64,
@@ -404,6 +428,9 @@ fn resistance(t: &str) -> Result<f64, String> {
     )
     .map_err(|e| e.to_string())
 }
+fn ratio_value(t: &str) -> Result<f64, String> {
+    requirement_field(t, "ratio")
+}
 fn offset(t: &str) -> Result<f64, String> {
     units::parse_field(
         t,
@@ -444,7 +471,7 @@ Example (synthetic demo data shipped with the project, a simple mirror with 1 k�
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
   mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple \\
       --re1 1k --re2 1k --ambient 27C --supply 12V --self-heating --emit-class npn-dual-bench
-  mirrorpick fit bench.csv --topology wilson --part npn-dual-general --format json";
+  mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple --re1 1k --re2 1k --format json";
 
 #[derive(Debug, Args)]
 pub struct FitCommand {
@@ -501,7 +528,7 @@ pub enum FitFormat {
 pub enum CatalogCommand {
     /// List every transistor and resistor class in the catalog.
     #[command(
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog my-parts.yaml catalog list --format json"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog catalog/default.yaml catalog list --format json"
     )]
     List(FormatArg),
     /// Show one class in full: model parameters, matching, ratings, thermal, cost.
@@ -516,7 +543,7 @@ pub enum CatalogCommand {
     },
     /// Check a catalog file and report the first problem with its line and column.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint my-parts.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint catalog/default.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
     )]
     Lint {
         /// Catalog file; the active catalog (`--catalog` or built in) when absent.
@@ -528,7 +555,7 @@ pub enum CatalogCommand {
 pub enum SpecCommand {
     /// Check a requirement file against the schema and the active catalog.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog my-parts.yaml spec lint board.yaml"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog catalog/default.yaml spec lint requirements-examples/ltp-tail-sink.yaml"
     )]
     Lint {
         /// Requirement file (YAML).
@@ -561,9 +588,9 @@ impl From<FormatChoice> for Format {
 }
 
 impl Cli {
-    /// Resolve what was typed into the library's configuration. `color` is decided by
-    /// `main` (terminal, NO_COLOR).
-    pub fn into_config(self, color: bool) -> Config {
+    /// Resolve what was typed into the library's configuration. `color` and `width` are
+    /// decided by `main` (terminal, NO_COLOR, COLUMNS).
+    pub fn into_config(self, color: bool, width: Option<u16>) -> Config {
         let command = match self.command {
             Command::Catalog(CatalogCommand::List(f)) => AppCommand::CatalogList {
                 format: f.format.into(),
@@ -583,8 +610,9 @@ impl Cli {
                     topology: a.topology,
                     part: a.part,
                     helper: a.helper,
-                    re1_ohm: a.re1,
-                    re2_ohm: a.re2,
+                    re1_ohm: a.re.or(a.re1),
+                    re2_ohm: a.re.or(a.re2),
+                    ratio: a.ratio,
                     i_in_a: a.iin,
                     v_out_v: a.vout,
                     supply_v: a.supply,
@@ -690,7 +718,11 @@ impl Cli {
                 .map(CatalogSource::File)
                 .unwrap_or(CatalogSource::Default),
             command,
-            style: Style { color },
+            style: Style {
+                color,
+                width,
+                wide: self.wide,
+            },
         }
     }
 }

@@ -13,10 +13,11 @@ use std::time::{Duration, Instant};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use super::{load_catalog, load_requirement, AppError, Config, Outcome};
-use crate::check::{DesignSpec, MonteCarlo};
+use crate::check::{self, DesignSpec, MonteCarlo};
 use crate::input::did_you_mean;
 use crate::model::{Catalog, Requirement, Topology, ALL_TOPOLOGIES};
-use crate::rank::{self, render, Caution, Prefer, Progress, RankOptions};
+use crate::rank::{self, Caution, Prefer, Progress, RankOptions};
+use crate::report::rank as render;
 use crate::report::Format;
 use crate::units::{self, Dimension};
 
@@ -28,6 +29,8 @@ pub struct DesignArgs {
     pub helper: Option<String>,
     /// RE1 as typed (`4k7`, `100`, `1.5 kΩ`); RE2 for a Widlar.
     pub re: Option<String>,
+    /// RE2 as typed, when the designer names it (otherwise it follows the ratio).
+    pub re2: Option<String>,
     pub resistor: Option<String>,
     /// R_ref as typed (`--rref`); absent on a programmed requirement: the standard value
     /// nearest the exact one for this design.
@@ -76,6 +79,11 @@ fn inputs(cfg: &Config, file: &std::path::Path) -> Result<(Catalog, Requirement)
 }
 
 pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outcome, AppError> {
+    if a.top == 0 {
+        return Err(AppError::Usage(
+            "--top 0 would show no design; give 1 or more (default 10)".into(),
+        ));
+    }
     let (catalog, req) = inputs(cfg, &a.file)?;
     let opts = RankOptions {
         top: a.top,
@@ -99,7 +107,7 @@ pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outco
                 .cloned(),
         );
     }
-    write_cautions(a.format, out, &cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &cautions)?;
     Ok(if report.feasible > 0 {
         Outcome::Success
     } else {
@@ -112,7 +120,7 @@ pub fn run_check(cfg: &Config, a: &CheckArgs, out: &mut dyn Write) -> Result<Out
     let spec = design_spec(&req, &catalog, &a.design)?;
     let report = rank::check_design(&req, &catalog, &spec, a.mc, a.corners)?;
     render::write_check(out, &report, a.format, cfg.style)?;
-    write_cautions(a.format, out, &report.cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &report.cautions)?;
     Ok(if report.pass {
         Outcome::Success
     } else {
@@ -132,7 +140,7 @@ pub fn run_cheaper(
     bar.finish();
     let report = report?;
     render::write_cheaper(out, &report, a.format, cfg.style)?;
-    write_cautions(a.format, out, &report.cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &report.cautions)?;
     Ok(if report.alternatives.is_empty() {
         Outcome::NothingPasses
     } else {
@@ -142,15 +150,16 @@ pub fn run_cheaper(
 
 fn write_cautions(
     format: Format,
+    width: Option<u16>,
     out: &mut dyn Write,
     cautions: &[Caution],
 ) -> Result<(), AppError> {
     if format == Format::Table {
         writeln!(out)?;
-        render::write_cautions(out, cautions)?;
+        render::write_cautions(out, cautions, width)?;
     } else {
         // Best effort: a closed stderr must not fail the command.
-        let _ = render::write_cautions(&mut io::stderr().lock(), cautions);
+        let _ = render::write_cautions(&mut io::stderr().lock(), cautions, None);
     }
     Ok(())
 }
@@ -194,21 +203,34 @@ pub fn design_spec(
             })?),
             None => None,
         };
-    let re = match &a.re {
-        Some(text) => Some(
-            units::parse(text, Dimension::Resistance)
-                .map_err(|e| AppError::Usage(format!("--re `{text}`: {e}")))?,
-        ),
-        None => None,
-    };
-    if let Some(r) = re {
+    let parse_re = |flag: &str, text: &Option<String>| -> Result<Option<f64>, AppError> {
+        let Some(text) = text else { return Ok(None) };
+        let r = units::parse(text, Dimension::Resistance)
+            .map_err(|e| AppError::Usage(format!("{flag} `{text}`: {e}")))?;
         if !(r >= 0.0 && r.is_finite()) {
             return Err(AppError::Usage(format!(
-                "--re must be a resistance of 0 Ω or more; got `{}`",
-                a.re.as_deref().unwrap_or_default()
+                "{flag} must be a resistance of 0 Ω or more; got `{text}`"
             )));
         }
+        Ok(Some(r))
+    };
+    let re = parse_re("--re", &a.re)?;
+    let re2_named = parse_re("--re2", &a.re2)?;
+    if topology == Topology::Widlar && re.is_some() && re2_named.is_some() {
+        return Err(AppError::Usage(
+            "a Widlar has RE2 only: give it with --re2 (or --re), not both".into(),
+        ));
     }
+    if topology != Topology::Widlar && re2_named.is_some() && re.is_none() {
+        return Err(AppError::Usage(
+            "--re2 names the output-side resistor; give RE1 with --re as well".into(),
+        ));
+    }
+    let re = if topology == Topology::Widlar {
+        re.or(re2_named)
+    } else {
+        re
+    };
     let needs_resistor = re.is_some_and(|r| r > 0.0) || topology == Topology::Widlar;
     let resistor = match (needs_resistor, resistor) {
         (true, None) => {
@@ -236,12 +258,26 @@ pub fn design_spec(
     } else {
         let re1 = re.unwrap_or(0.0);
         let n = req.ratio;
-        let re2 = if re1 == 0.0 || (n - 1.0).abs() < 1e-9 {
-            re1
-        } else {
-            resistor
-                .and_then(|r| r.series.nearest(re1 / n))
-                .unwrap_or(re1 / n)
+        let re2 = match re2_named {
+            Some(v) => v,
+            None if re1 == 0.0 || (n - 1.0).abs() < 1e-9 => re1,
+            // RE2 for the ratio with the V_BE difference (MODEL.md), nearest standard value.
+            None => {
+                let i_d = check::design_current(req);
+                let exact = rank::ratio_re2(re1, n, i_d, check::ROOM_K).ok_or_else(|| {
+                    AppError::Usage(format!(
+                        "--re {}: for a ratio of {n} RE1 must exceed V_T ln(n) / I_in = {} at the design current; choose a larger RE1 or name RE2 with --re2",
+                        a.re.as_deref().unwrap_or_default(),
+                        units::format_prefixed(
+                            rank::thermal_voltage(check::ROOM_K) * n.ln().abs() / i_d,
+                            "Ω"
+                        )
+                    ))
+                })?;
+                resistor
+                    .and_then(|r| r.series.nearest(exact))
+                    .unwrap_or(exact)
+            }
         };
         (re1, re2)
     };

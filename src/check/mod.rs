@@ -23,14 +23,17 @@ pub use budget::{
 };
 pub use corners::{corners, design_current, temperatures, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, RefPick,
+    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package, RefPick,
     ResolvedDesign,
 };
-pub use evaluate::{tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use evaluate::{
+    compliance_rule, tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
+};
 pub use montecarlo::linear_yield;
 pub use program::{choose_r_ref, exact_r_ref, standard_around};
 pub use ratings::{
-    derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
+    derated_power, dissipation, forward_biased_collectors, ic_max, keeps_min_vce, vceo,
+    CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
 };
 pub use verdict::{first_failure, governing, Check, CheckName};
 

@@ -11,7 +11,10 @@
 //!   notes on how the data were taken);
 //! * the first other line is the header. Required columns `i_in`, `v_out`, `i_out`;
 //!   optional `t_ambient`. Names are matched without regard to case and surrounding
-//!   blanks; other columns (notes, instrument ranges) are ignored;
+//!   blanks. Free text goes in columns named `note`, `notes`, `comment` or `comments`, or
+//!   starting with `note_` or `comment_` (`note_range`); any other name is an error with
+//!   a did-you-mean, because a misspelt `t_ambiant` silently ignored would fit 27 °C data
+//!   at the default ambient;
 //! * a value is an engineering quantity (`100uA`, `2.5 V`, `25 °C`) read by the project's
 //!   quantity parser (`units`), so the rules are those of the YAML files: a bare number in
 //!   a current or voltage column is in amperes or volts, and in `t_ambient` in degrees
@@ -94,6 +97,64 @@ impl Column {
 
 const REQUIRED: [&str; 3] = ["i_in", "v_out", "i_out"];
 
+/// Every column name the reader knows, for did-you-mean.
+const KNOWN: [&str; 10] = [
+    "i_in",
+    "v_out",
+    "i_out",
+    "t_ambient",
+    "i_in_a",
+    "v_out_v",
+    "i_out_a",
+    "t_ambient_c",
+    "t_ambient_k",
+    "note",
+];
+
+/// Names bench logs commonly use for the columns, which edit distance alone would not
+/// connect (`temp` is five edits from `t_ambient`).
+const SYNONYMS: [(&str, &str); 21] = [
+    ("temp", "t_ambient"),
+    ("temperature", "t_ambient"),
+    ("t", "t_ambient"),
+    ("ta", "t_ambient"),
+    ("t_a", "t_ambient"),
+    ("tamb", "t_ambient"),
+    ("t_amb", "t_ambient"),
+    ("ambient", "t_ambient"),
+    ("iin", "i_in"),
+    ("iref", "i_in"),
+    ("i_ref", "i_in"),
+    ("i_prog", "i_in"),
+    ("iout", "i_out"),
+    ("io", "i_out"),
+    ("i_o", "i_out"),
+    ("ic", "i_out"),
+    ("i_c", "i_out"),
+    ("vout", "v_out"),
+    ("vo", "v_out"),
+    ("v_o", "v_out"),
+    ("vce", "v_out"),
+];
+
+/// True for the free-text columns the reader skips on purpose.
+fn is_note_column(name: &str) -> bool {
+    let n = name.trim().to_ascii_lowercase();
+    matches!(n.as_str(), "note" | "notes" | "comment" | "comments")
+        || n.starts_with("note_")
+        || n.starts_with("comment_")
+}
+
+/// The known column a mistyped or differently named column most likely means.
+fn suggest_column(name: &str) -> Option<String> {
+    let n = name.trim().to_ascii_lowercase();
+    SYNONYMS
+        .iter()
+        .find(|(alias, _)| *alias == n)
+        .map(|(_, known)| known.to_string())
+        .or_else(|| did_you_mean(&n, KNOWN))
+}
+
 /// One field of a line and the 1-based character column it starts at.
 #[derive(Debug)]
 struct CsvField {
@@ -140,7 +201,6 @@ pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, Cs
     })?;
     // slot -> (index in the row, column kind)
     let mut slots: [Option<(usize, Column)>; 4] = [None; 4];
-    let mut unknown: Vec<&CsvField> = Vec::new();
     for (idx, f) in header_fields.iter().enumerate() {
         match Column::from_header(&f.text) {
             Some(c) => {
@@ -159,23 +219,35 @@ pub fn parse_measurements(source: &str, text: &str) -> Result<MeasurementSet, Cs
                 }
                 slots[c.slot()] = Some((idx, c));
             }
-            None => unknown.push(f),
+            None if is_note_column(&f.text) => {}
+            None => {
+                let name = f.text.trim();
+                let hint = suggest_column(name)
+                    .map(|k| format!(" (did you mean `{k}`?)"))
+                    .unwrap_or_default();
+                let problem = if name.is_empty() {
+                    "this column has no name".to_string()
+                } else {
+                    format!("unknown column `{name}`{hint}")
+                };
+                return Err(err(
+                    header_line,
+                    f.col + leading_blanks(&f.text),
+                    problem,
+                    "the columns `i_in`, `v_out`, `i_out` and optionally `t_ambient` \
+                     (`t_ambient_k` for bare kelvin), plus free text in columns named \
+                     `note`, `comment` or `note_...`",
+                ));
+            }
         }
     }
-    for (slot, name) in REQUIRED.iter().enumerate() {
-        if slots[slot].is_none() {
-            let lowered: Vec<String> = unknown
-                .iter()
-                .map(|f| f.text.trim().to_ascii_lowercase())
-                .collect();
-            let hint = did_you_mean(name, lowered.iter().map(String::as_str))
-                .and_then(|l| lowered.iter().position(|x| *x == l))
-                .map(|k| format!(" (is `{}` meant to be `{name}`?)", unknown[k].text.trim()))
-                .unwrap_or_default();
+    for name in REQUIRED.iter() {
+        let slot = Column::from_header(name).map(Column::slot);
+        if slot.is_some_and(|s| slots[s].is_none()) {
             return Err(err(
                 header_line,
                 1,
-                format!("the header has no `{name}` column{hint}"),
+                format!("the header has no `{name}` column"),
                 "a header with at least `i_in`, `v_out` and `i_out` (and optionally `t_ambient`)",
             ));
         }
@@ -378,7 +450,7 @@ mod tests {
     fn reads_units_quotes_comments_and_bare_si_numbers() {
         let set = read(
             "# mirror A, 2026-11-30\n\
-             i_in, v_out ,i_out,t_ambient,note\r\n\
+             i_in, v_out ,i_out,t_ambient,Note\r\n\
              100uA,2.5 V,101.3 µA,25 °C,first\n\
              \n\
              1e-4,\"5\",1.0151e-4,298.15 K,\"a \"\"quoted\"\" note, with comma\"\n",
@@ -393,6 +465,12 @@ mod tests {
         assert_eq!(p.line, 3);
         assert_eq!(set.points[1].line, 5);
         assert!((set.points[1].v_out_v - 5.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn note_columns_are_skipped_by_name() {
+        let set = read("i_in,v_out,i_out,notes,note_range,Comment\n1mA,3,1mA,a,10 mA,b\n").unwrap();
+        assert_eq!(set.points.len(), 1);
     }
 
     #[test]
@@ -420,11 +498,15 @@ mod tests {
             "i_in,v_out,i_out\n1xA,2,1mA\n",
             "i_in,v_out,i_out,t_ambient_k\n1mA,2,1mA,25\n",
             "i_in,v_out,i_out\n1mA,2,\"1mA\"x\n",
+            "i_in,v_out,i_out,t_ambiant\n1mA,2,1mA,27\n",
+            "i_in,v_out,i_out, temp\n1mA,2,1mA,27\n",
+            "i_in,v_out,i_out,range\n1mA,2,1mA,x\n",
+            "i_in,i_out\n1mA,1mA\n",
         ];
         let expected = [
             "bench.csv:2:12: `i_out`: `101uV` is a voltage, but a current was expected here; write it like `100 uA` or `1.5 mA`",
             "bench.csv:2:8: `v_out`: `2.5 Q` is not a voltage; write it like `12 V` or `650 mV`",
-            "bench.csv:1:1: the header has no `i_out` column (is `i_ot` meant to be `i_out`?); expected a header with at least `i_in`, `v_out` and `i_out` (and optionally `t_ambient`)",
+            "bench.csv:1:12: unknown column `i_ot` (did you mean `i_out`?); expected the columns `i_in`, `v_out`, `i_out` and optionally `t_ambient` (`t_ambient_k` for bare kelvin), plus free text in columns named `note`, `comment` or `note_...`",
             "bench.csv:2:6: this row has 2 fields but the header has 3; expected one value per header column",
             "bench.csv:2:1: `i_in`: `2MA` is out of range for a programming current: expected 1.00 pA to 1.00 A; `M` means mega (10^6); for milli write `m`, as in `2mA`",
             "bench.csv:2:1: `i_in`: `-1mA` is out of range for a programming current: expected 1.00 pA to 1.00 A",
@@ -436,6 +518,10 @@ mod tests {
             "bench.csv:2:1: `i_in`: `1xA` is not a current; write it like `100 uA` or `1.5 mA`",
             "bench.csv:2:11: `t_ambient_k`: `25` is out of range for a bench ambient temperature: expected 173.15 K to 473.15 K (this column reads bare numbers as kelvin)",
             "bench.csv:2:12: unexpected `x` after a closing quote; expected comma-separated values, quotes closed on the same line",
+            "bench.csv:1:18: unknown column `t_ambiant` (did you mean `t_ambient`?); expected the columns `i_in`, `v_out`, `i_out` and optionally `t_ambient` (`t_ambient_k` for bare kelvin), plus free text in columns named `note`, `comment` or `note_...`",
+            "bench.csv:1:19: unknown column `temp` (did you mean `t_ambient`?); expected the columns `i_in`, `v_out`, `i_out` and optionally `t_ambient` (`t_ambient_k` for bare kelvin), plus free text in columns named `note`, `comment` or `note_...`",
+            "bench.csv:1:18: unknown column `range`; expected the columns `i_in`, `v_out`, `i_out` and optionally `t_ambient` (`t_ambient_k` for bare kelvin), plus free text in columns named `note`, `comment` or `note_...`",
+            "bench.csv:1:1: the header has no `v_out` column; expected a header with at least `i_in`, `v_out` and `i_out` (and optionally `t_ambient`)",
         ];
         for (c, e) in cases.iter().zip(expected) {
             assert_eq!(read(c).unwrap_err(), e);

@@ -9,6 +9,7 @@
 
 pub mod curves;
 pub mod emit;
+pub mod figures;
 pub mod lm;
 pub mod measurements;
 pub mod model;
@@ -20,7 +21,7 @@ pub use curves::{CurveFit, CurveOutcome, LineFit};
 pub use measurements::{parse_measurements, CsvError, Measurement, MeasurementSet};
 pub use model::{
     generic_class, FitSetup, FittedParam, HeldParam, ModelFit, ModelFitFailure, ParamKind,
-    ParamValues, Unidentified,
+    ParamValues, Sensitivity, Unidentified,
 };
 
 use crate::model::{Topology, TransistorClass};
@@ -60,6 +61,14 @@ pub struct FitConfig {
 pub enum FitWarning {
     /// A parameter the data cannot identify, held at the base class's value.
     Unidentified(HeldParam),
+    /// Parameters were held that the data depend on: the fitted values' standard errors
+    /// assume the held values exact; the sensitivity says how much they leave out.
+    ConditionalErrors {
+        held: ParamKind,
+        held_value: Option<f64>,
+        fitted: Vec<ParamKind>,
+        sensitivity: Option<Sensitivity>,
+    },
     /// A fitted parameter whose standard error is a large fraction of its value.
     PoorlyDetermined {
         kind: ParamKind,
@@ -105,7 +114,7 @@ impl fmt::Display for FitWarning {
                     h.kind.name(),
                     list(with),
                     if condition.is_finite() {
-                        format!(" (condition number {condition:.2e})")
+                        format!(" (condition number {})", figures::plain(*condition, 2))
                     } else {
                         String::new()
                     },
@@ -116,19 +125,48 @@ impl fmt::Display for FitWarning {
                     "IKF is not identified: the largest current measured ({}) is far below any knee the data could show; it is held at the base class's value (measure up to the currents where beta falls)",
                     crate::units::format_prefixed(*largest_current_a, "A")
                 ),
-                Unidentified::CurvedValley { with, ratio } => write!(
-                    f,
-                    "{} is not identified: along a curved valley with {} the misfit hardly changes (2 standard errors away it grows by {:.2} s^2 instead of 4), so its linear standard error would understate the doubt; it is held at the base class's value and the other values assume it{}",
-                    h.kind.name(),
-                    list(with),
-                    ratio,
-                    confound_advice(h.kind, with)
-                ),
                 Unidentified::NoSlope => write!(
                     f,
                     "VAF is not identified: the curves show no upward slope; it is reported as infinite (no Early effect resolved)"
                 ),
             },
+            FitWarning::ConditionalErrors {
+                held,
+                held_value,
+                fitted,
+                sensitivity,
+            } => {
+                write!(
+                    f,
+                    "the standard errors of {} are conditional: they take the held {} = {} as exact and leave out its doubt",
+                    list(fitted),
+                    held.name(),
+                    held_value.map_or("infinite".into(), |v| param_figure(*held, v)),
+                )?;
+                if let Some(s) = sensitivity {
+                    let moves: Vec<String> = s
+                        .shifts
+                        .iter()
+                        .map(|(k, d)| {
+                            format!(
+                                "{} by {}{}",
+                                k.name(),
+                                if *d > 0.0 { "+" } else { "" },
+                                param_figure(*k, *d)
+                            )
+                        })
+                        .collect();
+                    write!(
+                        f,
+                        "; {} {}{} would move {}",
+                        held.name(),
+                        if s.step > 0.0 { "+" } else { "" },
+                        param_figure(*held, s.step),
+                        moves.join(", ")
+                    )?;
+                }
+                Ok(())
+            }
             FitWarning::PoorlyDetermined {
                 kind,
                 relative_std_error,
@@ -140,8 +178,8 @@ impl fmt::Display for FitWarning {
             ),
             FitWarning::LargeResiduals { rms_relative } => write!(
                 f,
-                "the model misses the data by {:.2} % RMS: check the topology, the emitter resistors, the supply and self-heating (--self-heating)",
-                rms_relative * 100.0
+                "the model misses the data by {} RMS: check the topology, the emitter resistors, the supply and self-heating (--self-heating)",
+                figures::percent(*rms_relative)
             ),
             FitWarning::NotConverged { termination } => write!(
                 f,
@@ -172,6 +210,15 @@ impl fmt::Display for FitWarning {
                 crate::units::format_prefixed(*largest_power_w, "W")
             ),
         }
+    }
+}
+
+/// A parameter value or change with two significant digits and its unit.
+fn param_figure(kind: ParamKind, v: f64) -> String {
+    match kind {
+        ParamKind::Bf => figures::plain(v, 2),
+        ParamKind::Vaf | ParamKind::VbeOffset => figures::prefixed(v, "V", 2),
+        ParamKind::Ikf => figures::prefixed(v, "A", 2),
     }
 }
 
@@ -275,6 +322,26 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
     if let Ok(m) = &model {
         for h in &m.held {
             warnings.push(FitWarning::Unidentified(h.clone()));
+        }
+        let fitted: Vec<ParamKind> = m
+            .params
+            .iter()
+            .filter(|p| p.fitted)
+            .map(|p| p.kind)
+            .collect();
+        let conditional_on = m
+            .params
+            .iter()
+            .find(|p| p.fitted)
+            .map(|p| p.conditional_on.clone())
+            .unwrap_or_default();
+        for held in conditional_on {
+            warnings.push(FitWarning::ConditionalErrors {
+                held,
+                held_value: m.values.get(held),
+                fitted: fitted.clone(),
+                sensitivity: m.sensitivities.iter().find(|s| s.held == held).cloned(),
+            });
         }
         for p in &m.params {
             if let (Some(v), Some(se)) = (p.value, p.std_error) {

@@ -1,5 +1,6 @@
 //! A finished [`FitReport`] as a table for people or JSON for programs, written to any
-//! `io::Write`. Pure functions: no file access, no exit codes.
+//! `io::Write`. Pure functions: no file access, no exit codes. The table rounds every
+//! fitted figure by its standard error ([`figures`]); JSON keeps full precision.
 //!
 //! JSON layout (schema_version 1), plain SI numbers, temperatures in kelvin with `_k`:
 //! `source`, `date`, `topology`, `re1_ohm`, `re2_ohm`, `supply_v`, `ambient_k`,
@@ -9,7 +10,9 @@
 //! for a line, `slope_a_per_v`, `output_resistance_ohm`, `early_voltage_v` and
 //! `early_voltage_std_error_v` (null with two points); `model`: null when no fit could be
 //! made (then `model_failure` says why), else `parameters` (each `name`, `value` in SI or
-//! null for infinite, `std_error`, `fitted`), `points_used`, `largest_relative_residual`,
+//! null for infinite, `std_error`, `fitted`, `profile_widened` (the error is the misfit
+//! profile's reach, more than 10 % above the linear one), `conditional_on` (keys of the
+//! held parameters this error takes as exact)), `points_used`, `largest_relative_residual`,
 //! `largest_residual_line`, `rms_relative_residual`, `condition_number`, `converged`;
 //! `warnings`: list of sentences; `emitted_class`: the YAML text or null.
 
@@ -18,6 +21,7 @@ use std::io::{self, Write};
 use serde::Serialize;
 
 use super::emit::class_yaml;
+use super::figures;
 use super::{CurveOutcome, FitReport, ParamKind};
 use crate::report::{new_table, Style};
 use crate::units::{format_prefixed, format_quantity, Dimension as D};
@@ -78,14 +82,20 @@ pub fn write_table(report: &FitReport, style: Style, out: &mut dyn Write) -> io:
             c.active_points.to_string(),
         ];
         match &c.outcome {
-            CurveOutcome::Line(l) => row.extend([
-                format_prefixed(l.slope_a_per_v, "A/V"),
-                format_quantity(l.output_resistance_ohm, D::Resistance),
-                format_quantity(l.early_voltage_v, D::Voltage),
-                l.early_voltage_std_error_v
-                    .map(|s| format_quantity(s, D::Voltage))
-                    .unwrap_or_else(|| "n/a".into()),
-            ]),
+            CurveOutcome::Line(l) => {
+                // Each figure rounded by its own error (two points: no error, 3 digits).
+                let by_error = |v: f64, se: Option<f64>, unit: &str| match se {
+                    Some(se) => figures::with_error(v, se, unit),
+                    None => (figures::prefixed(v, unit, 3), "n/a".to_string()),
+                };
+                let slope = by_error(l.slope_a_per_v, l.slope_std_error, "A/V").0;
+                let r_out_se = l
+                    .slope_std_error
+                    .map(|s| s * l.output_resistance_ohm / l.slope_a_per_v);
+                let r_out = by_error(l.output_resistance_ohm, r_out_se, "Ω").0;
+                let (vaf, vaf_se) = by_error(l.early_voltage_v, l.early_voltage_std_error_v, "V");
+                row.extend([slope, r_out, vaf, vaf_se]);
+            }
             other => row.extend([
                 outcome_words(other).to_string(),
                 String::new(),
@@ -108,31 +118,38 @@ pub fn write_table(report: &FitReport, style: Style, out: &mut dyn Write) -> io:
             )?;
             let mut t = new_table(style, &["parameter", "value", "± (1σ)", "status"]);
             for p in &m.params {
-                let fmt = |v: f64| match p.kind {
-                    ParamKind::Bf => format!("{v:.4}"),
-                    ParamKind::Vaf => format_prefixed(v, "V"),
-                    ParamKind::VbeOffset => format_prefixed(v, "V"),
-                    ParamKind::Ikf => format_prefixed(v, "A"),
+                let unit = match p.kind {
+                    ParamKind::Bf => "",
+                    ParamKind::Vaf | ParamKind::VbeOffset => "V",
+                    ParamKind::Ikf => "A",
                 };
-                t.add_row(vec![
-                    p.kind.name().to_string(),
-                    p.value.map(fmt).unwrap_or_else(|| "infinite".into()),
-                    p.std_error.map(fmt).unwrap_or_default(),
-                    if p.fitted {
-                        "fitted".to_string()
-                    } else {
-                        "held at base class".to_string()
-                    },
-                ]);
+                let (value, error) = match (p.value, p.std_error) {
+                    (Some(v), Some(se)) => figures::with_error(v, se, unit),
+                    (Some(v), None) => (figures::prefixed(v, unit, 3), String::new()),
+                    (None, _) => ("infinite".to_string(), String::new()),
+                };
+                let mut status = if p.fitted {
+                    "fitted".to_string()
+                } else {
+                    "held at base class".to_string()
+                };
+                if p.profile_widened {
+                    status.push_str(", error from the misfit profile");
+                }
+                if !p.conditional_on.is_empty() {
+                    let names: Vec<&str> = p.conditional_on.iter().map(|k| k.name()).collect();
+                    status.push_str(&format!(", error conditional on {}", names.join(", ")));
+                }
+                t.add_row(vec![p.kind.name().to_string(), value, error, status]);
             }
             writeln!(out, "{t}")?;
             writeln!(
                 out,
-                "Residuals: RMS {:.3} %, largest {:.3} % (line {}); condition number {:.3e}; {}.",
-                m.rms_relative_residual * 100.0,
-                m.largest_relative_residual * 100.0,
+                "Residuals: RMS {}, largest {} (line {}); condition number {}; {}.",
+                figures::percent(m.rms_relative_residual),
+                figures::percent(m.largest_relative_residual),
                 m.largest_residual_line,
-                m.condition,
+                figures::plain(m.condition, 2),
                 if m.converged {
                     "converged"
                 } else {
@@ -224,6 +241,8 @@ struct JsonParam {
     value: Option<f64>,
     std_error: Option<f64>,
     fitted: bool,
+    profile_widened: bool,
+    conditional_on: Vec<&'static str>,
 }
 
 /// The report as one JSON object (see the module docs for the layout).
@@ -258,6 +277,8 @@ pub fn write_json(report: &FitReport, out: &mut dyn Write) -> io::Result<()> {
                 value: p.value,
                 std_error: p.std_error,
                 fitted: p.fitted,
+                profile_widened: p.profile_widened,
+                conditional_on: p.conditional_on.iter().map(|k| k.key()).collect(),
             })
             .collect(),
         points_used: m.points_used,

@@ -14,7 +14,9 @@ mod transistor;
 
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel};
-pub use requirement::{AccuracyOf, Filters, LoadKind, MirrorKind, Program, Range, Requirement};
+pub use requirement::{
+    AccuracyOf, Filters, LoadKind, MirrorKind, Program, Range, Requirement, DEFAULT_MIN_VCE_V,
+};
 pub use resistor::{ResistorClass, Series, DEFAULT_POWER_RATING_W};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,

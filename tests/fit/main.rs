@@ -4,4 +4,5 @@
 
 mod cli;
 mod recovery;
+mod replicates;
 mod synthetic;

@@ -1,4 +1,4 @@
-//! Writers for the `rank`, `check` and `cheaper` reports: table, JSON and CSV. Each is a
+//! Writers for the `rank`, `check` and `cheaper` reports (built by `crate::rank`): table, JSON and CSV. Each is a
 //! pure function from a finished report into any `io::Write`.
 //!
 //! One column list drives the table, the CSV header and the CSV rows, so they cannot
@@ -10,18 +10,17 @@ use std::io::{self, Write};
 
 use comfy_table::{Cell, CellAlignment, Table};
 
-use super::report::{
-    CandidateRow, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation, RankReport,
-};
+use super::{new_table, wrap, wrap_indented, Format, Style};
 use crate::check::CheckName;
-use crate::report::{new_table, Format, Style};
+use crate::rank::{
+    CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
+    RankReport, Relax,
+};
 use crate::units::format_prefixed;
 
 struct Column {
     csv: &'static str,
     title: &'static str,
-    /// Right-aligned in tables (numbers).
-    right: bool,
     /// Shown in tables only when a row has a programming resistor (always in CSV).
     programmed_only: bool,
     csv_value: fn(&CandidateRow) -> String,
@@ -32,7 +31,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "rank",
         title: "#",
-        right: true,
         programmed_only: false,
         csv_value: |r| r.rank.map_or(String::new(), |k| k.to_string()),
         table_value: |r| r.rank.map_or("—".into(), |k| k.to_string()),
@@ -40,7 +38,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "topology",
         title: "topology",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.topology.to_string(),
         table_value: |r| r.topology.to_string(),
@@ -48,7 +45,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "part",
         title: "part",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.part.clone(),
         table_value: |r| r.part.clone(),
@@ -56,7 +52,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "helper",
         title: "helper",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.helper.clone().unwrap_or_default(),
         table_value: |r| r.helper.clone().unwrap_or_else(|| "—".into()),
@@ -64,7 +59,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "re1_ohm",
         title: "RE1",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.re1_ohm),
         table_value: |r| ohms(r.re1_ohm),
@@ -72,7 +66,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "re2_ohm",
         title: "RE2",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.re2_ohm),
         table_value: |r| ohms(r.re2_ohm),
@@ -80,7 +73,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "resistor",
         title: "resistor",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.resistor.clone().unwrap_or_default(),
         table_value: |r| r.resistor.clone().unwrap_or_else(|| "—".into()),
@@ -88,7 +80,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "cost",
         title: "cost",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.cost),
         table_value: |r| format!("{:.3}", r.cost),
@@ -96,7 +87,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "ratio_achieved",
         title: "ratio",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.ratio_achieved),
         table_value: |r| fixed(r.ratio_achieved, 4),
@@ -104,7 +94,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "error_systematic",
         title: "sys. error",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.error_systematic),
         table_value: |r| pct(r.error_systematic),
@@ -112,7 +101,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "error_random_sigma",
         title: "random 1σ",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.error_random_sigma),
         table_value: |r| pct(r.error_random_sigma),
@@ -120,7 +108,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "error_total",
         title: "total error",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.error_total),
         table_value: |r| pct(r.error_total),
@@ -128,7 +115,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "yield",
         title: "yield",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.yield_fraction),
         table_value: |r| pct(r.yield_fraction),
@@ -136,7 +122,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "r_out_min_ohm",
         title: "r_out min",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.r_out_min_ohm),
         table_value: |r| ohms(r.r_out_min_ohm),
@@ -144,7 +129,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "compliance_v",
         title: "compliance",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.compliance_v),
         table_value: |r| quantity(r.compliance_v, "V"),
@@ -152,7 +136,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "v_in_max_v",
         title: "V_in max",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.v_in_max),
         table_value: |r| quantity(r.v_in_max, "V"),
@@ -160,7 +143,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "r_ref_ohm",
         title: "R_ref",
-        right: true,
         programmed_only: true,
         csv_value: |r| r.r_ref_ohm.map_or(String::new(), num),
         table_value: |r| r.r_ref_ohm.map_or("—".into(), ohms),
@@ -168,7 +150,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "r_ref_resistor",
         title: "R_ref class",
-        right: false,
         programmed_only: true,
         csv_value: |r| r.r_ref_resistor.clone().unwrap_or_default(),
         table_value: |r| r.r_ref_resistor.clone().unwrap_or_else(|| "—".into()),
@@ -176,7 +157,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "r_ref_power_w",
         title: "P(R_ref)",
-        right: true,
         programmed_only: true,
         csv_value: |r| r.r_ref_power_w.map_or(String::new(), num),
         table_value: |r| r.r_ref_power_w.map_or("—".into(), |p| quantity(p, "W")),
@@ -184,7 +164,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "tempco_ppm_per_k",
         title: "tempco",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.tempco_ppm_per_k),
         table_value: |r| {
@@ -198,7 +177,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "governing_check",
         title: "governing",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.governing_check.map_or(String::new(), |c| c.to_string()),
         table_value: |r| r.governing_check.map_or("—".into(), |c| c.to_string()),
@@ -206,7 +184,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "governing_margin",
         title: "margin",
-        right: true,
         programmed_only: false,
         csv_value: |r| num(r.governing_margin()),
         table_value: |r| pct(r.governing_margin()),
@@ -214,7 +191,6 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "pareto",
         title: "Pareto",
-        right: false,
         programmed_only: false,
         csv_value: |r| r.pareto.to_string(),
         table_value: |r| if r.pareto { "*".into() } else { String::new() },
@@ -280,25 +256,108 @@ fn check_value(name: CheckName, x: f64) -> String {
     }
 }
 
+/// Titles of the columns that hold numbers (right-aligned).
+const NUMERIC: &[&str] = &[
+    "#",
+    "RE1",
+    "RE2",
+    "cost",
+    "ratio",
+    "sys. error",
+    "random 1σ",
+    "total error",
+    "yield",
+    "r_out min",
+    "compliance",
+    "V_in max",
+    "margin",
+    "R_ref",
+    "P(R_ref)",
+    "tempco",
+    "saving",
+    "cost saved",
+    "margin given up",
+];
+
+/// The design in one readable cell: topology, pair class, helper, emitter resistors and
+/// their class (`wilson npn-dual-general, helper npn-single-general, RE 1.91 kΩ
+/// thick-film-1pct`).
+fn design_cell(r: &CandidateRow) -> String {
+    let mut s = format!("{} {}", r.topology, r.part);
+    if let Some(h) = &r.helper {
+        s.push_str(&format!(", helper {h}"));
+    }
+    let class = r.resistor.as_deref().unwrap_or("");
+    match (r.re1_ohm > 0.0, r.re2_ohm > 0.0) {
+        (false, false) => s.push_str(", no RE"),
+        (true, true) if (r.re1_ohm - r.re2_ohm).abs() <= 1e-9 * r.re1_ohm => {
+            s.push_str(&format!(", RE {} {class}", ohms(r.re1_ohm)));
+        }
+        (false, true) => s.push_str(&format!(", RE2 {} {class}", ohms(r.re2_ohm))),
+        _ => s.push_str(&format!(
+            ", RE1 {} RE2 {} {class}",
+            ohms(r.re1_ohm),
+            ohms(r.re2_ohm)
+        )),
+    }
+    if let (Some(v), Some(class)) = (r.r_ref_ohm, &r.r_ref_resistor) {
+        s = format!("{}, R_ref {} {class}", s.trim_end(), ohms(v));
+    }
+    s.trim_end().to_string()
+}
+
+/// Rank with the Pareto mark beside it (`3 *`), for the narrow table.
+fn rank_cell(r: &CandidateRow) -> String {
+    let k = r.rank.map_or("—".into(), |k| k.to_string());
+    if r.pareto {
+        format!("{k} *")
+    } else {
+        k
+    }
+}
+
+/// The governing check and its margin in one cell (`compliance 0.195 %`).
+fn governing_cell(r: &CandidateRow) -> String {
+    match r.governing_check {
+        Some(c) => format!("{c} {}", pct(r.governing_margin())),
+        None => "—".into(),
+    }
+}
+
+/// The default columns: what a designer decides on, narrow enough for 80 columns.
+const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
+    ("#", rank_cell),
+    ("design", design_cell),
+    ("cost", |r| format!("{:.3}", r.cost)),
+    ("total error", |r| pct(r.error_total)),
+    ("yield", |r| pct(r.yield_fraction)),
+    ("governing, margin", governing_cell),
+];
+
+/// The candidate table: with `style.wide` every column, otherwise rank (with the Pareto
+/// mark), the design in one cell, cost, total error, yield and the governing check with
+/// its margin. Cells wrap to keep the table within `style.width`.
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
     let programmed = rows.iter().any(|r| r.r_ref_resistor.is_some());
-    let columns: Vec<&Column> = COLUMNS
-        .iter()
-        .filter(|c| programmed || !c.programmed_only)
-        .collect();
-    let mut header: Vec<&str> = columns.iter().map(|c| c.title).collect();
+    let cols: Vec<(&str, fn(&CandidateRow) -> String)> = if style.wide {
+        COLUMNS
+            .iter()
+            .filter(|c| programmed || !c.programmed_only)
+            .map(|c| (c.title, c.table_value))
+            .collect()
+    } else {
+        NARROW.to_vec()
+    };
+    let mut header: Vec<&str> = cols.iter().map(|(t, _)| *t).collect();
     header.extend(extra.iter().map(|(t, _)| *t));
     let mut t = new_table(style, &header);
     for (i, r) in rows.iter().enumerate() {
-        let mut cells: Vec<Cell> = columns
-            .iter()
-            .map(|c| Cell::new((c.table_value)(r)))
-            .collect();
+        let mut cells: Vec<Cell> = cols.iter().map(|(_, f)| Cell::new(f(r))).collect();
         cells.extend(extra.iter().map(|(_, v)| Cell::new(&v[i])));
         t.add_row(cells);
     }
-    for (i, c) in columns.iter().enumerate() {
-        if c.right {
+    for (i, title) in header.iter().enumerate() {
+        if NUMERIC.contains(title) {
             if let Some(col) = t.column_mut(i) {
                 col.set_cell_alignment(CellAlignment::Right);
             }
@@ -313,12 +372,26 @@ fn checks_table(style: Style, checks: &[CheckRow]) -> Table {
         &["check", "value", "limit", "margin", "pass", "where"],
     );
     for c in checks {
+        // A figure that needed an unsolved corner is neither passed nor failed.
+        let unavailable = c.value.is_nan()
+            && !matches!(c.name, CheckName::ThermalRunaway | CheckName::NoSolution);
         t.add_row(vec![
             c.name.to_string(),
-            check_value(c.name, c.value),
+            if unavailable {
+                "not available".to_string()
+            } else {
+                check_value(c.name, c.value)
+            },
             check_value(c.name, c.limit),
             pct(c.margin),
-            if c.pass { "pass" } else { "FAIL" }.to_string(),
+            if unavailable {
+                "n/a"
+            } else if c.pass {
+                "pass"
+            } else {
+                "FAIL"
+            }
+            .to_string(),
             c.detail.clone(),
         ]);
     }
@@ -363,10 +436,11 @@ fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
 }
 
 fn rejection_line(r: &RankReport) -> String {
+    let at_least = if r.feasible_at_least { "at least " } else { "" };
     let mut s = format!(
-        "{} candidate{} evaluated, {} feasible in {} famil{}",
-        r.evaluated,
-        if r.evaluated == 1 { "" } else { "s" },
+        "{} candidate{}: {at_least}{} feasible in {at_least}{} famil{}",
+        r.candidate_space,
+        if r.candidate_space == 1 { "" } else { "s" },
         r.feasible,
         r.families,
         if r.families == 1 { "y" } else { "ies" }
@@ -377,14 +451,11 @@ fn rejection_line(r: &RankReport) -> String {
             .iter()
             .map(|(c, n)| format!("{c} {n}"))
             .collect();
-        s.push_str(&format!(
-            "; rejected by (first failing check): {}",
-            parts.join(", ")
-        ));
+        s.push_str(&format!("; rejected by: {}", parts.join(", ")));
     }
     if r.unverified > 0 {
         s.push_str(&format!(
-            "; {} more passed every screen but cost more than the rows shown, so were not verified (--exhaustive verifies all)",
+            "; {} passed every screen but cost more than the rows shown, so were not verified (--exhaustive verifies all)",
             r.unverified
         ));
     }
@@ -415,15 +486,16 @@ pub fn write_rank(
             )?;
             if r.candidates.is_empty() {
                 writeln!(w, "No design meets every requirement.")?;
+                write_relax(w, &r.relax, style.width)?;
             } else {
                 writeln!(w, "{}", candidates_table(style, &r.candidates, &[]))?;
             }
-            writeln!(w, "{}", rejection_line(r))?;
-            writeln!(
-                w,
+            writeln!(w, "{}", wrap(&rejection_line(r), style.width))?;
+            let footer = format!(
                 "Yield: {} Monte Carlo builds, seed {}; * = on the cost/error Pareto front; {} solves.",
                 r.samples, r.seed, r.solves
-            )?;
+            );
+            writeln!(w, "{}", wrap(&footer, style.width))?;
             if let Some(e) = &r.explain {
                 writeln!(w)?;
                 write_explanation(w, e, style)?;
@@ -431,6 +503,25 @@ pub fn write_rank(
             Ok(())
         }
     }
+}
+
+/// The advice on what to relax, one field per line.
+pub fn write_relax(w: &mut dyn Write, relax: &[Relax], width: Option<u16>) -> io::Result<()> {
+    if relax.is_empty() {
+        return Ok(());
+    }
+    writeln!(
+        w,
+        "{}",
+        wrap(
+            "What to relax (one field at a time; each value found by the solver for the nearest candidates):",
+            width
+        )
+    )?;
+    for r in relax {
+        writeln!(w, "  - {}", wrap_indented(&r.text, width, 4))?;
+    }
+    Ok(())
 }
 
 /// Write the full reasoning of one row (table format).
@@ -622,19 +713,27 @@ pub fn write_cheaper(
                     candidates_table(style, &rows, &[(label, saving), ("margin given up", given)])
                 )?;
             }
-            writeln!(w, "{}.", capitalise(&r.summary))
+            writeln!(
+                w,
+                "{}",
+                wrap(&format!("{}.", capitalise(&r.summary)), style.width)
+            )
         }
     }
 }
 
 /// Write cautions, one per line, under a heading.
-pub fn write_cautions(w: &mut dyn Write, cautions: &[super::report::Caution]) -> io::Result<()> {
+pub fn write_cautions(
+    w: &mut dyn Write,
+    cautions: &[Caution],
+    width: Option<u16>,
+) -> io::Result<()> {
     if cautions.is_empty() {
         return Ok(());
     }
     writeln!(w, "Cautions:")?;
     for c in cautions {
-        writeln!(w, "  - {c}")?;
+        writeln!(w, "  - {}", wrap_indented(&c.to_string(), width, 4))?;
     }
     Ok(())
 }
@@ -715,6 +814,7 @@ mod tests {
                 pass: true,
                 detail: String::new(),
             }],
+            soft_saturation: Vec::new(),
         }
     }
 
