@@ -841,7 +841,12 @@ mod tests {
 
     #[test]
     fn table_uses_engineering_notation() {
-        let mut t = candidates_table(Style::default(), &[row()], &[]).to_string();
+        // Every column (the default narrow table has no compliance column).
+        let wide = Style {
+            wide: true,
+            ..Style::default()
+        };
+        let mut t = candidates_table(wide, &[row()], &[]).to_string();
         t.retain(|c| c != '\n');
         assert!(t.contains("4.70 kΩ"));
         assert!(t.contains("0.500 %"));
