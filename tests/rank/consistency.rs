@@ -127,7 +127,11 @@ fn json_and_table_show_the_same_rows() {
         let rank = row["rank"].as_u64().unwrap();
         let line = table
             .lines()
-            .find(|l| l.starts_with(&format!("│ {rank} ")))
+            .find(|l| {
+                // The rank column is right-aligned (`│   2 ┆`, `│ 1 * ┆`).
+                l.strip_prefix('│')
+                    .is_some_and(|x| x.trim_start().starts_with(&format!("{rank} ")))
+            })
             .unwrap_or_else(|| panic!("no table row {rank}"));
         assert!(line.contains(row["part"].as_str().unwrap()));
         assert!(line.contains(row["topology"].as_str().unwrap()));
