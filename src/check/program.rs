@@ -61,7 +61,7 @@ pub fn exact_r_ref(
         solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating: true }).ok()?;
         v_in = sol.v_in_v;
-        if !(sol.i_out_a > 0.0) {
+        if sol.i_out_a.is_nan() || sol.i_out_a <= 0.0 {
             return None;
         }
         i_in *= p.output_current_a / sol.i_out_a;
