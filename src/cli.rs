@@ -269,6 +269,13 @@ pub struct DesignCli {
     /// Resistor class of the emitter resistors.
     #[arg(long, value_name = "CLASS")]
     pub resistor: Option<String>,
+    /// Programming resistor R_ref (`510k`), for a requirement with a `program` section;
+    /// without it the standard value nearest the exact one for this design is taken.
+    #[arg(long, value_name = "R")]
+    pub rref: Option<String>,
+    /// Resistor class of R_ref (default: the --resistor class).
+    #[arg(long, value_name = "CLASS")]
+    pub rref_resistor: Option<String>,
 }
 
 #[derive(Debug, Args)]
@@ -347,6 +354,8 @@ impl DesignCli {
             re: self.re,
             re2: self.re2,
             resistor: self.resistor,
+            rref: self.rref,
+            rref_resistor: self.rref_resistor,
         }
     }
 }

@@ -303,6 +303,7 @@ pub fn for_design(
     let mm = Mismatch::default();
     let net = Netlist::compile(design, &mm)?;
     let point = |i_in_a, v_out_v, t_amb_k| OperatingPoint {
+        rail_v: None,
         i_in_a,
         v_out_v,
         supply_v: req.supply_v,

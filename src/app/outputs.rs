@@ -36,6 +36,7 @@ pub struct Resolved<'a> {
 impl<'a> Resolved<'a> {
     pub fn design(&self) -> Design<'a> {
         Design {
+            r_ref: None,
             topology: self.topology,
             pair: self.pair,
             helper: self.helper,

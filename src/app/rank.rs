@@ -32,6 +32,11 @@ pub struct DesignArgs {
     /// RE2 as typed, when the designer names it (otherwise it follows the ratio).
     pub re2: Option<String>,
     pub resistor: Option<String>,
+    /// R_ref as typed (`--rref`); absent on a programmed requirement: the standard value
+    /// nearest the exact one for this design.
+    pub rref: Option<String>,
+    /// R_ref's resistor class (`--rref-resistor`); default the `--resistor` class.
+    pub rref_resistor: Option<String>,
 }
 
 /// Arguments of `rank`.
@@ -278,6 +283,7 @@ pub fn design_spec(
         };
         (re1, re2)
     };
+    let (r_ref_ohm, r_ref_resistor, r_ref_pick) = ref_resistor(req, catalog, a)?;
     Ok(DesignSpec {
         topology,
         pair: a.part.clone(),
@@ -289,7 +295,70 @@ pub fn design_spec(
         } else {
             None
         },
+        r_ref_ohm,
+        r_ref_resistor,
+        r_ref_pick,
     })
+}
+
+/// `--rref` and `--rref-resistor` against the requirement: a programmed requirement
+/// takes R_ref (the given value, or the standard value nearest the exact one), a forced
+/// input current refuses it.
+fn ref_resistor(
+    req: &Requirement,
+    catalog: &Catalog,
+    a: &DesignArgs,
+) -> Result<(f64, Option<String>, Option<crate::check::RefPick>), AppError> {
+    if req.program.is_none() {
+        if a.rref.is_some() || a.rref_resistor.is_some() {
+            return Err(AppError::Usage(
+                "--rref and --rref-resistor need a requirement with a `program` section \
+                 (a rail and an output current); this one forces `input_current`"
+                    .into(),
+            ));
+        }
+        return Ok((0.0, None, None));
+    }
+    let ids = || {
+        catalog
+            .resistors
+            .iter()
+            .map(|r| r.id.as_str())
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let class = match a.rref_resistor.as_ref().or(a.resistor.as_ref()) {
+        Some(id) => catalog.resistor(id).ok_or_else(|| {
+            AppError::Usage(format!(
+                "--rref-resistor `{id}` is not a resistor class in the catalog{}; expected one of {}",
+                hint(did_you_mean(id, catalog.resistors.iter().map(|r| r.id.as_str()))),
+                ids()
+            ))
+        })?,
+        None => {
+            return Err(AppError::Usage(format!(
+                "the requirement programs the mirror by a resistor: add --rref-resistor with one of {}",
+                ids()
+            )))
+        }
+    };
+    match &a.rref {
+        Some(text) => {
+            let r = units::parse(text, Dimension::Resistance)
+                .map_err(|e| AppError::Usage(format!("--rref `{text}`: {e}")))?;
+            if !(r > 0.0 && r.is_finite()) {
+                return Err(AppError::Usage(format!(
+                    "--rref must be a resistance above 0 Ω; got `{text}`"
+                )));
+            }
+            Ok((r, Some(class.id.clone()), None))
+        }
+        None => Ok((
+            0.0,
+            Some(class.id.clone()),
+            Some(crate::check::RefPick::Nearest),
+        )),
+    }
 }
 
 fn hint(s: Option<String>) -> String {

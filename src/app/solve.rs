@@ -295,6 +295,7 @@ pub fn solve_command(
     )?;
 
     let design = Design {
+        r_ref: None,
         topology: args.topology,
         pair,
         helper,
@@ -308,6 +309,7 @@ pub fn solve_command(
         ..Mismatch::default()
     };
     let op = OperatingPoint {
+        rail_v: None,
         i_in_a: args.i_in_a,
         v_out_v: args.v_out_v,
         supply_v: supply,
@@ -453,10 +455,14 @@ fn rating_cautions(
             re1_ohm: design.re1_ohm,
             re2_ohm: design.re2_ohm,
             resistor: None,
+            r_ref_ohm: 0.0,
+            r_ref_resistor: None,
+            r_ref_pick: None,
         },
         pair: design.pair,
         helper,
         resistor: None,
+        r_ref: None,
         packages,
         cost: 0.0,
     };
@@ -464,10 +470,13 @@ fn rating_cautions(
     let state = check::CornerState {
         corner: check::OperatingCorner {
             i_in_a: op.i_in_a,
+            rail_v: op.rail_v,
             v_out_v: op.v_out_v,
             t_amb_k: op.t_amb_k,
         },
         i_out_a: sol.i_out_a,
+        i_in_a: sol.i_in_a,
+        r_ref_power_w: sol.r_ref_power_w,
         v_in_v: sol.v_in_v,
         error: f64::NAN,
         devices: sol

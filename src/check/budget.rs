@@ -11,14 +11,20 @@
 //! the error): self-heating off; then ambient back to 25 °C; then the Early effect off
 //! (VAF infinite); then base current off (BF very large). What is left is the ratio set by
 //! standard resistor values (and anything else the causes above do not explain).
+//!
+//! A programmed design (R_ref from a rail) has three more systematic lines, switched off
+//! first after self-heating: the rail back to its nominal value, R_ref's TCR off, and,
+//! out of the step back to 25 °C, the part the input current's change explains (the
+//! input side's V_BE drift, `dI_in / I_in = -dV_in / (V_rail - V_in)`); and one more
+//! random line, R_ref's tolerance (read as +-3 sigma like the emitter resistors).
 
 use serde::Serialize;
 
 use super::corners::OperatingCorner;
 
 /// The mismatch inputs, in a fixed order: V_BE offset of pair 1 and 2, beta mismatch of
-/// pair 1 and 2, RE1 and RE2 deviation.
-pub const RANDOM_INPUTS: usize = 6;
+/// pair 1 and 2, RE1 and RE2 deviation, R_ref deviation.
+pub const RANDOM_INPUTS: usize = 7;
 
 /// Change of error for a +1 sigma move of each mismatch input, at one corner.
 pub type Sensitivities = [f64; RANDOM_INPUTS];
@@ -30,6 +36,7 @@ pub enum RandomCause {
     VbeOffset,
     BetaMismatch,
     ResistorTolerance,
+    RRefTolerance,
 }
 
 impl RandomCause {
@@ -38,14 +45,16 @@ impl RandomCause {
             RandomCause::VbeOffset => "V_BE offset",
             RandomCause::BetaMismatch => "beta mismatch",
             RandomCause::ResistorTolerance => "resistor tolerance",
+            RandomCause::RRefTolerance => "R_ref tolerance",
         }
     }
 
-    fn inputs(self) -> [usize; 2] {
+    fn inputs(self) -> &'static [usize] {
         match self {
-            RandomCause::VbeOffset => [0, 1],
-            RandomCause::BetaMismatch => [2, 3],
-            RandomCause::ResistorTolerance => [4, 5],
+            RandomCause::VbeOffset => &[0, 1],
+            RandomCause::BetaMismatch => &[2, 3],
+            RandomCause::ResistorTolerance => &[4, 5],
+            RandomCause::RRefTolerance => &[6],
         }
     }
 }
@@ -57,6 +66,9 @@ pub enum SystematicCause {
     BaseCurrent,
     EarlyEffect,
     Temperature,
+    VbeDrift,
+    RRefTcr,
+    RailRange,
     SelfHeating,
     RatioRounding,
 }
@@ -67,6 +79,9 @@ impl SystematicCause {
             SystematicCause::BaseCurrent => "base current",
             SystematicCause::EarlyEffect => "Early effect",
             SystematicCause::Temperature => "temperature",
+            SystematicCause::VbeDrift => "V_BE drift (input side)",
+            SystematicCause::RRefTcr => "R_ref TCR",
+            SystematicCause::RailRange => "rail range",
             SystematicCause::SelfHeating => "self-heating",
             SystematicCause::RatioRounding => "resistor ratio / other",
         }
@@ -101,6 +116,19 @@ pub struct Toggled {
     pub no_early: f64,
     /// Also BF very large.
     pub no_base_current: f64,
+    /// Programmed designs only.
+    pub program: Option<ProgramToggles>,
+}
+
+/// The extra steps of a programmed design, taken between self-heating off and 25 °C.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ProgramToggles {
+    /// Self-heating off, rail at its nominal value.
+    pub rail_nominal: f64,
+    /// Also R_ref's TCR off (the step to 25 °C then starts here).
+    pub no_ref_tcr: f64,
+    /// The part of the step to 25 °C that the input current's change explains.
+    pub vbe_drift: f64,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -123,39 +151,38 @@ pub struct ErrorBudget {
 /// Split a worst-corner error into causes (telescoping; the lines sum to `t.full`).
 pub fn attribute(corner: OperatingCorner, t: Toggled, s: &Sensitivities) -> ErrorBudget {
     use SystematicCause::*;
-    let systematic = vec![
-        BudgetLine {
-            cause: BaseCurrent,
-            error: t.no_early - t.no_base_current,
-        },
-        BudgetLine {
-            cause: EarlyEffect,
-            error: t.at_room - t.no_early,
-        },
-        BudgetLine {
-            cause: Temperature,
-            error: t.no_self_heating - t.at_room,
-        },
-        BudgetLine {
-            cause: SelfHeating,
-            error: t.full - t.no_self_heating,
-        },
-        BudgetLine {
-            cause: RatioRounding,
-            error: t.no_base_current,
-        },
+    let line = |cause, error| BudgetLine { cause, error };
+    let mut systematic = vec![
+        line(BaseCurrent, t.no_early - t.no_base_current),
+        line(EarlyEffect, t.at_room - t.no_early),
     ];
-    let random = [
+    match t.program {
+        None => systematic.push(line(Temperature, t.no_self_heating - t.at_room)),
+        Some(p) => {
+            let step = p.no_ref_tcr - t.at_room;
+            systematic.push(line(Temperature, step - p.vbe_drift));
+            systematic.push(line(VbeDrift, p.vbe_drift));
+            systematic.push(line(RRefTcr, p.rail_nominal - p.no_ref_tcr));
+            systematic.push(line(RailRange, t.no_self_heating - p.rail_nominal));
+        }
+    }
+    systematic.push(line(SelfHeating, t.full - t.no_self_heating));
+    systematic.push(line(RatioRounding, t.no_base_current));
+    let mut causes = vec![
         RandomCause::VbeOffset,
         RandomCause::BetaMismatch,
         RandomCause::ResistorTolerance,
-    ]
-    .into_iter()
-    .map(|c| BudgetLine {
-        cause: c,
-        error: cause_sigma(s, c),
-    })
-    .collect();
+    ];
+    if t.program.is_some() {
+        causes.push(RandomCause::RRefTolerance);
+    }
+    let random = causes
+        .into_iter()
+        .map(|c| BudgetLine {
+            cause: c,
+            error: cause_sigma(s, c),
+        })
+        .collect();
     ErrorBudget {
         corner,
         systematic,
@@ -177,13 +204,15 @@ mod tests {
             at_room: 0.010,
             no_early: -0.009,
             no_base_current: 0.0005,
+            program: None,
         };
         let c = OperatingCorner {
             i_in_a: 1e-3,
+            rail_v: None,
             v_out_v: 10.0,
             t_amb_k: 300.0,
         };
-        let b = attribute(c, t, &[0.0; 6]);
+        let b = attribute(c, t, &[0.0; RANDOM_INPUTS]);
         let sum: f64 = b.systematic.iter().map(|l| l.error).sum();
         assert!((sum - 0.031).abs() < 1e-15);
         assert!((b.systematic[3].error - 0.019).abs() < 1e-15);
@@ -191,7 +220,7 @@ mod tests {
 
     #[test]
     fn random_terms_add_in_quadrature() {
-        let s = [0.03, 0.04, 0.0, 0.0, 0.0, 0.0];
+        let s = [0.03, 0.04, 0.0, 0.0, 0.0, 0.0, 0.0];
         assert!((random_sigma(&s) - 0.05).abs() < 1e-15);
         assert!((cause_sigma(&s, RandomCause::VbeOffset) - 0.05).abs() < 1e-15);
         assert_eq!(cause_sigma(&s, RandomCause::ResistorTolerance), 0.0);

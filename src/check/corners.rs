@@ -14,16 +14,29 @@ pub const ROOM_K: f64 = ZERO_CELSIUS_K + 25.0;
 /// ambient temperature.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct OperatingCorner {
+    /// The forced input current; with a programming resistor the nominal one (a hint
+    /// for the solver's start point; the solved current is a result).
     pub i_in_a: f64,
+    /// The programming rail, volts from the mirror rail (programmed designs only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rail_v: Option<f64>,
     pub v_out_v: f64,
     pub t_amb_k: f64,
 }
 
 /// Every corner of MODEL.md: `I_in` in {min, geometric mean when max/min > 10, max} x
 /// `V_out` in {min, max} x `T_amb` in {min, 25 °C, max}. Coinciding values are listed
-/// once, and 25 °C only when it lies inside the ambient range.
+/// once, and 25 °C only when it lies inside the ambient range. With a programming
+/// resistor the rail's {min, max} take the place of the input currents.
 pub fn corners(req: &Requirement) -> Vec<OperatingCorner> {
     let currents = current_points(req);
+    let rails: Vec<Option<f64>> = match &req.program {
+        Some(p) => dedup(vec![p.rail_v.min, p.rail_v.max])
+            .into_iter()
+            .map(Some)
+            .collect(),
+        None => vec![None],
+    };
     let voltages = dedup(vec![req.output_voltage_v.min, req.output_voltage_v.max]);
     let mut temps = vec![req.ambient_k.min];
     if ROOM_K > req.ambient_k.min && ROOM_K < req.ambient_k.max {
@@ -32,18 +45,27 @@ pub fn corners(req: &Requirement) -> Vec<OperatingCorner> {
     temps.push(req.ambient_k.max);
     let temps = dedup(temps);
     let mut out = Vec::with_capacity(currents.len() * voltages.len() * temps.len());
-    for &i_in_a in &currents {
-        for &v_out_v in &voltages {
-            for &t_amb_k in &temps {
-                out.push(OperatingCorner {
-                    i_in_a,
-                    v_out_v,
-                    t_amb_k,
-                });
+    for &rail_v in &rails {
+        for &i_in_a in &currents {
+            for &v_out_v in &voltages {
+                for &t_amb_k in &temps {
+                    out.push(OperatingCorner {
+                        i_in_a,
+                        rail_v,
+                        v_out_v,
+                        t_amb_k,
+                    });
+                }
             }
         }
     }
     out
+}
+
+/// The rail at which the input current is largest (its max) or smallest (its min).
+fn rail(req: &Requirement, high: bool) -> Option<f64> {
+    req.program
+        .map(|p| if high { p.rail_v.max } else { p.rail_v.min })
 }
 
 fn current_points(req: &Requirement) -> Vec<f64> {
@@ -61,15 +83,17 @@ fn dedup(mut v: Vec<f64>) -> Vec<f64> {
     v
 }
 
-/// The corners at which compliance is judged: `I_in` max, the lowest required output
-/// voltage, every ambient of the corner set (MODEL.md "compliance voltage": the cold
-/// corner has the largest V_BE, so it usually needs the most headroom).
+/// The corners at which compliance is judged: `I_in` max (with a programming resistor,
+/// the highest rail), the lowest required output voltage, every ambient of the corner set
+/// (MODEL.md "compliance voltage": the cold corner has the largest V_BE, so it usually
+/// needs the most headroom).
 pub fn compliance_corners(req: &Requirement) -> Vec<OperatingCorner> {
     let i_max = req.input_current_a.max;
     let v_min = req.output_voltage_v.min;
+    let rail_max = rail(req, true);
     corners(req)
         .into_iter()
-        .filter(|c| c.i_in_a == i_max && c.v_out_v == v_min)
+        .filter(|c| c.i_in_a == i_max && c.v_out_v == v_min && c.rail_v == rail_max)
         .collect()
 }
 
@@ -79,9 +103,20 @@ pub fn compliance_corners(req: &Requirement) -> Vec<OperatingCorner> {
 pub fn input_corner(req: &Requirement) -> OperatingCorner {
     OperatingCorner {
         i_in_a: req.input_current_a.max,
+        rail_v: rail(req, true),
         v_out_v: req.output_voltage_v.max,
         t_amb_k: req.ambient_k.min,
     }
+}
+
+/// The temperatures of the corner set (min, 25 °C when inside, max), for the tempco.
+pub fn temperatures(req: &Requirement) -> Vec<f64> {
+    let mut temps = vec![req.ambient_k.min];
+    if ROOM_K > req.ambient_k.min && ROOM_K < req.ambient_k.max {
+        temps.push(ROOM_K);
+    }
+    temps.push(req.ambient_k.max);
+    dedup(temps)
 }
 
 /// The corner used first when screening accuracy: lowest current and coldest ambient make
@@ -90,6 +125,7 @@ pub fn input_corner(req: &Requirement) -> OperatingCorner {
 pub fn probe_corner(req: &Requirement) -> OperatingCorner {
     OperatingCorner {
         i_in_a: req.input_current_a.min,
+        rail_v: rail(req, false),
         v_out_v: req.output_voltage_v.max,
         t_amb_k: req.ambient_k.min,
     }
@@ -109,6 +145,9 @@ pub(crate) mod tests {
     /// A plain 1 mA sink requirement for hand-made tests.
     pub(crate) fn requirement() -> Requirement {
         Requirement {
+            program: None,
+            accuracy_of: crate::model::AccuracyOf::Ratio,
+            max_tempco_per_k: None,
             name: "test".into(),
             kind: MirrorKind::Sink,
             supply_v: 12.0,

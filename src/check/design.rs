@@ -23,6 +23,23 @@ pub struct DesignSpec {
     pub re2_ohm: f64,
     /// Resistor class id; `None` when the design has no resistor.
     pub resistor: Option<String>,
+    /// The programming resistor R_ref, ohms; 0 when the input current is forced (or,
+    /// with `r_ref_pick`, until it is chosen from the solved circuit).
+    pub r_ref_ohm: f64,
+    /// R_ref's resistor class id (may differ from the emitter resistors' class).
+    pub r_ref_resistor: Option<String>,
+    /// Which standard value around the exact R_ref a candidate takes, while
+    /// `r_ref_ohm` is still to be chosen (see `check::program`).
+    pub r_ref_pick: Option<RefPick>,
+}
+
+/// The standard value just below or just above the exact programming resistor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum RefPick {
+    Below,
+    Above,
+    /// The nearer of the two (what `check` takes when no `--rref` is given).
+    Nearest,
 }
 
 impl DesignSpec {
@@ -45,6 +62,8 @@ pub struct ResolvedDesign<'a> {
     pub pair: &'a TransistorClass,
     pub helper: Option<&'a TransistorClass>,
     pub resistor: Option<&'a ResistorClass>,
+    /// R_ref's class, when the design has a programming resistor.
+    pub r_ref: Option<&'a ResistorClass>,
     pub packages: Vec<Package<'a>>,
     pub cost: f64,
 }
@@ -145,6 +164,24 @@ pub fn resolve<'a>(
         ),
         None => None,
     };
+    let r_ref = match &spec.r_ref_resistor {
+        Some(id) => Some(
+            catalog
+                .resistor(id)
+                .ok_or_else(|| DesignError::UnknownResistor(id.clone()))?,
+        ),
+        None => None,
+    };
+    if !(spec.r_ref_ohm.is_finite() && spec.r_ref_ohm >= 0.0) {
+        return Err(DesignError::Resistors(
+            "R_ref must be a finite resistance".into(),
+        ));
+    }
+    if spec.r_ref_ohm > 0.0 && r_ref.is_none() {
+        return Err(DesignError::Resistors(
+            "a programming resistor needs a resistor class (--rref-resistor)".into(),
+        ));
+    }
     if spec.resistor_count() > 0 && resistor.is_none() {
         return Err(DesignError::Resistors(
             "emitter resistors need a resistor class (--resistor)".into(),
@@ -201,7 +238,8 @@ pub fn resolve<'a>(
     };
     let packages = place(topology, pair, helper);
     let cost = packages.iter().map(|p| p.class.unit_cost).sum::<f64>()
-        + resistor.map_or(0.0, |r| r.unit_cost * f64::from(spec.resistor_count()));
+        + resistor.map_or(0.0, |r| r.unit_cost * f64::from(spec.resistor_count()))
+        + r_ref.map_or(0.0, |r| r.unit_cost);
     let mut spec = spec.clone();
     spec.helper = helper.map(|h| h.id.clone());
     Ok(ResolvedDesign {
@@ -209,6 +247,7 @@ pub fn resolve<'a>(
         pair,
         helper,
         resistor,
+        r_ref,
         packages,
         cost,
     })
@@ -302,6 +341,7 @@ pub(crate) mod tests {
                 class("single", 1, 0.02),
             ],
             resistors: vec![ResistorClass {
+                power_rating_w: None,
                 id: "thick-1".into(),
                 summary: String::new(),
                 series: Series::E96,
@@ -323,6 +363,9 @@ pub(crate) mod tests {
             re1_ohm: if t == Topology::Widlar { 0.0 } else { re },
             re2_ohm: re,
             resistor: (re > 0.0).then(|| "thick-1".into()),
+            r_ref_ohm: 0.0,
+            r_ref_resistor: None,
+            r_ref_pick: None,
         }
     }
 

@@ -11,7 +11,7 @@ use std::sync::atomic::{AtomicU64, Ordering};
 
 use serde::Serialize;
 
-use super::budget::{self, ErrorBudget, Sensitivities, Toggled};
+use super::budget::{self, ErrorBudget, ProgramToggles, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
 use super::montecarlo::{self, linear_yield};
@@ -19,9 +19,10 @@ use super::noise::{self, NoiseFigure};
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{
-    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, SolveFailure, SolveOptions,
+    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, RefResistor, SolveFailure,
+    SolveOptions,
 };
-use crate::model::{Requirement, TransistorClass};
+use crate::model::{AccuracyOf, Requirement, TransistorClass};
 
 /// Beta used to switch base current off in the error budget.
 const NO_BASE_CURRENT_BETA: f64 = 1e9;
@@ -84,6 +85,15 @@ pub struct Figures {
     /// White output current noise density at the worst corner, A/√Hz (NaN when not
     /// computed: it is computed at `Full` depth and wherever `max_noise` is set).
     pub noise_a_per_rthz: f64,
+    /// Largest power in R_ref over the corners, watts (0 without R_ref, NaN when not
+    /// computed).
+    pub r_ref_power_w: f64,
+    /// `(1/I_out) dI_out/dT` averaged over the ambient range (`I_out` at the hottest
+    /// minus at the coldest ambient, over the span and the current at 25 °C), per kelvin,
+    /// at the nominal input (current or rail), lowest output voltage.
+    pub tempco_per_k: f64,
+    /// The steepest slope between neighbouring ambient points (min, 25 °C, max), signed.
+    pub tempco_worst_per_k: f64,
 }
 
 impl Default for Figures {
@@ -100,6 +110,9 @@ impl Default for Figures {
             compliance_v: f64::NAN,
             v_in_max_v: f64::NAN,
             noise_a_per_rthz: f64::NAN,
+            r_ref_power_w: f64::NAN,
+            tempco_per_k: f64::NAN,
+            tempco_worst_per_k: f64::NAN,
         }
     }
 }
@@ -109,6 +122,8 @@ impl Default for Figures {
 pub struct CornerRow {
     pub corner: OperatingCorner,
     pub i_out_a: f64,
+    /// The input current (solved through R_ref on a programmed design).
+    pub i_in_a: f64,
     pub error: f64,
     pub error_random_sigma: f64,
     pub r_out_ohm: f64,
@@ -162,12 +177,14 @@ struct Variant {
     self_heating: bool,
     no_early: bool,
     no_base_current: bool,
+    no_ref_tcr: bool,
 }
 
 const NOMINAL: Variant = Variant {
     self_heating: true,
     no_early: false,
     no_base_current: false,
+    no_ref_tcr: false,
 };
 
 /// Verifies one resolved design against one requirement.
@@ -200,6 +217,7 @@ impl<'a> Evaluator<'a> {
         &self,
         pair: &'d TransistorClass,
         helper: Option<&'d TransistorClass>,
+        variant: Variant,
     ) -> Design<'d> {
         let d = self.design;
         Design {
@@ -209,6 +227,38 @@ impl<'a> Evaluator<'a> {
             re1_ohm: d.spec.re1_ohm,
             re2_ohm: d.spec.re2_ohm,
             re_tcr_per_k: d.resistor.map_or(0.0, |r| r.tcr_per_k),
+            r_ref: (d.spec.r_ref_ohm > 0.0).then(|| RefResistor {
+                ohm: d.spec.r_ref_ohm,
+                tcr_per_k: if variant.no_ref_tcr {
+                    0.0
+                } else {
+                    d.r_ref.map_or(0.0, |r| r.tcr_per_k)
+                },
+            }),
+        }
+    }
+
+    /// The design has a programming resistor (and the requirement a rail for it).
+    pub fn programmed(&self) -> bool {
+        self.design.spec.r_ref_ohm > 0.0 && self.req.program.is_some()
+    }
+
+    /// The error of a solved point: of the ratio `I_out / (n I_in) - 1`, or of the output
+    /// against the wanted current.
+    fn error_of(&self, i_out_a: f64, i_in_a: f64) -> f64 {
+        match (self.req.accuracy_of, &self.req.program) {
+            (AccuracyOf::Output, Some(p)) => i_out_a / p.output_current_a - 1.0,
+            _ => i_out_a / (self.req.ratio * i_in_a) - 1.0,
+        }
+    }
+
+    fn op(&self, corner: &OperatingCorner) -> OperatingPoint {
+        OperatingPoint {
+            i_in_a: corner.i_in_a,
+            rail_v: corner.rail_v,
+            v_out_v: corner.v_out_v,
+            supply_v: self.req.supply_v,
+            t_amb_k: corner.t_amb_k,
         }
     }
 
@@ -217,10 +267,10 @@ impl<'a> Evaluator<'a> {
         if variant.no_early || variant.no_base_current {
             let pair = modified(self.design.pair, variant);
             let helper = self.design.helper.map(|h| modified(h, variant));
-            Netlist::compile(&self.circuit_design(&pair, helper.as_ref()), mm)
+            Netlist::compile(&self.circuit_design(&pair, helper.as_ref(), variant), mm)
         } else {
             Netlist::compile(
-                &self.circuit_design(self.design.pair, self.design.helper),
+                &self.circuit_design(self.design.pair, self.design.helper, variant),
                 mm,
             )
         }
@@ -232,12 +282,7 @@ impl<'a> Evaluator<'a> {
         corner: &OperatingCorner,
         self_heating: bool,
     ) -> Result<CornerState, SolveFailure> {
-        let op = OperatingPoint {
-            i_in_a: corner.i_in_a,
-            v_out_v: corner.v_out_v,
-            supply_v: self.req.supply_v,
-            t_amb_k: corner.t_amb_k,
-        };
+        let op = self.op(corner);
         self.solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating })?;
         Ok(self.state(&sol, corner))
@@ -264,8 +309,10 @@ impl<'a> Evaluator<'a> {
         CornerState {
             corner: *corner,
             i_out_a: sol.i_out_a,
+            i_in_a: sol.i_in_a,
+            r_ref_power_w: sol.r_ref_power_w,
             v_in_v: sol.v_in_v,
-            error: sol.i_out_a / (self.req.ratio * corner.i_in_a) - 1.0,
+            error: self.error_of(sol.i_out_a, sol.i_in_a),
             devices,
         }
     }
@@ -362,6 +409,7 @@ impl<'a> Evaluator<'a> {
                 dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
                 dre1: z[4] * sigmas[4],
                 dre2: z[5] * sigmas[5],
+                dref: z[6] * sigmas[6],
             };
             let Ok(net) = self.compile(&mm, NOMINAL) else {
                 continue;
@@ -384,6 +432,11 @@ impl<'a> Evaluator<'a> {
         let m = self.design.pair.matching_or_default();
         let two_pairs = self.design.spec.topology.desc().matched_pairs > 1;
         let r_sigma = self.design.resistor.map_or(0.0, |r| r.tolerance / 3.0);
+        let ref_sigma = if self.programmed() {
+            self.design.r_ref.map_or(0.0, |r| r.tolerance / 3.0)
+        } else {
+            0.0
+        };
         [
             m.vbe_offset_sigma_v,
             if two_pairs { m.vbe_offset_sigma_v } else { 0.0 },
@@ -403,6 +456,7 @@ impl<'a> Evaluator<'a> {
             } else {
                 0.0
             },
+            ref_sigma,
         ]
     }
 
@@ -418,7 +472,8 @@ impl<'a> Evaluator<'a> {
                 0 | 1 => mm.dvbe_v[i] = sigma,
                 2 | 3 => mm.dbeta[i - 2] = sigma,
                 4 => mm.dre1 = sigma,
-                _ => mm.dre2 = sigma,
+                5 => mm.dre2 = sigma,
+                _ => mm.dref = sigma,
             }
             nets.push((i, self.compile(&mm, NOMINAL)?));
         }
@@ -431,18 +486,13 @@ impl<'a> Evaluator<'a> {
         corner: &OperatingCorner,
         nominal: &CornerState,
     ) -> Result<Sensitivities, (usize, SolveFailure)> {
-        let op = OperatingPoint {
-            i_in_a: corner.i_in_a,
-            v_out_v: corner.v_out_v,
-            supply_v: self.req.supply_v,
-            t_amb_k: corner.t_amb_k,
-        };
+        let op = self.op(corner);
         let opts = SolveOptions { self_heating: true };
         let mut s = [0.0; budget::RANDOM_INPUTS];
         for (i, net) in nets {
             self.solves.fetch_add(1, Ordering::Relaxed);
             let sol = net.solve(&op, &opts).map_err(|f| (*i, f))?;
-            s[*i] = sol.i_out_a / (self.req.ratio * corner.i_in_a) - 1.0 - nominal.error;
+            s[*i] = self.error_of(sol.i_out_a, sol.i_in_a) - nominal.error;
         }
         Ok(s)
     }
@@ -467,6 +517,15 @@ impl<'a> Evaluator<'a> {
             ));
         }
         let k = req.confidence_sigma;
+        if req.program.is_some() && !self.programmed() {
+            checks.push(Check::failed(
+                CheckName::NoSolution,
+                "the requirement programs the mirror by a resistor from a rail, and no \
+                 R_ref could be sized for this design (its input voltage reaches the rail, or \
+                 it does not solve)",
+            ));
+            return incomplete(cost, checks);
+        }
 
         // Probe corner first so a screen stops as early as it can.
         let probe = corners::probe_corner(req);
@@ -642,7 +701,9 @@ impl<'a> Evaluator<'a> {
             .corners
             .iter()
             .zip(&states)
-            .filter(|(c, _)| c.i_in_a == ic.i_in_a && c.t_amb_k == ic.t_amb_k)
+            .filter(|(c, _)| {
+                c.i_in_a == ic.i_in_a && c.rail_v == ic.rail_v && c.t_amb_k == ic.t_amb_k
+            })
             .map(|(_, s)| s)
             .collect();
         let input_detail = if req.input_voltage_max_v.is_some() {
@@ -810,7 +871,44 @@ impl<'a> Evaluator<'a> {
         }
 
         figures.ratio_achieved =
-            ratio_corner(&solved, req).map_or(f64::NAN, |s| s.i_out_a / s.corner.i_in_a);
+            ratio_corner(&solved, req).map_or(f64::NAN, |s| s.i_out_a / s.i_in_a);
+
+        // The programming resistor's power at the worst corner against its rating,
+        // derated at the hottest ambient.
+        figures.r_ref_power_w = solved.iter().map(|s| s.r_ref_power_w).fold(0.0, f64::max);
+        if let (true, Some(class)) = (self.programmed(), self.design.r_ref) {
+            checks.push(Check::at_most(
+                CheckName::RefPower,
+                figures.r_ref_power_w,
+                class.power_rating_at(req.ambient_k.max),
+                format!(
+                    "worst corner; {} rating derated above 70 °C ambient",
+                    class.id
+                ),
+            ));
+        }
+
+        // The output's temperature coefficient, for every design.
+        match self.tempco(&net, &solved) {
+            Ok((avg, worst)) => {
+                figures.tempco_per_k = avg;
+                figures.tempco_worst_per_k = worst;
+            }
+            Err(f) => {
+                let fc = failure_check(&f, "nominal design at the tempco points");
+                if !checks.iter().any(|x| x.name == fc.name) {
+                    checks.push(fc);
+                }
+            }
+        }
+        if let Some(max) = req.max_tempco_per_k {
+            checks.push(Check::at_most(
+                CheckName::Tempco,
+                figures.tempco_worst_per_k.abs(),
+                max,
+                "steepest slope over the ambient range, per kelvin",
+            ));
+        }
 
         let mut ev = Evaluation {
             cost,
@@ -834,6 +932,7 @@ impl<'a> Evaluator<'a> {
                     Some(s) => CornerRow {
                         corner: *c,
                         i_out_a: s.i_out_a,
+                        i_in_a: s.i_in_a,
                         error: s.error,
                         error_random_sigma: d.as_ref().map_or(f64::NAN, budget::random_sigma),
                         r_out_ohm: *r,
@@ -848,6 +947,7 @@ impl<'a> Evaluator<'a> {
                     None => CornerRow {
                         corner: *c,
                         i_out_a: f64::NAN,
+                        i_in_a: f64::NAN,
                         error: f64::NAN,
                         error_random_sigma: f64::NAN,
                         r_out_ohm: f64::NAN,
@@ -869,12 +969,7 @@ impl<'a> Evaluator<'a> {
     }
 
     fn output_resistance(&self, net: &Netlist, c: &OperatingCorner) -> Result<f64, SolveFailure> {
-        let op = OperatingPoint {
-            i_in_a: c.i_in_a,
-            v_out_v: c.v_out_v,
-            supply_v: self.req.supply_v,
-            t_amb_k: c.t_amb_k,
-        };
+        let op = self.op(c);
         // One solve plus the implicit derivative of the converged solution.
         self.solves.fetch_add(1, Ordering::Relaxed);
         net.output_resistance(&op, &SolveOptions { self_heating: true })
@@ -939,14 +1034,97 @@ impl<'a> Evaluator<'a> {
             no_base_current: true,
             ..no_early
         };
+        let program = match (self.programmed(), &self.req.program) {
+            (true, Some(p)) => {
+                // Rail to nominal, then R_ref's TCR off; what is left of the step to
+                // 25 °C splits into the part the input current explains (V_BE drift of
+                // the input side) and the mirror's own temperature dependence.
+                let nominal = OperatingCorner {
+                    rail_v: Some(p.rail_nominal_v()),
+                    ..c
+                };
+                let no_tcr = Variant {
+                    no_ref_tcr: true,
+                    ..off
+                };
+                let hot = self.solve_with(&nominal, &mm, no_tcr).ok()?;
+                let room_nominal = OperatingCorner {
+                    t_amb_k: ROOM_K,
+                    ..nominal
+                };
+                let cold = self.solve_with(&room_nominal, &mm, no_tcr).ok()?;
+                let vbe_drift = match self.req.accuracy_of {
+                    AccuracyOf::Output => {
+                        (hot.i_in_a - cold.i_in_a) * (cold.i_out_a / cold.i_in_a)
+                            / p.output_current_a
+                    }
+                    AccuracyOf::Ratio => 0.0,
+                };
+                Some(ProgramToggles {
+                    rail_nominal: e(&nominal, off)?,
+                    no_ref_tcr: hot.error,
+                    vbe_drift,
+                })
+            }
+            _ => None,
+        };
+        // With a programming resistor the steps to 25 °C start from the nominal rail.
+        let room = match &program {
+            Some(_) => OperatingCorner {
+                rail_v: self.req.program.map(|p| p.rail_nominal_v()),
+                ..room
+            },
+            None => room,
+        };
+        let base = Variant {
+            no_ref_tcr: program.is_some(),
+            ..off
+        };
+        let no_early = Variant {
+            no_ref_tcr: base.no_ref_tcr,
+            ..no_early
+        };
+        let no_base = Variant {
+            no_ref_tcr: base.no_ref_tcr,
+            ..no_base
+        };
         let t = Toggled {
             full: worst.error,
             no_self_heating: e(&c, off)?,
-            at_room: e(&room, off)?,
+            at_room: e(&room, base)?,
             no_early: e(&room, no_early)?,
             no_base_current: e(&room, no_base)?,
+            program,
         };
         Some(budget::attribute(c, t, sens))
+    }
+
+    /// The output's temperature coefficient at the nominal input (forced current at its
+    /// maximum, or the nominal rail), lowest output voltage: the average over the
+    /// ambient range and the steepest slope between neighbouring ambient points. Reuses
+    /// the corner solves when the nominal point is a corner.
+    fn tempco(&self, net: &Netlist, states: &[CornerState]) -> Result<(f64, f64), SolveFailure> {
+        let req = self.req;
+        let temps = corners::temperatures(req);
+        let nominal = OperatingCorner {
+            i_in_a: req.input_current_a.max,
+            rail_v: req.program.map(|p| p.rail_nominal_v()),
+            v_out_v: req.output_voltage_v.min,
+            t_amb_k: req.ambient_k.min,
+        };
+        let mut points = Vec::with_capacity(temps.len());
+        for &t in &temps {
+            let c = OperatingCorner {
+                t_amb_k: t,
+                ..nominal
+            };
+            let i = match states.iter().find(|s| s.corner == c) {
+                Some(s) => s.i_out_a,
+                None => self.solve_net(net, &c, true)?.i_out_a,
+            };
+            points.push((t, i));
+        }
+        Ok(tempco_of(&points))
     }
 }
 
@@ -963,6 +1141,25 @@ fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
         soft_saturation: Vec::new(),
         complete: false,
     }
+}
+
+/// Average and steepest relative slope of `(T, I)` points in ascending T: the average is
+/// `(I_last - I_first) / (I_ref (T_last - T_first))`, `I_ref` the current nearest 25 °C.
+pub fn tempco_of(points: &[(f64, f64)]) -> (f64, f64) {
+    if points.len() < 2 {
+        return (0.0, 0.0);
+    }
+    let i_ref = points
+        .iter()
+        .min_by(|a, b| (a.0 - ROOM_K).abs().total_cmp(&(b.0 - ROOM_K).abs()))
+        .map_or(f64::NAN, |p| p.1);
+    let (first, last) = (points[0], points[points.len() - 1]);
+    let avg = (last.1 - first.1) / (i_ref * (last.0 - first.0));
+    let worst = points
+        .windows(2)
+        .map(|w| (w[1].1 - w[0].1) / (i_ref * (w[1].0 - w[0].0)))
+        .fold(0.0f64, |a, b| if b.abs() > a.abs() { b } else { a });
+    (avg, worst)
 }
 
 fn modified(class: &TransistorClass, v: Variant) -> TransistorClass {
@@ -1014,10 +1211,12 @@ pub fn compliance_rule(min_vce_v: f64) -> String {
 
 /// The corner the achieved ratio is read at: I_in max, V_out min, ambient nearest 25 °C.
 fn ratio_corner<'s>(states: &'s [CornerState], req: &Requirement) -> Option<&'s CornerState> {
+    let rail = req.program.map(|p| p.rail_v.max);
     states
         .iter()
         .filter(|s| {
             s.corner.i_in_a == req.input_current_a.max
+                && s.corner.rail_v == rail
                 && s.corner.v_out_v == req.output_voltage_v.min
         })
         .min_by(|a, b| {

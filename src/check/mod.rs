@@ -2,7 +2,8 @@
 //! the solved figures, ratings, error budget, Monte Carlo yield and the verdicts.
 //!
 //! Everything here is a function of (requirement, catalog, design) and the solver; it
-//! never prints, reads files or ranks. `evaluate` is the only file that calls the
+//! never prints, reads files or ranks. `evaluate` and `program` (which sizes the
+//! programming resistor from the solved input voltage) are the only files that call the
 //! circuit solver; the other files judge solved states and can be tested on hand-made
 //! operating points.
 
@@ -13,6 +14,7 @@ mod design;
 mod evaluate;
 mod montecarlo;
 mod noise;
+mod program;
 mod ratings;
 pub mod refdes;
 mod verdict;
@@ -23,17 +25,18 @@ pub use budget::{
     BudgetLine, ErrorBudget, RandomCause, Sensitivities, SystematicCause, RANDOM_INPUTS,
 };
 pub use confidence::{wilson_interval, MIN_SAMPLES};
-pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
+pub use corners::{corners, design_current, temperatures, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package,
+    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package, RefPick,
     ResolvedDesign,
 };
 pub use evaluate::{
-    compliance_rule, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
+    compliance_rule, tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
     YIELD_SCREEN_BAND,
 };
 pub use montecarlo::linear_yield;
 pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};
+pub use program::{choose_r_ref, exact_r_ref, standard_around};
 pub use ratings::{
     derated_power, dissipation, forward_biased_collectors, ic_max, keeps_min_vce, vceo,
     CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
@@ -53,6 +56,7 @@ pub fn verify(
     mc: MonteCarlo,
     solves: &AtomicU64,
 ) -> Result<(DesignSpec, Evaluation), DesignError> {
+    let spec = &choose_r_ref(req, catalog, spec, solves);
     let d = resolve(catalog, spec)?;
     let want = req.kind.polarity();
     if d.pair.polarity != want {
@@ -75,6 +79,7 @@ pub fn solved_yield(
     mc: MonteCarlo,
     solves: &AtomicU64,
 ) -> Result<f64, DesignError> {
+    let spec = &choose_r_ref(req, catalog, spec, solves);
     let d = resolve(catalog, spec)?;
     Ok(Evaluator::new(req, &d, solves).solved_yield(mc))
 }

@@ -48,8 +48,13 @@ impl DeviceState {
 pub struct CornerState {
     pub corner: OperatingCorner,
     pub i_out_a: f64,
+    /// The input current: forced, or solved through R_ref.
+    pub i_in_a: f64,
+    /// Power in R_ref, watts (0 without one).
+    pub r_ref_power_w: f64,
     pub v_in_v: f64,
-    /// MODEL.md error `I_out / (n I_in) - 1`.
+    /// MODEL.md error `I_out / (n I_in) - 1`, or `I_out / I_wanted - 1` when the
+    /// requirement's accuracy is of the output.
     pub error: f64,
     pub devices: Vec<DeviceState>,
 }
@@ -224,10 +229,13 @@ mod tests {
         CornerState {
             corner: OperatingCorner {
                 i_in_a: 1e-3,
+                rail_v: None,
                 v_out_v: 10.0,
                 t_amb_k,
             },
             i_out_a: 1e-3,
+            i_in_a: 1e-3,
+            r_ref_power_w: 0.0,
             v_in_v: 0.65,
             error: 0.0,
             devices,
@@ -253,6 +261,9 @@ mod tests {
             re1_ohm: 0.0,
             re2_ohm: 0.0,
             resistor: None,
+            r_ref_ohm: 0.0,
+            r_ref_resistor: None,
+            r_ref_pick: None,
         };
         let d = resolve(&cat, &spec).unwrap();
         // Q2 at 40 V and 5 mA: 200 mW in a 300 mW package at 87.5 °C (150 mW allowed).

@@ -32,10 +32,14 @@ pub enum CheckName {
     Vceo,
     IcMax,
     Dissipation,
+    /// Power in the programming resistor against its class's derated rating.
+    RefPower,
+    /// |output temperature coefficient| against `max_tempco`.
+    Tempco,
 }
 
 impl CheckName {
-    pub const ALL: [CheckName; 13] = [
+    pub const ALL: [CheckName; 15] = [
         CheckName::Cost,
         CheckName::ThermalRunaway,
         CheckName::NoSolution,
@@ -49,6 +53,8 @@ impl CheckName {
         CheckName::Vceo,
         CheckName::IcMax,
         CheckName::Dissipation,
+        CheckName::RefPower,
+        CheckName::Tempco,
     ];
 
     pub fn as_str(self) -> &'static str {
@@ -66,6 +72,8 @@ impl CheckName {
             CheckName::Vceo => "vceo",
             CheckName::IcMax => "ic-max",
             CheckName::Dissipation => "dissipation",
+            CheckName::RefPower => "r-ref-power",
+            CheckName::Tempco => "tempco",
         }
     }
 
@@ -81,7 +89,8 @@ impl CheckName {
             CheckName::OutputResistance => "Ω",
             CheckName::Noise => "A/√Hz",
             CheckName::IcMax => "A",
-            CheckName::Dissipation => "W",
+            CheckName::Dissipation | CheckName::RefPower => "W",
+            CheckName::Tempco => "1/K",
         }
     }
 }

@@ -42,6 +42,16 @@ pub struct Design<'a> {
     pub re2_ohm: f64,
     /// Resistor temperature coefficient, per kelvin, about 25 °C.
     pub re_tcr_per_k: f64,
+    /// The programming resistor from the rail (`OperatingPoint::rail_v`) to the input
+    /// node; `None` = the input current is forced (`OperatingPoint::i_in_a`).
+    pub r_ref: Option<RefResistor>,
+}
+
+/// A programming resistor: nominal value at 25 °C and its temperature coefficient.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RefResistor {
+    pub ohm: f64,
+    pub tcr_per_k: f64,
 }
 
 impl Design<'_> {
@@ -73,7 +83,11 @@ impl Design<'_> {
 /// One operating point, magnitudes from the mirror rail.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct OperatingPoint {
+    /// The forced input current; with a programming resistor only a hint for the start
+    /// point (the solved input current is `Solution::i_in_a`).
     pub i_in_a: f64,
+    /// The programming rail, volts from the mirror rail (used when the design has R_ref).
+    pub rail_v: Option<f64>,
     pub v_out_v: f64,
     pub supply_v: f64,
     pub t_amb_k: f64,
@@ -88,6 +102,8 @@ pub struct Mismatch {
     pub dbeta: [f64; 2],
     pub dre1: f64,
     pub dre2: f64,
+    /// Relative deviation of the programming resistor.
+    pub dref: f64,
 }
 
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
@@ -125,6 +141,10 @@ pub struct NodeVoltage {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Solution {
     pub i_out_a: f64,
+    /// The input current: forced, or through R_ref `(V_rail - V_in) / R_ref(T)`.
+    pub i_in_a: f64,
+    /// Power in R_ref, watts (0 without one).
+    pub r_ref_power_w: f64,
     pub v_in_v: f64,
     /// Current drawn from the opposite rail (helper collectors), amperes.
     pub supply_current_a: f64,
@@ -147,7 +167,8 @@ impl Solution {
         &self.transistors[..self.transistor_count]
     }
 
-    /// MODEL.md error `e = I_out / (n I_in) - 1`.
+    /// MODEL.md error `e = I_out / (n I_in) - 1` (`i_in_a`: the input current to compare
+    /// with; `self.i_in_a` for a programmed design).
     pub fn error(&self, ratio: f64, i_in_a: f64) -> f64 {
         self.i_out_a / (ratio * i_in_a) - 1.0
     }
@@ -165,7 +186,7 @@ impl Solution {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum SolveFailure {
     #[error(
-        "{} with {part} did not converge at I_in = {} A, V_out = {} V, supply = {} V, {} K \
+        "{} with {part} did not converge at I_in = {} A (or R_ref from the rail), V_out = {} V, supply = {} V, {} K \
          after {iterations} iterations (largest KCL residual {residual:e})",
         topology.name(), point.i_in_a, point.v_out_v, point.supply_v, point.t_amb_k
     )]

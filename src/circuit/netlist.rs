@@ -1,7 +1,7 @@
 //! Compilation of a topology description into an index-based netlist, and the solve
 //! driver (isothermal first, then the coupled electrothermal system).
 
-use super::system::{CircuitSystem, OUT_SLOT, R_SLOT, S_SLOT};
+use super::system::{CircuitSystem, FIRST_NODE, OUT_SLOT, P_SLOT, R_SLOT, S_SLOT};
 use super::{
     Design, Mismatch, NodeVoltage, OperatingPoint, Solution, SolveFailure, SolveOptions,
     TransistorState,
@@ -68,6 +68,16 @@ pub(super) struct Res {
     pub ohm_25c: f64,
 }
 
+/// A two-terminal resistor between two slots (the programming resistor `Rref P in`).
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Link {
+    pub a: usize,
+    pub b: usize,
+    /// Resistance at 25 °C with its deviation applied.
+    pub ohm_25c: f64,
+    pub tcr_per_k: f64,
+}
+
 /// A design compiled for solving: unknown nodes by index, devices with their mismatch,
 /// the thermal coupling matrix. Cheap to solve at many operating points.
 #[derive(Debug, Clone)]
@@ -83,6 +93,8 @@ pub struct Netlist {
     pub(super) res: [Res; 2],
     pub(super) n_res: usize,
     pub(super) tcr_per_k: f64,
+    /// The programming resistor, from the rail slot `P` to the input node.
+    pub(super) r_ref: Option<Link>,
     pub(super) theta: [[f64; MAX_TRANSISTORS]; MAX_TRANSISTORS],
     /// A typical beta of the pair class at its nominal temperature, for the start point.
     beta_nom: f64,
@@ -175,11 +187,11 @@ impl Netlist {
                 "e2" if design.re2_ohm <= 0.0 => R_SLOT,
                 _ => {
                     if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
-                        3 + k
+                        FIRST_NODE + k
                     } else {
                         node_names[n_nodes] = name;
                         n_nodes += 1;
-                        3 + n_nodes - 1
+                        FIRST_NODE + n_nodes - 1
                     }
                 }
             }
@@ -261,7 +273,7 @@ impl Netlist {
             if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
                 res[n_res] = Res {
                     name: label,
-                    slot: 3 + k,
+                    slot: FIRST_NODE + k,
                     ohm_25c: ohm * (1.0 + dev),
                 };
                 if res[n_res].ohm_25c <= 0.0 {
@@ -272,11 +284,31 @@ impl Netlist {
                 n_res += 1;
             }
         }
-        let in_slot = 3 + node_names[..n_nodes]
-            .iter()
-            .position(|&n| n == "in")
-            .expect("every topology has an input node");
+        let in_slot = FIRST_NODE
+            + node_names[..n_nodes]
+                .iter()
+                .position(|&n| n == "in")
+                .expect("every topology has an input node");
         let uses_supply = tr[..n_tr].iter().any(|t| t.c == S_SLOT);
+        // The programming network is one more netlist line, `Rref P in`.
+        let r_ref = match design.r_ref {
+            None => None,
+            Some(r) => {
+                let ohm_25c = r.ohm * (1.0 + mm.dref);
+                if !(positive_finite(ohm_25c) && r.tcr_per_k.is_finite()) {
+                    return invalid(format!(
+                        "R_ref must be a finite resistance > 0, got {} ohm (deviation {})",
+                        r.ohm, mm.dref
+                    ));
+                }
+                Some(Link {
+                    a: P_SLOT,
+                    b: in_slot,
+                    ohm_25c,
+                    tcr_per_k: r.tcr_per_k,
+                })
+            }
+        };
         Ok(Netlist {
             topology: design.topology,
             part: design.pair.id.clone(),
@@ -289,6 +321,7 @@ impl Netlist {
             res,
             n_res,
             tcr_per_k: design.re_tcr_per_k,
+            r_ref,
             theta,
             beta_nom: design.pair.model.beta_forward,
         })
@@ -300,13 +333,15 @@ impl Netlist {
             && op.v_out_v >= 0.0
             && op.supply_v.is_finite()
             && op.supply_v >= op.v_out_v
-            && positive_finite(op.t_amb_k);
+            && positive_finite(op.t_amb_k)
+            && (self.r_ref.is_none() || op.rail_v.is_some_and(positive_finite));
         if ok {
             Ok(())
         } else {
             Err(SolveFailure::Invalid {
                 reason: format!(
-                    "operating point needs I_in > 0, 0 <= V_out <= supply, T > 0 K; got {op:?}"
+                    "operating point needs I_in > 0, 0 <= V_out <= supply, T > 0 K and, with \
+                     R_ref, a rail above 0 V; got {op:?}"
                 ),
             })
         }
@@ -367,8 +402,8 @@ impl Netlist {
             re2_ohm: sys.res_ohm_for("e2", self),
         };
         let ratio = (desc.estimates.ratio)(&inputs);
-        let mut v = [0.0; MAX_DIM + 3];
-        let mut known = [false; MAX_DIM + 3];
+        let mut v = [0.0; MAX_DIM + FIRST_NODE];
+        let mut known = [false; MAX_DIM + FIRST_NODE];
         v[S_SLOT] = op.supply_v;
         v[OUT_SLOT] = op.v_out_v;
         known[R_SLOT] = true;
@@ -406,7 +441,7 @@ impl Netlist {
             for i in 0..nt {
                 let t = &self.tr[i];
                 let collectors_at = |n: usize| (0..nt).filter(|&j| self.tr[j].c == n).count();
-                if t.c >= 3 && collectors_at(t.c) == 1 && !has_res(t.c) {
+                if t.c >= FIRST_NODE && collectors_at(t.c) == 1 && !has_res(t.c) {
                     let mut feed = if t.c == self.in_slot { op.i_in_a } else { 0.0 };
                     for j in 0..nt {
                         if self.tr[j].e == t.c {
@@ -420,8 +455,8 @@ impl Netlist {
                     if feed > 0.0 {
                         cur[i] = feed / (1.0 + own);
                     }
-                } else if t.c < 3
-                    && t.e >= 3
+                } else if t.c < FIRST_NODE
+                    && t.e >= FIRST_NODE
                     && t.e != self.in_slot
                     && !has_res(t.e)
                     && (0..nt).filter(|&j| self.tr[j].e == t.e).count() == 1
@@ -458,7 +493,7 @@ impl Netlist {
                     let v_ce = (v[t.c] - v[t.e]).max(0.0);
                     vbe_at[i] = sys.at[i].vbe_for_current_at(cur[i], v_ce);
                 }
-                known = [false; MAX_DIM + 3];
+                known = [false; MAX_DIM + FIRST_NODE];
                 known[R_SLOT] = true;
                 known[S_SLOT] = true;
                 known[OUT_SLOT] = true;
@@ -495,7 +530,7 @@ impl Netlist {
         let vbe = |i: usize| vbe_at[i];
         // Below compliance a fixed collector pins its base: no junction may start forward
         // biased beyond the V_BE of its nominal current (e^(V/V_T) would overflow).
-        let free = |slot: usize| slot >= 3;
+        let free = |slot: usize| slot >= FIRST_NODE;
         for _ in 0..2 * MAX_TRANSISTORS {
             let mut changed = false;
             for i in 0..self.n_tr {
@@ -524,7 +559,7 @@ impl Netlist {
             }
         }
         let mut x = [0.0; MAX_DIM];
-        x[..self.n_nodes].copy_from_slice(&v[3..3 + self.n_nodes]);
+        x[..self.n_nodes].copy_from_slice(&v[FIRST_NODE..FIRST_NODE + self.n_nodes]);
         x
     }
 
@@ -592,6 +627,28 @@ impl Netlist {
         None
     }
 
+    /// A closed-form guess of the programmed input current for the start point.
+    fn programmed_current_estimate(&self, sys: &CircuitSystem) -> f64 {
+        let rail = sys.op.rail_v.unwrap_or(0.0);
+        let r = 1.0 / sys.ref_g;
+        let vt = sys.at[0].vt;
+        let mut i = rail / r;
+        for _ in 0..4 {
+            let inputs = EstimateInputs {
+                beta: self.beta_nom,
+                early_voltage_v: None,
+                i_in_a: i,
+                thermal_voltage_v: vt,
+                vbe_v: sys.at[0].vbe_for_current(i),
+                re1_ohm: sys.res_ohm_for("e1", self),
+                re2_ohm: sys.res_ohm_for("e2", self),
+            };
+            let v_in = (self.topology.desc().estimates.input_voltage_v)(&inputs);
+            i = ((rail - v_in) / r).max(1e-3 * rail / r);
+        }
+        i
+    }
+
     #[cfg(test)]
     pub(super) fn start_point_for_tests(&self, sys: &CircuitSystem) -> Vector {
         self.start_point(sys)
@@ -619,6 +676,11 @@ impl Netlist {
         // (1 pA on its own would be the whole current of a picoamp mirror).
         newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
         let mut sys = CircuitSystem::new(self, *op);
+        if self.r_ref.is_some() {
+            // The start point needs a current: (V_rail - V_in) / R_ref with V_in from the
+            // closed-form input voltage, iterated a few times.
+            sys.op.i_in_a = self.programmed_current_estimate(&sys);
+        }
         let mut x = self.start_point(&sys);
         let g_start = 100.0 * op.i_in_a / sys.at[0].vt;
         let out = solve::solve_with_continuation(&sys, &mut x, &newton, g_start);
@@ -750,7 +812,7 @@ impl CircuitSystem<'_> {
         for k in 0..net.n_nodes {
             nodes[node_count] = NodeVoltage {
                 name: net.node_names[k],
-                volts: v[3 + k],
+                volts: v[FIRST_NODE + k],
             };
             node_count += 1;
         }
@@ -808,8 +870,17 @@ impl CircuitSystem<'_> {
                 helper_class: t.helper_class,
             };
         }
+        let (i_in, r_ref_power) = match &net.r_ref {
+            Some(l) => {
+                let i = (v[l.a] - v[l.b]) * self.ref_g;
+                (i, i * i / self.ref_g)
+            }
+            None => (self.op.i_in_a, 0.0),
+        };
         Solution {
             i_out_a: i_out,
+            i_in_a: i_in,
+            r_ref_power_w: r_ref_power,
             v_in_v: v[net.in_slot],
             supply_current_a: i_s,
             nodes,

@@ -13,6 +13,10 @@ use crate::solve::{lu_factor, Matrix, NonlinearSystem, Vector, MAX_DIM};
 pub(super) const R_SLOT: usize = 0;
 pub(super) const S_SLOT: usize = 1;
 pub(super) const OUT_SLOT: usize = 2;
+/// The programming rail (the far end of R_ref), a known voltage.
+pub(super) const P_SLOT: usize = 3;
+/// Unknown node voltages start here.
+pub(super) const FIRST_NODE: usize = 4;
 pub(super) const NONE: usize = usize::MAX;
 
 /// Reference temperature of resistor TCRs (25 °C).
@@ -27,6 +31,8 @@ pub(super) struct CircuitSystem<'n> {
     pub at: [BjtAtT; super::MAX_TRANSISTORS],
     pub res_ohm: [f64; 2],
     res_g: [f64; 2],
+    /// Conductance of R_ref at the ambient temperature (0 without one).
+    pub ref_g: f64,
     /// Junction temperatures are unknowns.
     pub thermal: bool,
     /// Scales every theta (continuation in the thermal coupling).
@@ -51,12 +57,16 @@ impl<'n> CircuitSystem<'n> {
                 net.res[k].ohm_25c * (1.0 + net.tcr_per_k * (op.t_amb_k - TCR_REFERENCE_K));
             res_g[k] = 1.0 / res_ohm[k];
         }
+        let ref_g = net.r_ref.map_or(0.0, |l| {
+            1.0 / (l.ohm_25c * (1.0 + l.tcr_per_k * (op.t_amb_k - TCR_REFERENCE_K)))
+        });
         CircuitSystem {
             net,
             op,
             at,
             res_ohm,
             res_g,
+            ref_g,
             thermal: false,
             theta_scale: 1.0,
         }
@@ -64,7 +74,7 @@ impl<'n> CircuitSystem<'n> {
 
     pub fn res_ohm_for(&self, name: &str, net: &Netlist) -> f64 {
         (0..net.n_res)
-            .find(|&k| net.node_names[net.res[k].slot - 3] == name)
+            .find(|&k| net.node_names[net.res[k].slot - FIRST_NODE] == name)
             .map_or(0.0, |k| self.res_ohm[k])
     }
 
@@ -87,11 +97,12 @@ impl<'n> CircuitSystem<'n> {
     }
 
     #[inline]
-    pub fn slot_voltages(&self, x: &Vector) -> [f64; MAX_DIM + 3] {
-        let mut v = [0.0; MAX_DIM + 3];
+    pub fn slot_voltages(&self, x: &Vector) -> [f64; MAX_DIM + FIRST_NODE] {
+        let mut v = [0.0; MAX_DIM + FIRST_NODE];
         v[S_SLOT] = self.op.supply_v;
         v[OUT_SLOT] = self.op.v_out_v;
-        v[3..3 + self.net.n_nodes].copy_from_slice(&x[..self.net.n_nodes]);
+        v[P_SLOT] = self.op.rail_v.unwrap_or(0.0);
+        v[FIRST_NODE..FIRST_NODE + self.net.n_nodes].copy_from_slice(&x[..self.net.n_nodes]);
         v
     }
 
@@ -99,8 +110,8 @@ impl<'n> CircuitSystem<'n> {
     /// unknown, the rails `NONE`.
     #[inline]
     pub(super) fn index(&self, slot: usize) -> usize {
-        if slot >= 3 {
-            slot - 3
+        if slot >= FIRST_NODE {
+            slot - FIRST_NODE
         } else if slot == OUT_SLOT {
             self.dim()
         } else {
@@ -152,12 +163,32 @@ impl<'n> CircuitSystem<'n> {
                 row[..=n].fill(0.0);
             }
         }
-        let ii = net.in_slot - 3;
-        f[ii] -= self.op.i_in_a;
-        scale[ii] = self.op.i_in_a;
+        if let Some(l) = &net.r_ref {
+            // A two-terminal resistor from slot a to slot b: current (V_a - V_b) g leaves a.
+            let i = (v[l.a] - v[l.b]) * self.ref_g;
+            for (slot, sign) in [(l.a, 1.0), (l.b, -1.0)] {
+                if slot < FIRST_NODE {
+                    continue;
+                }
+                let r = slot - FIRST_NODE;
+                f[r] += sign * i;
+                scale[r] = scale[r].max(i.abs());
+                if let Some(j) = jac.as_deref_mut() {
+                    for (other, s2) in [(l.a, 1.0), (l.b, -1.0)] {
+                        if other >= FIRST_NODE {
+                            j[r][other - FIRST_NODE] += sign * s2 * self.ref_g;
+                        }
+                    }
+                }
+            }
+        } else {
+            let ii = net.in_slot - FIRST_NODE;
+            f[ii] -= self.op.i_in_a;
+            scale[ii] = self.op.i_in_a;
+        }
         for k in 0..net.n_res {
             let slot = net.res[k].slot;
-            let r = slot - 3;
+            let r = slot - FIRST_NODE;
             let i = v[slot] * self.res_g[k];
             f[r] += i;
             scale[r] = scale[r].max(i.abs());
@@ -384,6 +415,7 @@ mod tests {
             let helper = class(2.0 * 10f64.powf(is), bf * 0.7, vaf, None);
             let (re1, re2) = if topology.desc().has_re1 { (re, re) } else { (0.0, re.max(100.0)) };
             let design = Design {
+                r_ref: None,
                 topology,
                 pair: &pair,
                 helper: Some(&helper),
@@ -391,9 +423,9 @@ mod tests {
                 re2_ohm: re2,
                 re_tcr_per_k: 1e-4,
             };
-            let mm = Mismatch { dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01 };
+            let mm = Mismatch { dref: 0.0, dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01 };
             let net = Netlist::compile(&design, &mm).unwrap();
-            let op = OperatingPoint { i_in_a: 10f64.powf(i_in), v_out_v: v_out, supply_v: v_out + 2.0, t_amb_k: 320.0 };
+            let op = OperatingPoint { rail_v: None, i_in_a: 10f64.powf(i_in), v_out_v: v_out, supply_v: v_out + 2.0, t_amb_k: 320.0 };
             let mut sys = CircuitSystem::new(&net, op);
             let mut x = net.start_point_for_tests(&sys);
             for k in 0..net.n_nodes {

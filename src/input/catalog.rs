@@ -31,6 +31,7 @@
 //! | resistor `tolerance` | 0.001 % to 20 % |
 //! | resistor `tcr` | 0 to 5000 ppm/K |
 //! | resistor `min_value`, `max_value` | 1 mΩ to 1 TΩ (defaults 1 Ω and 10 MΩ: the range general-purpose film chips are made in, common practice, no source); `max_value` above `min_value` |
+//! | resistor `power_rating` | 1 mW to 100 W (optional; default 0.1 W, a 0603 chip) |
 
 use std::collections::HashMap;
 
@@ -105,6 +106,7 @@ const COST: Field = Field::new("a unit cost", D::Number, 0.0, 1e4);
 const TOLERANCE: Field = Field::new("a resistor tolerance", D::Fraction, 1e-5, 0.2);
 const RESISTOR_VALUE: Field = Field::new("a resistor value", D::Resistance, 1e-3, 1e12);
 const TCR: Field = Field::new("a resistor TCR", D::TempCoefficient, 0.0, 5e-3);
+const POWER_RATING: Field = Field::new("a resistor power rating", D::Power, 1e-3, 100.0);
 
 /// Load the embedded default catalog.
 pub fn load_default_catalog() -> Result<Catalog, InputError> {
@@ -282,6 +284,7 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
             tolerance: cx.qty(&p("tolerance"), &r.tolerance, &TOLERANCE)?,
             tcr_per_k: cx.qty(&p("tcr"), &r.tcr, &TCR)?,
             unit_cost: cx.qty(&p("unit_cost"), &r.unit_cost, &COST)?,
+            power_rating_w: cx.opt_qty(&p("power_rating"), &r.power_rating, &POWER_RATING)?,
             provenance: cx.non_empty(&p("provenance"), &r.provenance)?,
         });
     }
@@ -399,17 +402,21 @@ pub fn catalog_to_yaml(c: &Catalog) -> String {
         .resistors
         .iter()
         .map(|r| {
-            map(vec![
+            let mut e = vec![
                 ("id", s(&r.id)),
                 ("summary", s(&r.summary)),
                 ("series", s(r.series.as_str())),
                 ("tolerance", num(r.tolerance)),
                 ("tcr", num(r.tcr_per_k)),
                 ("unit_cost", num(r.unit_cost)),
-                ("provenance", s(&r.provenance)),
                 ("min_value", num(r.min_ohm)),
                 ("max_value", num(r.max_ohm)),
-            ])
+            ];
+            if let Some(w) = r.power_rating_w {
+                e.push(("power_rating", num(w)));
+            }
+            e.push(("provenance", s(&r.provenance)));
+            map(e)
         })
         .collect();
     let doc = map(vec![

@@ -179,6 +179,8 @@ pub struct RawResistor {
     pub tolerance: RawQty,
     pub tcr: RawQty,
     pub unit_cost: RawQty,
+    #[serde(default)]
+    pub power_rating: Option<RawQty>,
     pub provenance: String,
     /// Smallest value made in this class (default 1 Ω).
     pub min_value: Option<RawQty>,
@@ -195,6 +197,29 @@ pub struct RawRange {
     pub min: RawQty,
     pub max: RawQty,
 }
+
+/// A quantity or a `{min, max}` range (a rail voltage with its tolerance).
+#[derive(Debug, Deserialize)]
+#[serde(
+    untagged,
+    expecting = "a voltage such as `12 V`, or a range `{min: 11.4 V, max: 12.6 V}`"
+)]
+pub enum RawQtyOrRange {
+    Range(RawRange),
+    Qty(RawQty),
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a programming section: a mapping `{rail: ..., output_current: ...}`"
+)]
+pub struct RawProgram {
+    pub rail: RawQtyOrRange,
+    pub output_current: RawQty,
+}
+
+any_case_enum!(RawAccuracyOf { Ratio => "ratio", Output => "output" });
 
 any_case_enum!(RawKind { Sink => "sink", Source => "source" });
 
@@ -215,7 +240,14 @@ pub struct RawRequirement {
     pub name: String,
     pub kind: RawKind,
     pub supply: RawQty,
-    pub input_current: RawRange,
+    #[serde(default)]
+    pub input_current: Option<RawRange>,
+    #[serde(default)]
+    pub program: Option<RawProgram>,
+    #[serde(default)]
+    pub accuracy_of: Option<RawAccuracyOf>,
+    #[serde(default)]
+    pub max_tempco: Option<RawQty>,
     #[serde(default)]
     pub ratio: Option<RawQty>,
     pub output_voltage: RawRange,

@@ -5,7 +5,11 @@
 //! | field | range |
 //! |---|---|
 //! | `supply` | 0.5 V to 1000 V |
-//! | `input_current.min/max` | 1 pA to 1 A, both > 0, min <= max |
+//! | `input_current.min/max` | 1 pA to 1 A, both > 0, min <= max (absent with `program`) |
+//! | `program.rail` (or `.min/.max`) | 0.1 V to 1000 V, at most `supply` |
+//! | `program.output_current` | 1 pA to 1 A |
+//! | `accuracy_of` | `ratio` or `output` (default `output` with `program`, else `ratio`) |
+//! | `max_tempco` | 0.01 ppm/K to 100000 ppm/K |
 //! | `ratio` | 0.001 to 1000 (default 1) |
 //! | `output_voltage.min/max` | 0 V to 1000 V, min <= max, max < `supply` |
 //! | `ambient.min/max` | -60 °C to 200 °C, min <= max |
@@ -26,10 +30,13 @@
 
 use serde_yaml::{Mapping, Value};
 
-use super::raw::{RawKind, RawLoad, RawNoiseLimit, RawRange, RawRequirement};
+use super::raw::{
+    RawAccuracyOf, RawKind, RawLoad, RawNoiseLimit, RawQtyOrRange, RawRange, RawRequirement,
+};
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
-    Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Range, Requirement,
+    AccuracyOf, Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Program,
+    Range, Requirement,
     Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V,
 };
 use crate::units::{Dimension as D, Field};
@@ -38,7 +45,19 @@ use crate::units::{Dimension as D, Field};
 pub const MAX_QUANTITY: u32 = 1_000_000;
 
 /// Every quantity field of a requirement with its plausible range.
-pub const REQUIREMENT_FIELDS: [(&str, Field); 15] = [
+pub const REQUIREMENT_FIELDS: [(&str, Field); 18] = [
+    (
+        "program.rail",
+        Field::new("a rail voltage", D::Voltage, 0.1, 1000.0),
+    ),
+    (
+        "program.output_current",
+        Field::new("an output current", D::Current, 1e-12, 1.0),
+    ),
+    (
+        "max_tempco",
+        Field::new("a temperature coefficient", D::TempCoefficient, 1e-8, 0.1),
+    ),
     (
         "supply",
         Field::new("a supply voltage", D::Voltage, 0.5, 1000.0),
@@ -135,7 +154,66 @@ pub(super) fn validate_requirement(
 
     let name = cx.non_empty("name", &raw.name)?;
     let supply_v = q("supply", &raw.supply)?;
-    let input_current_a = range("input_current", &raw.input_current)?;
+    let ratio = cx.opt_qty("ratio", &raw.ratio, rf("ratio"))?.unwrap_or(1.0);
+    let (input_current_a, program) = match (&raw.input_current, &raw.program) {
+        (Some(_), Some(_)) => {
+            return Err(cx.invalid(
+                "input_current",
+                "both `input_current` and `program` are given",
+                "one of them: a forced input current, or a programming resistor's rail and output current",
+            ))
+        }
+        (None, None) => {
+            return Err(cx.invalid(
+                "name",
+                "neither `input_current` nor `program` is given",
+                "`input_current: {min, max}` or `program: {rail, output_current}`",
+            ))
+        }
+        (Some(r), None) => (range("input_current", r)?, None),
+        (None, Some(p)) => {
+            let rail_v = match &p.rail {
+                RawQtyOrRange::Qty(v) => {
+                    let v = cx.qty("program.rail", v, rf("program.rail"))?;
+                    Range { min: v, max: v }
+                }
+                RawQtyOrRange::Range(r) => range("program.rail", r)?,
+            };
+            if rail_v.max > supply_v {
+                return Err(cx.invalid(
+                    "program.rail",
+                    "the programming rail is above the supply",
+                    "a rail at or below the supply (both measured from the mirror rail)",
+                ));
+            }
+            let out = q("program.output_current", &p.output_current)?;
+            let i_in = out / ratio;
+            (
+                Range {
+                    min: i_in,
+                    max: i_in,
+                },
+                Some(Program {
+                    rail_v,
+                    output_current_a: out,
+                }),
+            )
+        }
+    };
+    let accuracy_of = match raw.accuracy_of {
+        Some(RawAccuracyOf::Ratio) => AccuracyOf::Ratio,
+        Some(RawAccuracyOf::Output) => AccuracyOf::Output,
+        None if program.is_some() => AccuracyOf::Output,
+        None => AccuracyOf::Ratio,
+    };
+    if accuracy_of == AccuracyOf::Output && program.is_none() {
+        return Err(cx.invalid(
+            "accuracy_of",
+            "`accuracy_of: output` needs a programming resistor",
+            "`ratio` with a forced `input_current`, or a `program` section",
+        ));
+    }
+    let max_tempco_per_k = cx.opt_qty("max_tempco", &raw.max_tempco, rf("max_tempco"))?;
     if input_current_a.min <= 0.0 {
         return Err(cx.invalid(
             "input_current.min",
@@ -158,7 +236,6 @@ pub(super) fn validate_requirement(
     let ambient_k = range("ambient", &raw.ambient)?;
     let accuracy = q("accuracy", &raw.accuracy)?;
     let opt = |f: &str, r: &Option<_>| cx.opt_qty(f, r, rf(f));
-    let ratio = opt("ratio", &raw.ratio)?.unwrap_or(1.0);
     let confidence_sigma = opt("confidence_sigma", &raw.confidence_sigma)?.unwrap_or(3.0);
     let min_yield = opt("min_yield", &raw.min_yield)?;
     let min_output_resistance_ohm = opt("min_output_resistance", &raw.min_output_resistance)?;
@@ -279,6 +356,9 @@ pub(super) fn validate_requirement(
         kind,
         supply_v,
         input_current_a,
+        program,
+        accuracy_of,
+        max_tempco_per_k,
         ratio,
         output_voltage_v,
         ambient_k,
@@ -327,7 +407,19 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
     put("name", s(&r.name));
     put("kind", s(r.kind.as_str()));
     put("supply", num(r.supply_v));
-    put("input_current", range(&r.input_current_a, false));
+    match &r.program {
+        Some(p) => {
+            let mut pm = Mapping::new();
+            pm.insert(s("rail"), range(&p.rail_v, false));
+            pm.insert(s("output_current"), num(p.output_current_a));
+            put("program", Value::Mapping(pm));
+        }
+        None => put("input_current", range(&r.input_current_a, false)),
+    }
+    put("accuracy_of", s(r.accuracy_of.as_str()));
+    if let Some(t) = r.max_tempco_per_k {
+        put("max_tempco", num(t));
+    }
     put("ratio", num(r.ratio));
     put("output_voltage", range(&r.output_voltage_v, false));
     put("ambient", range(&r.ambient_k, true));

@@ -15,9 +15,13 @@ mod transistor;
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel, MAX_COPIES};
 pub use requirement::{
-    Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Range, Requirement, DEFAULT_MIN_VCE_V,
+    AccuracyOf, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Program, Range, Requirement,
+    DEFAULT_MIN_VCE_V,
 };
-pub use resistor::{ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, LEAKAGE_CAUTION_OHM};
+pub use resistor::{
+    ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, DEFAULT_POWER_RATING_W,
+    LEAKAGE_CAUTION_OHM,
+};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
 };

@@ -72,13 +72,57 @@ impl Filters {
     }
 }
 
+/// What `accuracy` limits: the ratio `I_out / (n I_in)` (a forced input current) or the
+/// absolute output current against the wanted one (a programming resistor).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
+pub enum AccuracyOf {
+    #[default]
+    Ratio,
+    Output,
+}
+
+impl AccuracyOf {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            AccuracyOf::Ratio => "ratio",
+            AccuracyOf::Output => "output",
+        }
+    }
+}
+
+/// A programming resistor R_ref from a rail to the mirror's input node: the input current
+/// is `(V_rail - V_in) / R_ref`, solved with the circuit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Program {
+    /// The rail R_ref hangs from, volts from the mirror rail (a range: its tolerance).
+    pub rail_v: Range,
+    /// The wanted output current, amperes.
+    pub output_current_a: f64,
+}
+
+impl Program {
+    /// The nominal rail: the middle of its range.
+    pub fn rail_nominal_v(&self) -> f64 {
+        0.5 * (self.rail_v.min + self.rail_v.max)
+    }
+}
+
 #[derive(Debug, Clone, PartialEq)]
 pub struct Requirement {
     pub name: String,
     pub kind: MirrorKind,
     /// Magnitude of the voltage from the mirror rail to the opposite rail.
     pub supply_v: f64,
+    /// The forced input current range; with `program` the nominal input current
+    /// `output_current / ratio` (min = max), used for sizing only.
     pub input_current_a: Range,
+    /// The programming resistor's rail and the wanted output current, when the mirror is
+    /// set by a resistor instead of a forced current.
+    pub program: Option<Program>,
+    /// What `accuracy` limits (default: `output` with `program`, `ratio` without).
+    pub accuracy_of: AccuracyOf,
+    /// Largest allowed |output temperature coefficient|, per kelvin.
+    pub max_tempco_per_k: Option<f64>,
     /// Intended I_out / I_in (1 unless stated).
     pub ratio: f64,
     /// Output voltage magnitude measured from the mirror rail.

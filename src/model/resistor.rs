@@ -181,6 +181,9 @@ pub struct ResistorClass {
     /// Temperature coefficient, per kelvin (100 ppm/K = 1e-4).
     pub tcr_per_k: f64,
     pub unit_cost: f64,
+    /// Power rating at 70 °C, watts; `None` in the catalog means
+    /// `DEFAULT_POWER_RATING_W`.
+    pub power_rating_w: Option<f64>,
     pub provenance: String,
     /// Smallest value the class is made in, ohms (catalog `min_value`, default
     /// [`DEFAULT_MIN_OHM`]).
@@ -203,6 +206,24 @@ pub const DEFAULT_MAX_OHM: f64 = 10e6;
 /// residue and moisture on the board becomes comparable to the resistor (common
 /// practice, no source).
 pub const LEAKAGE_CAUTION_OHM: f64 = 10e6;
+
+/// The rating assumed when a resistor class gives none: a 0603 chip resistor's 0.1 W
+/// (common practice, no source).
+pub const DEFAULT_POWER_RATING_W: f64 = 0.1;
+
+impl ResistorClass {
+    /// The class's power rating, or the chip-resistor default.
+    pub fn power_rating(&self) -> f64 {
+        self.power_rating_w.unwrap_or(DEFAULT_POWER_RATING_W)
+    }
+
+    /// The rating at ambient `t_amb_k`: full to 70 °C, derated linearly to zero at
+    /// 155 °C, the usual chip-resistor curve (common practice, no source).
+    pub fn power_rating_at(&self, t_amb_k: f64) -> f64 {
+        let t_c = t_amb_k - 273.15;
+        self.power_rating() * ((155.0 - t_c) / 85.0).clamp(0.0, 1.0)
+    }
+}
 
 #[cfg(test)]
 mod tests {

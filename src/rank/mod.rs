@@ -383,6 +383,8 @@ pub fn cheaper_top(
                 re1_ohm: s.re1_ohm,
                 re2_ohm: s.re2_ohm,
                 resistor: s.resistor.clone(),
+                r_ref_ohm: (s.r_ref_ohm > 0.0).then_some(s.r_ref_ohm),
+                r_ref_resistor: s.r_ref_resistor.clone(),
                 cost,
                 failed_check: *c,
             }),

@@ -79,10 +79,19 @@ fn tie_break(a: &DesignSpec, b: &DesignSpec) -> Ordering {
         .then_with(|| a.resistor.cmp(&b.resistor))
         .then_with(|| a.re1_ohm.total_cmp(&b.re1_ohm))
         .then_with(|| a.re2_ohm.total_cmp(&b.re2_ohm))
+        .then_with(|| a.r_ref_resistor.cmp(&b.r_ref_resistor))
+        .then_with(|| a.r_ref_ohm.total_cmp(&b.r_ref_ohm))
 }
 
-/// Designs that differ only in resistor value: topology, pair, helper, resistor class.
-pub type FamilyKey = (Topology, String, Option<String>, Option<String>);
+/// Designs that differ only in resistor values: topology, pair, helper, resistor class
+/// and R_ref's resistor class.
+pub type FamilyKey = (
+    Topology,
+    String,
+    Option<String>,
+    Option<String>,
+    Option<String>,
+);
 
 pub fn family(s: &DesignSpec) -> FamilyKey {
     (
@@ -90,6 +99,7 @@ pub fn family(s: &DesignSpec) -> FamilyKey {
         s.pair.clone(),
         s.helper.clone(),
         s.resistor.clone(),
+        s.r_ref_resistor.clone(),
     )
 }
 

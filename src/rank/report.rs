@@ -75,6 +75,15 @@ pub struct CandidateRow {
     pub noise_a_per_rthz: f64,
     /// The output noise at the worst corner by source.
     pub noise: Option<NoiseReport>,
+    /// The programming resistor (null when the input current is forced).
+    pub r_ref_ohm: Option<f64>,
+    pub r_ref_resistor: Option<String>,
+    /// R_ref's power at the worst corner, watts (null without R_ref).
+    pub r_ref_power_w: Option<f64>,
+    /// The output's temperature coefficient, ppm/K, averaged over the ambient range.
+    pub tempco_ppm_per_k: f64,
+    /// The steepest slope between neighbouring ambient points, ppm/K (signed).
+    pub tempco_worst_ppm_per_k: f64,
     pub governing_check: Option<CheckName>,
     pub pareto: bool,
     pub checks: Vec<CheckRow>,
@@ -174,6 +183,11 @@ impl CandidateRow {
             v_in_max: f.v_in_max_v,
             noise_a_per_rthz: f.noise_a_per_rthz,
             noise: ev.noise.as_ref().map(NoiseReport::from),
+            r_ref_ohm: (spec.r_ref_ohm > 0.0).then_some(spec.r_ref_ohm),
+            r_ref_resistor: spec.r_ref_resistor.clone(),
+            r_ref_power_w: (spec.r_ref_ohm > 0.0).then_some(f.r_ref_power_w),
+            tempco_ppm_per_k: f.tempco_per_k * 1e6,
+            tempco_worst_ppm_per_k: f.tempco_worst_per_k * 1e6,
             governing_check: ev.governing().map(|c| c.name),
             pareto,
             checks: ev.checks.iter().map(CheckRow::from).collect(),
@@ -204,7 +218,11 @@ impl CandidateRow {
 /// One corner of the corner table.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CornerLine {
+    /// The input current: forced, or solved through R_ref.
     pub i_in: f64,
+    /// The programming rail, volts (programmed designs only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rail: Option<f64>,
     pub v_out: f64,
     pub t_amb_c: f64,
     pub i_out: f64,
@@ -218,7 +236,8 @@ pub struct CornerLine {
 impl From<&CornerRow> for CornerLine {
     fn from(r: &CornerRow) -> Self {
         CornerLine {
-            i_in: r.corner.i_in_a,
+            i_in: r.i_in_a,
+            rail: r.corner.rail_v,
             v_out: r.corner.v_out_v,
             t_amb_c: r.corner.t_amb_k - ZERO_CELSIUS_K,
             i_out: r.i_out_a,
@@ -241,6 +260,9 @@ pub struct BudgetItem {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct BudgetReport {
     pub i_in: f64,
+    /// The programming rail at the worst corner, volts (programmed designs only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rail: Option<f64>,
     pub v_out: f64,
     pub t_amb_c: f64,
     /// Signed systematic error by cause; the lines add up to `systematic_total`.
@@ -255,6 +277,7 @@ impl From<&ErrorBudget> for BudgetReport {
     fn from(b: &ErrorBudget) -> Self {
         BudgetReport {
             i_in: b.corner.i_in_a,
+            rail: b.corner.rail_v,
             v_out: b.corner.v_out_v,
             t_amb_c: b.corner.t_amb_k - ZERO_CELSIUS_K,
             systematic: b
@@ -331,6 +354,11 @@ pub enum Caution {
         who: String,
         fraction: f64,
     },
+    /// The programming resistor runs above half its derated power rating.
+    RefPower {
+        who: String,
+        fraction: f64,
+    },
     /// Transistors with a forward-biased collector junction at the lowest output voltage.
     SoftSaturation {
         who: String,
@@ -367,6 +395,11 @@ impl fmt::Display for Caution {
                 "{who}: a transistor sees {:.0} % of its derated VCEO ({:.0} % of the rating); allow for supply transients",
                 fraction * 100.0,
                 fraction * VCEO_DERATING * 100.0
+            ),
+            Caution::RefPower { who, fraction } => write!(
+                f,
+                "{who}: R_ref dissipates {:.0} % of its class's derated power rating at the worst corner; choose a larger case or a higher-rated class, and check the datasheet's derating curve",
+                fraction * 100.0
             ),
             Caution::SoftSaturation { who, transistors } => write!(
                 f,
@@ -425,6 +458,16 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
                 who: who.clone(),
                 ohms,
             });
+        }
+        if let Some(c) = r.check(CheckName::RefPower) {
+            // Half the rating: the usual resistor derating (common practice, no source).
+            let fraction = c.value / c.limit;
+            if fraction > 0.5 {
+                out.push(Caution::RefPower {
+                    who: who.clone(),
+                    fraction,
+                });
+            }
         }
         if let Some(c) = r.check(CheckName::Vceo) {
             let fraction = c.value / c.limit;
@@ -572,6 +615,9 @@ pub struct NearMiss {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<String>,
+    /// R_ref (null when forced, or not yet sized: screened out before any solve).
+    pub r_ref_ohm: Option<f64>,
+    pub r_ref_resistor: Option<String>,
     pub cost: f64,
     pub failed_check: CheckName,
 }

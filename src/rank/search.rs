@@ -27,7 +27,10 @@ use rayon::prelude::*;
 
 use super::order::{family, FamilyKey};
 use super::space::Group;
-use crate::check::{resolve, CheckName, Depth, DesignSpec, Evaluation, Evaluator, MonteCarlo};
+use crate::check::{
+    choose_r_ref, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
+    MonteCarlo, ResolvedDesign,
+};
 use crate::model::{Catalog, Requirement};
 
 /// Reports search progress (a progress bar in the CLI). Called from worker threads.
@@ -286,12 +289,15 @@ fn verify_survivors(
             }
             let level: Vec<(usize, DesignSpec, Option<Outcome>)> = bucket[i..end]
                 .par_iter()
-                .map(|(k, spec, _)| {
-                    let o = resolve(catalog, spec).ok().map(|d| {
-                        outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc))
-                    });
-                    (*k, spec.clone(), o)
-                })
+                .map(
+                    |(k, spec, _)| match resolve_sized(req, catalog, spec, solves) {
+                        Ok(d) => {
+                            let ev = Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc);
+                            (*k, d.spec.clone(), Some(outcome(ev)))
+                        }
+                        Err(_) => (*k, spec.clone(), None),
+                    },
+                )
                 .collect();
             progress.advance((end - i) as u64);
             for (_, spec, o) in &level {
@@ -335,12 +341,15 @@ fn verify_by_bound(
     let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
         batch
             .par_iter()
-            .map(|(k, spec, _)| {
-                let o = resolve(catalog, spec)
-                    .ok()
-                    .map(|d| outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc)));
-                (*k, spec.clone(), o)
-            })
+            .map(
+                |(k, spec, _)| match resolve_sized(req, catalog, spec, solves) {
+                    Ok(d) => {
+                        let ev = Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc);
+                        (*k, d.spec.clone(), Some(outcome(ev)))
+                    }
+                    Err(_) => (*k, spec.clone(), None),
+                },
+            )
             .collect()
     };
     let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
@@ -371,7 +380,7 @@ fn verify_by_bound(
     let bounds: Vec<f64> = rest
         .par_iter()
         .map(|(_, spec, cost)| {
-            let b = resolve(catalog, spec)
+            let b = resolve_sized(req, catalog, spec, solves)
                 .ok()
                 .and_then(|d| Evaluator::new(req, &d, solves).probe_bound())
                 .unwrap_or(0.0);
@@ -474,7 +483,7 @@ fn judge_all(
     specs
         .par_iter()
         .filter_map(|spec| {
-            let d = resolve(catalog, spec).ok()?;
+            let d = resolve_sized(req, catalog, spec, solves).ok()?;
             let ev = Evaluator::new(req, &d, solves).evaluate(depth, mc);
             Some((d.spec.clone(), outcome(ev)))
         })
@@ -510,7 +519,7 @@ fn screen_group(
         return survivors(0..1);
     }
     let probe = |i: usize, f: &dyn Fn(&Evaluator) -> bool| -> bool {
-        match resolve(catalog, &g.specs[i]) {
+        match resolve_sized(req, catalog, &g.specs[i], solves) {
             Ok(d) => f(&Evaluator::new(req, &d, solves)),
             Err(_) => false,
         }
@@ -558,6 +567,22 @@ fn reject(
             (spec, Outcome::Rejected(check))
         })
         .collect()
+}
+
+/// Resolve a candidate, first sizing its programming resistor from the solved circuit
+/// when it still has to be chosen (a programmed requirement; `check::choose_r_ref`).
+/// Candidates rejected by a screen without being solved keep R_ref unsized.
+fn resolve_sized<'c>(
+    req: &Requirement,
+    catalog: &'c Catalog,
+    spec: &DesignSpec,
+    solves: &AtomicU64,
+) -> Result<ResolvedDesign<'c>, DesignError> {
+    if spec.r_ref_pick.is_some() {
+        resolve(catalog, &choose_r_ref(req, catalog, spec, solves))
+    } else {
+        resolve(catalog, spec)
+    }
 }
 
 /// Length of the prefix of `0..n` on which `pred` holds, `pred` being true on a prefix

@@ -28,7 +28,9 @@
 //!   one, and to resistor classes only if it names one, so "allow: [npn-dual-matched]"
 //!   does not forbid every resistor.
 
-use crate::check::{design_current, helper_count, helpers_fit_in_spares, DesignSpec, ROOM_K};
+use crate::check::{
+    design_current, helper_count, helpers_fit_in_spares, DesignSpec, RefPick, ROOM_K,
+};
 use crate::model::{
     Catalog, Filters, Requirement, ResistorClass, Topology, TransistorClass, ALL_TOPOLOGIES,
 };
@@ -111,6 +113,9 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                 re1_ohm: re1,
                 re2_ohm: re2,
                 resistor: r.map(|r| r.id.clone()),
+                r_ref_ohm: 0.0,
+                r_ref_resistor: None,
+                r_ref_pick: None,
             };
             if topology == Topology::Widlar {
                 for r in &resistors {
@@ -185,7 +190,36 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
             }
         }
     }
+    if req.program.is_some() {
+        groups = with_programming_resistor(groups, &resistors);
+    }
     groups
+}
+
+/// A programmed requirement: every group is offered with R_ref from each allowed
+/// resistor class, at the standard value below and the one above the exact value (chosen
+/// per design from its solved input voltage when it is first solved, `check::choose_r_ref`).
+/// The class of R_ref may differ from the emitter resistors'. Each (class, side) is a
+/// group of its own, so a group still shares its cost and its monotone structure in RE.
+fn with_programming_resistor(groups: Vec<Group>, resistors: &[&ResistorClass]) -> Vec<Group> {
+    let mut out = Vec::with_capacity(groups.len() * resistors.len() * 2);
+    for g in groups {
+        for r in resistors {
+            for pick in [RefPick::Below, RefPick::Above] {
+                let specs = g
+                    .specs
+                    .iter()
+                    .map(|s| DesignSpec {
+                        r_ref_resistor: Some(r.id.clone()),
+                        r_ref_pick: Some(pick),
+                        ..s.clone()
+                    })
+                    .collect();
+                out.push(Group { specs, ..g.clone() });
+            }
+        }
+    }
+    out
 }
 
 /// RE2 of a Widlar for ratio n < 1: `I_out*RE2 = V_T ln(I_in/I_out)` at the design current

@@ -59,6 +59,9 @@ pub fn pnp_dual() -> TransistorClass {
 
 pub fn requirement() -> Requirement {
     Requirement {
+        program: None,
+        accuracy_of: crate::model::AccuracyOf::Ratio,
+        max_tempco_per_k: None,
         name: "test tail sink".into(),
         kind: MirrorKind::Sink,
         supply_v: 12.0,

@@ -21,6 +21,8 @@ use crate::units::format_prefixed;
 struct Column {
     csv: &'static str,
     title: &'static str,
+    /// Shown in tables only when a row has a programming resistor (always in CSV).
+    programmed_only: bool,
     csv_value: fn(&CandidateRow) -> String,
     table_value: fn(&CandidateRow) -> String,
 }
@@ -29,126 +31,181 @@ const COLUMNS: &[Column] = &[
     Column {
         csv: "rank",
         title: "#",
+        programmed_only: false,
         csv_value: |r| r.rank.map_or(String::new(), |k| k.to_string()),
         table_value: |r| r.rank.map_or("—".into(), |k| k.to_string()),
     },
     Column {
         csv: "topology",
         title: "topology",
+        programmed_only: false,
         csv_value: |r| r.topology.to_string(),
         table_value: |r| r.topology.to_string(),
     },
     Column {
         csv: "part",
         title: "part",
+        programmed_only: false,
         csv_value: |r| r.part.clone(),
         table_value: |r| r.part.clone(),
     },
     Column {
         csv: "helper",
         title: "helper",
+        programmed_only: false,
         csv_value: |r| r.helper.clone().unwrap_or_default(),
         table_value: |r| r.helper.clone().unwrap_or_else(|| "—".into()),
     },
     Column {
         csv: "re1_ohm",
         title: "RE1",
+        programmed_only: false,
         csv_value: |r| num(r.re1_ohm),
         table_value: |r| ohms(r.re1_ohm),
     },
     Column {
         csv: "re2_ohm",
         title: "RE2",
+        programmed_only: false,
         csv_value: |r| num(r.re2_ohm),
         table_value: |r| ohms(r.re2_ohm),
     },
     Column {
         csv: "resistor",
         title: "resistor",
+        programmed_only: false,
         csv_value: |r| r.resistor.clone().unwrap_or_default(),
         table_value: |r| r.resistor.clone().unwrap_or_else(|| "—".into()),
     },
     Column {
         csv: "cost",
         title: "cost",
+        programmed_only: false,
         csv_value: |r| num(r.cost),
         table_value: |r| format!("{:.3}", r.cost),
     },
     Column {
         csv: "ratio_achieved",
         title: "ratio",
+        programmed_only: false,
         csv_value: |r| num(r.ratio_achieved),
         table_value: |r| fixed(r.ratio_achieved, 4),
     },
     Column {
         csv: "error_systematic",
         title: "sys. error",
+        programmed_only: false,
         csv_value: |r| num(r.error_systematic),
         table_value: |r| pct(r.error_systematic),
     },
     Column {
         csv: "error_random_sigma",
         title: "random 1σ",
+        programmed_only: false,
         csv_value: |r| num(r.error_random_sigma),
         table_value: |r| pct(r.error_random_sigma),
     },
     Column {
         csv: "error_total",
         title: "total error",
+        programmed_only: false,
         csv_value: |r| num(r.error_total),
         table_value: |r| pct(r.error_total),
     },
     Column {
         csv: "yield",
         title: "yield",
+        programmed_only: false,
         csv_value: |r| num(r.yield_fraction),
         table_value: |r| r.yield_text(),
     },
     Column {
         csv: "r_out_min_ohm",
         title: "r_out min",
+        programmed_only: false,
         csv_value: |r| num(r.r_out_min_ohm),
         table_value: |r| ohms(r.r_out_min_ohm),
     },
     Column {
         csv: "compliance_v",
         title: "compliance",
+        programmed_only: false,
         csv_value: |r| num(r.compliance_v),
         table_value: |r| quantity(r.compliance_v, "V"),
     },
     Column {
         csv: "v_in_max_v",
         title: "V_in max",
+        programmed_only: false,
         csv_value: |r| num(r.v_in_max),
         table_value: |r| quantity(r.v_in_max, "V"),
     },
     Column {
+        csv: "r_ref_ohm",
+        title: "R_ref",
+        programmed_only: true,
+        csv_value: |r| r.r_ref_ohm.map_or(String::new(), num),
+        table_value: |r| r.r_ref_ohm.map_or("—".into(), ohms),
+    },
+    Column {
+        csv: "r_ref_resistor",
+        title: "R_ref class",
+        programmed_only: true,
+        csv_value: |r| r.r_ref_resistor.clone().unwrap_or_default(),
+        table_value: |r| r.r_ref_resistor.clone().unwrap_or_else(|| "—".into()),
+    },
+    Column {
+        csv: "r_ref_power_w",
+        title: "P(R_ref)",
+        programmed_only: true,
+        csv_value: |r| r.r_ref_power_w.map_or(String::new(), num),
+        table_value: |r| r.r_ref_power_w.map_or("—".into(), |p| quantity(p, "W")),
+    },
+    Column {
+        csv: "tempco_ppm_per_k",
+        title: "tempco",
+        programmed_only: false,
+        csv_value: |r| num(r.tempco_ppm_per_k),
+        table_value: |r| {
+            if r.tempco_ppm_per_k.is_finite() {
+                format!("{:+.0} ppm/K", r.tempco_ppm_per_k)
+            } else {
+                "—".into()
+            }
+        },
+    },
+    Column {
         csv: "noise_a_per_rthz",
         title: "noise",
+        programmed_only: false,
         csv_value: |r| num(r.noise_a_per_rthz),
         table_value: |r| quantity(r.noise_a_per_rthz, "A/√Hz"),
     },
     Column {
         csv: "noise_dominant",
         title: "noise from",
+        programmed_only: false,
         csv_value: |r| dominant(r).unwrap_or_default(),
         table_value: |r| dominant(r).unwrap_or_else(|| "—".into()),
     },
     Column {
         csv: "governing_check",
         title: "governing",
+        programmed_only: false,
         csv_value: |r| r.governing_check.map_or(String::new(), |c| c.to_string()),
         table_value: |r| r.governing_check.map_or("—".into(), |c| c.to_string()),
     },
     Column {
         csv: "governing_margin",
         title: "margin",
+        programmed_only: false,
         csv_value: |r| num(r.governing_margin()),
         table_value: |r| pct(r.governing_margin()),
     },
     Column {
         csv: "pareto",
         title: "Pareto",
+        programmed_only: false,
         csv_value: |r| r.pareto.to_string(),
         table_value: |r| if r.pareto { "*".into() } else { String::new() },
     },
@@ -215,6 +272,7 @@ fn check_value(name: CheckName, x: f64) -> String {
         CheckName::Accuracy | CheckName::Yield => pct(x),
         CheckName::Cost => fixed(x, 3),
         _ if !x.is_finite() => "—".into(),
+        CheckName::Tempco => format!("{:.0} ppm/K", x * 1e6),
         n => format_prefixed(x, n.unit()),
     }
 }
@@ -235,6 +293,9 @@ const NUMERIC: &[&str] = &[
     "compliance",
     "V_in max",
     "margin",
+    "R_ref",
+    "P(R_ref)",
+    "tempco",
     "saving",
     "cost saved",
     "margin given up",
@@ -260,6 +321,9 @@ fn design_cell(r: &CandidateRow) -> String {
             ohms(r.re1_ohm),
             ohms(r.re2_ohm)
         )),
+    }
+    if let (Some(v), Some(class)) = (r.r_ref_ohm, &r.r_ref_resistor) {
+        s = format!("{}, R_ref {} {class}", s.trim_end(), ohms(v));
     }
     s.trim_end().to_string()
 }
@@ -296,8 +360,13 @@ const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
 /// mark), the design in one cell, cost, total error, yield and the governing check with
 /// its margin. Cells wrap to keep the table within `style.width`.
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
+    let programmed = rows.iter().any(|r| r.r_ref_resistor.is_some());
     let cols: Vec<(&str, fn(&CandidateRow) -> String)> = if style.wide {
-        COLUMNS.iter().map(|c| (c.title, c.table_value)).collect()
+        COLUMNS
+            .iter()
+            .filter(|c| programmed || !c.programmed_only)
+            .map(|c| (c.title, c.table_value))
+            .collect()
     } else {
         NARROW.to_vec()
     };
@@ -352,23 +421,28 @@ fn checks_table(style: Style, checks: &[CheckRow]) -> Table {
 }
 
 fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
-    let mut t = new_table(
-        style,
-        &[
-            "I_in",
-            "V_out",
-            "ambient",
-            "I_out",
-            "error",
-            "random 1σ",
-            "r_out",
-            "V_in",
-            "T_j max",
-        ],
-    );
+    let programmed = corners.iter().any(|c| c.rail.is_some());
+    let mut header = vec!["I_in"];
+    if programmed {
+        header.push("rail");
+    }
+    header.extend([
+        "V_out",
+        "ambient",
+        "I_out",
+        "error",
+        "random 1σ",
+        "r_out",
+        "V_in",
+        "T_j max",
+    ]);
+    let mut t = new_table(style, &header);
     for c in corners {
-        t.add_row(vec![
-            quantity(c.i_in, "A"),
+        let mut row = vec![quantity(c.i_in, "A")];
+        if programmed {
+            row.push(c.rail.map_or("—".into(), |v| quantity(v, "V")));
+        }
+        row.extend([
             quantity(c.v_out, "V"),
             format!("{:.1} °C", c.t_amb_c),
             quantity(c.i_out, "A"),
@@ -378,6 +452,7 @@ fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
             quantity(c.v_in, "V"),
             format!("{:.1} °C", c.t_junction_max_c),
         ]);
+        t.add_row(row);
     }
     t
 }
@@ -484,6 +559,19 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         c.resistor.as_deref().unwrap_or("—"),
         c.cost
     )?;
+    if let (Some(r), Some(class)) = (c.r_ref_ohm, &c.r_ref_resistor) {
+        writeln!(
+            w,
+            "Programming resistor: R_ref {} ({class}), {} at the worst corner.",
+            ohms(r),
+            c.r_ref_power_w.map_or("—".into(), |p| quantity(p, "W")),
+        )?;
+    }
+    writeln!(
+        w,
+        "Output tempco: {:+.0} ppm/K averaged over the ambient range, {:+.0} ppm/K steepest.",
+        c.tempco_ppm_per_k, c.tempco_worst_ppm_per_k
+    )?;
     if c.yield_solved.is_finite() {
         writeln!(
             w,
@@ -503,10 +591,13 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         writeln!(w, "{}", corners_table(style, &e.corners))?;
     }
     if let Some(b) = &e.budget {
+        let input = match b.rail {
+            Some(v) => format!("rail {}", quantity(v, "V")),
+            None => format!("I_in {}", quantity(b.i_in, "A")),
+        };
         writeln!(
             w,
-            "Error budget at the worst corner (I_in {}, V_out {}, ambient {:.1} °C):",
-            quantity(b.i_in, "A"),
+            "Error budget at the worst corner ({input}, V_out {}, ambient {:.1} °C):",
             quantity(b.v_out, "V"),
             b.t_amb_c
         )?;
@@ -766,6 +857,11 @@ mod tests {
             v_in_max: 1.2,
             noise_a_per_rthz: 2.5e-12,
             noise: None,
+            r_ref_ohm: None,
+            r_ref_resistor: None,
+            r_ref_power_w: None,
+            tempco_ppm_per_k: 12.0,
+            tempco_worst_ppm_per_k: 15.0,
             governing_check: Some(CheckName::Accuracy),
             pareto: true,
             checks: vec![CheckRow {
@@ -791,7 +887,11 @@ mod tests {
         assert!(lines[0].ends_with(",governing_check,governing_margin,pareto,pass"));
         // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
         assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
-        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,0.0000000000025,,accuracy,0.5,true,true"));
+        // No programming resistor: its columns are empty; the tempco is there for every row.
+        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,,,,12,0.0000000000025,,accuracy,0.5,true,true"));
+        assert!(lines[0].contains(
+            ",v_in_max_v,r_ref_ohm,r_ref_resistor,r_ref_power_w,tempco_ppm_per_k,noise_a_per_rthz,"
+        ));
         assert_eq!(
             lines[0].split(',').count(),
             lines[1].replace("\"thick, 1 %\"", "x").split(',').count()
@@ -800,6 +900,7 @@ mod tests {
 
     #[test]
     fn table_uses_engineering_notation() {
+        // Every column (the default narrow table has no compliance column).
         let wide = Style {
             wide: true,
             ..Style::default()

@@ -45,12 +45,14 @@ fn array_class() -> TransistorClass {
 fn bench(c: &mut Criterion) {
     let class = array_class();
     let op = OperatingPoint {
+        rail_v: None,
         i_in_a: 1e-3,
         v_out_v: 5.0,
         supply_v: 12.0,
         t_amb_k: 300.15,
     };
     let mm = Mismatch {
+        dref: 0.0,
         dvbe_v: [0.5e-3, -0.3e-3],
         dbeta: [0.01, -0.01],
         dre1: 0.0,
@@ -66,6 +68,7 @@ fn bench(c: &mut Criterion) {
         for t in ALL_TOPOLOGIES {
             let re2 = if t == Topology::Widlar { 1000.0 } else { 0.0 };
             let design = Design {
+                r_ref: None,
                 topology: t,
                 pair: &class,
                 helper: None,

@@ -43,6 +43,7 @@ pub fn npn(bf: f64, vaf: Option<f64>) -> TransistorClass {
 
 pub fn design(topology: Topology, pair: &TransistorClass, re1: f64, re2: f64) -> Design<'_> {
     Design {
+        r_ref: None,
         topology,
         pair,
         helper: None,
@@ -55,6 +56,7 @@ pub fn design(topology: Topology, pair: &TransistorClass, re1: f64, re2: f64) ->
 pub fn op(i_in_a: f64, v_out_v: f64) -> OperatingPoint {
     OperatingPoint {
         i_in_a,
+        rail_v: None,
         v_out_v,
         supply_v: 30.0,
         t_amb_k: 300.15,

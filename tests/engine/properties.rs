@@ -65,6 +65,7 @@ fn cases() -> impl Strategy<Value = Case> {
                 re: re.min(2.0 / i_in),
                 per_package,
                 mismatch: Mismatch {
+                    dref: 0.0,
                     dvbe_v: [v1, v2],
                     dbeta: [b1, b2],
                     dre1: r,
@@ -98,6 +99,7 @@ fn run(c: &Case, heated_: bool) -> (Result<Solution, SolveFailure>, OperatingPoi
         ..design(c.topology, &cls, re1, re2)
     };
     let p = OperatingPoint {
+        rail_v: None,
         i_in_a: c.i_in,
         v_out_v: c.v_out,
         supply_v: c.v_out + 1.0,
@@ -216,6 +218,7 @@ proptest! {
         let pnp_cls = class("p", Polarity::Pnp, 5, params);
         let (re1, re2) = if c.topology == Topology::Widlar { (0.0, c.re.max(1.0)) } else { (c.re, c.re) };
         let p = OperatingPoint {
+            rail_v: None,
             i_in_a: c.i_in,
             v_out_v: c.v_out,
             supply_v: c.v_out + 1.0,

@@ -270,6 +270,7 @@ fn thermal_runaway_is_a_named_failure() {
     c.thermal.theta_mutual_k_per_w = 4000.0;
     let d = design(Topology::Simple, &c, 0.0, 0.0);
     let p = mirrorpick::circuit::OperatingPoint {
+        rail_v: None,
         i_in_a: 5e-3,
         v_out_v: 60.0,
         supply_v: 60.0,

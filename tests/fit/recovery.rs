@@ -183,6 +183,7 @@ fn simple_mirror_curves_meet_the_voltage_axis_at_minus_vaf() {
     assert_eq!(r.curves.len(), 3);
     let class = true_class(&truth);
     let design = Design {
+        r_ref: None,
         topology: Topology::Simple,
         pair: &class,
         helper: None,
@@ -201,6 +202,7 @@ fn simple_mirror_curves_meet_the_voltage_axis_at_minus_vaf() {
             c.i_in_a
         );
         let op = OperatingPoint {
+            rail_v: None,
             i_in_a: c.i_in_a,
             v_out_v: 5.0,
             supply_v: SUPPLY_V,

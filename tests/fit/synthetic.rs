@@ -77,6 +77,7 @@ pub fn measure_with(
 ) -> MeasurementSet {
     let class = true_class(t);
     let design = Design {
+        r_ref: None,
         topology,
         pair: &class,
         helper: Some(&class),
@@ -97,6 +98,7 @@ pub fn measure_with(
         for &i_in in currents {
             for &v in voltages {
                 let op = OperatingPoint {
+                    rail_v: None,
                     i_in_a: i_in,
                     v_out_v: v,
                     supply_v: SUPPLY_V,

@@ -127,7 +127,11 @@ fn json_and_table_show_the_same_rows() {
         let rank = row["rank"].as_u64().unwrap();
         let line = table
             .lines()
-            .find(|l| l.starts_with(&format!("│ {rank} ")))
+            .find(|l| {
+                // The rank column is right-aligned (`│   2 ┆`, `│ 1 * ┆`).
+                l.strip_prefix('│')
+                    .is_some_and(|x| x.trim_start().starts_with(&format!("{rank} ")))
+            })
             .unwrap_or_else(|| panic!("no table row {rank}"));
         assert!(line.contains(row["part"].as_str().unwrap()));
         assert!(line.contains(row["topology"].as_str().unwrap()));
@@ -192,6 +196,9 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
             re1_ohm: a.candidate.re1_ohm,
             re2_ohm: a.candidate.re2_ohm,
             resistor: a.candidate.resistor.clone(),
+            r_ref_ohm: a.candidate.r_ref_ohm.unwrap_or(0.0),
+            r_ref_resistor: a.candidate.r_ref_resistor.clone(),
+            r_ref_pick: None,
         };
         assert!(
             check_design(&req, &cat, &s, MC, false).unwrap().pass,
@@ -223,6 +230,9 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
             re1_ohm: m.re1_ohm,
             re2_ohm: m.re2_ohm,
             resistor: m.resistor.clone(),
+            r_ref_ohm: m.r_ref_ohm.unwrap_or(0.0),
+            r_ref_resistor: m.r_ref_resistor.clone(),
+            r_ref_pick: None,
         };
         let c = check_design(&req, &cat, &s, MC, false).unwrap();
         assert!(!c.candidate.check(m.failed_check).unwrap().pass);

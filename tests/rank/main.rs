@@ -3,6 +3,7 @@
 mod cli;
 mod consistency;
 mod facts;
+mod program;
 mod search;
 mod yield_verdict;
 
@@ -74,6 +75,7 @@ pub fn npn(id: &str, dpp: u32, bf: f64, vaf: Option<f64>, vbe_sigma: f64) -> Tra
 
 pub fn resistor(id: &str, series: Series, tolerance: f64) -> ResistorClass {
     ResistorClass {
+        power_rating_w: None,
         id: id.into(),
         summary: "test resistor".into(),
         series,
@@ -99,6 +101,9 @@ pub fn catalog(transistors: Vec<TransistorClass>, resistors: Vec<ResistorClass>)
 pub fn requirement(accuracy: f64) -> Requirement {
     let room = ZERO_CELSIUS_K + 25.0;
     Requirement {
+        program: None,
+        accuracy_of: mirrorpick::model::AccuracyOf::Ratio,
+        max_tempco_per_k: None,
         name: "test".into(),
         kind: MirrorKind::Sink,
         supply_v: 12.0,
@@ -138,5 +143,8 @@ pub fn spec(t: Topology, part: &str, re: f64, resistor: Option<&str>) -> DesignS
         re1_ohm: re,
         re2_ohm: re,
         resistor: resistor.map(Into::into),
+        r_ref_ohm: 0.0,
+        r_ref_resistor: None,
+        r_ref_pick: None,
     }
 }

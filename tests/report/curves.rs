@@ -16,6 +16,9 @@ fn catalog() -> Catalog {
 
 fn requirement() -> Requirement {
     Requirement {
+        program: None,
+        accuracy_of: mirrorpick::model::AccuracyOf::Ratio,
+        max_tempco_per_k: None,
         name: "curve test sink".into(),
         kind: MirrorKind::Sink,
         supply_v: 15.0,
@@ -51,6 +54,7 @@ fn design<'a>(c: &'a Catalog, t: Topology) -> Design<'a> {
     let pair = c.transistor("npn-dual-general").unwrap();
     let widlar = t == Topology::Widlar;
     Design {
+        r_ref: None,
         topology: t,
         pair,
         helper: c.transistor("npn-single-general"),
@@ -90,6 +94,7 @@ fn output_current_rises_with_output_voltage_in_the_active_region() {
                 .zip(&curve.i_out_a)
                 .map(|(&v, &i)| {
                     let op = OperatingPoint {
+                        rail_v: None,
                         i_in_a: curve.i_in_a,
                         v_out_v: v,
                         supply_v: req.supply_v,
@@ -145,6 +150,7 @@ fn simple_mirror_crosses_zero_error_at_the_solver_balance_voltage() {
         .expect("a simple mirror with finite VAF balances");
     // The same figure `solve` reports, straight from the engine.
     let op = OperatingPoint {
+        rail_v: None,
         i_in_a: req.input_current_a.max,
         v_out_v: 0.0,
         supply_v: req.supply_v,

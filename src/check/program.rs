@@ -1,0 +1,147 @@
+//! The programming resistor R_ref: its exact value from the solved circuit and the
+//! standard values a candidate takes.
+//!
+//! R_ref is chosen per design, not enumerated: the design is solved at 25 °C, the lowest
+//! output voltage, with the input current forced and corrected until the output is the
+//! wanted one; then `R_ref = (V_rail - V_in) / I_in` with the solved `V_in` (one V_BE plus
+//! the RE1 drop for a simple mirror, two V_BE for a Wilson or cascode: whatever the
+//! netlist gives). Each allowed resistor class offers the standard values just below and
+//! just above that exact value. Must not: print, or judge a design (that is `evaluate`).
+
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use super::corners::ROOM_K;
+use super::design::{resolve, DesignSpec, RefPick};
+use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveOptions};
+use crate::model::{Catalog, Requirement, ResistorClass};
+
+/// Output-current corrections of the forced input current (each removes most of the
+/// remaining error: the mirror's ratio barely depends on its current).
+const CORRECTIONS: usize = 3;
+
+/// The exact R_ref of `spec` for the requirement's wanted output at the nominal rail, or
+/// `None` when the requirement has no programming section, the design does not solve or
+/// the rail is below the solved input voltage.
+pub fn exact_r_ref(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    solves: &AtomicU64,
+) -> Option<f64> {
+    let p = req.program?;
+    let mut forced = spec.clone();
+    forced.r_ref_ohm = 0.0;
+    forced.r_ref_resistor = None;
+    forced.r_ref_pick = None;
+    let d = resolve(catalog, &forced).ok()?;
+    let net = Netlist::compile(
+        &Design {
+            topology: d.spec.topology,
+            pair: d.pair,
+            helper: d.helper,
+            re1_ohm: d.spec.re1_ohm,
+            re2_ohm: d.spec.re2_ohm,
+            re_tcr_per_k: d.resistor.map_or(0.0, |r| r.tcr_per_k),
+            r_ref: None,
+        },
+        &Mismatch::default(),
+    )
+    .ok()?;
+    let t_amb_k = ROOM_K.clamp(req.ambient_k.min, req.ambient_k.max);
+    let mut i_in = p.output_current_a / req.ratio;
+    let mut v_in = f64::NAN;
+    for _ in 0..CORRECTIONS {
+        let op = OperatingPoint {
+            i_in_a: i_in,
+            rail_v: None,
+            v_out_v: req.output_voltage_v.min,
+            supply_v: req.supply_v,
+            t_amb_k,
+        };
+        solves.fetch_add(1, Ordering::Relaxed);
+        let sol = net.solve(&op, &SolveOptions { self_heating: true }).ok()?;
+        v_in = sol.v_in_v;
+        if sol.i_out_a.is_nan() || sol.i_out_a <= 0.0 {
+            return None;
+        }
+        i_in *= p.output_current_a / sol.i_out_a;
+    }
+    let r = (p.rail_nominal_v() - v_in) / i_in;
+    (r.is_finite() && r > 0.0).then_some(r)
+}
+
+/// The standard value of `class` just below (or at) and just above (or at) `exact`.
+pub fn standard_around(exact: f64, class: &ResistorClass) -> Option<(f64, f64)> {
+    let v = class.series.values_between(exact / 1.25, exact * 1.25);
+    let below = v
+        .iter()
+        .copied()
+        .filter(|&x| x <= exact)
+        .fold(None, |_, x| Some(x))?;
+    let above = v.iter().copied().find(|&x| x >= exact)?;
+    Some((below, above))
+}
+
+/// `spec` with its R_ref value chosen, when it still has to be (`r_ref_pick` set and no
+/// value): the standard value below, above or nearest the exact one. Left unchanged
+/// (value 0) when R_ref cannot be sized; the evaluation then fails the design.
+pub fn choose_r_ref(
+    req: &Requirement,
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    solves: &AtomicU64,
+) -> DesignSpec {
+    let mut out = spec.clone();
+    let (Some(pick), Some(id)) = (spec.r_ref_pick, spec.r_ref_resistor.as_deref()) else {
+        return out;
+    };
+    if spec.r_ref_ohm > 0.0 {
+        return out;
+    }
+    let Some(class) = catalog.resistor(id) else {
+        return out;
+    };
+    let Some(exact) = exact_r_ref(req, catalog, spec, solves) else {
+        return out;
+    };
+    let Some((below, above)) = standard_around(exact, class) else {
+        return out;
+    };
+    out.r_ref_ohm = match pick {
+        RefPick::Below => below,
+        RefPick::Above => above,
+        RefPick::Nearest => {
+            if (exact / below).ln() <= (above / exact).ln() {
+                below
+            } else {
+                above
+            }
+        }
+    };
+    out.r_ref_pick = None;
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Series;
+
+    #[test]
+    fn standard_values_bracket_the_exact_one() {
+        let class = ResistorClass {
+            id: "e96".into(),
+            summary: String::new(),
+            series: Series::E96,
+            tolerance: 0.01,
+            tcr_per_k: 1e-4,
+            unit_cost: 0.0,
+            power_rating_w: None,
+            provenance: String::new(),
+        };
+        // IEC 60063 E96: 511k and 523k bracket 518k.
+        assert_eq!(standard_around(518e3, &class), Some((511e3, 523e3)));
+        // A standard value is its own neighbour on both sides.
+        assert_eq!(standard_around(4.75e3, &class), Some((4.75e3, 4.75e3)));
+    }
+}
