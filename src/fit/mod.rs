@@ -323,7 +323,12 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
         for h in &m.held {
             warnings.push(FitWarning::Unidentified(h.clone()));
         }
-        let fitted: Vec<ParamKind> = m.params.iter().filter(|p| p.fitted).map(|p| p.kind).collect();
+        let fitted: Vec<ParamKind> = m
+            .params
+            .iter()
+            .filter(|p| p.fitted)
+            .map(|p| p.kind)
+            .collect();
         let conditional_on = m
             .params
             .iter()

@@ -573,7 +573,9 @@ pub fn fit_model(
                         reason: format!(
                             "{} has no finite standard error at the fitted point ({})",
                             kind.name(),
-                            values.get(kind).map_or("infinite".into(), |v| format!("{v:e}"))
+                            values
+                                .get(kind)
+                                .map_or("infinite".into(), |v| format!("{v:e}"))
                         ),
                     });
                 }
@@ -594,7 +596,10 @@ pub fn fit_model(
             },
         });
     }
-    if let Some(p) = params.iter().find(|p| p.fitted && !p.kind.plausible(p.value)) {
+    if let Some(p) = params
+        .iter()
+        .find(|p| p.fitted && !p.kind.plausible(p.value))
+    {
         return Err(ModelFitFailure::Unsupported {
             reason: format!(
                 "the fit put {} at {}, outside what a bipolar transistor has ({}): the data do not bound it",
@@ -863,11 +868,7 @@ fn sensitivity(
             )
         })
         .collect();
-    Some(Sensitivity {
-        held,
-        step,
-        shifts,
-    })
+    Some(Sensitivity { held, step, shifts })
 }
 
 /// One least-squares run over the `free` parameters, the others at `values`.

@@ -10,12 +10,12 @@ use std::io::{self, Write};
 
 use comfy_table::{Cell, CellAlignment, Table};
 
+use super::{new_table, Format, Style};
+use crate::check::CheckName;
 use crate::rank::{
     CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
     RankReport,
 };
-use crate::check::CheckName;
-use super::{new_table, Format, Style};
 use crate::units::format_prefixed;
 
 struct Column {
