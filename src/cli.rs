@@ -36,6 +36,12 @@ pub struct Cli {
     #[arg(long, global = true, value_name = "FILE")]
     pub catalog: Option<PathBuf>,
 
+    /// Show every column of the candidate tables (rank, check, cheaper, bom) instead of
+    /// the ones a designer decides on. Tables fit the terminal (or `COLUMNS`) by wrapping
+    /// cells either way; JSON and CSV always carry every field.
+    #[arg(long, global = true)]
+    pub wide: bool,
+
     #[command(subcommand)]
     pub command: Command,
 }
@@ -45,7 +51,7 @@ pub enum Command {
     /// List, show or check the catalog of part classes.
     #[command(
         subcommand,
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint my-parts.yaml"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog show npn-dual-prematched\n  mirrorpick catalog lint catalog/default.yaml"
     )]
     Catalog(CatalogCommand),
     /// Check requirement files.
@@ -73,17 +79,17 @@ with the class's ratings as `check` does."
     Fit(FitCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(
-        after_help = "Compliance: every transistor keeps V_CE >= min_vce (requirement field, default 0.3 V) at I_in max, V_out min, every ambient; V_CB < 0 there is a caution. A corner that cannot be solved fails thermal-runaway or no-solution, naming the build, and the figures that needed it are not available. The count line gives the candidate space and says \"at least\" where the search left candidates unverified.\n\nExit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input (including --top 0).\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank board.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank board.yaml --every-value --top 20\n  mirrorpick rank board.yaml --format json --seed 7 --samples 5000 > ranked.json"
+        after_help = "Compliance: every transistor keeps V_CE >= min_vce (requirement field, default 0.3 V) at I_in max, V_out min, every ambient; V_CB < 0 there is a caution. A corner that cannot be solved fails thermal-runaway or no-solution, naming the build, and the figures that needed it are not available. The count line gives the candidate space and says \"at least\" where the search left candidates unverified.\n\nExit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input (including --top 0).\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank requirements-examples/led-string-sinks.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml --every-value --top 20 --wide\n  mirrorpick rank requirements-examples/widlar-bias-source.yaml --format json --seed 7 --samples 500 > ranked.json"
     )]
     Rank(RankCli),
     /// Verify one named design against a requirement: every check with its margin.
     #[command(
-        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check board.yaml --part npn-dual-general --topology wilson --corners --format json"
+        after_help = "Exit status: 0 when every check passes, 1 when any fails, 2 on bad input.\n\nExample:\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-prematched --topology simple --re 100 --resistor thick-film-1pct\n  mirrorpick check requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --corners --format json"
     )]
     Check(CheckCli),
     /// Designs cheaper than a named one, or (--second-source) other classes that still pass.
     #[command(
-        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-matched-monolithic --topology simple\n  mirrorpick cheaper board.yaml --part npn-matched-monolithic --topology wilson --second-source"
+        after_help = "Exit status: 0 when at least one alternative passes, 1 when none does, 2 on bad input.\n\nExample:\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-pair-monolithic --topology wilson\n  mirrorpick cheaper requirements-examples/ltp-tail-sink.yaml --part npn-dual-general --topology wilson --re 2k --resistor thick-film-1pct --second-source"
     )]
     Cheaper(CheaperCli),
     /// Output current against output voltage for several input currents, and the error
@@ -187,7 +193,7 @@ channel has no feasible design and why, or the fewest line items any board needs
 Example:
   mirrorpick bom requirements-examples/board-synth-voice.yaml
   mirrorpick bom requirements-examples/board-synth-voice.yaml --format csv > bom.csv
-  mirrorpick bom board.yaml --format json --seed 7 --samples 200";
+  mirrorpick bom requirements-examples/board-synth-voice.yaml --format json --seed 7 --samples 200";
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum PreferChoice {
@@ -291,7 +297,8 @@ pub struct CheaperCli {
     pub file: PathBuf,
     #[command(flatten)]
     pub design: DesignCli,
-    /// List every other transistor class that still passes, at any cost.
+    /// Drop-in second sources: the same topology and resistor values with another
+    /// transistor class that still passes, at any cost.
     #[arg(long)]
     pub second_source: bool,
     #[command(flatten)]
@@ -455,7 +462,7 @@ Example (synthetic demo data shipped with the project, a simple mirror with 1 kÎ
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
   mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple \\
       --re1 1k --re2 1k --ambient 27C --supply 12V --self-heating --emit-class npn-dual-bench
-  mirrorpick fit bench.csv --topology wilson --part npn-dual-general --format json";
+  mirrorpick fit requirements-examples/bench-simple-mirror.csv --topology simple --re1 1k --re2 1k --format json";
 
 #[derive(Debug, Args)]
 pub struct FitCommand {
@@ -512,7 +519,7 @@ pub enum FitFormat {
 pub enum CatalogCommand {
     /// List every transistor and resistor class in the catalog.
     #[command(
-        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog my-parts.yaml catalog list --format json"
+        after_help = "Example:\n  mirrorpick catalog list\n  mirrorpick catalog list --format csv > classes.csv\n  mirrorpick --catalog catalog/default.yaml catalog list --format json"
     )]
     List(FormatArg),
     /// Show one class in full: model parameters, matching, ratings, thermal, cost.
@@ -527,7 +534,7 @@ pub enum CatalogCommand {
     },
     /// Check a catalog file and report the first problem with its line and column.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint my-parts.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick catalog lint catalog/default.yaml\n  mirrorpick catalog lint          # checks the built-in catalog"
     )]
     Lint {
         /// Catalog file; the active catalog (`--catalog` or built in) when absent.
@@ -539,7 +546,7 @@ pub enum CatalogCommand {
 pub enum SpecCommand {
     /// Check a requirement file against the schema and the active catalog.
     #[command(
-        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog my-parts.yaml spec lint board.yaml"
+        after_help = "Exit status: 0 when the file is valid, 2 with a `file:line:col:` message when not.\n\nExample:\n  mirrorpick spec lint requirements-examples/sensor-excitation-source.yaml\n  mirrorpick --catalog catalog/default.yaml spec lint requirements-examples/ltp-tail-sink.yaml"
     )]
     Lint {
         /// Requirement file (YAML).
@@ -572,9 +579,9 @@ impl From<FormatChoice> for Format {
 }
 
 impl Cli {
-    /// Resolve what was typed into the library's configuration. `color` is decided by
-    /// `main` (terminal, NO_COLOR).
-    pub fn into_config(self, color: bool) -> Config {
+    /// Resolve what was typed into the library's configuration. `color` and `width` are
+    /// decided by `main` (terminal, NO_COLOR, COLUMNS).
+    pub fn into_config(self, color: bool, width: Option<u16>) -> Config {
         let command = match self.command {
             Command::Catalog(CatalogCommand::List(f)) => AppCommand::CatalogList {
                 format: f.format.into(),
@@ -702,7 +709,11 @@ impl Cli {
                 .map(CatalogSource::File)
                 .unwrap_or(CatalogSource::Default),
             command,
-            style: Style { color },
+            style: Style {
+                color,
+                width,
+                wide: self.wide,
+            },
         }
     }
 }

@@ -13,7 +13,7 @@ fn main() -> ExitCode {
     let args = cli::Cli::parse();
     let color =
         io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
-    let config = args.into_config(color);
+    let config = args.into_config(color, width());
 
     let stdout = io::stdout();
     let mut out = BufWriter::new(stdout.lock());
@@ -28,6 +28,24 @@ fn main() -> ExitCode {
             eprintln!("error: {}", chain(&e));
             ExitCode::from(e.exit_code())
         }
+    }
+}
+
+/// Columns for tables: `COLUMNS` when set (the POSIX shell convention, and how scripts and
+/// tests ask for a width), else the terminal's width when stdout is one, else no limit.
+fn width() -> Option<u16> {
+    if let Some(w) = std::env::var("COLUMNS")
+        .ok()
+        .and_then(|s| s.trim().parse::<u16>().ok())
+        .filter(|&w| w >= 20)
+    {
+        return Some(w);
+    }
+    if io::stdout().is_terminal() {
+        // comfy-table reads the terminal size through its own terminal backend.
+        comfy_table::Table::new().width()
+    } else {
+        None
     }
 }
 

@@ -524,7 +524,7 @@ fn round_sig3(x: f64) -> f64 {
 }
 
 /// A number with 3 significant digits, without an exponent for |x| in [1e-3, 1e6).
-fn sig3(x: f64) -> String {
+pub fn sig3(x: f64) -> String {
     if x == 0.0 {
         return "0".to_string();
     }

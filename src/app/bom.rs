@@ -53,7 +53,7 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
         BomOutcome::Optimal(mut plan) => {
             notes.extend(render_cautions(&plan));
             notes.extend(verify_chosen(&mut plan, &dp, &design, a.mc));
-            write_plan(&plan, &dp, a, out)?;
+            write_plan(&plan, &dp, a, cfg.style, out)?;
             Outcome::Success
         }
         BomOutcome::Infeasible(why) => {
@@ -92,11 +92,12 @@ fn write_plan(
     plan: &BoardPlan,
     dp: &DesignProblem,
     a: &BomArgs,
+    style: crate::report::Style,
     out: &mut dyn Write,
 ) -> Result<(), AppError> {
     match a.format {
         Format::Table => {
-            render::write_table(plan, out)?;
+            render::write_table_styled(plan, style, out)?;
             writeln!(out)?;
             writeln!(
                 out,

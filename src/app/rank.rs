@@ -102,7 +102,7 @@ pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outco
                 .cloned(),
         );
     }
-    write_cautions(a.format, out, &cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &cautions)?;
     Ok(if report.feasible > 0 {
         Outcome::Success
     } else {
@@ -115,7 +115,7 @@ pub fn run_check(cfg: &Config, a: &CheckArgs, out: &mut dyn Write) -> Result<Out
     let spec = design_spec(&req, &catalog, &a.design)?;
     let report = rank::check_design(&req, &catalog, &spec, a.mc, a.corners)?;
     render::write_check(out, &report, a.format, cfg.style)?;
-    write_cautions(a.format, out, &report.cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &report.cautions)?;
     Ok(if report.pass {
         Outcome::Success
     } else {
@@ -135,7 +135,7 @@ pub fn run_cheaper(
     bar.finish();
     let report = report?;
     render::write_cheaper(out, &report, a.format, cfg.style)?;
-    write_cautions(a.format, out, &report.cautions)?;
+    write_cautions(a.format, cfg.style.width, out, &report.cautions)?;
     Ok(if report.alternatives.is_empty() {
         Outcome::NothingPasses
     } else {
@@ -145,15 +145,16 @@ pub fn run_cheaper(
 
 fn write_cautions(
     format: Format,
+    width: Option<u16>,
     out: &mut dyn Write,
     cautions: &[Caution],
 ) -> Result<(), AppError> {
     if format == Format::Table {
         writeln!(out)?;
-        render::write_cautions(out, cautions)?;
+        render::write_cautions(out, cautions, width)?;
     } else {
         // Best effort: a closed stderr must not fail the command.
-        let _ = render::write_cautions(&mut io::stderr().lock(), cautions);
+        let _ = render::write_cautions(&mut io::stderr().lock(), cautions, None);
     }
     Ok(())
 }

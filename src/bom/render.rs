@@ -23,6 +23,7 @@ use comfy_table::{presets::UTF8_FULL_CONDENSED, Cell, CellAlignment, Table};
 use serde::Serialize;
 
 use super::plan::{BoardPlan, BomItem, BomLine, DeviceSlot};
+use crate::report::{fit_width, Style};
 
 /// Resistance in engineering notation (`4.70 kΩ`); three significant figures show every
 /// E96 value and below exactly.
@@ -78,6 +79,12 @@ fn percent(tol: f64) -> String {
 /// The plan as tables for a person: BOM, assignment, totals. Cautions are written apart
 /// by [`write_cautions`].
 pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
+    write_table_styled(plan, Style::default(), out)
+}
+
+/// The table within `style.width` (cells wrap); the assignment shows the design in one
+/// cell unless `style.wide`.
+pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -> io::Result<()> {
     let cur = &plan.currency;
     writeln!(
         out,
@@ -87,6 +94,7 @@ pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
         if plan.boards == 1 { "" } else { "s" }
     )?;
     let mut bom = Table::new();
+    fit_width(&mut bom, style);
     bom.load_preset(UTF8_FULL_CONDENSED).set_header(vec![
         "line",
         "class",
@@ -111,17 +119,30 @@ pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
     writeln!(out, "{bom}")?;
 
     let mut asg = Table::new();
-    asg.load_preset(UTF8_FULL_CONDENSED).set_header(vec![
-        "channel",
-        "copies",
-        "topology",
-        "pair class",
-        "helper single",
-        "R_E",
-        "devices (package.device)",
-        "governing check",
-        "margin",
-    ]);
+    fit_width(&mut asg, style);
+    let header = if style.wide {
+        vec![
+            "channel",
+            "copies",
+            "topology",
+            "pair class",
+            "helper single",
+            "R_E",
+            "devices (package.device)",
+            "governing check",
+            "margin",
+        ]
+    } else {
+        vec![
+            "channel",
+            "copies",
+            "design",
+            "devices (package.device)",
+            "governing check",
+            "margin",
+        ]
+    };
+    asg.load_preset(UTF8_FULL_CONDENSED).set_header(header);
     for a in &plan.channels {
         let re = a
             .resistors
@@ -148,18 +169,40 @@ pub fn write_table(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
             })
             .collect::<Vec<_>>()
             .join("\n");
-        asg.add_row(vec![
-            Cell::new(&a.channel),
-            Cell::new(a.count).set_alignment(CellAlignment::Right),
+        let mut design = vec![
             Cell::new(&a.topology),
             Cell::new(&a.pair_class),
             Cell::new(a.helper_class.as_deref().unwrap_or("-")),
-            Cell::new(if re.is_empty() { "-".to_string() } else { re }),
+            Cell::new(if re.is_empty() {
+                "-".to_string()
+            } else {
+                re.clone()
+            }),
+        ];
+        if !style.wide {
+            let mut d = format!("{} {}", a.topology, a.pair_class);
+            if let Some(h) = &a.helper_class {
+                d.push_str(&format!(" + {h} helper"));
+            }
+            d.push_str(&if re.is_empty() {
+                ", no RE".to_string()
+            } else {
+                format!(", RE {re}")
+            });
+            design = vec![Cell::new(d)];
+        }
+        let mut row = vec![
+            Cell::new(&a.channel),
+            Cell::new(a.count).set_alignment(CellAlignment::Right),
+        ];
+        row.extend(design);
+        row.extend([
             Cell::new(places),
             Cell::new(&a.governing_check),
             Cell::new(format!("{:.1} %", a.governing_margin * 100.0))
                 .set_alignment(CellAlignment::Right),
         ]);
+        asg.add_row(row);
     }
     writeln!(out, "{asg}")?;
 

@@ -60,12 +60,31 @@ pub struct RawCatalog {
     pub resistor_classes: Vec<RawResistor>,
 }
 
-#[derive(Debug, Deserialize, Clone, Copy)]
-#[serde(rename_all = "lowercase")]
-pub enum RawPolarity {
-    Npn,
-    Pnp,
+/// An enumeration read whatever its case (`npn`, `NPN`, `Npn`): listings print some
+/// names in capitals, and a user copying them must not be refused. An unknown name gives
+/// serde's own "unknown variant ..., expected one of ..." error, which the input module
+/// turns into a located message with a did-you-mean.
+macro_rules! any_case_enum {
+    ($name:ident { $($variant:ident => $text:literal),+ $(,)? }) => {
+        #[derive(Debug, Clone, Copy)]
+        pub enum $name {
+            $($variant),+
+        }
+
+        impl<'de> Deserialize<'de> for $name {
+            fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+                const NAMES: &[&str] = &[$($text),+];
+                let s = String::deserialize(d)?;
+                $(if s.eq_ignore_ascii_case($text) {
+                    return Ok($name::$variant);
+                })+
+                Err(de::Error::unknown_variant(&s, NAMES))
+            }
+        }
+    };
 }
+
+any_case_enum!(RawPolarity { Npn => "npn", Pnp => "pnp" });
 
 #[derive(Debug, Deserialize)]
 #[serde(
@@ -167,22 +186,15 @@ pub struct RawRange {
     pub max: RawQty,
 }
 
-#[derive(Debug, Deserialize, Clone, Copy)]
-#[serde(rename_all = "lowercase")]
-pub enum RawKind {
-    Sink,
-    Source,
-}
+any_case_enum!(RawKind { Sink => "sink", Source => "source" });
 
-#[derive(Debug, Deserialize, Clone, Copy)]
-#[serde(rename_all = "lowercase")]
-pub enum RawLoad {
-    General,
-    Led,
-    Laser,
-    Sensor,
-    Bias,
-}
+any_case_enum!(RawLoad {
+    General => "general",
+    Led => "led",
+    Laser => "laser",
+    Sensor => "sensor",
+    Bias => "bias",
+});
 
 #[derive(Debug, Deserialize)]
 #[serde(

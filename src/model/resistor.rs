@@ -5,6 +5,7 @@ use std::sync::OnceLock;
 /// An IEC 60063 series of preferred values.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Series {
+    E12,
     E24,
     E48,
     E96,
@@ -14,6 +15,7 @@ pub enum Series {
 impl Series {
     pub fn as_str(self) -> &'static str {
         match self {
+            Series::E12 => "E12",
             Series::E24 => "E24",
             Series::E48 => "E48",
             Series::E96 => "E96",
@@ -22,7 +24,13 @@ impl Series {
     }
 
     /// All series, coarsest first.
-    pub const ALL: [Series; 4] = [Series::E24, Series::E48, Series::E96, Series::E192];
+    pub const ALL: [Series; 5] = [
+        Series::E12,
+        Series::E24,
+        Series::E48,
+        Series::E96,
+        Series::E192,
+    ];
 
     pub fn from_name(name: &str) -> Option<Series> {
         Series::ALL
@@ -33,6 +41,7 @@ impl Series {
     /// Number of values per decade.
     pub fn per_decade(self) -> usize {
         match self {
+            Series::E12 => 12,
             Series::E24 => 24,
             Series::E48 => 48,
             Series::E96 => 96,
@@ -41,13 +50,14 @@ impl Series {
     }
 
     /// The values of one decade as integers with the series' significant digits:
-    /// `10..=91` for E24 (two digits), `100..=988` for E48/E96/E192 (three digits).
+    /// `10..=82` for E12 and `10..=91` for E24 (two digits), `100..=988` for
+    /// E48/E96/E192 (three digits).
     ///
-    /// IEC 60063: E24 is a fixed table (eight entries differ from the rounded geometric
+    /// IEC 60063: E12 is every other E24 value; E24 is a fixed table (eight entries differ from the rounded geometric
     /// value: 27 30 33 36 39 43 47 82); E48, E96 and E192 are `round(10^(i/N))` to three
     /// digits, with one exception in E192 (920 where the formula gives 919).
     pub fn decade_digits(self) -> &'static [u16] {
-        static TABLES: OnceLock<[Vec<u16>; 4]> = OnceLock::new();
+        static TABLES: OnceLock<[Vec<u16>; 5]> = OnceLock::new();
         let tables = TABLES.get_or_init(|| Series::ALL.map(Series::compute_digits));
         &tables[self as usize]
     }
@@ -59,6 +69,9 @@ impl Series {
         ];
         if self == Series::E24 {
             return E24.to_vec();
+        }
+        if self == Series::E12 {
+            return E24.iter().step_by(2).copied().collect();
         }
         let n = self.per_decade();
         (0..n)
@@ -73,9 +86,9 @@ impl Series {
             .collect()
     }
 
-    /// Significant digits of the series (2 for E24, 3 otherwise).
+    /// Significant digits of the series (2 for E12 and E24, 3 otherwise).
     fn digit_count(self) -> i32 {
-        if self == Series::E24 {
+        if matches!(self, Series::E12 | Series::E24) {
             2
         } else {
             3
@@ -135,8 +148,9 @@ impl Series {
         if !(x > 0.0 && x.is_finite()) {
             return None;
         }
-        // Neighbouring E24 values are at most ~10 % apart, so 20 % either side suffices.
-        self.values_between(x / 1.2, x * 1.2)
+        // Neighbouring E12 values are at most ~22 % apart (8.2 -> 10), so 25 % either side
+        // always holds a value below and above.
+        self.values_between(x / 1.25, x * 1.25)
             .into_iter()
             .min_by(|a, b| {
                 let da = (a / x).ln().abs();
@@ -176,6 +190,13 @@ mod tests {
 
     #[test]
     fn e24_is_the_iec_60063_table() {
+        // IEC 60063, E12 series.
+        assert_eq!(
+            Series::E12.decade_digits(),
+            &[10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82]
+        );
+        assert_eq!(Series::from_name("e12"), Some(Series::E12));
+        assert_eq!(Series::E12.nearest(4.6e3), Some(4700.0));
         // IEC 60063, E24 series (a fixed table, not the rounded geometric values).
         assert_eq!(
             Series::E24.decade_digits().to_vec(),

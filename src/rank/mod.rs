@@ -5,6 +5,7 @@
 //! Builds on `check` for every verdict; prints nothing (`report::rank` writes the formats).
 
 mod order;
+mod relax;
 mod report;
 mod search;
 mod space;
@@ -16,6 +17,7 @@ use rayon::prelude::*;
 use thiserror::Error;
 
 pub use order::{family, first_per, pareto, sort, FamilyKey, Prefer};
+pub use relax::{relax, Relax, NEAREST};
 pub use report::{
     cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
     CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
@@ -95,7 +97,11 @@ pub fn rank(
         Prefer::Accuracy => Goal::MostAccurate(n, unit),
         Prefer::Balanced => Goal::Balanced(n, unit),
     };
-    rank_with_goal(req, catalog, opts, goal, &groups, progress)
+    let mut run = rank_with_goal(req, catalog, opts, goal, &groups, progress)?;
+    if run.ranked.is_empty() {
+        run.report.relax = relax(req, catalog, &groups, opts.mc);
+    }
+    Ok(run)
 }
 
 fn rank_with_goal(
@@ -196,6 +202,7 @@ fn rank_with_goal(
         cautions: cautions(req, &rows),
         candidates: rows,
         explain,
+        relax: Vec::new(),
     };
     Ok(RankRun {
         report,
@@ -256,8 +263,9 @@ pub fn check_design(
     })
 }
 
-/// `cheaper`: feasible designs cheaper than the named one, or (`second_source`) the best
-/// feasible design of every other transistor class at any cost.
+/// `cheaper`: feasible designs cheaper than the named one, or (`second_source`) the named
+/// design built with every other pair class of its polarity (same topology, helper and
+/// resistor values: a drop-in second source) that still passes, at any cost.
 pub fn cheaper(
     req: &Requirement,
     catalog: &Catalog,
@@ -274,38 +282,58 @@ pub fn cheaper(
         mc,
         ..RankOptions::default()
     };
-    let goal = if second_source {
-        Goal::CheapestPerClass
-    } else {
-        Goal::CheaperFamilies(ref_ev.cost)
-    };
     let groups = enumerate(req, catalog);
-    let run = rank_with_goal(req, catalog, &opts, goal, &groups, progress)?;
+    // `--second-source`: drop-in replacements only, i.e. the same topology, helper and
+    // resistor values with another pair class of the requirement's polarity; every one is
+    // verified directly. Otherwise: the cheaper families from the search.
+    let (run, picked): (Option<RankRun>, Vec<(DesignSpec, Evaluation)>) = if second_source {
+        let mut pairs: Vec<&str> = groups
+            .iter()
+            .map(|g| g.pair.as_str())
+            .filter(|p| *p != spec.pair)
+            .collect();
+        pairs.sort_unstable();
+        pairs.dedup();
+        let mut found: Vec<(DesignSpec, Evaluation)> = pairs
+            .par_iter()
+            .filter_map(|p| {
+                let candidate = DesignSpec {
+                    pair: (*p).to_string(),
+                    ..spec.clone()
+                };
+                check::verify(req, catalog, &candidate, Depth::Verdict, mc, &solves)
+                    .ok()
+                    .filter(|(_, e)| e.feasible())
+            })
+            .collect();
+        sort(&mut found, Prefer::Cost, req.accuracy);
+        (None, found)
+    } else {
+        let run = rank_with_goal(
+            req,
+            catalog,
+            &opts,
+            Goal::CheaperFamilies(ref_ev.cost),
+            &groups,
+            progress,
+        )?;
+        // One design per family: the first in ranking order, i.e. the one with the
+        // largest accuracy margin (a family's resistor values all cost the same, so
+        // listing each would repeat one saving many times; the search verifies each
+        // family best-first for that reason).
+        let eligible: Vec<&(DesignSpec, Evaluation)> = run
+            .ranked
+            .iter()
+            .filter(|(_, e)| e.cost < ref_ev.cost - 1e-12)
+            .collect();
+        let picked = first_per(&eligible, |(s, _)| family(s))
+            .into_iter()
+            .map(|i| eligible[i].clone())
+            .collect();
+        (Some(run), picked)
+    };
     let governing = reference.governing_check;
     let ref_margin = reference.governing_margin();
-    // One design per family: the first in ranking order, i.e. the one with the largest
-    // accuracy margin (a family's resistor values all cost the same, so listing each
-    // would repeat one saving many times; the search verifies each family best-first for
-    // that reason). With `--second-source`, one per pair class: its cheapest.
-    let eligible: Vec<&(DesignSpec, Evaluation)> = run
-        .ranked
-        .iter()
-        .filter(|(s, e)| {
-            if second_source {
-                s.pair != spec.pair
-            } else {
-                e.cost < ref_ev.cost - 1e-12
-            }
-        })
-        .collect();
-    let picked: Vec<&(DesignSpec, Evaluation)> = if second_source {
-        first_per(&eligible, |(s, _)| s.pair.clone())
-    } else {
-        first_per(&eligible, |(s, _)| family(s))
-    }
-    .into_iter()
-    .map(|i| eligible[i])
-    .collect();
     let alternatives: Vec<Alternative> = picked
         .par_iter()
         .enumerate()
@@ -323,8 +351,9 @@ pub fn cheaper(
             }
         })
         .collect();
-    let nearest_failing = if alternatives.is_empty() && !second_source {
-        run.rejected
+    let nearest_failing = match (&run, alternatives.is_empty()) {
+        (Some(run), true) => run
+            .rejected
             .iter()
             .filter_map(|(s, c)| resolve(catalog, s).ok().map(|d| (s, c, d.cost)))
             .filter(|(_, _, cost)| *cost < ref_ev.cost - 1e-12)
@@ -338,14 +367,13 @@ pub fn cheaper(
                 resistor: s.resistor.clone(),
                 cost,
                 failed_check: *c,
-            })
-    } else {
-        None
+            }),
+        _ => None,
     };
     let summary = match (second_source, alternatives.len(), &nearest_failing) {
-        (true, 0, _) => "no other transistor class meets the requirement".to_string(),
+        (true, 0, _) => "no other transistor class is a drop-in second source (same topology and resistor values) that meets the requirement".to_string(),
         (true, n, _) => format!(
-            "{n} other transistor class{} meet{} the requirement",
+            "{n} other transistor class{} meet{} the requirement as a drop-in second source (same topology and resistor values)",
             if n == 1 { "" } else { "es" },
             if n == 1 { "s" } else { "" }
         ),

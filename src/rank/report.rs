@@ -418,6 +418,10 @@ pub struct RankReport {
     pub candidates: Vec<CandidateRow>,
     pub explain: Option<Explanation>,
     pub cautions: Vec<Caution>,
+    /// When nothing is feasible: the smallest change to one requirement field that makes
+    /// one of the nearest candidates feasible, per field, smallest change first (and the
+    /// catalog advice when no class is rated for the voltage). Empty otherwise.
+    pub relax: Vec<super::Relax>,
 }
 
 /// What `check` prints: one candidate plus the overall verdict.

@@ -40,13 +40,20 @@ pub enum Format {
 pub struct Style {
     /// Bold headers and other terminal styling; never on when writing to a file.
     pub color: bool,
+    /// Columns available (the terminal's width, or `COLUMNS`); tables wrap their cells to
+    /// fit. `None` (output to a file or pipe without `COLUMNS`): no limit.
+    pub width: Option<u16>,
+    /// Every column of the candidate tables (`--wide`) instead of the ones a designer
+    /// decides on.
+    pub wide: bool,
 }
 
-/// A table with the house look: condensed UTF-8 borders, bold header when styled.
+/// A table with the house look: condensed UTF-8 borders, bold header when styled, cells
+/// wrapped to keep the table within `style.width`.
 pub fn new_table(style: Style, header: &[&str]) -> Table {
     let mut t = Table::new();
-    t.load_preset(presets::UTF8_FULL_CONDENSED)
-        .set_content_arrangement(ContentArrangement::Disabled);
+    t.load_preset(presets::UTF8_FULL_CONDENSED);
+    fit_width(&mut t, style);
     if style.color {
         t.enforce_styling();
         t.set_header(
@@ -59,6 +66,50 @@ pub fn new_table(style: Style, header: &[&str]) -> Table {
         t.set_header(header.iter().map(Cell::new));
     }
     t
+}
+
+/// Keep `t` within the style's width by wrapping cells (never by cutting the table).
+pub fn fit_width(t: &mut Table, style: Style) {
+    match style.width {
+        Some(w) => {
+            t.set_content_arrangement(ContentArrangement::Dynamic)
+                .set_width(w);
+        }
+        None => {
+            t.set_content_arrangement(ContentArrangement::Disabled);
+        }
+    }
+}
+
+/// Word-wrap prose to `width` columns (no limit when `None`); words longer than a line
+/// stay whole.
+pub fn wrap(text: &str, width: Option<u16>) -> String {
+    wrap_indented(text, width, 0)
+}
+
+/// As [`wrap`], with continuation lines indented by `indent` spaces (the first line is
+/// assumed to start `indent` columns in, after a bullet).
+pub fn wrap_indented(text: &str, width: Option<u16>, indent: usize) -> String {
+    let Some(width) = width.map(usize::from) else {
+        return text.to_string();
+    };
+    let room = width.saturating_sub(indent).max(20);
+    let mut out = String::new();
+    let mut line = 0usize;
+    for word in text.split(' ').filter(|w| !w.is_empty()) {
+        let n = word.chars().count();
+        if line > 0 && line + 1 + n > room {
+            out.push('\n');
+            out.push_str(&" ".repeat(indent));
+            line = 0;
+        } else if line > 0 {
+            out.push(' ');
+            line += 1;
+        }
+        out.push_str(word);
+        line += n;
+    }
+    out
 }
 
 /// Where the numbers came from: echoed in every exported file.
@@ -82,6 +133,17 @@ pub fn sha256_hex(bytes: &[u8]) -> String {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn wrap_keeps_lines_within_the_width() {
+        let text = "one two three four five six seven eight nine ten eleven twelve thirteen";
+        let w = super::wrap(text, Some(20));
+        assert!(w.lines().all(|l| l.chars().count() <= 20), "{w}");
+        assert_eq!(w.split_whitespace().collect::<Vec<_>>().join(" "), text);
+        assert_eq!(super::wrap(text, None), text);
+        let w = super::wrap_indented(text, Some(24), 4);
+        assert!(w.lines().skip(1).all(|l| l.starts_with("    ")), "{w}");
+    }
+
     #[test]
     fn sha256_of_the_fips_example() {
         // FIPS 180-4 / NIST example "abc".

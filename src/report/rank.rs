@@ -10,11 +10,11 @@ use std::io::{self, Write};
 
 use comfy_table::{Cell, CellAlignment, Table};
 
-use super::{new_table, Format, Style};
+use super::{new_table, wrap, wrap_indented, Format, Style};
 use crate::check::CheckName;
 use crate::rank::{
     CandidateRow, Caution, CheaperReport, CheckReport, CheckRow, CornerLine, Explanation,
-    RankReport,
+    RankReport, Relax,
 };
 use crate::units::format_prefixed;
 
@@ -200,21 +200,100 @@ fn check_value(name: CheckName, x: f64) -> String {
     }
 }
 
+/// Titles of the columns that hold numbers (right-aligned).
+const NUMERIC: &[&str] = &[
+    "#",
+    "RE1",
+    "RE2",
+    "cost",
+    "ratio",
+    "sys. error",
+    "random 1σ",
+    "total error",
+    "yield",
+    "r_out min",
+    "compliance",
+    "V_in max",
+    "margin",
+    "saving",
+    "cost saved",
+    "margin given up",
+];
+
+/// The design in one readable cell: topology, pair class, helper, emitter resistors and
+/// their class (`wilson npn-dual-general, helper npn-single-general, RE 1.91 kΩ
+/// thick-film-1pct`).
+fn design_cell(r: &CandidateRow) -> String {
+    let mut s = format!("{} {}", r.topology, r.part);
+    if let Some(h) = &r.helper {
+        s.push_str(&format!(", helper {h}"));
+    }
+    let class = r.resistor.as_deref().unwrap_or("");
+    match (r.re1_ohm > 0.0, r.re2_ohm > 0.0) {
+        (false, false) => s.push_str(", no RE"),
+        (true, true) if (r.re1_ohm - r.re2_ohm).abs() <= 1e-9 * r.re1_ohm => {
+            s.push_str(&format!(", RE {} {class}", ohms(r.re1_ohm)));
+        }
+        (false, true) => s.push_str(&format!(", RE2 {} {class}", ohms(r.re2_ohm))),
+        _ => s.push_str(&format!(
+            ", RE1 {} RE2 {} {class}",
+            ohms(r.re1_ohm),
+            ohms(r.re2_ohm)
+        )),
+    }
+    s.trim_end().to_string()
+}
+
+/// Rank with the Pareto mark beside it (`3 *`), for the narrow table.
+fn rank_cell(r: &CandidateRow) -> String {
+    let k = r.rank.map_or("—".into(), |k| k.to_string());
+    if r.pareto {
+        format!("{k} *")
+    } else {
+        k
+    }
+}
+
+/// The governing check and its margin in one cell (`compliance 0.195 %`).
+fn governing_cell(r: &CandidateRow) -> String {
+    match r.governing_check {
+        Some(c) => format!("{c} {}", pct(r.governing_margin())),
+        None => "—".into(),
+    }
+}
+
+/// The default columns: what a designer decides on, narrow enough for 80 columns.
+const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
+    ("#", rank_cell),
+    ("design", design_cell),
+    ("cost", |r| format!("{:.3}", r.cost)),
+    ("total error", |r| pct(r.error_total)),
+    ("yield", |r| pct(r.yield_fraction)),
+    ("governing, margin", governing_cell),
+];
+
+/// The candidate table: with `style.wide` every column, otherwise rank (with the Pareto
+/// mark), the design in one cell, cost, total error, yield and the governing check with
+/// its margin. Cells wrap to keep the table within `style.width`.
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
-    let mut header: Vec<&str> = COLUMNS.iter().map(|c| c.title).collect();
+    let cols: Vec<(&str, fn(&CandidateRow) -> String)> = if style.wide {
+        COLUMNS.iter().map(|c| (c.title, c.table_value)).collect()
+    } else {
+        NARROW.to_vec()
+    };
+    let mut header: Vec<&str> = cols.iter().map(|(t, _)| *t).collect();
     header.extend(extra.iter().map(|(t, _)| *t));
     let mut t = new_table(style, &header);
     for (i, r) in rows.iter().enumerate() {
-        let mut cells: Vec<Cell> = COLUMNS
-            .iter()
-            .map(|c| Cell::new((c.table_value)(r)))
-            .collect();
+        let mut cells: Vec<Cell> = cols.iter().map(|(_, f)| Cell::new(f(r))).collect();
         cells.extend(extra.iter().map(|(_, v)| Cell::new(&v[i])));
         t.add_row(cells);
     }
-    for i in [0, 4, 5, 7, 8, 9, 10, 11, 12, 13, 14, 15, 17] {
-        if let Some(col) = t.column_mut(i) {
-            col.set_cell_alignment(CellAlignment::Right);
+    for (i, title) in header.iter().enumerate() {
+        if NUMERIC.contains(title) {
+            if let Some(col) = t.column_mut(i) {
+                col.set_cell_alignment(CellAlignment::Right);
+            }
         }
     }
     t
@@ -334,15 +413,16 @@ pub fn write_rank(
             )?;
             if r.candidates.is_empty() {
                 writeln!(w, "No design meets every requirement.")?;
+                write_relax(w, &r.relax, style.width)?;
             } else {
                 writeln!(w, "{}", candidates_table(style, &r.candidates, &[]))?;
             }
-            writeln!(w, "{}", rejection_line(r))?;
-            writeln!(
-                w,
+            writeln!(w, "{}", wrap(&rejection_line(r), style.width))?;
+            let footer = format!(
                 "Yield: {} Monte Carlo builds, seed {}; * = on the cost/error Pareto front; {} solves.",
                 r.samples, r.seed, r.solves
-            )?;
+            );
+            writeln!(w, "{}", wrap(&footer, style.width))?;
             if let Some(e) = &r.explain {
                 writeln!(w)?;
                 write_explanation(w, e, style)?;
@@ -350,6 +430,25 @@ pub fn write_rank(
             Ok(())
         }
     }
+}
+
+/// The advice on what to relax, one field per line.
+pub fn write_relax(w: &mut dyn Write, relax: &[Relax], width: Option<u16>) -> io::Result<()> {
+    if relax.is_empty() {
+        return Ok(());
+    }
+    writeln!(
+        w,
+        "{}",
+        wrap(
+            "What to relax (one field at a time; each value found by the solver for the nearest candidates):",
+            width
+        )
+    )?;
+    for r in relax {
+        writeln!(w, "  - {}", wrap_indented(&r.text, width, 4))?;
+    }
+    Ok(())
 }
 
 /// Write the full reasoning of one row (table format).
@@ -525,19 +624,27 @@ pub fn write_cheaper(
                     candidates_table(style, &rows, &[(label, saving), ("margin given up", given)])
                 )?;
             }
-            writeln!(w, "{}.", capitalise(&r.summary))
+            writeln!(
+                w,
+                "{}",
+                wrap(&format!("{}.", capitalise(&r.summary)), style.width)
+            )
         }
     }
 }
 
 /// Write cautions, one per line, under a heading.
-pub fn write_cautions(w: &mut dyn Write, cautions: &[Caution]) -> io::Result<()> {
+pub fn write_cautions(
+    w: &mut dyn Write,
+    cautions: &[Caution],
+    width: Option<u16>,
+) -> io::Result<()> {
     if cautions.is_empty() {
         return Ok(());
     }
     writeln!(w, "Cautions:")?;
     for c in cautions {
-        writeln!(w, "  - {c}")?;
+        writeln!(w, "  - {}", wrap_indented(&c.to_string(), width, 4))?;
     }
     Ok(())
 }
