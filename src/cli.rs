@@ -210,8 +210,9 @@ pub struct MonteCarloArgs {
     /// Seed of the Monte Carlo yield (same seed, same numbers).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
-    /// Monte Carlo builds per design.
-    #[arg(long, default_value_t = 1000)]
+    /// Monte Carlo builds per design (at least 100; yields are printed with their 95 %
+    /// confidence interval).
+    #[arg(long, default_value_t = 1000, value_parser = samples)]
     pub samples: u32,
 }
 
@@ -351,25 +352,25 @@ pub struct SolveCli {
     #[arg(long)]
     pub helper: Option<String>,
     /// Equal emitter resistors RE1 = RE2 (e.g. 220, 4k7).
-    #[arg(long, value_parser = resistance, conflicts_with_all = ["re1", "re2"])]
+    #[arg(long, value_parser = resistance, conflicts_with_all = ["re1", "re2"], allow_hyphen_values = true)]
     pub re: Option<f64>,
     /// RE1, the input side (e.g. 220, 4k7); give --re2 with it.
-    #[arg(long, value_parser = resistance)]
+    #[arg(long, value_parser = resistance, allow_hyphen_values = true)]
     pub re1: Option<f64>,
     /// RE2, the output side; give --re1 with it (a Widlar takes --re2 only).
-    #[arg(long, value_parser = resistance)]
+    #[arg(long, value_parser = resistance, allow_hyphen_values = true)]
     pub re2: Option<f64>,
     /// The intended ratio n = I_out / I_in the error is measured against [default: 1].
     #[arg(long, value_parser = ratio_value)]
     pub ratio: Option<f64>,
     /// Programming current I_in (e.g. 100uA).
-    #[arg(long, value_parser = current)]
+    #[arg(long, value_parser = current, allow_hyphen_values = true)]
     pub iin: f64,
-    /// Output voltage from the mirror rail (e.g. 5V).
-    #[arg(long, value_parser = voltage)]
+    /// Output voltage from the mirror rail (e.g. 5V), a magnitude for NPN and PNP alike.
+    #[arg(long, value_parser = voltage, allow_hyphen_values = true)]
     pub vout: f64,
     /// Supply from the mirror rail to the opposite rail; defaults to --vout.
-    #[arg(long, value_parser = voltage)]
+    #[arg(long, value_parser = supply, allow_hyphen_values = true)]
     pub supply: Option<f64>,
     /// Ambient temperature (e.g. 25C, -40 °C).
     #[arg(long, value_parser = temperature, default_value = "25 °C", allow_hyphen_values = true)]
@@ -408,6 +409,24 @@ fn current(t: &str) -> Result<f64, String> {
 }
 fn voltage(t: &str) -> Result<f64, String> {
     requirement_field(t, "output_voltage")
+}
+fn samples(t: &str) -> Result<u32, String> {
+    use mirrorpick::check::MIN_SAMPLES;
+    let n: u32 = t.trim().parse().map_err(|_| {
+        format!(
+            "`{}` is not a whole number of builds; expected {MIN_SAMPLES} or more, like `1000`",
+            mirrorpick::text::shown(t)
+        )
+    })?;
+    if n < MIN_SAMPLES {
+        return Err(format!(
+            "{n} builds are too few to estimate a yield (one build that passes says nothing about 99.9 %); expected {MIN_SAMPLES} or more, like `1000`"
+        ));
+    }
+    Ok(n)
+}
+fn supply(t: &str) -> Result<f64, String> {
+    requirement_field(t, "supply")
 }
 fn temperature(t: &str) -> Result<f64, String> {
     requirement_field(t, "ambient")
@@ -449,14 +468,19 @@ fn topology(t: &str) -> Result<Topology, String> {
 const FIT_HELP: &str = "\
 The CSV file has a header naming at least `i_in`, `v_out` and `i_out` (optionally
 `t_ambient`), one measured point per row; values may carry units (`100uA`, `2.5 V`,
-`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes.
+`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes,
+and so are columns named `note` or `comment`; any other column name is an error.
 Each programming current gives one curve: its straight line in the active region meets
 the voltage axis at -VAF_eff. The model fit solves the stated circuit for every point
 and reports standard errors, residuals and warnings for anything the data cannot pin
 down (no V_out variation leaves VAF open; a simple mirror without emitter resistors
 cannot tell a beta error from a V_BE offset).
 
-Exit status: 0 fitted, 1 no fit could be made (the report says why), 2 bad input.
+Errors are rounded to what the data support; a value held because the data cannot
+tell it apart makes the other errors conditional, and the report says by how much.
+
+Exit status: 0 fitted, 1 no fit the data can support (too few distinct points, nothing
+determinable, a value outside physics; the report says why), 2 bad input.
 
 Example (synthetic demo data shipped with the project, a simple mirror with 1 kΩ emitter
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):

@@ -22,4 +22,5 @@ pub mod model;
 pub mod rank;
 pub mod report;
 pub mod solve;
+pub mod text;
 pub mod units;

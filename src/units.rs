@@ -136,17 +136,25 @@ impl Field {
 /// A quantity that could not be read. Every variant keeps the user's text.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum QuantityError {
-    #[error("`{text}` is not {expected}; write it like {}", expected.example())]
+    #[error("`{}` is not {expected}; write it like {}", shown(text), expected.example())]
     NotAQuantity { text: String, expected: Dimension },
-    #[error("`{text}` is {found}, but {expected} was expected here; write it like {}", expected.example())]
+    #[error("`{}` is {found}, but {expected} was expected here; write it like {}", shown(text), expected.example())]
     WrongUnit {
         text: String,
         found: Dimension,
         expected: Dimension,
     },
-    #[error("`{text}` has no unit and {expected} here needs one; write it like {}", expected.example())]
+    #[error("`{}` has no unit and {expected} here needs one; write it like {}", shown(text), expected.example())]
     MissingUnit { text: String, expected: Dimension },
-    #[error("`{text}` is out of range for {what}: expected {} to {}{hint}", format_quantity(*min, *dimension), format_quantity(*max, *dimension))]
+    #[error("`{}` uses the prefix `{prefix}` ({meaning}), which {expected} here does not accept; write it with {accepted}, like {}", shown(text), expected.example())]
+    UnsupportedPrefix {
+        text: String,
+        prefix: String,
+        meaning: &'static str,
+        expected: Dimension,
+        accepted: &'static str,
+    },
+    #[error("`{}` is out of range for {what}: expected {} to {}{hint}", shown(text), format_quantity(*min, *dimension), format_quantity(*max, *dimension))]
     OutOfRange {
         text: String,
         what: &'static str,
@@ -365,7 +373,7 @@ pub fn parse(text: &str, dimension: Dimension) -> Result<f64, QuantityError> {
                 .then(prefix_only)
                 .flatten()
         })
-        .ok_or_else(not_a)?;
+        .ok_or_else(|| unsupported_prefix(text, suffix, dimension))?;
     if found != dimension {
         return Err(QuantityError::WrongUnit {
             text: text.to_string(),
@@ -396,8 +404,12 @@ pub fn parse_field(text: &str, field: &Field) -> Result<f64, QuantityError> {
 
 /// Check an already-numeric value (a YAML number) against a field's range.
 pub fn check_range(text: &str, value: f64, field: &Field) -> Result<f64, QuantityError> {
-    if value >= field.min && value <= field.max {
-        return Ok(value);
+    // A limit written in another unit than the SI one (`-60 °C` is 213.15 K) can land an
+    // ulp outside after conversion; a relative tolerance far below any printed digit keeps
+    // the documented limits themselves valid. The value is then clamped to the range.
+    let tol = RANGE_TOLERANCE * field.min.abs().max(field.max.abs());
+    if value >= field.min - tol && value <= field.max + tol {
+        return Ok(value.clamp(field.min, field.max));
     }
     Err(QuantityError::OutOfRange {
         text: text.to_string(),
@@ -410,10 +422,81 @@ pub fn check_range(text: &str, value: f64, field: &Field) -> Result<f64, Quantit
     })
 }
 
+/// Relative slack on range limits (see [`check_range`]).
+const RANGE_TOLERANCE: f64 = 1e-12;
+
+/// A value as messages show it: control characters escaped and long text cut with an
+/// ellipsis (see [`crate::text::shown`]).
+fn shown(text: &str) -> String {
+    crate::text::shown(text)
+}
+
+/// SI prefixes this tool does not accept, with their meaning: a message can name them
+/// instead of calling `1 TΩ` "not a resistance".
+const UNSUPPORTED_PREFIXES: [(&str, &str); 6] = [
+    ("T", "tera, 10^12"),
+    ("P", "peta, 10^15"),
+    ("E", "exa, 10^18"),
+    ("a", "atto, 10^-18"),
+    ("z", "zepto, 10^-21"),
+    ("y", "yocto, 10^-24"),
+];
+
+/// `NotAQuantity` for `text`, or a named unsupported prefix when the suffix is a known
+/// unit behind an SI prefix the tool does not take (`1 TΩ`, `5 aA`, `1 GA`).
+fn unsupported_prefix(text: &str, suffix: &str, dimension: Dimension) -> QuantityError {
+    let accepted = "f p n u m k M G (or Meg)";
+    for (unit, dim) in UNITS {
+        let Some(prefix) = suffix.strip_suffix(unit) else {
+            continue;
+        };
+        if prefix.is_empty() || dim != dimension || !dim.takes_prefix() || unit == "R" {
+            continue;
+        }
+        let meaning = UNSUPPORTED_PREFIXES
+            .iter()
+            .find(|(p, _)| *p == prefix)
+            .map(|(_, m)| *m);
+        if let Some(meaning) = meaning {
+            return QuantityError::UnsupportedPrefix {
+                text: text.to_string(),
+                prefix: prefix.to_string(),
+                meaning,
+                expected: dimension,
+                accepted,
+            };
+        }
+    }
+    if dimension == Dimension::Resistance {
+        if let Some((_, meaning)) = UNSUPPORTED_PREFIXES.iter().find(|(p, _)| *p == suffix) {
+            return QuantityError::UnsupportedPrefix {
+                text: text.to_string(),
+                prefix: suffix.to_string(),
+                meaning,
+                expected: dimension,
+                accepted,
+            };
+        }
+    }
+    QuantityError::NotAQuantity {
+        text: text.to_string(),
+        expected: dimension,
+    }
+}
+
 /// Advice for an out-of-range value: a mixed-up `m`/`M`, a missing unit.
 fn range_hint(text: &str, value: f64, field: &Field) -> String {
     let fits = |v: f64| v >= field.min && v <= field.max;
     let t = text.trim();
+    // A negative value where only magnitudes make sense (voltages from the mirror rail,
+    // currents, resistances): say so instead of only giving the range.
+    if value < 0.0 && field.min >= 0.0 && fits(-value) && field.dimension == Dimension::Voltage {
+        let unsigned = t.trim_start_matches(['-', '\u{2212}']);
+        return format!(
+            "; {} is a magnitude here (measured from the mirror rail for NPN and PNP mirrors alike): write it without the sign, as in `{unsigned}`",
+            field.what
+        );
+    }
     if field.dimension.takes_prefix() {
         if let Some((_, rest)) = split_number(t) {
             let rest = rest.trim_start();
@@ -429,7 +512,7 @@ fn range_hint(text: &str, value: f64, field: &Field) -> String {
                     t.replacen('m', "M", 1)
                 );
             }
-            if rest.is_empty() {
+            if rest.is_empty() && value != 0.0 {
                 return format!(
                     "; a bare number is read in {}; add a unit, as in {}",
                     match field.dimension {

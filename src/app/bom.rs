@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 use serde::Serialize;
 
 use super::rank::Bar;
-use super::{load_catalog, read_file, AppError, CatalogSource, Config, Outcome};
+use super::{load_catalog, read_file, AppError, Config, Outcome};
 use crate::bom::candidates::{design_problem, DesignProblem};
 use crate::bom::{self, render, BoardPlan, BomOutcome, Infeasibility};
 use crate::check::MonteCarlo;
@@ -36,11 +36,10 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
     let base = a.file.parent().unwrap_or(Path::new(""));
     let draft = input::load_design(&name, &text, base)?;
     // The design's own catalog wins: the design was written against it.
-    let source = match draft.catalog_path() {
-        Some(p) => CatalogSource::File(p.to_path_buf()),
-        None => cfg.catalog.clone(),
+    let catalog = match draft.catalog_text() {
+        Some((name, text)) => input::load_catalog(name, text)?,
+        None => load_catalog(&cfg.catalog)?.0,
     };
-    let (catalog, _) = load_catalog(&source)?;
     let design = draft.finish(&catalog)?;
 
     let bar = Bar::new();

@@ -130,9 +130,9 @@ impl Outcome {
 pub enum AppError {
     #[error(transparent)]
     Input(#[from] InputError),
-    #[error("cannot read `{path}`: {source}")]
+    #[error("cannot read `{}`: {source}", crate::text::shown(path))]
     Read { path: String, source: io::Error },
-    #[error("no class `{id}` in {catalog}{}; expected one of the ids `catalog list` shows", suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default())]
+    #[error("no class `{}` in {catalog}{}; expected one of the ids `catalog list` shows", crate::text::shown(id), suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default())]
     UnknownClass {
         id: String,
         suggestion: Option<String>,
@@ -142,7 +142,7 @@ pub enum AppError {
     Solve(#[from] solve::SolveCommandError),
     #[error(transparent)]
     Measurements(#[from] crate::fit::CsvError),
-    #[error("unknown topology `{name}`{}; expected one of {}", suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default(), crate::input::list(&crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name().to_string()).collect::<Vec<_>>()))]
+    #[error("unknown topology `{}`{}; expected one of {}", crate::text::shown(name), suggestion.as_ref().map(|s| format!(" (did you mean `{s}`?)")).unwrap_or_default(), crate::input::list(&crate::model::ALL_TOPOLOGIES.iter().map(|t| t.name().to_string()).collect::<Vec<_>>()))]
     UnknownTopology {
         name: String,
         suggestion: Option<String>,
@@ -194,10 +194,13 @@ impl AppError {
 }
 
 /// Read a whole text file, naming it in the error.
+/// At most [`input::MAX_INPUT_BYTES`]; text that is not UTF-8 is an input error at its
+/// first bad byte.
 pub fn read_file(path: &Path) -> Result<String, AppError> {
-    std::fs::read_to_string(path).map_err(|source| AppError::Read {
-        path: path.display().to_string(),
-        source,
+    let name = path.display().to_string();
+    input::read_text(path, &name).map_err(|e| match e {
+        input::ReadError::Io(source) => AppError::Read { path: name, source },
+        input::ReadError::Input(e) => AppError::from(e),
     })
 }
 

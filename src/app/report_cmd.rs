@@ -160,15 +160,14 @@ pub fn run_report(
             .unwrap_or_else(|| "report".into());
         let dir = path.parent().unwrap_or(Path::new(""));
         let (text, sides) = markdown::render(&page, &stem);
-        // Side files first, so the Markdown never points at a missing plot.
-        let pending: Vec<(PendingFile, String)> = sides
+        // All or nothing: every file is written and synced before any is renamed; the
+        // Markdown last, so it never points at a missing plot.
+        let mut files: Vec<(PendingFile, Vec<u8>)> = sides
             .into_iter()
-            .map(|(name, svg)| Ok((PendingFile::create(&dir.join(name))?, svg)))
+            .map(|(name, svg)| Ok((PendingFile::create(&dir.join(name))?, svg.into_bytes())))
             .collect::<Result<_, AppError>>()?;
-        for (p, svg) in pending {
-            p.commit(svg.as_bytes())?;
-        }
-        f.commit(text.as_bytes())?;
+        files.push((f, text.into_bytes()));
+        crate::atomic_file::commit_all(files)?;
     }
     Ok(if run.report.candidates.is_empty() {
         Outcome::NothingPasses

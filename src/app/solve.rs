@@ -60,12 +60,12 @@ pub struct SolveArgs {
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum SolveCommandError {
-    #[error("unknown transistor class `{id}`{}", did_you_mean(.suggestions))]
+    #[error("unknown transistor class `{}`{}", crate::text::shown(id), did_you_mean(.suggestions))]
     UnknownPart {
         id: String,
         suggestions: Vec<String>,
     },
-    #[error("unknown helper class `{id}`{}", did_you_mean(.suggestions))]
+    #[error("unknown helper class `{}`{}", crate::text::shown(id), did_you_mean(.suggestions))]
     UnknownHelper {
         id: String,
         suggestions: Vec<String>,
@@ -77,10 +77,12 @@ pub enum SolveCommandError {
         part: String,
         part_polarity: &'static str,
     },
-    #[error("{what} is {value}, expected {expected}")]
+    #[error("{what} is {}; expected {expected}", crate::units::format_quantity(*value, *dimension))]
     BadValue {
         what: &'static str,
         value: f64,
+        /// The value's dimension, so the message gives its unit.
+        dimension: crate::units::Dimension,
         expected: &'static str,
     },
     /// The emitter resistors given do not describe the mirror asked for.
@@ -171,12 +173,22 @@ fn check(
     ok: bool,
     expected: &'static str,
 ) -> Result<(), SolveCommandError> {
+    use crate::units::Dimension as D;
     if ok && value.is_finite() {
         Ok(())
     } else {
+        let dimension = match what {
+            "the input current" => D::Current,
+            "the output voltage" | "the supply" | "the V_BE offset" => D::Voltage,
+            "the ambient temperature" => D::Temperature,
+            "RE1" | "RE2" => D::Resistance,
+            "the beta deviation" => D::Fraction,
+            _ => D::Number,
+        };
         Err(SolveCommandError::BadValue {
             what,
             value,
+            dimension,
             expected,
         })
     }

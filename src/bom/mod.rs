@@ -99,6 +99,7 @@ pub use plan::{
 };
 pub use problem::{
     BoardProblem, BomError, ChannelOptions, DesignUsage, ResistorPart, ResistorUse, TransistorPart,
+    MAX_COPIES,
 };
 
 use milp::Goal;

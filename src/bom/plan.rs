@@ -3,7 +3,7 @@
 //! every-channel-on-its-own baseline. Built from a solved program; every quantity and
 //! cost here is recounted from the placement itself, not read from the solver.
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 use crate::model::Polarity;
 
@@ -196,6 +196,11 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
     }
     let arrays = pkgs.len();
     let mut spares_left = solved.helpers_in_spares.clone();
+    // Blocks and spare devices are taken in package order and never released, so a
+    // cursor per (class, block size) and per class finds the next free one without
+    // rescanning: the placement is linear in the number of copies.
+    let mut block_cursor: HashMap<(usize, u32), usize> = HashMap::new();
+    let mut spare_cursor: HashMap<usize, usize> = HashMap::new();
     let mut channels = Vec::new();
     for (c, ch) in problem.channels.iter().enumerate() {
         let k = solved.choice[c];
@@ -205,17 +210,20 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
         for copy in 1..=ch.count {
             let mut devs: Vec<(usize, u32)> = Vec::new();
             for &b in &n.blocks {
-                let (p, bi) = pkgs[..arrays]
-                    .iter()
-                    .enumerate()
-                    .filter(|(_, p)| p.class == n.pair_class)
-                    .find_map(|(i, p)| {
-                        p.blocks
-                            .iter()
-                            .position(|&(s, _, taken)| s == b && !taken)
-                            .map(|bi| (i, bi))
-                    })
-                    .expect("the program supplies every block");
+                let cur = block_cursor.entry((n.pair_class, b)).or_insert(0);
+                let (p, bi) = loop {
+                    let p = pkgs[..arrays]
+                        .get(*cur)
+                        .expect("the program supplies every block");
+                    if p.class == n.pair_class {
+                        if let Some(bi) =
+                            p.blocks.iter().position(|&(s, _, taken)| s == b && !taken)
+                        {
+                            break (*cur, bi);
+                        }
+                    }
+                    *cur += 1;
+                };
                 pkgs[p].blocks[bi].2 = true;
                 let first = pkgs[p].blocks[bi].1;
                 devs.extend((first..first + b).map(|dev| (p, dev)));
@@ -233,7 +241,8 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
                         .iter_mut()
                         .filter(|(_, left)| **left > 0)
                         .find_map(|(&c, left)| {
-                            free_spare(&pkgs[..arrays], c).inspect(|_| *left -= 1)
+                            free_spare(&pkgs[..arrays], c, &mut spare_cursor)
+                                .inspect(|_| *left -= 1)
                         })
                 });
                 let slot = spare.unwrap_or_else(|| (new_single(&mut pkgs, h), 0));
@@ -430,16 +439,26 @@ fn new_single(pkgs: &mut Vec<Pkg>, class: usize) -> usize {
 }
 
 /// The first free device outside every block, in a package of the given class.
-fn free_spare(arrays: &[Pkg], class: usize) -> Option<(usize, u32)> {
-    arrays.iter().enumerate().find_map(|(i, p)| {
-        if p.class != class {
-            return None;
+/// Packages before `cursor[class]` have no free spare device left (spares are taken in
+/// order and never released), so the search starts there.
+fn free_spare(
+    arrays: &[Pkg],
+    class: usize,
+    cursor: &mut HashMap<usize, usize>,
+) -> Option<(usize, u32)> {
+    let cur = cursor.entry(class).or_insert(0);
+    while let Some(p) = arrays.get(*cur) {
+        if p.class == class {
+            let in_blocks: u32 = p.blocks.iter().map(|b| b.0).sum();
+            if let Some(d) =
+                (in_blocks..p.devices.len() as u32).find(|&d| p.devices[d as usize].is_none())
+            {
+                return Some((*cur, d));
+            }
         }
-        let in_blocks: u32 = p.blocks.iter().map(|b| b.0).sum();
-        (in_blocks..p.devices.len() as u32)
-            .find(|&d| p.devices[d as usize].is_none())
-            .map(|d| (i, d))
-    })
+        *cur += 1;
+    }
+    None
 }
 
 fn baseline(problem: &BoardProblem, prep: &Prepared) -> Baseline {

@@ -95,6 +95,8 @@ pub struct DesignUsage {
     pub governing_margin: f64,
 }
 
+pub use crate::model::MAX_COPIES;
+
 /// One channel of the board: `count` identical copies, all built with the same design.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ChannelOptions {
@@ -184,8 +186,9 @@ impl BoardProblem {
                 self.line_item_cost
             ));
         }
-        for (i, t) in self.transistors.iter().enumerate() {
-            if self.transistors[..i].iter().any(|u| u.id == t.id) {
+        let mut seen = std::collections::HashSet::new();
+        for t in &self.transistors {
+            if !seen.insert(t.id.as_str()) {
                 return bad(format!("transistor class `{}` is listed twice", t.id));
             }
             if t.devices_per_package == 0 {
@@ -201,8 +204,9 @@ impl BoardProblem {
                 ));
             }
         }
-        for (i, r) in self.resistors.iter().enumerate() {
-            if self.resistors[..i].iter().any(|u| u.id == r.id) {
+        let mut seen = std::collections::HashSet::new();
+        for r in &self.resistors {
+            if !seen.insert(r.id.as_str()) {
                 return bad(format!("resistor class `{}` is listed twice", r.id));
             }
             if !finite_non_negative(r.unit_cost) {
@@ -212,12 +216,16 @@ impl BoardProblem {
                 ));
             }
         }
-        for (i, ch) in self.channels.iter().enumerate() {
-            if self.channels[..i].iter().any(|c| c.name == ch.name) {
+        let mut seen = std::collections::HashSet::new();
+        for ch in &self.channels {
+            if !seen.insert(ch.name.as_str()) {
                 return bad(format!("channel `{}` is listed twice", ch.name));
             }
-            if ch.count == 0 {
-                return bad(format!("channel `{}`: count must be at least 1", ch.name));
+            if ch.count == 0 || ch.count > MAX_COPIES {
+                return bad(format!(
+                    "channel `{}`: count must be from 1 to {MAX_COPIES}, not {}",
+                    ch.name, ch.count
+                ));
             }
             for (k, o) in ch.options.iter().enumerate() {
                 self.validate_option(ch, k, o)?;

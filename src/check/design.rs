@@ -296,6 +296,8 @@ pub(crate) mod tests {
                 tcr_per_k: 100e-6,
                 unit_cost: 0.005,
                 provenance: String::new(),
+                min_ohm: crate::model::DEFAULT_MIN_OHM,
+                max_ohm: crate::model::DEFAULT_MAX_OHM,
             }],
         }
     }

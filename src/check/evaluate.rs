@@ -60,6 +60,8 @@ pub struct Figures {
     pub error_total: f64,
     /// Monte Carlo yield on the first-order model (NaN when not computed).
     pub yield_fraction: f64,
+    /// Monte Carlo builds behind `yield_fraction` (0 when no yield was sampled).
+    pub yield_samples: u32,
     /// Monte Carlo yield with every build re-solved (NaN unless asked for).
     pub yield_solved: f64,
     /// Smallest solved output resistance (NaN when not computed).
@@ -76,6 +78,7 @@ impl Default for Figures {
             error_random_sigma: f64::NAN,
             error_total: f64::NAN,
             yield_fraction: f64::NAN,
+            yield_samples: 0,
             yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: f64::NAN,
@@ -610,6 +613,7 @@ impl<'a> Evaluator<'a> {
                 let sens: Vec<Sensitivities> = sens.iter().flatten().copied().collect();
                 figures.yield_fraction =
                     linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples);
+                figures.yield_samples = mc.samples;
             }
             if let Some(min) = req.min_yield {
                 checks.push(if all_builds {
@@ -617,7 +621,16 @@ impl<'a> Evaluator<'a> {
                         CheckName::Yield,
                         figures.yield_fraction,
                         min,
-                        format!("{} builds, seed {}", mc.samples, mc.seed),
+                        match super::wilson_interval(figures.yield_fraction, mc.samples) {
+                            Some([lo, hi]) => format!(
+                                "{} builds, seed {}; 95 % CI {:.1}–{:.1} %",
+                                mc.samples,
+                                mc.seed,
+                                lo * 100.0,
+                                hi * 100.0
+                            ),
+                            None => format!("{} builds, seed {}", mc.samples, mc.seed),
+                        },
                     )
                 } else {
                     Check::not_available(CheckName::Yield, min, NEEDS_ALL)

@@ -7,6 +7,7 @@
 //! operating points.
 
 mod budget;
+mod confidence;
 mod corners;
 mod design;
 mod evaluate;
@@ -19,6 +20,7 @@ use std::sync::atomic::AtomicU64;
 pub use budget::{
     BudgetLine, ErrorBudget, RandomCause, Sensitivities, SystematicCause, RANDOM_INPUTS,
 };
+pub use confidence::{wilson_interval, MIN_SAMPLES};
 pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
 pub use design::{
     helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package,

@@ -185,6 +185,20 @@ pub enum SolveFailure {
         /// The hottest junction temperature reached while searching, kelvin.
         t_max_k: f64,
     },
+    /// No solution was found and the input side alone would need more than the supply:
+    /// the programming current cannot flow (the input would have to rise above the rail
+    /// that feeds it).
+    #[error(
+        "{} with {part} cannot carry I_in = {} A from a {} V supply: the input side needs about {:.3} V ({:.3} V more than the supply); lower the emitter resistors or the input current, or raise the supply",
+        topology.name(), point.i_in_a, point.supply_v, needed_v, needed_v - point.supply_v
+    )]
+    InputAboveSupply {
+        topology: Topology,
+        part: String,
+        point: OperatingPoint,
+        /// The input voltage the closed-form estimate needs, volts from the mirror rail.
+        needed_v: f64,
+    },
     #[error(
         "{} needs a helper transistor and {part} has no spare device; name a single-device class",
         topology.name()

@@ -10,6 +10,12 @@ use crate::device::{Bjt, BjtAtT, Region};
 use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass};
 use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
 
+/// Absolute KCL floor as a fraction of the input current (see `solve_full`).
+/// 1e-12 of I_in: a thousandth of the relative tolerance applied to the input current.
+/// It covers nodes whose own currents are tiny, where the last bit of a node voltage
+/// times a device's conductance is all that is left (about 1e-19 A at 50 µA and 40 V).
+pub(crate) const KCL_FLOOR_OF_INPUT: f64 = 1e-12;
+
 /// Most unknown node voltages of any topology.
 pub const MAX_NODES: usize = 6;
 /// Most transistors of any topology.
@@ -286,6 +292,32 @@ impl Netlist {
         }
     }
 
+    /// Why a point could not be solved: the input side needing more than the supply when
+    /// the closed-form estimate says so, otherwise a plain failure to converge.
+    fn unsolved(&self, sys: &CircuitSystem, c: solve::Convergence) -> SolveFailure {
+        let op = &sys.op;
+        let inputs = EstimateInputs {
+            beta: self.beta_nom,
+            early_voltage_v: None,
+            i_in_a: op.i_in_a,
+            thermal_voltage_v: sys.at[0].vt,
+            // The smallest plausible silicon V_BE: the estimate errs low.
+            vbe_v: 0.4,
+            re1_ohm: sys.res_ohm_for("e1", self),
+            re2_ohm: sys.res_ohm_for("e2", self),
+        };
+        let needed_v = (self.topology.desc().estimates.input_voltage_v)(&inputs);
+        if needed_v.is_finite() && needed_v > op.supply_v {
+            return SolveFailure::InputAboveSupply {
+                topology: self.topology,
+                part: self.part.clone(),
+                point: *op,
+                needed_v,
+            };
+        }
+        self.no_convergence(op, c)
+    }
+
     fn no_convergence(&self, op: &OperatingPoint, c: solve::Convergence) -> SolveFailure {
         let residual = match c {
             solve::Convergence::MaxIterations { residual, .. } => residual,
@@ -476,6 +508,70 @@ impl Netlist {
         x
     }
 
+    /// The last resort for points the direct solve cannot reach (far below compliance,
+    /// an output device deep in saturation): walk the operating point to the target from
+    /// one that solves directly, each step started from the last solution. First V_out
+    /// down from the supply (the output device forward-active), then I_in up from a
+    /// thousandth of its value. Returns the solution of the target point itself.
+    fn solve_by_stepping(
+        &self,
+        sys: &mut CircuitSystem,
+        newton: &NewtonOptions,
+    ) -> Option<(Vector, u32)> {
+        let target = sys.op;
+        let mut total = 0;
+        type Path = fn(&OperatingPoint, f64) -> OperatingPoint;
+        let by_vout: Path = |t, lam| OperatingPoint {
+            v_out_v: t.supply_v + lam * (t.v_out_v - t.supply_v),
+            ..*t
+        };
+        let by_iin: Path = |t, lam| OperatingPoint {
+            i_in_a: t.i_in_a * 1e-3f64.powf(1.0 - lam),
+            ..*t
+        };
+        let paths: [(bool, Path); 2] =
+            [(target.v_out_v < target.supply_v, by_vout), (true, by_iin)];
+        for (useful, path) in paths {
+            if !useful {
+                continue;
+            }
+            sys.op = path(&target, 0.0);
+            let mut x = self.start_point(sys);
+            let g = 100.0 * sys.op.i_in_a / sys.at[0].vt;
+            let o = solve::solve_with_continuation(&*sys, &mut x, newton, g);
+            total += o.iterations;
+            if !o.convergence.is_converged() {
+                continue;
+            }
+            let (mut lam, mut step) = (0.0f64, 0.125f64);
+            while lam < 1.0 && step > 1e-5 {
+                let next = (lam + step).min(1.0);
+                sys.op = path(&target, next);
+                let mut xt = x;
+                let mut c = solve::solve(&*sys, &mut xt, newton);
+                total += c.iterations();
+                if !c.is_converged() {
+                    xt = x;
+                    c = solve::solve_damped(&*sys, &mut xt, newton);
+                    total += c.iterations();
+                }
+                if c.is_converged() {
+                    x = xt;
+                    lam = next;
+                    step = (step * 2.0).min(0.5);
+                } else {
+                    step *= 0.25;
+                }
+            }
+            if lam >= 1.0 {
+                sys.op = target;
+                return Some((x, total));
+            }
+        }
+        sys.op = target;
+        None
+    }
+
     #[cfg(test)]
     pub(super) fn start_point_for_tests(&self, sys: &CircuitSystem) -> Vector {
         self.start_point(sys)
@@ -497,15 +593,25 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<(Solution, CircuitSystem<'n>, Vector), SolveFailure> {
         self.check_point(op)?;
-        let newton = NewtonOptions::default();
+        let mut newton = NewtonOptions::default();
+        // KCL is judged relative to the currents at each node; the absolute floor only
+        // covers nodes where every current is tiny, so it scales with the input current
+        // (1 pA on its own would be the whole current of a picoamp mirror).
+        newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
         let mut sys = CircuitSystem::new(self, *op);
         let mut x = self.start_point(&sys);
         let g_start = 100.0 * op.i_in_a / sys.at[0].vt;
         let out = solve::solve_with_continuation(&sys, &mut x, &newton, g_start);
-        if !out.convergence.is_converged() {
-            return Err(self.no_convergence(op, out.convergence));
-        }
         let mut iterations = out.iterations;
+        if !out.convergence.is_converged() {
+            match self.solve_by_stepping(&mut sys, &newton) {
+                Some((xs, its)) => {
+                    x = xs;
+                    iterations += its;
+                }
+                None => return Err(self.unsolved(&sys, out.convergence)),
+            }
+        }
         if opts.self_heating {
             iterations += self.solve_thermal(&mut sys, &mut x, op, &newton)?;
         }

@@ -214,7 +214,7 @@ impl fmt::Display for FitWarning {
 }
 
 /// A parameter value or change with two significant digits and its unit.
-fn param_figure(kind: ParamKind, v: f64) -> String {
+pub(crate) fn param_figure(kind: ParamKind, v: f64) -> String {
     match kind {
         ParamKind::Bf => figures::plain(v, 2),
         ParamKind::Vaf | ParamKind::VbeOffset => figures::prefixed(v, "V", 2),

@@ -27,6 +27,7 @@
 //! | `unit_cost` | 0 to 10000 |
 //! | resistor `tolerance` | 0.001 % to 20 % |
 //! | resistor `tcr` | 0 to 5000 ppm/K |
+//! | resistor `min_value`, `max_value` | 1 mΩ to 1 TΩ (defaults 1 Ω and 10 MΩ: the range general-purpose film chips are made in, common practice, no source); `max_value` above `min_value` |
 
 use std::collections::HashMap;
 
@@ -36,9 +37,9 @@ use super::raw::{RawCatalog, RawPolarity, RawQty};
 use super::{deserialize, unknown_value, Ctx, InputError, Problem};
 use crate::model::{
     BjtParams, Catalog, Matching, Polarity, Ratings, ResistorClass, Series, Thermal,
-    TransistorClass,
+    TransistorClass, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM,
 };
-use crate::units::{Dimension as D, Field};
+use crate::units::{format_quantity, Dimension as D, Field};
 
 /// The catalog shipped inside the binary, used when `--catalog` is not given.
 pub const DEFAULT_CATALOG_YAML: &str = include_str!("../../catalog/default.yaml");
@@ -96,6 +97,7 @@ fn tf(name: &str) -> &'static Field {
 
 const COST: Field = Field::new("a unit cost", D::Number, 0.0, 1e4);
 const TOLERANCE: Field = Field::new("a resistor tolerance", D::Fraction, 1e-5, 0.2);
+const RESISTOR_VALUE: Field = Field::new("a resistor value", D::Resistance, 1e-3, 1e12);
 const TCR: Field = Field::new("a resistor TCR", D::TempCoefficient, 0.0, 5e-3);
 
 /// Load the embedded default catalog.
@@ -129,8 +131,19 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
         if !ok {
             return Err(cx.invalid(
                 &path,
-                format!("`{id}` is not a valid class id"),
+                format!("`{}` is not a valid class id", crate::text::shown(id)),
                 "lowercase letters, digits and dashes, such as `npn-dual-general`",
+            ));
+        }
+        let chars = id.chars().count();
+        if chars > super::MAX_NAME_CHARS {
+            return Err(cx.invalid(
+                &path,
+                format!(
+                    "a class id of {chars} characters (`{}`)",
+                    crate::text::shown(id)
+                ),
+                format!("an id of at most {} characters", super::MAX_NAME_CHARS),
             ));
         }
         if let Some(first) = seen.get(id) {
@@ -234,7 +247,26 @@ pub fn load_catalog(file: &str, text: &str) -> Result<Catalog, InputError> {
             let names: Vec<String> = Series::ALL.iter().map(|s| s.as_str().to_string()).collect();
             cx.error(&p("series"), unknown_value(&p("series"), &r.series, &names))
         })?;
+        let min_ohm = cx
+            .opt_qty(&p("min_value"), &r.min_value, &RESISTOR_VALUE)?
+            .unwrap_or(DEFAULT_MIN_OHM);
+        let max_ohm = cx
+            .opt_qty(&p("max_value"), &r.max_value, &RESISTOR_VALUE)?
+            .unwrap_or(DEFAULT_MAX_OHM);
+        if min_ohm >= max_ohm {
+            return Err(cx.invalid(
+                &p("max_value"),
+                format!(
+                    "the value range {} to {} is empty",
+                    format_quantity(min_ohm, crate::units::Dimension::Resistance),
+                    format_quantity(max_ohm, crate::units::Dimension::Resistance)
+                ),
+                "`max_value` above `min_value` (defaults 1 Ω and 10 MΩ)",
+            ));
+        }
         resistors.push(ResistorClass {
+            min_ohm,
+            max_ohm,
             id,
             summary: cx.non_empty(&p("summary"), &r.summary)?,
             series,
@@ -359,6 +391,8 @@ pub fn catalog_to_yaml(c: &Catalog) -> String {
                 ("tcr", num(r.tcr_per_k)),
                 ("unit_cost", num(r.unit_cost)),
                 ("provenance", s(&r.provenance)),
+                ("min_value", num(r.min_ohm)),
+                ("max_value", num(r.max_ohm)),
             ])
         })
         .collect();

@@ -36,6 +36,7 @@ use crate::units::{Dimension as D, Field};
 const LINE_ITEM_COST: Field = Field::new("a line-item cost", D::Number, 0.0, 1e6);
 /// Most boards per build accepted (a typo guard, not a physical limit).
 const MAX_BOARDS: u32 = 10_000_000;
+use crate::model::MAX_COPIES;
 
 /// A design file read and checked on its own, waiting for its catalog.
 #[derive(Debug)]
@@ -44,6 +45,8 @@ pub struct DesignDraft {
     text: String,
     raw: RawDesign,
     catalog: Option<PathBuf>,
+    /// The catalog file the design names, read: (name for messages, text).
+    catalog_text: Option<(String, String)>,
     /// Per channel: the included requirement file (name for messages, text), or `None`
     /// for an inline requirement.
     included: Vec<Option<(String, String)>>,
@@ -58,7 +61,7 @@ pub fn load_design(file: &str, text: &str, base_dir: &Path) -> Result<DesignDraf
         "a board design with `name`, `boards` and `channels`",
     )?;
     let cx = Ctx::new(file, text);
-    cx.non_empty("name", &raw.name)?;
+    cx.name("name", &raw.name, "board name")?;
     if raw.boards == 0 || raw.boards > MAX_BOARDS {
         return Err(cx.invalid(
             "boards",
@@ -94,46 +97,60 @@ pub fn load_design(file: &str, text: &str, base_dir: &Path) -> Result<DesignDraf
         Some(c) => Some(base_dir.join(c.trim())),
         None => None,
     };
+    // Read the catalog now, so a missing one is reported at the design's `catalog:` line.
+    let catalog_text = match &catalog {
+        Some(path) => Some(read_named(
+            &cx,
+            "catalog",
+            path,
+            "a path to a catalog file, relative to the design file",
+        )?),
+        None => None,
+    };
     let mut included = Vec::with_capacity(raw.channels.len());
+    let mut first_named = std::collections::HashMap::new();
     for (i, ch) in raw.channels.iter().enumerate() {
         let at = |f: &str| format!("channels[{i}].{f}");
-        cx.non_empty(&at("name"), &ch.name)?;
-        if let Some(first) = raw.channels[..i]
-            .iter()
-            .position(|c| c.name.trim() == ch.name.trim())
-        {
+        cx.name(&at("name"), &ch.name, "channel name")?;
+        if let Some(&first) = first_named.get(ch.name.trim()) {
             return Err(cx.invalid(
                 &at("name"),
                 format!(
                     "channel `{}` is named twice (first as channel {})",
-                    ch.name.trim(),
+                    crate::text::shown(ch.name.trim()),
                     first + 1
                 ),
                 "a distinct name for every channel",
             ));
         }
-        if ch.count == Some(0) {
-            return Err(cx.invalid(
-                &at("count"),
-                "a count of 0 copies",
-                "1 or more identical copies (or no `count`: the requirement's `quantity`)",
-            ));
+        first_named.insert(ch.name.trim(), i);
+        match ch.count {
+            Some(0) => {
+                return Err(cx.invalid(
+                    &at("count"),
+                    "a count of 0 copies",
+                    "1 or more identical copies (or no `count`: the requirement's `quantity`)",
+                ))
+            }
+            Some(n) if n > MAX_COPIES => {
+                return Err(cx.invalid(
+                    &at("count"),
+                    format!("a count of {n} copies"),
+                    format!("1 to {MAX_COPIES} identical copies of one channel per board"),
+                ))
+            }
+            _ => {}
         }
         included.push(match &ch.requirement {
             RawRequirementSource::Inline(_) => None,
             RawRequirementSource::Path(p) => {
                 let path = base_dir.join(p.trim());
-                let name = path.display().to_string();
-                match std::fs::read_to_string(&path) {
-                    Ok(text) => Some((name, text)),
-                    Err(e) => {
-                        return Err(cx.invalid(
-                            &at("requirement"),
-                            format!("cannot read the requirement file `{name}`: {e}"),
-                            "a path to a requirement file, relative to the design file",
-                        ))
-                    }
-                }
+                Some(read_named(
+                    &cx,
+                    &at("requirement"),
+                    &path,
+                    "a path to a requirement file, relative to the design file",
+                )?)
             }
         });
     }
@@ -142,14 +159,47 @@ pub fn load_design(file: &str, text: &str, base_dir: &Path) -> Result<DesignDraf
         text: text.to_string(),
         raw,
         catalog,
+        catalog_text,
         included,
     })
+}
+
+/// Read a file the design names at `path_in_design`: (its name, its text). A file that
+/// cannot be opened is an error at that line of the design; a file that is too large or
+/// not UTF-8 is an error in the file itself.
+fn read_named(
+    cx: &Ctx,
+    path_in_design: &str,
+    path: &Path,
+    expected: &str,
+) -> Result<(String, String), InputError> {
+    let name = path.display().to_string();
+    match super::read_text(path, &name) {
+        Ok(text) => Ok((name, text)),
+        Err(super::ReadError::Input(e)) => Err(e),
+        Err(super::ReadError::Io(e)) => Err(cx.invalid(
+            path_in_design,
+            format!(
+                "cannot read the {} file `{}`: {e}",
+                path_in_design.rsplit('.').next().unwrap_or(path_in_design),
+                crate::text::shown(&name)
+            ),
+            expected,
+        )),
+    }
 }
 
 impl DesignDraft {
     /// The catalog the design names (already joined to the design file's directory).
     pub fn catalog_path(&self) -> Option<&Path> {
         self.catalog.as_deref()
+    }
+
+    /// The catalog the design names, as read by [`load_design`]: (name, text).
+    pub fn catalog_text(&self) -> Option<(&str, &str)> {
+        self.catalog_text
+            .as_ref()
+            .map(|(n, t)| (n.as_str(), t.as_str()))
     }
 
     /// Validate every requirement and the `allow`/`deny` names against `catalog`.
@@ -173,6 +223,16 @@ impl DesignDraft {
                     unreachable!("load_design reads every included requirement")
                 }
             };
+            if ch.count.is_none() && requirement.quantity > MAX_COPIES {
+                return Err(cx.invalid(
+                    &format!("channels[{i}].requirement"),
+                    format!(
+                        "the channel has no `count`, so it takes the requirement's `quantity`, {} copies",
+                        requirement.quantity
+                    ),
+                    format!("1 to {MAX_COPIES} copies per board: give the channel a `count`"),
+                ));
+            }
             channels.push(DesignChannel {
                 name: ch.name.trim().to_string(),
                 count: ch.count.unwrap_or(requirement.quantity),

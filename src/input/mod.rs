@@ -15,6 +15,7 @@ mod design;
 mod positions;
 mod raw;
 mod requirement;
+mod source;
 
 use std::fmt;
 
@@ -22,13 +23,21 @@ pub use catalog::{catalog_to_yaml, load_catalog, load_default_catalog, DEFAULT_C
 pub use catalog::{DEFAULT_CATALOG_YAML, TRANSISTOR_FIELDS};
 pub use design::{load_design, DesignDraft};
 pub use positions::Position;
+pub use positions::{MAX_DEPTH, MAX_SCALAR_CHARS};
 pub use requirement::{load_requirement, requirement_to_yaml, REQUIREMENT_FIELDS};
+pub use source::{read_text, text_of, ReadError, MAX_INPUT_BYTES};
+
+use crate::text::shown;
+
+/// Longest class id, channel or board name, in characters: ids are typed on command
+/// lines and shown in table columns.
+pub const MAX_NAME_CHARS: usize = 64;
 
 use crate::units::QuantityError;
 
 /// A bad input file: where, and what is wrong.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("{file}:{}:{}: {problem}", position.line, position.col)]
+#[error("{}:{}:{}: {problem}", crate::text::escaped(file), position.line, position.col)]
 pub struct InputError {
     /// The file name as the user gave it.
     pub file: String,
@@ -44,10 +53,29 @@ pub enum Problem {
     Empty(&'static str),
     #[error("{0}")]
     Syntax(String),
+    #[error("the file is larger than {} MiB; expected a catalog, requirement, design or bench file of a reasonable size", limit / (1024 * 1024))]
+    TooLarge { limit: u64 },
+    #[error("byte 0x{byte:02X} is not UTF-8 text; expected a file saved as UTF-8")]
+    NotUtf8 { byte: u8 },
+    #[error("mappings and lists nest more than {limit} levels deep here; expected a flatter file (the formats need fewer than 10 levels)")]
+    TooDeep { limit: usize },
+    #[error(
+        "a {what} of {chars} characters (`{}…`); expected at most {limit} characters",
+        crate::text::escaped(start)
+    )]
+    TooLong {
+        /// "value" or "key".
+        what: &'static str,
+        chars: usize,
+        limit: usize,
+        /// The value's first characters, for the message.
+        start: String,
+    },
     #[error("the document expands too much through anchors and aliases ({0}); expected a plain file without repeated alias expansion")]
     AliasBomb(String),
     #[error(
-        "unknown field `{field}`{}; expected one of {}",
+        "unknown field `{}`{}; expected one of {}",
+        shown(field),
         did_you_mean_text(suggestion),
         list(expected)
     )]
@@ -57,7 +85,8 @@ pub enum Problem {
         expected: Vec<String>,
     },
     #[error(
-        "unknown value `{value}`{}; expected one of {}",
+        "unknown value `{}`{}; expected one of {}",
+        shown(value),
         did_you_mean_text(suggestion),
         list(expected)
     )]
@@ -80,7 +109,10 @@ pub enum Problem {
         what: String,
         expected: String,
     },
-    #[error("duplicate id `{id}` (first used on line {first_line}); expected every class id to be unique")]
+    #[error(
+        "duplicate id `{}` (first used on line {first_line}); expected every class id to be unique",
+        shown(id)
+    )]
     DuplicateId { id: String, first_line: usize },
 }
 
@@ -107,9 +139,16 @@ pub fn did_you_mean<'a, I>(word: &str, candidates: I) -> Option<String>
 where
     I: IntoIterator<Item = &'a str>,
 {
-    let limit = (word.chars().count() / 3).max(1);
+    let len = word.chars().count();
+    // Edit distance costs the product of the lengths: a word far longer than any name
+    // cannot be a typo of one, so huge values are not compared at all.
+    if len > 2 * MAX_NAME_CHARS {
+        return None;
+    }
+    let limit = (len / 3).max(1);
     candidates
         .into_iter()
+        .filter(|c| c.len() <= 4 * MAX_NAME_CHARS)
         .map(|c| (edit_distance(&word.to_lowercase(), &c.to_lowercase()), c))
         .filter(|(d, _)| *d <= limit)
         .min_by_key(|(d, _)| *d)
@@ -154,14 +193,11 @@ fn deserialize<T: serde::de::DeserializeOwned>(
         });
     }
     let positions = positions::Positions::of(text);
-    if let Some(position) = positions.bomb_at {
+    if let Some((position, problem)) = positions.refused.clone() {
         return Err(InputError {
             file: file.to_string(),
             position,
-            problem: Box::new(Problem::AliasBomb(format!(
-                "more than {} nodes once aliases are expanded",
-                positions::EXPANSION_LIMIT
-            ))),
+            problem: Box::new(problem),
         });
     }
     serde_yaml::from_str(text).map_err(|e| {
@@ -218,9 +254,36 @@ fn backticked(s: &str) -> Vec<String> {
         .collect()
 }
 
+/// `msg` with every double-quoted value longer than a message should repeat cut with an
+/// ellipsis (serde quotes the offending value: a whole CSV read as one YAML string).
+fn cut_quoted(msg: &str) -> String {
+    let parts: Vec<&str> = msg.split('"').collect();
+    if parts.len() < 3 {
+        return crate::text::escaped(msg).into_owned();
+    }
+    let mut out = String::with_capacity(msg.len().min(1024));
+    for (i, p) in parts.iter().enumerate() {
+        if i > 0 {
+            out.push('"');
+        }
+        // Odd pieces sit between quotes (an unmatched last quote leaves the tail as is).
+        if i % 2 == 1 && i + 1 < parts.len() {
+            out.push_str(&shown(p));
+        } else {
+            out.push_str(&crate::text::escaped(p));
+        }
+    }
+    out
+}
+
 fn serde_problem(raw: &str) -> Problem {
-    let msg = strip_marks(raw);
-    if msg.contains("repetition limit exceeded") || msg.contains("recursion limit exceeded") {
+    let msg = cut_quoted(&strip_marks(raw));
+    if msg.contains("recursion limit exceeded") {
+        return Problem::TooDeep {
+            limit: positions::MAX_DEPTH,
+        };
+    }
+    if msg.contains("repetition limit exceeded") {
         return Problem::AliasBomb(msg);
     }
     // serde_yaml prefixes a path (`transistor_classes[0].model: ...`); keep it.
@@ -286,7 +349,8 @@ fn unknown_value(path: &str, value: &str, expected: &[String]) -> Problem {
     Problem::Invalid {
         path: path.to_string(),
         what: format!(
-            "unknown value `{value}`{}",
+            "unknown value `{}`{}",
+            shown(value),
             did_you_mean_text(&did_you_mean(value, expected.iter().map(String::as_str)))
         ),
         expected: format!("one of {}", list(expected)),
@@ -392,7 +456,38 @@ impl<'a> Ctx<'a> {
         if s.trim().is_empty() {
             return Err(self.invalid(path, "the text is empty", "a short description"));
         }
-        Ok(s.trim().to_string())
+        // Free text reaches terminals, tables and reports: control characters (ESC, BEL)
+        // are kept visible but harmless, escaped as `\e`, `\a`.
+        Ok(crate::text::escaped(s.trim()).into_owned())
+    }
+
+    /// A class id, channel or board name: not empty, at most [`MAX_NAME_CHARS`]
+    /// characters, no control characters. Returns it trimmed.
+    fn name(&self, path: &str, s: &str, what: &str) -> Result<String, InputError> {
+        let t = s.trim();
+        if t.is_empty() {
+            return Err(self.invalid(path, format!("the {what} is empty"), format!("a {what}")));
+        }
+        let chars = t.chars().count();
+        if chars > MAX_NAME_CHARS {
+            return Err(self.invalid(
+                path,
+                format!("a {what} of {chars} characters (`{}`)", shown(t)),
+                format!("a {what} of at most {MAX_NAME_CHARS} characters"),
+            ));
+        }
+        if let Some(c) = t.chars().find(|c| c.is_control()) {
+            return Err(self.invalid(
+                path,
+                format!(
+                    "the {what} `{}` holds the control character {}",
+                    shown(t),
+                    crate::text::escaped(&c.to_string())
+                ),
+                format!("a {what} of printable characters"),
+            ));
+        }
+        Ok(t.to_string())
     }
 }
 

@@ -7,7 +7,9 @@
 
 use std::collections::{HashMap, HashSet};
 
-use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use yaml_rust2::parser::{Event, Parser};
+
+use super::Problem;
 use yaml_rust2::scanner::Marker;
 
 /// Line and column, both 1-based.
@@ -24,27 +26,67 @@ impl Position {
 #[derive(Debug, Default, Clone)]
 pub struct Positions {
     map: HashMap<String, Position>,
-    /// Where the document, with every alias expanded, first grows past
-    /// [`EXPANSION_LIMIT`] nodes (an alias bomb), if it does.
-    pub bomb_at: Option<Position>,
+    /// The first reason the document is refused before it is deserialised, and where:
+    /// an alias bomb (aliases add more than [`EXPANSION_LIMIT`] nodes), nesting deeper
+    /// than [`MAX_DEPTH`], a scalar longer than [`MAX_SCALAR_CHARS`] or a key longer than
+    /// [`MAX_KEY_CHARS`]. The walk stops there, so its cost stays linear in the text.
+    pub refused: Option<(Position, Problem)>,
     /// The first key that repeats within one mapping, and where it repeats.
     pub duplicate_key: Option<(String, Position)>,
 }
 
-/// Largest number of nodes a document may have once aliases are expanded. Real catalogs
-/// have a few thousand; a "billion laughs" document has hundreds of millions.
+/// Most nodes aliases may add to a document once expanded. Plain nodes are not counted:
+/// an honest catalog of thousands of classes has hundreds of thousands of them, while a
+/// "billion laughs" document adds hundreds of millions through its aliases.
 pub const EXPANSION_LIMIT: u64 = 100_000;
 
+/// Deepest nesting of mappings and lists. The formats need fewer than 10 levels; the
+/// cap keeps the parsers' work (which grows with depth) small.
+pub const MAX_DEPTH: usize = 32;
+
+/// Longest scalar value, in characters (descriptions and provenance notes included).
+pub const MAX_SCALAR_CHARS: usize = 4096;
+
+/// Longest mapping key, in characters: every key of the formats is a field name.
+pub const MAX_KEY_CHARS: usize = 64;
+
+/// Total bytes of recorded paths after which no more positions are recorded (later
+/// values are located at their nearest recorded ancestor). Keeps memory linear in the
+/// text whatever its shape.
+const PATH_BUDGET_BYTES: usize = 64 << 20;
+
 impl Positions {
-    /// Walk `text`. A document that fails to scan yields an empty map (the caller has
-    /// already reported syntax errors through serde).
+    /// Walk `text`. A document that fails to scan yields the map up to the failure (the
+    /// caller reports syntax errors through serde).
     pub fn of(text: &str) -> Positions {
+        if let Some(line) = too_indented(text) {
+            return Positions {
+                refused: Some((
+                    Position { line, col: 1 },
+                    Problem::TooDeep { limit: MAX_DEPTH },
+                )),
+                ..Positions::default()
+            };
+        }
         let mut walker = Walker::default();
         let mut parser = Parser::new_from_str(text);
-        let _ = parser.load(&mut walker, false);
+        while walker.refused.is_none() {
+            match parser.next_token() {
+                Ok((Event::StreamEnd, _)) => break,
+                Ok((ev, mark)) => walker.on_event(ev, mark),
+                Err(e) => {
+                    // The scanner's own nesting limit (flow collections, 255 levels) can
+                    // trip before the walk reaches MAX_DEPTH: the same refusal.
+                    if e.info().contains("recursion limit") {
+                        walker.refuse(*e.marker(), Problem::TooDeep { limit: MAX_DEPTH });
+                    }
+                    break;
+                }
+            }
+        }
         Positions {
             map: walker.map,
-            bomb_at: walker.bomb_at,
+            refused: walker.refused,
             duplicate_key: walker.duplicate_key,
         }
     }
@@ -64,6 +106,31 @@ impl Positions {
     }
 }
 
+/// Block nesting takes at least one column per level: a line whose indentation and
+/// leading `- ` / `? ` / `: ` indicators reach past this column nests far too deep, and
+/// is refused before the parser builds its indentation stack.
+const MAX_INDENT_COLUMNS: usize = 512;
+
+/// The first line (1-based) indented past [`MAX_INDENT_COLUMNS`], if any.
+fn too_indented(text: &str) -> Option<usize> {
+    for (i, line) in text.lines().enumerate() {
+        let b = line.as_bytes();
+        let mut c = 0;
+        while c < b.len() {
+            let indicator = matches!(b[c], b'-' | b'?' | b':')
+                && b.get(c + 1).is_none_or(|x| *x == b' ' || *x == b'\t');
+            if !(b[c] == b' ' || b[c] == b'\t' || indicator) {
+                break;
+            }
+            c += 1;
+            if c > MAX_INDENT_COLUMNS {
+                return Some(i + 1);
+            }
+        }
+    }
+    None
+}
+
 enum Frame {
     Map {
         key: Option<String>,
@@ -79,27 +146,48 @@ enum Frame {
 struct Walker {
     stack: Vec<Frame>,
     map: HashMap<String, Position>,
+    path_bytes: usize,
     /// Expanded node count of each open collection, with its anchor id (0 = none).
     sizes: Vec<(u64, usize)>,
     /// Expanded node count of each anchored node.
     anchors: HashMap<usize, u64>,
-    total: u64,
-    bomb_at: Option<Position>,
+    /// Nodes added by alias expansion so far.
+    added: u64,
+    refused: Option<(Position, Problem)>,
     duplicate_key: Option<(String, Position)>,
 }
 
+fn position(mark: Marker) -> Position {
+    // yaml-rust2 counts lines from 1 and columns from 0.
+    Position {
+        line: mark.line(),
+        col: mark.col() + 1,
+    }
+}
+
 impl Walker {
-    /// Count `n` expanded nodes at `mark`, into the open collection if any.
-    fn count(&mut self, n: u64, mark: Marker) {
-        self.total = self.total.saturating_add(n);
+    /// Count `n` expanded nodes into the open collection, if any; `by_alias` nodes also
+    /// count towards the expansion limit.
+    fn count(&mut self, n: u64, by_alias: bool, mark: Marker) {
         if let Some((size, _)) = self.sizes.last_mut() {
             *size = size.saturating_add(n);
         }
-        if self.total > EXPANSION_LIMIT && self.bomb_at.is_none() {
-            self.bomb_at = Some(Position {
-                line: mark.line(),
-                col: mark.col() + 1,
-            });
+        if by_alias {
+            self.added = self.added.saturating_add(n);
+            if self.added > EXPANSION_LIMIT {
+                self.refuse(
+                    mark,
+                    Problem::AliasBomb(format!(
+                        "aliases add more than {EXPANSION_LIMIT} nodes once expanded"
+                    )),
+                );
+            }
+        }
+    }
+
+    fn refuse(&mut self, mark: Marker, problem: Problem) {
+        if self.refused.is_none() {
+            self.refused = Some((position(mark), problem));
         }
     }
 
@@ -121,12 +209,12 @@ impl Walker {
     }
 
     fn record(&mut self, mark: Marker) {
-        // yaml-rust2 counts lines from 1 and columns from 0.
-        let pos = Position {
-            line: mark.line(),
-            col: mark.col() + 1,
-        };
-        self.map.entry(self.path()).or_insert(pos);
+        if self.path_bytes > PATH_BUDGET_BYTES {
+            return;
+        }
+        let path = self.path();
+        self.path_bytes += path.len() + 32;
+        self.map.entry(path).or_insert(position(mark));
     }
 
     /// A value (scalar, alias or collection) has ended: move to the next key or index.
@@ -147,23 +235,43 @@ impl Walker {
             })
         )
     }
-}
 
-impl MarkedEventReceiver for Walker {
     fn on_event(&mut self, ev: Event, mark: Marker) {
         // Expansion count, to catch alias bombs without expanding anything.
         match &ev {
-            Event::Scalar(_, _, anchor, _) => {
+            Event::Scalar(value, _, anchor, _) => {
+                let limit = if self.expecting_key() {
+                    ("key", MAX_KEY_CHARS)
+                } else {
+                    ("value", MAX_SCALAR_CHARS)
+                };
+                // Bytes bound characters from above: count characters only when needed.
+                if value.len() > limit.1 && value.chars().count() > limit.1 {
+                    self.refuse(
+                        mark,
+                        Problem::TooLong {
+                            what: limit.0,
+                            chars: value.chars().count(),
+                            limit: limit.1,
+                            start: value.chars().take(crate::text::SHOWN_CHARS).collect(),
+                        },
+                    );
+                    return;
+                }
                 if *anchor > 0 {
                     self.anchors.insert(*anchor, 1);
                 }
-                self.count(1, mark);
+                self.count(1, false, mark);
             }
             Event::Alias(id) => {
                 let n = self.anchors.get(id).copied().unwrap_or(1);
-                self.count(n, mark);
+                self.count(n, true, mark);
             }
             Event::MappingStart(anchor, _) | Event::SequenceStart(anchor, _) => {
+                if self.stack.len() >= MAX_DEPTH {
+                    self.refuse(mark, Problem::TooDeep { limit: MAX_DEPTH });
+                    return;
+                }
                 self.sizes.push((1, *anchor));
             }
             Event::MappingEnd | Event::SequenceEnd => {
@@ -171,8 +279,6 @@ impl MarkedEventReceiver for Walker {
                     if anchor > 0 {
                         self.anchors.insert(anchor, size);
                     }
-                    // The collection's nodes were counted into `total` as they came;
-                    // only the parent's running size needs them now.
                     if let Some((parent, _)) = self.sizes.last_mut() {
                         *parent = parent.saturating_add(size);
                     }
@@ -190,13 +296,7 @@ impl MarkedEventReceiver for Walker {
                     }) = self.stack.last_mut()
                     {
                         if !seen.insert(value.clone()) && self.duplicate_key.is_none() {
-                            self.duplicate_key = Some((
-                                value.clone(),
-                                Position {
-                                    line: mark.line(),
-                                    col: mark.col() + 1,
-                                },
-                            ));
+                            self.duplicate_key = Some((value.clone(), position(mark)));
                         }
                         *key = Some(value);
                         *expecting_key = false;
@@ -265,7 +365,7 @@ mod tests {
         assert_eq!(p.get("list[1].x"), Position { line: 5, col: 8 });
         // Unknown paths fall back to the nearest ancestor.
         assert_eq!(p.get("list[1].z"), p.get("list[1]"));
-        assert_eq!(p.bomb_at, None);
+        assert!(p.refused.is_none());
         assert_eq!(p.duplicate_key, None);
         let d = Positions::of("a: 1\nb:\n  c: 2\n  c: 3\n");
         assert_eq!(
@@ -284,9 +384,55 @@ mod tests {
             prev = name;
         }
         let p = Positions::of(&text);
-        // 10^5 nodes are reached on line 5 (anchor `e`).
-        assert_eq!(p.bomb_at.map(|b| b.line), Some(5));
+        // Aliases add more than 10^5 nodes on line 5 (anchor `e`).
+        let (at, problem) = p.refused.unwrap();
+        assert_eq!(at.line, 5);
+        assert!(matches!(problem, Problem::AliasBomb(_)));
         // A few aliases are fine.
-        assert_eq!(Positions::of("a: &x 1\nb: *x\nc: *x\n").bomb_at, None);
+        assert!(Positions::of("a: &x 1\nb: *x\nc: *x\n").refused.is_none());
+    }
+
+    #[test]
+    fn many_plain_nodes_are_not_a_bomb() {
+        // 2,500 classes of 50 plain values: 125,000 nodes, no alias.
+        let mut text = String::from("classes:\n");
+        for i in 0..2500 {
+            text.push_str(&format!("  - id: c{i}\n    v: ["));
+            text.push_str(&vec!["1"; 48].join(", "));
+            text.push_str("]\n");
+        }
+        assert!(Positions::of(&text).refused.is_none());
+    }
+
+    #[test]
+    fn deep_nesting_is_refused_at_the_cap_quickly() {
+        // 100,000 levels, block style: refused where level MAX_DEPTH + 1 opens.
+        let text = format!("{}1\n", "- ".repeat(100_000));
+        let flow = format!("a: {}1{}", "[".repeat(100_000), "]".repeat(100_000));
+        for t in [text, flow] {
+            let (at, problem) = Positions::of(&t).refused.expect("too deep");
+            assert!(
+                matches!(problem, Problem::TooDeep { limit: MAX_DEPTH }),
+                "{problem:?}"
+            );
+            assert!(at.line >= 1);
+        }
+        let nested = format!(
+            "a: {}1{}",
+            "[".repeat(MAX_DEPTH - 1),
+            "]".repeat(MAX_DEPTH - 1)
+        );
+        assert!(Positions::of(&nested).refused.is_none());
+    }
+
+    #[test]
+    fn long_scalars_and_keys_are_refused_where_they_start() {
+        let text = format!("name: ok\nid: {}\n", "x".repeat(MAX_SCALAR_CHARS + 1));
+        let (at, problem) = Positions::of(&text).refused.unwrap();
+        assert_eq!(at, Position { line: 2, col: 5 });
+        assert!(matches!(problem, Problem::TooLong { what: "value", .. }));
+        let text = format!("{}: 1\n", "k".repeat(MAX_KEY_CHARS + 1));
+        let (_, problem) = Positions::of(&text).refused.unwrap();
+        assert!(matches!(problem, Problem::TooLong { what: "key", .. }));
     }
 }

@@ -174,6 +174,10 @@ pub struct RawResistor {
     pub tcr: RawQty,
     pub unit_cost: RawQty,
     pub provenance: String,
+    /// Smallest value made in this class (default 1 Ω).
+    pub min_value: Option<RawQty>,
+    /// Largest value made in this class (default 10 MΩ).
+    pub max_value: Option<RawQty>,
 }
 
 #[derive(Debug, Deserialize)]

@@ -32,6 +32,9 @@ use crate::model::{
 };
 use crate::units::{Dimension as D, Field};
 
+/// Largest `quantity` (the table above).
+pub const MAX_QUANTITY: u32 = 1_000_000;
+
 /// Every quantity field of a requirement with its plausible range.
 pub const REQUIREMENT_FIELDS: [(&str, Field); 13] = [
     (
@@ -162,8 +165,12 @@ pub(super) fn validate_requirement(
     let min_vce_v = opt("min_vce", &raw.min_vce)?.unwrap_or(DEFAULT_MIN_VCE_V);
     let max_cost = opt("max_cost", &raw.max_cost)?;
     let quantity = raw.quantity.unwrap_or(1);
-    if quantity == 0 {
-        return Err(cx.invalid("quantity", "the quantity is 0", "1 or more mirrors"));
+    if quantity == 0 || quantity > MAX_QUANTITY {
+        return Err(cx.invalid(
+            "quantity",
+            format!("a quantity of {quantity}"),
+            format!("1 to {MAX_QUANTITY} mirrors"),
+        ));
     }
 
     let mut topologies = Filters::default();

@@ -4,6 +4,13 @@
 //! Plain validated data, produced by `input/` from a design file; this module must not
 //! parse files or print.
 
+/// Most identical copies of one channel on a board (`count`, or the requirement's
+/// `quantity` when a channel gives none). Counts are numbers in the board's integer
+/// program, but the plan names the package and device of every copy, so its size grows
+/// with the count; ten thousand copies of one mirror on one board is beyond any real
+/// board (a typo guard, not a physical limit).
+pub const MAX_COPIES: u32 = 10_000;
+
 use super::{Filters, Requirement};
 
 /// One channel: `count` identical copies of a mirror meeting `requirement`.

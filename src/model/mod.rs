@@ -13,9 +13,9 @@ mod topology;
 mod transistor;
 
 pub use catalog::Catalog;
-pub use design::{BoardDesign, DesignChannel};
+pub use design::{BoardDesign, DesignChannel, MAX_COPIES};
 pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement, DEFAULT_MIN_VCE_V};
-pub use resistor::{ResistorClass, Series};
+pub use resistor::{ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, LEAKAGE_CAUTION_OHM};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,
 };

@@ -182,7 +182,27 @@ pub struct ResistorClass {
     pub tcr_per_k: f64,
     pub unit_cost: f64,
     pub provenance: String,
+    /// Smallest value the class is made in, ohms (catalog `min_value`, default
+    /// [`DEFAULT_MIN_OHM`]).
+    pub min_ohm: f64,
+    /// Largest value the class is made in, ohms (catalog `max_value`, default
+    /// [`DEFAULT_MAX_OHM`]).
+    pub max_ohm: f64,
 }
+
+/// Default lower end of a resistor class's value range: 1 Ω, where general-purpose
+/// film chip ranges usually start (common practice, no source).
+pub const DEFAULT_MIN_OHM: f64 = 1.0;
+
+/// Default upper end of a resistor class's value range: 10 MΩ, where general-purpose
+/// film chip ranges usually stop (common practice, no source). A catalog may give a
+/// class a wider range with `max_value`.
+pub const DEFAULT_MAX_OHM: f64 = 10e6;
+
+/// Emitter resistors at or above this get a caution: surface leakage through flux
+/// residue and moisture on the board becomes comparable to the resistor (common
+/// practice, no source).
+pub const LEAKAGE_CAUTION_OHM: f64 = 10e6;
 
 #[cfg(test)]
 mod tests {

@@ -63,6 +63,10 @@ pub struct CandidateRow {
     pub error_total: f64,
     #[serde(rename = "yield")]
     pub yield_fraction: f64,
+    /// 95 % Wilson interval of `yield` from the number of builds; `null` without a yield.
+    pub yield_ci_95: Option<[f64; 2]>,
+    /// Monte Carlo builds behind `yield` and `yield_solved` (0 without a yield).
+    pub yield_samples: u32,
     /// Yield with every sampled build re-solved (`check` and `--explain` only).
     pub yield_solved: f64,
     pub r_out_min_ohm: f64,
@@ -78,6 +82,19 @@ pub struct CandidateRow {
 }
 
 impl CandidateRow {
+    /// The yield as printed: `98.0 % (95 % CI 96.9–98.7 %)`, or `—` without one.
+    pub fn yield_text(&self) -> String {
+        yield_with_interval(self.yield_fraction, self.yield_ci_95)
+    }
+
+    /// The re-solved yield as printed, with its own 95 % interval.
+    pub fn yield_solved_text(&self) -> String {
+        yield_with_interval(
+            self.yield_solved,
+            crate::check::wilson_interval(self.yield_solved, self.yield_samples),
+        )
+    }
+
     pub fn new(rank: Option<usize>, spec: &DesignSpec, ev: &Evaluation, pareto: bool) -> Self {
         let f = &ev.figures;
         CandidateRow {
@@ -94,6 +111,8 @@ impl CandidateRow {
             error_random_sigma: f.error_random_sigma,
             error_total: f.error_total,
             yield_fraction: f.yield_fraction,
+            yield_ci_95: crate::check::wilson_interval(f.yield_fraction, f.yield_samples),
+            yield_samples: f.yield_samples,
             yield_solved: f.yield_solved,
             r_out_min_ohm: f.r_out_min_ohm,
             compliance_v: f.compliance_v,
@@ -264,6 +283,11 @@ pub enum Caution {
     HighVoltage {
         supply_v: f64,
     },
+    /// An emitter resistor of 10 MΩ or more: leakage and contamination.
+    HighValueResistor {
+        who: String,
+        ohms: f64,
+    },
     /// Always shown: catalog values are typical, not guaranteed.
     TypicalValues,
 }
@@ -303,6 +327,11 @@ impl fmt::Display for Caution {
                 f,
                 "the supply is {supply_v:.0} V: mind clearances, ratings at temperature and safe handling"
             ),
+            Caution::HighValueResistor { who, ohms } => write!(
+                f,
+                "{who}: an emitter resistor of {}: at this value surface leakage through flux residue, moisture and dust on the board can rival the resistor; clean the board, consider a guard ring or conformal coating, and check the resistor datasheet's voltage coefficient",
+                crate::units::format_quantity(*ohms, crate::units::Dimension::Resistance)
+            ),
             Caution::TypicalValues => f.write_str(
                 "catalog values are typical of each class, not guaranteed: confirm with the datasheet of the part you buy, and follow local codes and licensed engineering practice",
             ),
@@ -333,6 +362,13 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
                 });
             }
         }
+        let ohms = r.re1_ohm.max(r.re2_ohm);
+        if ohms >= crate::model::LEAKAGE_CAUTION_OHM {
+            out.push(Caution::HighValueResistor {
+                who: who.clone(),
+                ohms,
+            });
+        }
         if let Some(c) = r.check(CheckName::Vceo) {
             let fraction = c.value / c.limit;
             if fraction > 0.8 {
@@ -359,6 +395,22 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
     }
     out.push(Caution::TypicalValues);
     out
+}
+
+/// A yield with its 95 % interval, as every printed yield reads.
+pub fn yield_with_interval(y: f64, ci: Option<[f64; 2]>) -> String {
+    if !y.is_finite() {
+        return "—".to_string();
+    }
+    match ci {
+        Some([lo, hi]) => format!(
+            "{:.1} % (95 % CI {:.1}–{:.1} %)",
+            y * 100.0,
+            lo * 100.0,
+            hi * 100.0
+        ),
+        None => format!("{:.1} %", y * 100.0),
+    }
 }
 
 /// Full reasoning for one row.

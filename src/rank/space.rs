@@ -134,7 +134,11 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                 });
             }
             for r in &resistors {
-                let values = r.series.values_between(RE_MIN_OHM, re_max);
+                // Only values the class is made in.
+                let made = |v: &f64| (r.min_ohm..=r.max_ohm).contains(v);
+                let values = r
+                    .series
+                    .values_between(RE_MIN_OHM.max(r.min_ohm), re_max.min(r.max_ohm));
                 if unity {
                     let specs: Vec<DesignSpec> =
                         values.iter().map(|&re1| spec(re1, re1, Some(r))).collect();
@@ -153,7 +157,14 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                     .iter()
                     .filter_map(|&re1| {
                         let exact = ratio_re2(re1, n, design_current(req), ROOM_K)?;
-                        Some((re1, r.series.bracket(exact)?))
+                        let (lo, hi) = r.series.bracket(exact)?;
+                        // Keep a rounding only where the class makes it.
+                        match (made(&lo), made(&hi)) {
+                            (true, true) => Some((re1, (lo, hi))),
+                            (true, false) => Some((re1, (lo, lo))),
+                            (false, true) => Some((re1, (hi, hi))),
+                            (false, false) => None,
+                        }
                     })
                     .collect();
                 for upper in [false, true] {
@@ -187,7 +198,9 @@ pub fn widlar_re2(req: &Requirement, r: &ResistorClass) -> Option<f64> {
     }
     let i_in = design_current(req);
     let re2 = thermal_voltage(ROOM_K) * (1.0 / n).ln() / (n * i_in);
-    r.series.nearest(re2)
+    r.series
+        .nearest(re2)
+        .filter(|v| (r.min_ohm..=r.max_ohm).contains(v))
 }
 
 /// RE2 of a degenerated ratio mirror (n = I_out/I_in) with RE1 on the input side:

@@ -144,7 +144,7 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             "yield",
             "Monte Carlo yield",
             c.yield_fraction,
-            percent(c.yield_fraction),
+            c.yield_text(),
         ),
         num(
             "r_out_min_ohm",

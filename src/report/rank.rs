@@ -102,7 +102,7 @@ const COLUMNS: &[Column] = &[
         csv: "yield",
         title: "yield",
         csv_value: |r| num(r.yield_fraction),
-        table_value: |r| pct(r.yield_fraction),
+        table_value: |r| r.yield_text(),
     },
     Column {
         csv: "r_out_min_ohm",
@@ -468,8 +468,8 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         writeln!(
             w,
             "Yield: {} on the first-order model, {} with every build re-solved.",
-            pct(c.yield_fraction),
-            pct(c.yield_solved)
+            c.yield_text(),
+            c.yield_solved_text()
         )?;
     }
     writeln!(
@@ -706,6 +706,8 @@ mod tests {
             error_random_sigma: 0.001,
             error_total: 0.005,
             yield_fraction: 0.98,
+            yield_ci_95: None,
+            yield_samples: 0,
             yield_solved: f64::NAN,
             r_out_min_ohm: f64::NAN,
             compliance_v: 0.7,

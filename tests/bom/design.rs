@@ -19,7 +19,7 @@ fn fixture(name: &str) -> String {
     format!("tests/fixtures/design/{name}")
 }
 
-const SAMPLES: &str = "50";
+const SAMPLES: &str = "100";
 
 /// Bad input: exit 2, one line naming file:line:col and what is wrong.
 fn bad(name: &str, located: &str, says: &str) {

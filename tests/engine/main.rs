@@ -5,3 +5,4 @@ mod app;
 mod fixtures;
 mod properties;
 mod reference;
+mod sweep;

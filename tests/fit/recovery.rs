@@ -241,7 +241,13 @@ fn beta_and_offset_confounded_without_emitter_resistors_warn() {
     );
     let r = fit(&set, &config(Topology::Simple, (0.0, 0.0)));
     let held = unidentified(&r);
-    assert_eq!(held.len(), 1, "{:?}", r.warnings);
+    assert_eq!(
+        held.len(),
+        1,
+        "{:?} {:?}",
+        r.warnings,
+        r.model.as_ref().err()
+    );
     assert!(matches!(held[0], ParamKind::Bf | ParamKind::VbeOffset));
     let (_, se, fitted) = param(model(&r), held[0]);
     assert!(!fitted && se.is_none());

@@ -38,14 +38,14 @@ fn rank_json_has_the_documented_keys_and_cautions_go_to_stderr() {
             "--seed",
             "9",
             "--samples",
-            "50",
+            "100",
         ])
         .output()
         .unwrap();
     assert_eq!(out.status.code(), Some(0));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["seed"], 9);
-    assert_eq!(v["samples"], 50);
+    assert_eq!(v["samples"], 100);
     assert_eq!(v["candidates"].as_array().unwrap().len(), 2);
     assert_eq!(v["every_value"], false);
     assert!(v["families"].as_u64().unwrap() >= 2);
@@ -64,7 +64,7 @@ fn rank_every_value_is_echoed_and_lists_values_of_one_family() {
             "--format",
             "json",
             "--samples",
-            "50",
+            "100",
         ])
         .output()
         .unwrap();
@@ -228,7 +228,7 @@ fn led_loads_get_their_caution() {
             "--top",
             "2",
             "--samples",
-            "50",
+            "100",
         ])
         .assert()
         .code(0)

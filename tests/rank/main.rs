@@ -80,6 +80,8 @@ pub fn resistor(id: &str, series: Series, tolerance: f64) -> ResistorClass {
         tcr_per_k: 0.0,
         unit_cost: 0.01,
         provenance: "test".into(),
+        min_ohm: mirrorpick::model::DEFAULT_MIN_OHM,
+        max_ohm: mirrorpick::model::DEFAULT_MAX_OHM,
     }
 }
 
