@@ -79,7 +79,7 @@ with the class's ratings as `check` does."
     Fit(FitCommand),
     /// Rank every design that meets a requirement, cheapest first.
     #[command(
-        after_help = "Exit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input.\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank requirements-examples/led-string-sinks.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml --every-value --top 20 --wide\n  mirrorpick rank requirements-examples/widlar-bias-source.yaml --format json --seed 7 --samples 500 > ranked.json"
+        after_help = "Compliance: every transistor keeps V_CE >= min_vce (requirement field, default 0.3 V) at I_in max, V_out min, every ambient; V_CB < 0 there is a caution. A corner that cannot be solved fails thermal-runaway or no-solution, naming the build, and the figures that needed it are not available. The count line gives the candidate space and says \"at least\" where the search left candidates unverified.\n\nExit status: 0 when at least one design is feasible, 1 when none is (the table and the rejection counts are still printed), 2 on bad input (including --top 0).\n\nExample:\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml\n  mirrorpick rank requirements-examples/led-string-sinks.yaml --prefer balanced --top 5 --explain 1\n  mirrorpick rank requirements-examples/ltp-tail-sink.yaml --every-value --top 20 --wide\n  mirrorpick rank requirements-examples/widlar-bias-source.yaml --format json --seed 7 --samples 500 > ranked.json"
     )]
     Rank(RankCli),
     /// Verify one named design against a requirement: every check with its margin.
@@ -144,7 +144,7 @@ mirrorpick report requirements-examples/led-string-sinks.yaml --markdown docs/le
         /// Write the Markdown form to FILE, plots as <stem>-*.svg beside it.
         #[arg(long, value_name = "FILE.md")]
         markdown: Option<PathBuf>,
-        /// Designs shown: the chosen one and the runners-up.
+        /// Designs shown, 1 or more: the chosen one and the runners-up.
         #[arg(long, default_value_t = 5)]
         top: usize,
         #[command(flatten)]
@@ -227,7 +227,7 @@ pub struct MonteCarloArgs {
 pub struct RankCli {
     /// Requirement file (YAML).
     pub file: PathBuf,
-    /// Rows to show (families, or designs with --every-value).
+    /// Rows to show, 1 or more (families, or designs with --every-value).
     #[arg(long, default_value_t = 10)]
     pub top: usize,
     /// How to order the feasible designs.

@@ -16,8 +16,10 @@ use crate::model::{LoadKind, Requirement, ZERO_CELSIUS_K};
 
 use super::order::Prefer;
 
-/// Bumped whenever a key changes meaning or disappears.
-pub const SCHEMA_VERSION: u32 = 1;
+/// Bumped whenever a key changes meaning or disappears. 2: the check name
+/// `no-convergence` became `no-solution`, compliance follows `min_vce`, and checks whose
+/// corners did not solve are reported with a null value ("not available").
+pub const SCHEMA_VERSION: u32 = 2;
 
 /// One judged check as reported.
 #[derive(Debug, Clone, PartialEq, Serialize)]
