@@ -7,9 +7,11 @@
 //! balance holding, or fail for a named physical reason (thermal runaway; the input side
 //! needing more voltage than the supply). Never "did not converge".
 //!
-//! The default run samples a few hundred points; the slow CI step runs
-//! `sweep_of_the_valid_operating_space_large` (>= 10^5 points, optimised build):
-//! `cargo test --release --test engine sweep -- --ignored --nocapture`.
+//! Converged answers that break KCL fail every run. Unsolved points are the open gap: the
+//! guards allow at most `UNSOLVED_GUARD` of them (the default run samples 300 points; the
+//! slow CI step runs `sweep_guard_large`, 10^5 points, optimised:
+//! `cargo test --release --test engine sweep_guard_large -- --ignored --nocapture`); the
+//! strict tests, which allow none, are ignored until the gap is closed.
 
 use crate::properties::{check_kcl_and_power, Case};
 use mirrorpick::circuit::{
@@ -26,6 +28,9 @@ struct Tally {
     solved: usize,
     runaway: usize,
     input_above_supply: usize,
+    /// Converged answers that break KCL or the power balance: never acceptable.
+    wrong_answers: Vec<String>,
+    /// Points that ended without an answer or a named physical reason.
     failures: Vec<String>,
 }
 
@@ -105,7 +110,7 @@ fn one_point(catalog: &Catalog, rng: &mut ChaCha8Rng, tally: &mut Tally) {
             let r2 = re2 * (1.0 + mismatch.dre2);
             match check_kcl_and_power(&case, &s, &p, r1, r2) {
                 Ok(()) => tally.solved += 1,
-                Err(e) => tally.failures.push(format!("{what}: {e}")),
+                Err(e) => tally.wrong_answers.push(format!("{what}: {e}")),
             }
         }
         Err(SolveFailure::ThermalRunaway { .. }) => tally.runaway += 1,
@@ -126,34 +131,66 @@ fn sweep(points: usize, seed: u64) -> Tally {
 
 fn report(t: &Tally) {
     eprintln!(
-        "sweep: {} points, {} solved and balanced, {} thermal runaway, {} input side above the supply, {} failures",
+        "sweep: {} points, {} solved and balanced, {} thermal runaway, {} input side above the supply, {} wrong answers, {} unsolved without a reason",
         t.points,
         t.solved,
         t.runaway,
         t.input_above_supply,
+        t.wrong_answers.len(),
         t.failures.len()
     );
-    for f in t.failures.iter().take(20) {
+    for f in t.wrong_answers.iter().chain(&t.failures).take(20) {
         eprintln!("  {f}");
     }
 }
 
+/// The share of points left unsolved without a named reason that the regression guards
+/// accept: the issue that asked for this sweep measured 82 in 3,000 (2.7 %); the solver's
+/// continuation brought it to about 1 in 2,000. The goal is none (the strict tests below).
+const UNSOLVED_GUARD: f64 = 0.002;
+
+fn guard(t: &Tally) {
+    report(t);
+    assert!(
+        t.wrong_answers.is_empty(),
+        "{} converged answers break KCL or the power balance",
+        t.wrong_answers.len()
+    );
+    assert!(
+        (t.failures.len() as f64) <= UNSOLVED_GUARD * t.points as f64,
+        "{} of {} points unsolved without a reason",
+        t.failures.len(),
+        t.points
+    );
+}
+
 #[test]
-#[ignore = "known gap: about 1 point in 300 (a beta helper at V_out = 0 with RE near 200 kOhm) still ends in `did not converge`"]
-fn sweep_of_the_valid_operating_space() {
+fn sweep_guard_default_run() {
+    guard(&sweep(300, 11));
+}
+
+#[test]
+#[ignore = "10^5 solves: run optimised in the slow CI step"]
+fn sweep_guard_large() {
+    guard(&sweep(100_000, 2026));
+}
+
+#[test]
+#[ignore = "known gap: about 1 point in 2,000 (a beta helper at V_out near 0 with RE near 200 kOhm) still ends in `did not converge`"]
+fn sweep_strict_of_the_valid_operating_space() {
     let points: usize = std::env::var("MIRRORPICK_SWEEP_POINTS")
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(300);
     let t = sweep(points, 11);
     report(&t);
-    assert!(t.failures.is_empty(), "{} failures", t.failures.len());
+    assert!(t.wrong_answers.is_empty() && t.failures.is_empty());
 }
 
 #[test]
-#[ignore = "10^5 solves: run optimised in the slow CI step"]
-fn sweep_of_the_valid_operating_space_large() {
+#[ignore = "known gap (see above); 10^5 solves, optimised"]
+fn sweep_strict_of_the_valid_operating_space_large() {
     let t = sweep(100_000, 2026);
     report(&t);
-    assert!(t.failures.is_empty(), "{} failures", t.failures.len());
+    assert!(t.wrong_answers.is_empty() && t.failures.is_empty());
 }
