@@ -173,7 +173,11 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             Cell::new(&a.topology),
             Cell::new(&a.pair_class),
             Cell::new(a.helper_class.as_deref().unwrap_or("-")),
-            Cell::new(if re.is_empty() { "-".to_string() } else { re.clone() }),
+            Cell::new(if re.is_empty() {
+                "-".to_string()
+            } else {
+                re.clone()
+            }),
         ];
         if !style.wide {
             let mut d = format!("{} {}", a.topology, a.pair_class);

@@ -17,12 +17,12 @@ use rayon::prelude::*;
 use thiserror::Error;
 
 pub use order::{family, first_per, pareto, sort, FamilyKey, Prefer};
+pub use relax::{relax, Relax, NEAREST};
 pub use report::{
     cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
     CheckReport, CheckRow, CornerLine, Explanation, HottestCorner, Junction, NearMiss, RankReport,
     SCHEMA_VERSION,
 };
-pub use relax::{relax, Relax, NEAREST};
 pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
 pub use space::{enumerate, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
 

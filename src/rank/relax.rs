@@ -283,12 +283,7 @@ fn pool(groups: &[Group]) -> Vec<DesignSpec> {
 }
 
 /// Advice for a requirement nothing meets; empty when some candidate is feasible.
-pub fn relax(
-    req: &Requirement,
-    catalog: &Catalog,
-    groups: &[Group],
-    mc: MonteCarlo,
-) -> Vec<Relax> {
+pub fn relax(req: &Requirement, catalog: &Catalog, groups: &[Group], mc: MonteCarlo) -> Vec<Relax> {
     let solves = AtomicU64::new(0);
     // Judge every pooled candidate fully at verdict depth: its nearness is how many
     // checks fail, then its worst margin over every check.
@@ -325,7 +320,10 @@ pub fn relax(
     // VCEO (and at least one did).
     let solved: Vec<Option<f64>> = judged.iter().filter_map(|(_, _, v)| *v).collect();
     if !solved.is_empty() && solved.iter().all(Option::is_some) {
-        let need = solved.iter().flatten().fold(f64::INFINITY, |a, &b| a.min(b));
+        let need = solved
+            .iter()
+            .flatten()
+            .fold(f64::INFINITY, |a, &b| a.min(b));
         let best = catalog
             .transistors
             .iter()
