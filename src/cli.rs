@@ -66,7 +66,12 @@ pub enum Command {
 from the mirror rail; a PNP class is solved as a source.\n\nExit status: 0 solved, 1 the engine \
 could not give a trusted answer (no convergence, thermal runaway), 2 bad input.\n\nExample:\n  \
 mirrorpick solve --topology simple --part npn-dual-prematched --iin 1mA --vout 10V --self-heating\n  \
-mirrorpick solve --topology wilson --part npn-dual-general --re1 220 --re2 220 --iin 100uA --vout 5V --supply 12V --format json"
+mirrorpick solve --topology wilson --part npn-dual-general --re 220 --iin 100uA --vout 5V --supply 12V --format json\n  \
+mirrorpick solve --topology beta-helper --part npn-dual-prematched --re1 24.9k --re2 2.43k --ratio 10 --iin 100uA --vout 5V --supply 12V\n\n\
+Emitter resistors: --re for equal ones, or --re1 and --re2 together (one alone would be a lopsided \
+mirror; the message gives the RE2 a ratio needs: n I_in RE2 = I_in RE1 - V_T ln n). The error is \
+I_out/(n I_in) - 1 against --ratio (default 1). Cautions compare V_CE, I_C and package dissipation \
+with the class's ratings as `check` does."
     )]
     Solve(SolveCli),
     /// Fit BF, VAF and the pair's V_BE offset to bench measurements of a mirror.
@@ -244,10 +249,15 @@ pub struct DesignCli {
     /// Topology: simple, beta-helper, wilson, wilson4, cascode or widlar.
     #[arg(long, value_name = "T")]
     pub topology: String,
-    /// Emitter resistor RE1 (`100`, `4k7`, `1.5 kΩ`); RE2 follows the ratio. For a
-    /// Widlar it is RE2, and without it RE2 is sized for the ratio.
+    /// Emitter resistors (`100`, `4k7`, `1.5 kΩ`): RE1, and RE2 equal to it at ratio 1.
+    /// At a ratio n != 1 RE2 is sized from n I_in RE2 = I_in RE1 - V_T ln(n) (design
+    /// current, 25 °C) to the nearest standard value, unless --re2 names it. For a Widlar
+    /// it is RE2, and without it RE2 is sized for the ratio.
     #[arg(long, value_name = "R")]
     pub re: Option<String>,
+    /// Output-side emitter resistor RE2, named directly (with --re for RE1).
+    #[arg(long, value_name = "R")]
+    pub re2: Option<String>,
     /// Resistor class of the emitter resistors.
     #[arg(long, value_name = "CLASS")]
     pub resistor: Option<String>,
@@ -323,6 +333,7 @@ impl DesignCli {
             topology: self.topology,
             helper,
             re: self.re,
+            re2: self.re2,
             resistor: self.resistor,
         }
     }
@@ -339,12 +350,18 @@ pub struct SolveCli {
     /// Single-device class for helper transistors (default: the cheapest single).
     #[arg(long)]
     pub helper: Option<String>,
-    /// RE1 (e.g. 220, 4k7); 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
-    pub re1: f64,
-    /// RE2; 0 = none.
-    #[arg(long, value_parser = resistance, default_value = "0")]
-    pub re2: f64,
+    /// Equal emitter resistors RE1 = RE2 (e.g. 220, 4k7).
+    #[arg(long, value_parser = resistance, conflicts_with_all = ["re1", "re2"])]
+    pub re: Option<f64>,
+    /// RE1, the input side (e.g. 220, 4k7); give --re2 with it.
+    #[arg(long, value_parser = resistance)]
+    pub re1: Option<f64>,
+    /// RE2, the output side; give --re1 with it (a Widlar takes --re2 only).
+    #[arg(long, value_parser = resistance)]
+    pub re2: Option<f64>,
+    /// The intended ratio n = I_out / I_in the error is measured against [default: 1].
+    #[arg(long, value_parser = ratio_value)]
+    pub ratio: Option<f64>,
     /// Programming current I_in (e.g. 100uA).
     #[arg(long, value_parser = current)]
     pub iin: f64,
@@ -402,6 +419,9 @@ fn resistance(t: &str) -> Result<f64, String> {
     )
     .map_err(|e| e.to_string())
 }
+fn ratio_value(t: &str) -> Result<f64, String> {
+    requirement_field(t, "ratio")
+}
 fn offset(t: &str) -> Result<f64, String> {
     units::parse_field(
         t,
@@ -429,14 +449,19 @@ fn topology(t: &str) -> Result<Topology, String> {
 const FIT_HELP: &str = "\
 The CSV file has a header naming at least `i_in`, `v_out` and `i_out` (optionally
 `t_ambient`), one measured point per row; values may carry units (`100uA`, `2.5 V`,
-`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes.
+`25 °C`); a bare number is in amperes, volts or °C. Lines starting with `#` are notes,
+and so are columns named `note` or `comment`; any other column name is an error.
 Each programming current gives one curve: its straight line in the active region meets
 the voltage axis at -VAF_eff. The model fit solves the stated circuit for every point
 and reports standard errors, residuals and warnings for anything the data cannot pin
 down (no V_out variation leaves VAF open; a simple mirror without emitter resistors
 cannot tell a beta error from a V_BE offset).
 
-Exit status: 0 fitted, 1 no fit could be made (the report says why), 2 bad input.
+Errors are rounded to what the data support; a value held because the data cannot
+tell it apart makes the other errors conditional, and the report says by how much.
+
+Exit status: 0 fitted, 1 no fit the data can support (too few distinct points, nothing
+determinable, a value outside physics; the report says why), 2 bad input.
 
 Example (synthetic demo data shipped with the project, a simple mirror with 1 kΩ emitter
 resistors measured at 10 uA, 100 uA and 1 mA from 1.5 V to 10 V):
@@ -581,8 +606,9 @@ impl Cli {
                     topology: a.topology,
                     part: a.part,
                     helper: a.helper,
-                    re1_ohm: a.re1,
-                    re2_ohm: a.re2,
+                    re1_ohm: a.re.or(a.re1),
+                    re2_ohm: a.re.or(a.re2),
+                    ratio: a.ratio,
                     i_in_a: a.iin,
                     v_out_v: a.vout,
                     supply_v: a.supply,

@@ -228,6 +228,7 @@ pub fn for_design(
     };
     let balance = balance_voltage(
         design,
+        req.ratio,
         &point(req.input_current_a.max, 0.0, ROOM_K),
         &mm,
         solve_opts,

@@ -265,6 +265,10 @@ pub fn run(cfg: &Config, out: &mut dyn Write) -> Result<Outcome, AppError> {
                 Format::Json => {
                     serde_json::to_writer_pretty(&mut *out, &report).map_err(io::Error::from)?;
                     writeln!(out)?;
+                    // Cautions also go to stderr, so they are seen when JSON is piped.
+                    for c in &report.cautions {
+                        let _ = writeln!(io::stderr().lock(), "Caution: {c}");
+                    }
                 }
                 Format::Table | Format::Csv => solve::write_solve_table(&report, out)?,
             }

@@ -13,7 +13,7 @@ use std::time::{Duration, Instant};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 
 use super::{load_catalog, load_requirement, AppError, Config, Outcome};
-use crate::check::{DesignSpec, MonteCarlo};
+use crate::check::{self, DesignSpec, MonteCarlo};
 use crate::input::did_you_mean;
 use crate::model::{Catalog, Requirement, Topology, ALL_TOPOLOGIES};
 use crate::rank::{self, Caution, Prefer, Progress, RankOptions};
@@ -29,6 +29,8 @@ pub struct DesignArgs {
     pub helper: Option<String>,
     /// RE1 as typed (`4k7`, `100`, `1.5 kΩ`); RE2 for a Widlar.
     pub re: Option<String>,
+    /// RE2 as typed, when the designer names it (otherwise it follows the ratio).
+    pub re2: Option<String>,
     pub resistor: Option<String>,
 }
 
@@ -72,6 +74,11 @@ fn inputs(cfg: &Config, file: &std::path::Path) -> Result<(Catalog, Requirement)
 }
 
 pub fn run_rank(cfg: &Config, a: &RankArgs, out: &mut dyn Write) -> Result<Outcome, AppError> {
+    if a.top == 0 {
+        return Err(AppError::Usage(
+            "--top 0 would show no design; give 1 or more (default 10)".into(),
+        ));
+    }
     let (catalog, req) = inputs(cfg, &a.file)?;
     let opts = RankOptions {
         top: a.top,
@@ -191,21 +198,34 @@ pub fn design_spec(
             })?),
             None => None,
         };
-    let re = match &a.re {
-        Some(text) => Some(
-            units::parse(text, Dimension::Resistance)
-                .map_err(|e| AppError::Usage(format!("--re `{text}`: {e}")))?,
-        ),
-        None => None,
-    };
-    if let Some(r) = re {
+    let parse_re = |flag: &str, text: &Option<String>| -> Result<Option<f64>, AppError> {
+        let Some(text) = text else { return Ok(None) };
+        let r = units::parse(text, Dimension::Resistance)
+            .map_err(|e| AppError::Usage(format!("{flag} `{text}`: {e}")))?;
         if !(r >= 0.0 && r.is_finite()) {
             return Err(AppError::Usage(format!(
-                "--re must be a resistance of 0 Ω or more; got `{}`",
-                a.re.as_deref().unwrap_or_default()
+                "{flag} must be a resistance of 0 Ω or more; got `{text}`"
             )));
         }
+        Ok(Some(r))
+    };
+    let re = parse_re("--re", &a.re)?;
+    let re2_named = parse_re("--re2", &a.re2)?;
+    if topology == Topology::Widlar && re.is_some() && re2_named.is_some() {
+        return Err(AppError::Usage(
+            "a Widlar has RE2 only: give it with --re2 (or --re), not both".into(),
+        ));
     }
+    if topology != Topology::Widlar && re2_named.is_some() && re.is_none() {
+        return Err(AppError::Usage(
+            "--re2 names the output-side resistor; give RE1 with --re as well".into(),
+        ));
+    }
+    let re = if topology == Topology::Widlar {
+        re.or(re2_named)
+    } else {
+        re
+    };
     let needs_resistor = re.is_some_and(|r| r > 0.0) || topology == Topology::Widlar;
     let resistor = match (needs_resistor, resistor) {
         (true, None) => {
@@ -233,12 +253,26 @@ pub fn design_spec(
     } else {
         let re1 = re.unwrap_or(0.0);
         let n = req.ratio;
-        let re2 = if re1 == 0.0 || (n - 1.0).abs() < 1e-9 {
-            re1
-        } else {
-            resistor
-                .and_then(|r| r.series.nearest(re1 / n))
-                .unwrap_or(re1 / n)
+        let re2 = match re2_named {
+            Some(v) => v,
+            None if re1 == 0.0 || (n - 1.0).abs() < 1e-9 => re1,
+            // RE2 for the ratio with the V_BE difference (MODEL.md), nearest standard value.
+            None => {
+                let i_d = check::design_current(req);
+                let exact = rank::ratio_re2(re1, n, i_d, check::ROOM_K).ok_or_else(|| {
+                    AppError::Usage(format!(
+                        "--re {}: for a ratio of {n} RE1 must exceed V_T ln(n) / I_in = {} at the design current; choose a larger RE1 or name RE2 with --re2",
+                        a.re.as_deref().unwrap_or_default(),
+                        units::format_prefixed(
+                            rank::thermal_voltage(check::ROOM_K) * n.ln().abs() / i_d,
+                            "Ω"
+                        )
+                    ))
+                })?;
+                resistor
+                    .and_then(|r| r.series.nearest(exact))
+                    .unwrap_or(exact)
+            }
         };
         (re1, re2)
     };

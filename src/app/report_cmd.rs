@@ -99,6 +99,11 @@ pub fn run_report(
     args: &ReportArgs,
     out: &mut dyn Write,
 ) -> Result<Outcome, AppError> {
+    if args.top == 0 {
+        return Err(AppError::Usage(
+            "--top 0 would show no design; give 1 or more (default 5)".into(),
+        ));
+    }
     let (catalog, _, prov) = load_catalog_with_provenance(source)?;
     let req = load_requirement(&args.requirement, &catalog)?;
     let html_file = args.html.as_deref().map(PendingFile::create).transpose()?;
@@ -110,7 +115,7 @@ pub fn run_report(
 
     let mc = args.mc;
     let opts = RankOptions {
-        top: args.top.max(1),
+        top: args.top,
         mc,
         explain: Some(1),
         ..RankOptions::default()

@@ -5,12 +5,20 @@
 //! Must not: parse command lines or files, or decide exit codes (see
 //! `SolveCommandError::is_input_error`).
 //!
-//! JSON wire format (SI units, temperatures in °C): `i_in`, `i_out`, `error`
-//! (`I_out/(n I_in) - 1`, n = RE1/RE2 on degenerated designs, the first-order Widlar ratio
-//! for widlar, else 1), `r_out` (ohm; null when infinite, i.e. no Early effect), `v_in`,
+//! JSON wire format (SI units, temperatures in °C): `i_in`, `i_out`, `ratio` (the
+//! requested n, `--ratio`, default 1), `error` (`I_out/(n I_in) - 1`, always against the
+//! requested ratio, never RE1/RE2), `r_out` (ohm; null when infinite: no Early effect in
+//! any transistor and no self-heating), `v_in`,
 //! `balance_voltage` (V, null when the error does not cross zero between V(in) and the
 //! supply), `nodes` (name -> volts from the mirror rail), `transistors` (list of `name`,
-//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`) and `iterations`.
+//! `role`, `v_be`, `v_ce`, `i_c`, `i_b`, `t_junction_c`, `region`), `iterations` and
+//! `cautions` (ratings against the class: V_CE against the derated VCEO, I_C against IC
+//! max, each package's dissipation against its rating derated at the ambient; the same
+//! rules `check` applies).
+//!
+//! Emitter resistors: `--re` sets RE1 = RE2; `--re1` and `--re2` go together (one
+//! without the other would solve a lopsided mirror, so it is refused with the RE2 the
+//! ratio needs); a Widlar takes `--re2` only and needs `--ratio`.
 
 use std::collections::BTreeMap;
 use std::io;
@@ -18,6 +26,7 @@ use std::io;
 use comfy_table::{presets::UTF8_FULL, ContentArrangement, Table};
 use serde::Serialize;
 
+use crate::check;
 use crate::circuit::{
     balance_voltage, Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions,
 };
@@ -32,8 +41,11 @@ pub struct SolveArgs {
     /// A single-device class for helper transistors; default: the catalog's cheapest
     /// single of the part's polarity (used only when the part has no spare device).
     pub helper: Option<String>,
-    pub re1_ohm: f64,
-    pub re2_ohm: f64,
+    /// RE1 and RE2 as given (`--re` fills both); `None` when not given.
+    pub re1_ohm: Option<f64>,
+    pub re2_ohm: Option<f64>,
+    /// The requested ratio n = I_out / I_in (`--ratio`); 1 when absent.
+    pub ratio: Option<f64>,
     pub i_in_a: f64,
     pub v_out_v: f64,
     /// Defaults to `v_out_v`.
@@ -71,6 +83,9 @@ pub enum SolveCommandError {
         value: f64,
         expected: &'static str,
     },
+    /// The emitter resistors given do not describe the mirror asked for.
+    #[error("{0}")]
+    Resistors(String),
     /// The design needs a helper and the catalog has no single of that polarity.
     #[error("{0}")]
     NoHelper(SolveFailure),
@@ -133,6 +148,10 @@ pub struct SolveReport {
     pub nodes: BTreeMap<String, f64>,
     pub transistors: Vec<TransistorReport>,
     pub iterations: u32,
+    /// The requested ratio the error is measured against.
+    pub ratio: f64,
+    /// Ratings cautions (empty when every rating has room).
+    pub cautions: Vec<String>,
 }
 
 fn role_name(role: Role) -> String {
@@ -219,26 +238,17 @@ pub fn solve_command(
         args.ambient_k > 0.0,
         "a temperature above absolute zero",
     )?;
+    let widlar = !args.topology.desc().has_re1;
+    let ratio = args.ratio.unwrap_or(1.0);
     check(
-        "RE1",
-        args.re1_ohm,
-        args.re1_ohm >= 0.0,
-        "a resistance >= 0 ohm",
+        "the ratio",
+        ratio,
+        ratio > 0.0,
+        "a ratio I_out/I_in above 0",
     )?;
-    check(
-        "RE2",
-        args.re2_ohm,
-        args.re2_ohm >= 0.0,
-        "a resistance >= 0 ohm",
-    )?;
-    if !args.topology.desc().has_re1 {
-        check(
-            "RE1",
-            args.re1_ohm,
-            args.re1_ohm == 0.0,
-            "no RE1 (this topology has RE2 only)",
-        )?;
-    }
+    let (re1_ohm, re2_ohm) = resistors(args, widlar, ratio)?;
+    check("RE1", re1_ohm, re1_ohm >= 0.0, "a resistance >= 0 ohm")?;
+    check("RE2", re2_ohm, re2_ohm >= 0.0, "a resistance >= 0 ohm")?;
     check(
         "the V_BE offset",
         args.dvbe_v,
@@ -256,8 +266,8 @@ pub fn solve_command(
         topology: args.topology,
         pair,
         helper,
-        re1_ohm: args.re1_ohm,
-        re2_ohm: args.re2_ohm,
+        re1_ohm,
+        re2_ohm,
         re_tcr_per_k: 0.0,
     };
     let mm = Mismatch {
@@ -283,7 +293,14 @@ pub fn solve_command(
     let net = Netlist::compile(&design, &mm).map_err(fail)?;
     let sol = net.solve(&op, &opts).map_err(fail)?;
     let r_out = net.output_resistance(&op, &opts).map_err(fail)?;
-    let n = design.intended_ratio(op.i_in_a);
+    let n = ratio;
+    // Without an Early effect and without self-heating nothing but junction leakage
+    // moves I_out with V_out: the output resistance is infinite (the solved derivative
+    // is then rounding noise, e.g. 8e84 ohm).
+    let helper_used = if helper_needed(&design) { helper } else { None };
+    let early = pair.model.early_voltage_v.is_some()
+        || helper_used.is_some_and(|h| h.model.early_voltage_v.is_some());
+    let r_out = Some(r_out.abs()).filter(|r| r.is_finite() && (early || args.self_heating));
     let mut nodes: BTreeMap<String, f64> = sol
         .nodes()
         .iter()
@@ -294,9 +311,9 @@ pub fn solve_command(
         i_in: op.i_in_a,
         i_out: sol.i_out_a,
         error: sol.error(n, op.i_in_a),
-        r_out: Some(r_out.abs()).filter(|r| r.is_finite()),
+        r_out,
         v_in: sol.v_in_v,
-        balance_voltage: balance_voltage(&design, &op, &mm, &opts),
+        balance_voltage: balance_voltage(&design, n, &op, &mm, &opts),
         nodes,
         transistors: sol
             .transistors()
@@ -313,7 +330,147 @@ pub fn solve_command(
             })
             .collect(),
         iterations: sol.iterations,
+        ratio: n,
+        cautions: rating_cautions(&design, helper_used, &sol, &op),
     })
+}
+
+fn helper_needed(design: &Design) -> bool {
+    check::helper_count(design.topology) > 0
+        && !check::helpers_fit_in_spares(design.topology, design.pair)
+}
+
+/// RE1 and RE2 from what was given; a lopsided pair is refused rather than assumed.
+fn resistors(args: &SolveArgs, widlar: bool, ratio: f64) -> Result<(f64, f64), SolveCommandError> {
+    let bad = |m: String| Err(SolveCommandError::Resistors(m));
+    if widlar {
+        if args.re1_ohm.is_some_and(|r| r > 0.0) {
+            return bad("a Widlar has no RE1: give its emitter resistor with --re2".into());
+        }
+        let re2 = args.re2_ohm.unwrap_or(0.0);
+        if re2 > 0.0 && args.ratio.is_none() {
+            return bad(
+                "a Widlar sets a ratio below 1: give the ratio its error is measured against with --ratio (for example --ratio 0.1)".into(),
+            );
+        }
+        return Ok((0.0, re2));
+    }
+    let suggestion = |re1: f64| -> String {
+        match crate::rank::ratio_re2(re1, ratio, args.i_in_a, args.ambient_k) {
+            Some(re2) => format!(
+                "for a ratio of {ratio} at {} and this ambient, n I_in RE2 = I_in RE1 - V_T ln(n) gives RE2 = {}",
+                eng(args.i_in_a, "A"),
+                eng(re2, "Ω")
+            ),
+            None => format!("RE1 is too small to set a ratio of {ratio} at this current"),
+        }
+    };
+    match (args.re1_ohm, args.re2_ohm) {
+        (Some(re1), None) if re1 > 0.0 => bad(format!(
+            "--re1 without --re2 would solve a lopsided mirror; give --re2 as well (or --re for equal resistors): {}",
+            suggestion(re1)
+        )),
+        (None, Some(re2)) if re2 > 0.0 => bad(
+            "--re2 without --re1 would solve a lopsided mirror; give --re1 as well (or --re for equal resistors)".into(),
+        ),
+        (re1, re2) => Ok((re1.unwrap_or(0.0), re2.unwrap_or(0.0))),
+    }
+}
+
+/// The ratings `check` judges, at this one operating point: V_CE against the derated
+/// VCEO, I_C against IC max, each package's dissipation against its derated rating.
+fn rating_cautions(
+    design: &Design,
+    helper: Option<&crate::model::TransistorClass>,
+    sol: &crate::circuit::Solution,
+    op: &OperatingPoint,
+) -> Vec<String> {
+    let packages = check::place(design.topology, design.pair, helper);
+    let resolved = check::ResolvedDesign {
+        spec: check::DesignSpec {
+            topology: design.topology,
+            pair: design.pair.id.clone(),
+            helper: helper.map(|h| h.id.clone()),
+            re1_ohm: design.re1_ohm,
+            re2_ohm: design.re2_ohm,
+            resistor: None,
+        },
+        pair: design.pair,
+        helper,
+        resistor: None,
+        packages,
+        cost: 0.0,
+    };
+    let desc = design.topology.desc();
+    let state = check::CornerState {
+        corner: check::OperatingCorner {
+            i_in_a: op.i_in_a,
+            v_out_v: op.v_out_v,
+            t_amb_k: op.t_amb_k,
+        },
+        i_out_a: sol.i_out_a,
+        v_in_v: sol.v_in_v,
+        error: f64::NAN,
+        devices: sol
+            .transistors()
+            .iter()
+            .map(|t| check::DeviceState {
+                name: t.name,
+                v_be_v: t.v_be,
+                v_ce_v: t.v_ce,
+                i_c_a: t.i_c,
+                i_b_a: t.i_b,
+                t_junction_k: t.t_junction_k,
+                collector_at_supply: desc
+                    .transistors
+                    .iter()
+                    .any(|l| l.name == t.name && l.collector == "S"),
+            })
+            .collect(),
+    };
+    let states = std::slice::from_ref(&state);
+    let mut out = Vec::new();
+    let v = check::vceo(&resolved, states);
+    if !v.pass {
+        out.push(format!(
+            "{}: V_CE {} exceeds the derated VCEO {} (80 % of the class's rating)",
+            v.detail,
+            eng(v.value, "V"),
+            eng(v.limit, "V")
+        ));
+    } else if v.value > 0.8 * v.limit {
+        out.push(format!(
+            "{}: V_CE {} is {:.0} % of the derated VCEO; allow for supply transients",
+            v.detail,
+            eng(v.value, "V"),
+            100.0 * v.value / v.limit
+        ));
+    }
+    let i = check::ic_max(&resolved, states);
+    if !i.pass {
+        out.push(format!(
+            "{}: I_C {} exceeds the class's IC max {}",
+            i.detail,
+            eng(i.value, "A"),
+            eng(i.limit, "A")
+        ));
+    }
+    let p = check::dissipation(&resolved, states);
+    if !p.pass {
+        out.push(format!(
+            "{}: dissipates {} against {} allowed at this ambient (rating derated linearly to zero at 150 °C)",
+            p.detail,
+            eng(p.value, "W"),
+            eng(p.limit, "W")
+        ));
+    } else if p.value > 0.5 * p.limit {
+        out.push(format!(
+            "{}: dissipates {:.0} % of its derated rating; check the layout's copper and the datasheet's thermal data",
+            p.detail,
+            100.0 * p.value / p.limit
+        ));
+    }
+    out
 }
 
 /// Writes the report as two tables: the figures, then one row per transistor.
@@ -377,6 +534,16 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         ]);
     }
     writeln!(out, "{devices}")?;
+    if (report.ratio - 1.0).abs() > 1e-12 {
+        writeln!(
+            out,
+            "Error measured against the requested ratio {}.",
+            report.ratio
+        )?;
+    }
+    for c in &report.cautions {
+        writeln!(out, "Caution: {c}")?;
+    }
     writeln!(
         out,
         "Device values are typical of the class, not guaranteed; check ratings against the datasheet."

@@ -61,14 +61,16 @@ fn dedup(mut v: Vec<f64>) -> Vec<f64> {
     v
 }
 
-/// The corner at which compliance is judged: `I_in` max, the lowest required output
-/// voltage, the hottest ambient (MODEL.md "compliance voltage").
-pub fn compliance_corner(req: &Requirement) -> OperatingCorner {
-    OperatingCorner {
-        i_in_a: req.input_current_a.max,
-        v_out_v: req.output_voltage_v.min,
-        t_amb_k: req.ambient_k.max,
-    }
+/// The corners at which compliance is judged: `I_in` max, the lowest required output
+/// voltage, every ambient of the corner set (MODEL.md "compliance voltage": the cold
+/// corner has the largest V_BE, so it usually needs the most headroom).
+pub fn compliance_corners(req: &Requirement) -> Vec<OperatingCorner> {
+    let i_max = req.input_current_a.max;
+    let v_min = req.output_voltage_v.min;
+    corners(req)
+        .into_iter()
+        .filter(|c| c.i_in_a == i_max && c.v_out_v == v_min)
+        .collect()
 }
 
 /// The corner at which the input voltage is judged: `I_in` max, cold ambient, the highest
@@ -128,6 +130,7 @@ pub(crate) mod tests {
             min_yield: None,
             min_output_resistance_ohm: None,
             input_voltage_max_v: None,
+            min_vce_v: 0.3,
             max_cost: None,
             quantity: 1,
             load: LoadKind::General,
@@ -161,5 +164,9 @@ pub(crate) mod tests {
         };
         // 25 °C outside the range is not a corner.
         assert_eq!(corners(&req).len(), 8);
+        // Compliance is judged at I_in max, V_out min and every ambient.
+        let cc = compliance_corners(&req);
+        assert_eq!(cc.len(), 2);
+        assert!(cc.iter().all(|c| c.i_in_a == 1e-3 && c.v_out_v == 2.0));
     }
 }

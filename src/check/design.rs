@@ -203,8 +203,9 @@ pub fn resolve<'a>(
     })
 }
 
-/// Place every transistor of the topology in a package.
-fn place<'a>(
+/// Place every transistor of the topology in a package (MODEL.md): each matched pair in
+/// one package of the pair class, helpers in spare devices or, with `helper`, in singles.
+pub fn place<'a>(
     topology: Topology,
     pair: &'a TransistorClass,
     helper: Option<&'a TransistorClass>,

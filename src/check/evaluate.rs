@@ -107,7 +107,11 @@ pub struct Evaluation {
     pub budget: Option<ErrorBudget>,
     /// Junction temperatures at the corner with the hottest junction.
     pub hottest: Option<CornerState>,
-    /// False when a screen stopped early (only the failing check is then certain).
+    /// Transistors whose collector junction is forward biased (`V_CB < 0`) at `V_out` min
+    /// at some corner: soft saturation, shown as a caution (MODEL.md).
+    pub soft_saturation: Vec<&'static str>,
+    /// False when a screen stopped early (only the failing check is then certain), or
+    /// when a corner or build could not be solved (figures needing it are not available).
     pub complete: bool,
 }
 
@@ -254,18 +258,26 @@ impl<'a> Evaluator<'a> {
         self.solve_with(corner, mm, NOMINAL)
     }
 
-    /// One solve at the compliance corner: does every transistor keep V_CB >= 0?
-    /// A failed solve counts as "no" (the full verification would fail there too).
-    pub fn compliance_ok(&self) -> bool {
-        self.solve(&corners::compliance_corner(self.req), &Mismatch::default())
-            .is_ok_and(|s| ratings::all_forward_active(&s))
+    /// The compliance screen: solves at `I_in` max, `V_out` min and every ambient. `Some`
+    /// verdict (does every transistor keep `V_CE >= min_vce`?), or `None` when a corner
+    /// could not be solved: that is no proof either way, and the verification names the
+    /// failure under its own check.
+    pub fn compliance_ok(&self) -> Option<bool> {
+        let mut ok = true;
+        for c in corners::compliance_corners(self.req) {
+            let s = self.solve(&c, &Mismatch::default()).ok()?;
+            ok &= ratings::keeps_min_vce(&s, self.req.min_vce_v);
+        }
+        Some(ok)
     }
 
-    /// One solve at the input corner: is the input voltage within its limit?
-    pub fn input_voltage_ok(&self) -> bool {
+    /// The input-voltage screen: one solve at the input corner. `None` when it could not
+    /// be solved (no proof either way).
+    pub fn input_voltage_ok(&self) -> Option<bool> {
         let limit = self.input_limit();
         self.solve(&corners::input_corner(self.req), &Mismatch::default())
-            .is_ok_and(|s| s.v_in_v <= limit)
+            .ok()
+            .map(|s| s.v_in_v <= limit)
     }
 
     /// `k` times the 1-sigma V_BE-offset term of pair 1 at the probe corner: a lower bound
@@ -374,7 +386,7 @@ impl<'a> Evaluator<'a> {
         nets: &[(usize, Netlist)],
         corner: &OperatingCorner,
         nominal: &CornerState,
-    ) -> Result<Sensitivities, SolveFailure> {
+    ) -> Result<Sensitivities, (usize, SolveFailure)> {
         let op = OperatingPoint {
             i_in_a: corner.i_in_a,
             v_out_v: corner.v_out_v,
@@ -385,13 +397,18 @@ impl<'a> Evaluator<'a> {
         let mut s = [0.0; budget::RANDOM_INPUTS];
         for (i, net) in nets {
             self.solves.fetch_add(1, Ordering::Relaxed);
-            let sol = net.solve(&op, &opts)?;
+            let sol = net.solve(&op, &opts).map_err(|f| (*i, f))?;
             s[*i] = sol.i_out_a / (self.req.ratio * corner.i_in_a) - 1.0 - nominal.error;
         }
         Ok(s)
     }
 
     /// Judge the candidate. `mc` drives the yield figure.
+    ///
+    /// No corner is ever dropped (MODEL.md): a corner that cannot be solved, in the nominal
+    /// design or in an error-budget build at it, is a failed check of its own
+    /// (`thermal-runaway`, `no-solution`) naming the build and the corner, and every
+    /// figure that needed that corner is not available.
     pub fn evaluate(&self, depth: Depth, mc: MonteCarlo) -> Evaluation {
         let req = self.req;
         let mut checks = Vec::new();
@@ -419,25 +436,32 @@ impl<'a> Evaluator<'a> {
         let (net, sens_nets) = match nets {
             Ok(x) => x,
             Err(f) => {
-                checks.push(failure_check(&f, &probe));
+                checks.push(failure_check(&f, "nominal design"));
                 return incomplete(cost, checks);
             }
         };
-        let mut states: Vec<Option<CornerState>> = vec![None; self.corners.len()];
-        let mut sens: Vec<Sensitivities> = vec![[0.0; budget::RANDOM_INPUTS]; self.corners.len()];
+        let n = self.corners.len();
+        let mut states: Vec<Option<CornerState>> = vec![None; n];
+        let mut sens: Vec<Option<Sensitivities>> = vec![None; n];
         for &i in &order {
             let c = self.corners[i];
-            let solved = self
-                .solve_net(&net, &c, true)
-                .and_then(|s| self.sensitivities(&sens_nets, &c, &s).map(|d| (s, d)));
-            let (state, d) = match solved {
-                Ok(x) => x,
+            let state = match self.solve_net(&net, &c, true) {
+                Ok(s) => s,
                 Err(f) => {
-                    // A screen stops here; a verification goes on to judge what did solve.
-                    let fc = failure_check(&f, &c);
-                    if !checks.iter().any(|x: &Check| x.name == fc.name) {
-                        checks.push(fc);
+                    // A screen stops here; a verification goes on so every check that
+                    // did not need this corner is still judged.
+                    push_failure(&mut checks, failure_check(&f, "nominal design"));
+                    if depth == Depth::Screen {
+                        return incomplete(cost, checks);
                     }
+                    continue;
+                }
+            };
+            let d = match self.sensitivities(&sens_nets, &c, &state) {
+                Ok(d) => d,
+                Err((input, f)) => {
+                    push_failure(&mut checks, failure_check(&f, budget_build(input)));
+                    states[i] = Some(state);
                     if depth == Depth::Screen {
                         return incomplete(cost, checks);
                     }
@@ -446,7 +470,7 @@ impl<'a> Evaluator<'a> {
             };
             let bound = state.error.abs() + k * budget::random_sigma(&d);
             states[i] = Some(state);
-            sens[i] = d;
+            sens[i] = Some(d);
             if depth == Depth::Screen && bound > req.accuracy {
                 checks.push(Check::at_most(
                     CheckName::Accuracy,
@@ -457,131 +481,203 @@ impl<'a> Evaluator<'a> {
                 return incomplete(cost, checks);
             }
         }
-        let unsolved = states.iter().any(Option::is_none);
-        let (states, sens): (Vec<CornerState>, Vec<Sensitivities>) = states
-            .into_iter()
-            .zip(sens)
-            .filter_map(|(s, d)| s.map(|s| (s, d)))
-            .unzip();
-        if states.is_empty() {
-            return incomplete(cost, checks);
-        }
-        let corner_list: Vec<OperatingCorner> = states.iter().map(|s| s.corner).collect();
-
-        // Accuracy.
-        let (mut sys, mut rnd, mut worst) = (0.0f64, 0.0f64, 0usize);
-        for (i, (s, d)) in states.iter().zip(&sens).enumerate() {
-            if s.error.abs() > sys {
-                sys = s.error.abs();
-                worst = i;
-            }
-            rnd = rnd.max(budget::random_sigma(d));
-        }
-        figures.error_systematic = sys;
-        figures.error_random_sigma = rnd;
-        figures.error_total = sys + k * rnd;
-
-        // Compliance: judged at its corner (always one of the corners).
-        let cc = corners::compliance_corner(req);
-        let comp_state = states.iter().find(|s| s.corner == cc);
-        let comp_pass = comp_state.is_some_and(ratings::all_forward_active);
-        figures.compliance_v = if depth == Depth::Full {
-            self.compliance_voltage(comp_pass)
-        } else {
-            // The output transistor's V_CB moves one for one with V_out.
-            comp_state.map_or(f64::NAN, |s| {
-                let min_vcb = s
-                    .devices
-                    .iter()
-                    .filter(|d| !d.collector_at_supply)
-                    .map(DeviceState::v_cb_v)
-                    .fold(f64::INFINITY, f64::min);
-                (cc.v_out_v - min_vcb).max(0.0)
-            })
+        // Even with no corner solved every check is listed, as not available.
+        let solved: Vec<CornerState> = states.iter().flatten().cloned().collect();
+        let all_nominal = states.iter().all(Option::is_some);
+        let all_builds = all_nominal && sens.iter().all(Option::is_some);
+        const NEEDS_ALL: &str =
+            "needs every corner, and one could not be solved (see the failed solve)";
+        let at = |c: &OperatingCorner| -> Option<&CornerState> {
+            let i = self.corners.iter().position(|x| x == c)?;
+            states[i].as_ref()
         };
-        let mut comp = Check::at_most(
-            CheckName::Compliance,
-            figures.compliance_v,
-            req.output_voltage_v.min,
-            "V_CB >= 0 for every transistor at I_in max, hottest ambient",
-        );
-        // The verdict is the direct solve at the required voltage; the value is a figure.
-        comp.pass = comp_pass;
-        checks.push(comp);
+
+        // Accuracy: every corner, nominal and error-budget builds.
+        let mut worst = None;
+        if all_builds {
+            let (mut sys, mut rnd, mut w) = (0.0f64, 0.0f64, 0usize);
+            for (i, (s, d)) in states.iter().zip(&sens).enumerate() {
+                let (Some(s), Some(d)) = (s, d) else { continue };
+                if s.error.abs() > sys {
+                    sys = s.error.abs();
+                    w = i;
+                }
+                rnd = rnd.max(budget::random_sigma(d));
+            }
+            worst = Some(w);
+            figures.error_systematic = sys;
+            figures.error_random_sigma = rnd;
+            figures.error_total = sys + k * rnd;
+        }
+
+        // Compliance: every transistor keeps V_CE >= min_vce at I_in max, V_out min,
+        // every ambient (MODEL.md).
+        let v_min = req.output_voltage_v.min;
+        let comp_states: Option<Vec<&CornerState>> =
+            corners::compliance_corners(req).iter().map(&at).collect();
+        match comp_states {
+            Some(cs) if !cs.is_empty() => {
+                let pass = cs.iter().all(|s| ratings::keeps_min_vce(s, req.min_vce_v));
+                figures.compliance_v = if depth == Depth::Full {
+                    self.compliance_voltage(pass)
+                } else {
+                    // The output transistor's V_CE moves one for one with V_out.
+                    let slack = cs
+                        .iter()
+                        .filter_map(|s| ratings::vce_slack(s, req.min_vce_v))
+                        .map(|(x, _)| x)
+                        .fold(f64::INFINITY, f64::min);
+                    (v_min - slack).max(0.0)
+                };
+                let mut comp = Check::at_most(
+                    CheckName::Compliance,
+                    figures.compliance_v,
+                    v_min,
+                    compliance_rule(req.min_vce_v),
+                );
+                // The verdict is the direct solve at the required voltage; the value is a
+                // figure.
+                comp.pass = pass;
+                checks.push(comp);
+            }
+            _ => checks.push(Check::not_available(
+                CheckName::Compliance,
+                v_min,
+                "a compliance corner (I_in max, V_out min) could not be solved",
+            )),
+        }
+        let mut soft: Vec<&'static str> = solved
+            .iter()
+            .filter(|s| s.corner.v_out_v == v_min)
+            .flat_map(ratings::forward_biased_collectors)
+            .collect();
+        soft.sort_unstable();
+        soft.dedup();
 
         // Input voltage.
         let ic = corners::input_corner(req);
-        let v_in = states
+        let in_states: Vec<&Option<CornerState>> = self
+            .corners
             .iter()
-            .filter(|s| s.corner.i_in_a == ic.i_in_a && s.corner.t_amb_k == ic.t_amb_k)
-            .map(|s| s.v_in_v)
-            .fold(f64::NAN, f64::max);
-        figures.v_in_max_v = v_in;
-        checks.push(Check::at_most(
-            CheckName::InputVoltage,
-            v_in,
-            self.input_limit(),
-            if req.input_voltage_max_v.is_some() {
-                "I_in max, cold ambient"
-            } else {
-                "I_in max, cold ambient; no input_voltage_max given, limit is the supply"
-            },
-        ));
+            .zip(&states)
+            .filter(|(c, _)| c.i_in_a == ic.i_in_a && c.t_amb_k == ic.t_amb_k)
+            .map(|(_, s)| s)
+            .collect();
+        let input_detail = if req.input_voltage_max_v.is_some() {
+            "I_in max, cold ambient"
+        } else {
+            "I_in max, cold ambient; no input_voltage_max given, limit is the supply"
+        };
+        if in_states.iter().all(|s| s.is_some()) {
+            let v_in = in_states
+                .iter()
+                .flat_map(|s| s.as_ref())
+                .map(|s| s.v_in_v)
+                .fold(f64::NAN, f64::max);
+            figures.v_in_max_v = v_in;
+            checks.push(Check::at_most(
+                CheckName::InputVoltage,
+                v_in,
+                self.input_limit(),
+                input_detail,
+            ));
+        } else {
+            checks.push(Check::not_available(
+                CheckName::InputVoltage,
+                self.input_limit(),
+                "an input-voltage corner (I_in max, cold ambient) could not be solved",
+            ));
+        }
 
-        checks.push(Check::at_most(
-            CheckName::Accuracy,
-            figures.error_total,
-            req.accuracy,
-            format!("systematic + {k} x random sigma"),
-        ));
+        if all_builds {
+            checks.push(Check::at_most(
+                CheckName::Accuracy,
+                figures.error_total,
+                req.accuracy,
+                format!("systematic + {k} x random sigma"),
+            ));
+        } else {
+            checks.push(Check::not_available(
+                CheckName::Accuracy,
+                req.accuracy,
+                NEEDS_ALL,
+            ));
+        }
 
         if req.min_yield.is_some() || depth == Depth::Full {
-            let nominal: Vec<f64> = states.iter().map(|s| s.error).collect();
-            figures.yield_fraction =
-                linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples);
+            if all_builds {
+                let nominal: Vec<f64> = solved.iter().map(|s| s.error).collect();
+                let sens: Vec<Sensitivities> = sens.iter().flatten().copied().collect();
+                figures.yield_fraction =
+                    linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples);
+            }
             if let Some(min) = req.min_yield {
-                checks.push(Check::at_least(
-                    CheckName::Yield,
-                    figures.yield_fraction,
-                    min,
-                    format!("{} builds, seed {}", mc.samples, mc.seed),
-                ));
+                checks.push(if all_builds {
+                    Check::at_least(
+                        CheckName::Yield,
+                        figures.yield_fraction,
+                        min,
+                        format!("{} builds, seed {}", mc.samples, mc.seed),
+                    )
+                } else {
+                    Check::not_available(CheckName::Yield, min, NEEDS_ALL)
+                });
             }
         }
 
-        let mut r_outs = vec![f64::NAN; states.len()];
+        let mut r_outs = vec![f64::NAN; n];
         if req.min_output_resistance_ohm.is_some() || depth == Depth::Full {
-            for (i, c) in corner_list.iter().enumerate() {
-                match self.output_resistance(&net, c) {
+            for (i, s) in states.iter().enumerate() {
+                let Some(s) = s else { continue };
+                match self.output_resistance(&net, &s.corner) {
                     Ok(r) => r_outs[i] = r,
-                    Err(f) => {
-                        let fc = failure_check(&f, c);
-                        if !checks.iter().any(|x| x.name == fc.name) {
-                            checks.push(fc);
-                        }
-                    }
+                    Err(f) => push_failure(
+                        &mut checks,
+                        failure_check(&f, "nominal design (output resistance)"),
+                    ),
                 }
             }
-            figures.r_out_min_ohm = r_outs.iter().copied().fold(f64::INFINITY, f64::min);
+            let available = r_outs.iter().all(|r| !r.is_nan());
+            if available {
+                figures.r_out_min_ohm = r_outs.iter().copied().fold(f64::INFINITY, f64::min);
+            }
             if let Some(min) = req.min_output_resistance_ohm {
-                checks.push(Check::at_least(
-                    CheckName::OutputResistance,
-                    figures.r_out_min_ohm,
-                    min,
-                    "smallest over the corners",
-                ));
+                checks.push(if available {
+                    Check::at_least(
+                        CheckName::OutputResistance,
+                        figures.r_out_min_ohm,
+                        min,
+                        "smallest over the corners",
+                    )
+                } else {
+                    Check::not_available(CheckName::OutputResistance, min, NEEDS_ALL)
+                });
             }
         }
 
-        if let Some(h) = ratings::helper_headroom(&states, req.supply_v) {
-            checks.push(h);
+        // Ratings: the stress at every corner, so none is available without all of them.
+        if all_nominal {
+            if let Some(h) = ratings::helper_headroom(&solved, req.supply_v) {
+                checks.push(h);
+            }
+            checks.push(ratings::vceo(self.design, &solved));
+            checks.push(ratings::ic_max(self.design, &solved));
+            checks.push(ratings::dissipation(self.design, &solved));
+        } else {
+            if ratings::helper_headroom(&solved, req.supply_v).is_some() {
+                checks.push(Check::not_available(
+                    CheckName::HelperHeadroom,
+                    req.supply_v,
+                    NEEDS_ALL,
+                ));
+            }
+            for name in [CheckName::Vceo, CheckName::IcMax, CheckName::Dissipation] {
+                checks.push(Check::not_available(name, f64::NAN, NEEDS_ALL));
+            }
         }
-        checks.push(ratings::vceo(self.design, &states));
-        checks.push(ratings::ic_max(self.design, &states));
-        checks.push(ratings::dissipation(self.design, &states));
 
         figures.ratio_achieved =
-            ratio_corner(&states, req).map_or(f64::NAN, |s| s.i_out_a / s.corner.i_in_a);
+            ratio_corner(&solved, req).map_or(f64::NAN, |s| s.i_out_a / s.corner.i_in_a);
 
         let mut ev = Evaluation {
             cost,
@@ -590,29 +686,50 @@ impl<'a> Evaluator<'a> {
             corners: Vec::new(),
             budget: None,
             hottest: None,
-            complete: !unsolved,
+            soft_saturation: soft,
+            complete: all_builds,
         };
         if depth == Depth::Full {
-            ev.corners = states
+            ev.corners = self
+                .corners
                 .iter()
+                .zip(&states)
                 .zip(&sens)
                 .zip(&r_outs)
-                .map(|((s, d), r)| CornerRow {
-                    corner: s.corner,
-                    i_out_a: s.i_out_a,
-                    error: s.error,
-                    error_random_sigma: budget::random_sigma(d),
-                    r_out_ohm: *r,
-                    v_in_v: s.v_in_v,
-                    t_junction_max_k: s
-                        .devices
-                        .iter()
-                        .map(|d| d.t_junction_k)
-                        .fold(f64::MIN, f64::max),
+                .map(|(((c, s), d), r)| match s {
+                    Some(s) => CornerRow {
+                        corner: *c,
+                        i_out_a: s.i_out_a,
+                        error: s.error,
+                        error_random_sigma: d.as_ref().map_or(f64::NAN, budget::random_sigma),
+                        r_out_ohm: *r,
+                        v_in_v: s.v_in_v,
+                        t_junction_max_k: s
+                            .devices
+                            .iter()
+                            .map(|d| d.t_junction_k)
+                            .fold(f64::MIN, f64::max),
+                    },
+                    // Not solved: every figure of the corner is not available.
+                    None => CornerRow {
+                        corner: *c,
+                        i_out_a: f64::NAN,
+                        error: f64::NAN,
+                        error_random_sigma: f64::NAN,
+                        r_out_ohm: f64::NAN,
+                        v_in_v: f64::NAN,
+                        t_junction_max_k: f64::NAN,
+                    },
                 })
                 .collect();
-            ev.budget = self.budget(&states[worst], &sens[worst]);
-            ev.hottest = ratings::hottest(&states).cloned();
+            if let (Some(w), true) = (worst, all_builds) {
+                if let (Some(s), Some(d)) = (&states[w], &sens[w]) {
+                    ev.budget = self.budget(s, d);
+                }
+            }
+            if all_nominal {
+                ev.hottest = ratings::hottest(&solved).cloned();
+            }
         }
         ev
     }
@@ -629,29 +746,38 @@ impl<'a> Evaluator<'a> {
         net.output_resistance(&op, &SolveOptions { self_heating: true })
     }
 
-    /// The lowest output voltage at which every transistor keeps V_CB >= 0 (I_in max,
-    /// hottest ambient), by bisection on the side the direct check found.
+    /// The lowest output voltage at which every transistor keeps `V_CE >= min_vce` at
+    /// `I_in` max and every ambient (MODEL.md), by bisection on the side the direct check
+    /// found. NaN when the supply end cannot be solved (the figure is then not available).
     fn compliance_voltage(&self, pass_at_min: bool) -> f64 {
-        let cc = corners::compliance_corner(self.req);
-        let ok = |v: f64| {
-            let c = OperatingCorner { v_out_v: v, ..cc };
-            self.solve(&c, &Mismatch::default())
-                .is_ok_and(|s| ratings::all_forward_active(&s))
+        let ccs = corners::compliance_corners(self.req);
+        let v_min = self.req.output_voltage_v.min;
+        // Some(verdict), or None when a corner did not solve.
+        let ok = |v: f64| -> Option<bool> {
+            let mut all = true;
+            for cc in &ccs {
+                let c = OperatingCorner { v_out_v: v, ..*cc };
+                let s = self.solve(&c, &Mismatch::default()).ok()?;
+                all &= ratings::keeps_min_vce(&s, self.req.min_vce_v);
+            }
+            Some(all)
         };
         let (mut lo, mut hi) = if pass_at_min {
-            (0.0, cc.v_out_v)
+            (0.0, v_min)
         } else {
-            if !ok(self.req.supply_v) {
-                return f64::INFINITY;
+            match ok(self.req.supply_v) {
+                Some(true) => (v_min, self.req.supply_v),
+                Some(false) => return f64::INFINITY,
+                None => return f64::NAN,
             }
-            (cc.v_out_v, self.req.supply_v)
         };
         while hi - lo > COMPLIANCE_RESOLUTION_V {
             let mid = 0.5 * (lo + hi);
-            if ok(mid) {
-                hi = mid;
-            } else {
-                lo = mid;
+            match ok(mid) {
+                Some(true) => hi = mid,
+                // Below compliance a corner may not solve (a saturated output device):
+                // counted as failing, which keeps the figure on the safe side.
+                Some(false) | None => lo = mid,
             }
         }
         hi
@@ -699,6 +825,7 @@ fn incomplete(cost: f64, checks: Vec<Check>) -> Evaluation {
         corners: Vec::new(),
         budget: None,
         hottest: None,
+        soft_saturation: Vec::new(),
         complete: false,
     }
 }
@@ -715,15 +842,39 @@ fn modified(class: &TransistorClass, v: Variant) -> TransistorClass {
     c
 }
 
-fn failure_check(f: &SolveFailure, c: &OperatingCorner) -> Check {
-    let at = format!(
-        "at I_in {:.3e} A, V_out {:.3} V, ambient {:.2} K: {f}",
-        c.i_in_a, c.v_out_v, c.t_amb_k
-    );
+/// A failed solve as a check of its own name, saying in which build it happened (the
+/// nominal design or an error-budget build; MODEL.md).
+fn failure_check(f: &SolveFailure, build: &str) -> Check {
+    // The failure names the topology, part and operating point; add which build.
+    let at = format!("in the {build}: {f}");
     match f {
         SolveFailure::ThermalRunaway { .. } => Check::failed(CheckName::ThermalRunaway, at),
-        _ => Check::failed(CheckName::NoConvergence, at),
+        _ => Check::failed(CheckName::NoSolution, at),
     }
+}
+
+/// The error-budget build that moves mismatch input `i` by +1 sigma.
+fn budget_build(i: usize) -> &'static str {
+    match i {
+        0 => "error-budget build (+1 sigma V_BE offset, pair 1)",
+        1 => "error-budget build (+1 sigma V_BE offset, pair 2)",
+        2 => "error-budget build (+1 sigma beta mismatch, pair 1)",
+        3 => "error-budget build (+1 sigma beta mismatch, pair 2)",
+        4 => "error-budget build (+1 sigma RE1 tolerance)",
+        _ => "error-budget build (+1 sigma RE2 tolerance)",
+    }
+}
+
+/// Record a failed solve once per check name (the first one found is reported).
+fn push_failure(checks: &mut Vec<Check>, fc: Check) {
+    if !checks.iter().any(|x| x.name == fc.name) {
+        checks.push(fc);
+    }
+}
+
+/// The compliance rule in the words the reports use.
+pub fn compliance_rule(min_vce_v: f64) -> String {
+    format!("every transistor keeps V_CE >= {min_vce_v} V at I_in max, every ambient")
 }
 
 /// The corner the achieved ratio is read at: I_in max, V_out min, ambient nearest 25 °C.

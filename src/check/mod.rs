@@ -21,12 +21,14 @@ pub use budget::{
 };
 pub use corners::{corners, design_current, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, resolve, DesignError, DesignSpec, Package, ResolvedDesign,
+    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package,
+    ResolvedDesign,
 };
-pub use evaluate::{CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
+pub use evaluate::{compliance_rule, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo};
 pub use montecarlo::linear_yield;
 pub use ratings::{
-    derated_power, CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
+    derated_power, dissipation, forward_biased_collectors, ic_max, keeps_min_vce, vceo,
+    CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,
 };
 pub use verdict::{first_failure, governing, Check, CheckName};
 

@@ -1,6 +1,7 @@
 //! Ratings and headroom judged on solved operating points: VCEO with derating, IC max,
 //! package dissipation derated with ambient temperature, the helper's headroom against
-//! the supply, and the V_CB >= 0 rule behind the compliance voltage.
+//! the supply, the `V_CE >= min_vce` rule behind the compliance voltage, and which
+//! transistors sit at `V_CB < 0` (soft saturation, a caution).
 //!
 //! Pure functions over [`CornerState`]s; nothing here solves a circuit.
 
@@ -59,23 +60,33 @@ pub fn derated_power(rating_w: f64, t_amb_k: f64) -> f64 {
     rating_w * f.clamp(0.0, 1.0)
 }
 
-/// The V_CB >= 0 rule of MODEL.md for every transistor whose collector is not on the
-/// supply rail (those are judged by [`helper_headroom`]), read as `V_CB >= -V_T`.
-///
-/// Some transistors sit at V_CB = 0 by design: the diode-connected ones, and the
-/// four-transistor Wilson's Q1, whose V_CB is V_BE(Q3) - V_BE(Q4) and so lands a few
-/// millivolts either side of zero whatever the output voltage. Read literally, the rule
-/// would fail that topology at every output voltage. One thermal voltage of forward
-/// collector bias changes a transistor's collector current by about
-/// exp(-(V_BE - V_BC)/V_T), below 1e-8 at V_BE near 0.55 V, so the allowance changes no
-/// result that the rule is meant to protect; an output transistor entering saturation
-/// still fails it within a few tens of millivolts of output voltage.
-pub fn all_forward_active(state: &CornerState) -> bool {
+/// The compliance rule of MODEL.md at one solved corner: every transistor keeps
+/// `V_CE >= min_vce`. Helpers collecting from the supply rail are included (their V_CE is
+/// the supply less their emitter voltage, so they pass wherever the helper-headroom check
+/// does).
+pub fn keeps_min_vce(state: &CornerState, min_vce_v: f64) -> bool {
+    vce_slack(state, min_vce_v).is_some_and(|(slack, _)| slack >= 0.0)
+}
+
+/// The smallest `V_CE - min_vce` over the transistors of a corner, and whose it is.
+pub fn vce_slack(state: &CornerState, min_vce_v: f64) -> Option<(f64, &'static str)> {
     state
         .devices
         .iter()
-        .filter(|d| !d.collector_at_supply)
-        .all(|d| d.v_cb_v() >= -crate::device::thermal_voltage(d.t_junction_k))
+        .map(|d| (d.v_ce_v - min_vce_v, d.name))
+        .min_by(|a, b| a.0.total_cmp(&b.0))
+}
+
+/// Transistors with a forward-biased collector junction (`V_CB < 0`) at a corner: they
+/// work in soft saturation, which the solved currents include, and deserve a caution.
+/// Helpers collecting from the supply rail are judged by the helper-headroom check.
+pub fn forward_biased_collectors(state: &CornerState) -> Vec<&'static str> {
+    state
+        .devices
+        .iter()
+        .filter(|d| !d.collector_at_supply && d.v_cb_v() < 0.0)
+        .map(|d| d.name)
+        .collect()
 }
 
 /// Largest V_CE of any transistor against its class's derated VCEO. The value reported
@@ -262,13 +273,27 @@ mod tests {
         let i = ic_max(&d, std::slice::from_ref(&s));
         assert!(i.pass);
         assert!((i.margin - (0.1 - 5e-3) / 0.1).abs() < 1e-12);
-        // V_CB >= 0: Q1 diode-connected (V_CB = 0) and Q2 at 40 V are both fine.
-        assert!(all_forward_active(&s));
+        // V_CE >= 0.3 V (MODEL.md; common practice, no source): Q1 diode-connected at
+        // 0.65 V and Q2 at 40 V both keep it.
+        assert!(keeps_min_vce(&s, 0.3));
+        assert!(forward_biased_collectors(&s).is_empty());
+        // Q2 at 0.35 V: above min_vce, but its collector junction is forward biased.
+        let soft = state(
+            POWER_FULL_K,
+            vec![dev("Q1", 0.65, 0.65, 1e-3), dev("Q2", 0.65, 0.35, 1e-3)],
+        );
+        assert!(keeps_min_vce(&soft, 0.3));
+        assert_eq!(forward_biased_collectors(&soft), vec!["Q2"]);
+        let (slack, who) = vce_slack(&soft, 0.3).unwrap();
+        assert!((slack - 0.05).abs() < 1e-12);
+        assert_eq!(who, "Q2");
+        // Q2 at 0.25 V: below min_vce.
         let sat = state(
             POWER_FULL_K,
-            vec![dev("Q1", 0.65, 0.65, 1e-3), dev("Q2", 0.65, 0.3, 1e-3)],
+            vec![dev("Q1", 0.65, 0.65, 1e-3), dev("Q2", 0.65, 0.25, 1e-3)],
         );
-        assert!(!all_forward_active(&sat));
+        assert!(!keeps_min_vce(&sat, 0.3));
+        assert!(keeps_min_vce(&sat, 0.2));
         assert!(helper_headroom(&[s], 12.0).is_none());
     }
 

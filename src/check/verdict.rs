@@ -3,8 +3,11 @@
 //!
 //! Margins are relative to the limit and positive when the check passes: for an upper
 //! limit `(limit - value) / limit`, for a lower limit `(value - limit) / limit`. A solve
-//! that could not produce a number (thermal runaway, no convergence) is a check of its own
-//! with no value and a margin of minus infinity.
+//! that could not produce a number (thermal runaway, no solution) is a check of its own
+//! with no value and a margin of minus infinity, and names the build it happened in. A
+//! check whose figure needed a corner that could not be solved is *not available*: no
+//! value, no margin, not passed, and never counted as the design's failure (the solve
+//! failure, earlier in check order, is).
 
 use std::fmt;
 
@@ -18,7 +21,7 @@ use serde::Serialize;
 pub enum CheckName {
     Cost,
     ThermalRunaway,
-    NoConvergence,
+    NoSolution,
     Compliance,
     InputVoltage,
     Accuracy,
@@ -34,7 +37,7 @@ impl CheckName {
     pub const ALL: [CheckName; 12] = [
         CheckName::Cost,
         CheckName::ThermalRunaway,
-        CheckName::NoConvergence,
+        CheckName::NoSolution,
         CheckName::Compliance,
         CheckName::InputVoltage,
         CheckName::Accuracy,
@@ -50,7 +53,7 @@ impl CheckName {
         match self {
             CheckName::Cost => "cost",
             CheckName::ThermalRunaway => "thermal-runaway",
-            CheckName::NoConvergence => "no-convergence",
+            CheckName::NoSolution => "no-solution",
             CheckName::Compliance => "compliance",
             CheckName::InputVoltage => "input-voltage",
             CheckName::Accuracy => "accuracy",
@@ -67,7 +70,7 @@ impl CheckName {
     pub fn unit(self) -> &'static str {
         match self {
             CheckName::Cost | CheckName::Accuracy | CheckName::Yield => "",
-            CheckName::ThermalRunaway | CheckName::NoConvergence => "",
+            CheckName::ThermalRunaway | CheckName::NoSolution => "",
             CheckName::Compliance
             | CheckName::InputVoltage
             | CheckName::HelperHeadroom
@@ -123,6 +126,30 @@ impl Check {
             margin,
             pass: value >= limit,
             detail: detail.into(),
+        }
+    }
+
+    /// Whether this check names a failed solve (thermal runaway, no solution).
+    pub fn is_solve_failure(&self) -> bool {
+        matches!(self.name, CheckName::ThermalRunaway | CheckName::NoSolution)
+    }
+
+    /// Whether the check has a figure: false for a failed solve and for a check whose
+    /// figure needed an unsolved corner.
+    pub fn available(&self) -> bool {
+        !self.value.is_nan()
+    }
+
+    /// A check whose figure needed a corner (or build) that could not be solved: not
+    /// available, so not passed; the failed solve is reported as its own check.
+    pub fn not_available(name: CheckName, limit: f64, why: impl Into<String>) -> Check {
+        Check {
+            name,
+            value: f64::NAN,
+            limit,
+            margin: f64::NAN,
+            pass: false,
+            detail: format!("not available: {}", why.into()),
         }
     }
 

@@ -224,12 +224,13 @@ pub fn output_resistance(
 /// is ignored.
 pub fn balance_voltage(
     design: &Design,
+    ratio: f64,
     op: &OperatingPoint,
     mm: &Mismatch,
     opts: &SolveOptions,
 ) -> Option<f64> {
     let net = Netlist::compile(design, mm).ok()?;
-    let n = design.intended_ratio(op.i_in_a);
+    let n = ratio;
     let err = |v: f64| -> Option<f64> {
         let p = OperatingPoint { v_out_v: v, ..*op };
         net.solve(&p, opts).ok().map(|s| s.error(n, op.i_in_a))

@@ -18,7 +18,11 @@ pub fn last_digit(se: f64) -> Option<i32> {
     let e = se.log10().floor() as i32;
     let lead3 = (se / 10f64.powi(e - 2)).round();
     // `round` can carry 999.6 to 1000 (one more leading digit).
-    let (e, lead3) = if lead3 >= 1000.0 { (e + 1, 100.0) } else { (e, lead3) };
+    let (e, lead3) = if lead3 >= 1000.0 {
+        (e + 1, 100.0)
+    } else {
+        (e, lead3)
+    };
     // 355 to 949 keep one digit; 950 to 999 keep the same place, where rounding makes
     // them "10" of the next decade: two digits, as the rule asks.
     Some(if lead3 <= 354.0 { e - 1 } else { e })
@@ -45,7 +49,10 @@ pub fn with_error(value: f64, se: f64, unit: &str) -> (String, String) {
         let r = (x / step).round() * step / scale;
         // Avoid "-0".
         let s = format!("{r:.decimals$}");
-        if s.trim_start_matches('-').chars().all(|c| c == '0' || c == '.') {
+        if s.trim_start_matches('-')
+            .chars()
+            .all(|c| c == '0' || c == '.')
+        {
             s.trim_start_matches('-').to_string()
         } else {
             s
@@ -56,14 +63,21 @@ pub fn with_error(value: f64, se: f64, unit: &str) -> (String, String) {
     } else {
         format!(" {prefix}{unit}")
     };
-    (format!("{}{unit}", round(value)), format!("{}{unit}", round(se)))
+    (
+        format!("{}{unit}", round(value)),
+        format!("{}{unit}", round(se)),
+    )
 }
 
 /// `x` with two (or `digits`) significant digits and an SI prefix for `unit`; a plain
 /// number when `unit` is empty (`4.9`, `12`, `1.2e7`).
 pub fn prefixed(x: f64, unit: &str, digits: usize) -> String {
     if !x.is_finite() {
-        return if x.is_nan() { "n/a".into() } else { "infinite".into() };
+        return if x.is_nan() {
+            "n/a".into()
+        } else {
+            "infinite".into()
+        };
     }
     if unit.is_empty() {
         return plain(x, digits);
@@ -140,12 +154,21 @@ mod tests {
     #[test]
     fn errors_keep_one_or_two_digits_by_the_pdg_rule() {
         assert_eq!(with_error(14.21, 0.827, ""), ("14.2".into(), "0.8".into()));
-        assert_eq!(with_error(14.21, 0.354, ""), ("14.21".into(), "0.35".into()));
+        assert_eq!(
+            with_error(14.21, 0.354, ""),
+            ("14.21".into(), "0.35".into())
+        );
         assert_eq!(with_error(14.21, 0.355, ""), ("14.2".into(), "0.4".into()));
-        assert_eq!(with_error(14.21, 0.0999, ""), ("14.21".into(), "0.10".into()));
+        assert_eq!(
+            with_error(14.21, 0.0999, ""),
+            ("14.21".into(), "0.10".into())
+        );
         assert_eq!(with_error(14.21, 1.1, ""), ("14.2".into(), "1.1".into()));
         // The figures of the issue: BF 180.9496 ± 0.5420 and the demo's VAF and offset.
-        assert_eq!(with_error(180.9496, 0.5420, ""), ("180.9".into(), "0.5".into()));
+        assert_eq!(
+            with_error(180.9496, 0.5420, ""),
+            ("180.9".into(), "0.5".into())
+        );
         assert_eq!(with_error(190.4, 48.0, ""), ("190".into(), "50".into()));
         assert_eq!(
             with_error(75.0123, 0.108, "V"),

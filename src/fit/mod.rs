@@ -214,7 +214,7 @@ impl fmt::Display for FitWarning {
 }
 
 /// A parameter value or change with two significant digits and its unit.
-fn param_figure(kind: ParamKind, v: f64) -> String {
+pub(crate) fn param_figure(kind: ParamKind, v: f64) -> String {
     match kind {
         ParamKind::Bf => figures::plain(v, 2),
         ParamKind::Vaf | ParamKind::VbeOffset => figures::prefixed(v, "V", 2),
@@ -323,7 +323,12 @@ pub fn fit(set: &MeasurementSet, cfg: &FitConfig) -> FitReport {
         for h in &m.held {
             warnings.push(FitWarning::Unidentified(h.clone()));
         }
-        let fitted: Vec<ParamKind> = m.params.iter().filter(|p| p.fitted).map(|p| p.kind).collect();
+        let fitted: Vec<ParamKind> = m
+            .params
+            .iter()
+            .filter(|p| p.fitted)
+            .map(|p| p.kind)
+            .collect();
         let conditional_on = m
             .params
             .iter()

@@ -468,6 +468,39 @@ pub fn fit_model(
         for (k, u) in free.iter().zip(&out.params) {
             trial.set_u(*k, *u);
         }
+        // A parameter run outside what a transistor has (BF to 1e15). If the data fit
+        // nearly as well (within 2 errors, 4 s^2) with it at the base value, they cannot
+        // tell the two apart and it is held; if they need the impossible value, the data
+        // (or the stated circuit) cannot support a fit.
+        if let Some(i) = free.iter().position(|k| !k.plausible(trial.get(*k))) {
+            let kind = free[i];
+            let mut pinned = trial;
+            pinned.reset(kind, base);
+            let others: Vec<ParamKind> = free.iter().copied().filter(|k| *k != kind).collect();
+            let s2 = out.ssr / out.dof.max(1) as f64;
+            let tie =
+                run(setup, &points, &pinned, &others).is_ok_and(|o| o.ssr - out.ssr <= 4.0 * s2);
+            if tie {
+                hold(&mut free, &mut values, &mut held, base, i, &out);
+                continue;
+            }
+            return Err(ModelFitFailure::Unsupported {
+                reason: format!(
+                    "the fit ran {} to {}, outside what a bipolar transistor has ({}){}, and the data fit clearly worse at the base class's value: check the topology, the emitter resistors and the supply, or measure at more currents",
+                    kind.name(),
+                    trial.get(kind).map_or("infinity".into(), |v| super::param_figure(kind, v)),
+                    kind.plausible_range(),
+                    if held.is_empty() {
+                        String::new()
+                    } else {
+                        format!(
+                            " with {} held",
+                            held.iter().map(|h| h.kind.name()).collect::<Vec<_>>().join(", ")
+                        )
+                    }
+                ),
+            });
+        }
         // Numerically singular: some combination of the parameters does not change the
         // data at all. The weakest direction's largest member is held and the rest refitted.
         if out.condition > CONDITION_LIMIT || out.covariance.is_none() {
@@ -573,7 +606,9 @@ pub fn fit_model(
                         reason: format!(
                             "{} has no finite standard error at the fitted point ({})",
                             kind.name(),
-                            values.get(kind).map_or("infinite".into(), |v| format!("{v:e}"))
+                            values
+                                .get(kind)
+                                .map_or("infinite".into(), |v| format!("{v:e}"))
                         ),
                     });
                 }
@@ -592,16 +627,6 @@ pub fn fit_model(
             } else {
                 Vec::new()
             },
-        });
-    }
-    if let Some(p) = params.iter().find(|p| p.fitted && !p.kind.plausible(p.value)) {
-        return Err(ModelFitFailure::Unsupported {
-            reason: format!(
-                "the fit put {} at {}, outside what a bipolar transistor has ({}): the data do not bound it",
-                p.kind.name(),
-                p.value.map_or("infinity".into(), |v| format!("{v:.3e}")),
-                p.kind.plausible_range()
-            ),
         });
     }
     let (largest_idx, largest) = outcome
@@ -715,7 +740,27 @@ fn best_of_starts(
         .filter_map(|s| run(setup, points, s, free).ok())
         .filter(|o| o.ssr.is_finite())
         .collect();
-    let best = (0..outs.len()).min_by(|a, b| outs[*a].ssr.total_cmp(&outs[*b].ssr))?;
+    let lowest = |outs: &[LsOutcome], only_plausible: bool| {
+        (0..outs.len())
+            .filter(|i| {
+                !only_plausible
+                    || free.iter().zip(&outs[*i].params).all(|(k, u)| {
+                        let mut v = *values;
+                        v.set_u(*k, *u);
+                        k.plausible(v.get(*k))
+                    })
+            })
+            .min_by(|a, b| outs[*a].ssr.total_cmp(&outs[*b].ssr))
+    };
+    let mut best = lowest(&outs, false)?;
+    // Along a flat valley one start may drift to BF = 1e15 while another stops at a
+    // physical point the data fit as well (within one s^2): keep the physical one.
+    if let Some(p) = lowest(&outs, true) {
+        let s2 = outs[best].ssr / outs[best].dof.max(1) as f64;
+        if outs[p].ssr - outs[best].ssr <= s2 {
+            best = p;
+        }
+    }
     let best = outs.swap_remove(best);
     let s2 = best.ssr / best.dof.max(1) as f64;
     outs.retain(|o| o.ssr - best.ssr < s2);
@@ -863,11 +908,7 @@ fn sensitivity(
             )
         })
         .collect();
-    Some(Sensitivity {
-        held,
-        step,
-        shifts,
-    })
+    Some(Sensitivity { held, step, shifts })
 }
 
 /// One least-squares run over the `free` parameters, the others at `values`.

@@ -93,8 +93,7 @@ pub fn write_table(report: &FitReport, style: Style, out: &mut dyn Write) -> io:
                     .slope_std_error
                     .map(|s| s * l.output_resistance_ohm / l.slope_a_per_v);
                 let r_out = by_error(l.output_resistance_ohm, r_out_se, "Ω").0;
-                let (vaf, vaf_se) =
-                    by_error(l.early_voltage_v, l.early_voltage_std_error_v, "V");
+                let (vaf, vaf_se) = by_error(l.early_voltage_v, l.early_voltage_std_error_v, "V");
                 row.extend([slope, r_out, vaf, vaf_se]);
             }
             other => row.extend([

@@ -220,6 +220,8 @@ pub struct RawRequirement {
     #[serde(default)]
     pub input_voltage_max: Option<RawQty>,
     #[serde(default)]
+    pub min_vce: Option<RawQty>,
+    #[serde(default)]
     pub max_cost: Option<RawQty>,
     #[serde(default)]
     pub quantity: Option<u32>,

@@ -14,6 +14,7 @@
 //! | `min_yield` | 0 % to 100 % |
 //! | `min_output_resistance` | 1 Ω to 1 TΩ |
 //! | `input_voltage_max` | 0.1 V to 1000 V |
+//! | `min_vce` | 0 V to 10 V (default 0.3 V) |
 //! | `max_cost` | 0 to 1e6 |
 //! | `quantity` | 1 to 1000000 (default 1) |
 //!
@@ -27,11 +28,12 @@ use super::raw::{RawKind, RawLoad, RawRange, RawRequirement};
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
     Catalog, Filters, LoadKind, MirrorKind, Polarity, Range, Requirement, Topology, ALL_TOPOLOGIES,
+    DEFAULT_MIN_VCE_V,
 };
 use crate::units::{Dimension as D, Field};
 
 /// Every quantity field of a requirement with its plausible range.
-pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
+pub const REQUIREMENT_FIELDS: [(&str, Field); 13] = [
     (
         "supply",
         Field::new("a supply voltage", D::Voltage, 0.5, 1000.0),
@@ -65,6 +67,10 @@ pub const REQUIREMENT_FIELDS: [(&str, Field); 12] = [
     (
         "input_voltage_max",
         Field::new("an input voltage", D::Voltage, 0.1, 1000.0),
+    ),
+    (
+        "min_vce",
+        Field::new("a minimum collector-emitter voltage", D::Voltage, 0.0, 10.0),
     ),
     ("max_cost", Field::new("a cost", D::Number, 0.0, 1e6)),
     ("quantity", Field::new("a quantity", D::Number, 1.0, 1e6)),
@@ -153,6 +159,7 @@ pub(super) fn validate_requirement(
             ));
         }
     }
+    let min_vce_v = opt("min_vce", &raw.min_vce)?.unwrap_or(DEFAULT_MIN_VCE_V);
     let max_cost = opt("max_cost", &raw.max_cost)?;
     let quantity = raw.quantity.unwrap_or(1);
     if quantity == 0 {
@@ -225,6 +232,7 @@ pub(super) fn validate_requirement(
         min_yield,
         min_output_resistance_ohm,
         input_voltage_max_v,
+        min_vce_v,
         max_cost,
         quantity,
         load: match raw.load.unwrap_or(RawLoad::General) {
@@ -269,6 +277,7 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
     put("ambient", range(&r.ambient_k, true));
     put("accuracy", num(r.accuracy));
     put("confidence_sigma", num(r.confidence_sigma));
+    put("min_vce", num(r.min_vce_v));
     for (k, v) in [
         ("min_yield", r.min_yield),
         ("min_output_resistance", r.min_output_resistance_ohm),

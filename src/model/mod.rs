@@ -14,7 +14,7 @@ mod transistor;
 
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel};
-pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement};
+pub use requirement::{Filters, LoadKind, MirrorKind, Range, Requirement, DEFAULT_MIN_VCE_V};
 pub use resistor::{ResistorClass, Series};
 pub use topology::{
     Branch, EstimateInputs, Estimates, Role, Topology, TopologyDesc, TransistorLine, ALL_TOPOLOGIES,

@@ -2,6 +2,10 @@
 
 use super::Polarity;
 
+/// Default `min_vce`: small-signal BJTs saturate at 0.1–0.3 V and the model has no
+/// collector resistance (common practice, no source; MODEL.md).
+pub const DEFAULT_MIN_VCE_V: f64 = 0.3;
+
 /// A closed interval `[min, max]` with `min <= max`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Range {
@@ -87,6 +91,9 @@ pub struct Requirement {
     pub min_yield: Option<f64>,
     pub min_output_resistance_ohm: Option<f64>,
     pub input_voltage_max_v: Option<f64>,
+    /// The smallest V_CE every transistor must keep at the compliance corners
+    /// (MODEL.md "compliance voltage"; default [`DEFAULT_MIN_VCE_V`]).
+    pub min_vce_v: f64,
     pub max_cost: Option<f64>,
     /// How many identical mirrors are built (default 1).
     pub quantity: u32,

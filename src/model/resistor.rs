@@ -124,6 +124,25 @@ impl Series {
         out
     }
 
+    /// The preferred values either side of `x`: the largest at or below it and the
+    /// smallest at or above it (the same value twice when `x` is one, to 1e-9).
+    pub fn bracket(self, x: f64) -> Option<(f64, f64)> {
+        if !(x > 0.0 && x.is_finite()) {
+            return None;
+        }
+        let near = self.values_between(x / 1.3, x * 1.3);
+        if let Some(&v) = near.iter().find(|v| ((*v / x) - 1.0).abs() <= 1e-9) {
+            return Some((v, v));
+        }
+        let below = near
+            .iter()
+            .copied()
+            .filter(|v| *v < x)
+            .fold(None, |a: Option<f64>, v| Some(a.map_or(v, |a| a.max(v))))?;
+        let above = near.iter().copied().find(|v| *v > x)?;
+        Some((below, above))
+    }
+
     /// The preferred value nearest to `x` on a logarithmic scale (ties go up).
     pub fn nearest(self, x: f64) -> Option<f64> {
         if !(x > 0.0 && x.is_finite()) {

@@ -24,7 +24,7 @@ pub use report::{
     SCHEMA_VERSION,
 };
 pub use search::{search, Goal, Progress, Silent, Unit, Verdicts};
-pub use space::{enumerate, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
+pub use space::{enumerate, ratio_re2, thermal_voltage, widlar_re2, Group, RE_MIN_OHM};
 
 use crate::check::{
     self, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator, MonteCarlo,
@@ -189,9 +189,11 @@ fn rank_with_goal(
         prefer: opts.prefer,
         exhaustive: opts.exhaustive,
         every_value: opts.every_value,
+        candidate_space: ranked.len() + verdicts.rejected.len() + verdicts.unverified.len(),
         evaluated: ranked.len() + verdicts.rejected.len(),
         unverified: verdicts.unverified.len(),
         feasible: ranked.len(),
+        feasible_at_least: !verdicts.unverified.is_empty(),
         families: families.len(),
         rejected_by,
         seed: opts.mc.seed,

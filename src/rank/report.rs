@@ -74,6 +74,10 @@ pub struct CandidateRow {
     pub governing_check: Option<CheckName>,
     pub pareto: bool,
     pub checks: Vec<CheckRow>,
+    /// Transistors with `V_CB < 0` (forward-biased collector junction, soft saturation)
+    /// at `V_out` min at some corner; the compliance rule is `V_CE >= min_vce`, so this
+    /// is a caution, not a failure.
+    pub soft_saturation: Vec<&'static str>,
 }
 
 impl CandidateRow {
@@ -100,6 +104,7 @@ impl CandidateRow {
             governing_check: ev.governing().map(|c| c.name),
             pareto,
             checks: ev.checks.iter().map(CheckRow::from).collect(),
+            soft_saturation: ev.soft_saturation.clone(),
         }
     }
 
@@ -265,6 +270,11 @@ pub enum Caution {
         who: String,
         fraction: f64,
     },
+    /// Transistors with a forward-biased collector junction at the lowest output voltage.
+    SoftSaturation {
+        who: String,
+        transistors: Vec<&'static str>,
+    },
     LightSource(LoadKind),
     HighVoltage {
         supply_v: f64,
@@ -291,6 +301,12 @@ impl fmt::Display for Caution {
                 "{who}: a transistor sees {:.0} % of its derated VCEO ({:.0} % of the rating); allow for supply transients",
                 fraction * 100.0,
                 fraction * VCEO_DERATING * 100.0
+            ),
+            Caution::SoftSaturation { who, transistors } => write!(
+                f,
+                "{who}: {} {} V_CB < 0 at the lowest output voltage (soft saturation; the solved currents include it, but the datasheet's saturation figures at your current govern)",
+                transistors.join(", "),
+                if transistors.len() == 1 { "has" } else { "have" }
             ),
             Caution::LightSource(load) if *load == LoadKind::Laser => f.write_str(
                 "the load is a laser: a current step or overshoot can destroy it and its beam can harm eyes; add protection and follow the emitter's datasheet and the applicable laser safety standard",
@@ -335,8 +351,17 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
         if let Some(c) = r.check(CheckName::Vceo) {
             let fraction = c.value / c.limit;
             if fraction > 0.8 {
-                out.push(Caution::NearVceo { who, fraction });
+                out.push(Caution::NearVceo {
+                    who: who.clone(),
+                    fraction,
+                });
             }
+        }
+        if !r.soft_saturation.is_empty() {
+            out.push(Caution::SoftSaturation {
+                who,
+                transistors: r.soft_saturation.clone(),
+            });
         }
     }
     if matches!(req.load, LoadKind::Led | LoadKind::Laser) {
@@ -384,9 +409,16 @@ pub struct RankReport {
     /// `--every-value`: every resistor value is its own row; otherwise each family
     /// (topology, pair, helper, resistor class) shows its best row.
     pub every_value: bool,
+    /// Every candidate of the requirement and catalog: the same number in every command
+    /// and search mode (`evaluated + unverified`).
+    pub candidate_space: usize,
     /// Candidates judged: verified, or rejected by a screen that proves the failure.
     pub evaluated: usize,
+    /// Feasible designs verified. A lower bound when `feasible_at_least` is true.
     pub feasible: usize,
+    /// True when some candidates passed every screen but were not verified
+    /// (`unverified > 0`): `feasible` and `families` are then "at least" counts.
+    pub feasible_at_least: bool,
     /// Families with a feasible design among those verified.
     pub families: usize,
     /// Candidates that passed every screen but cost more than the shown rows need, so

@@ -393,7 +393,7 @@ fn outcome(ev: Evaluation) -> Outcome {
     match ev.first_failure() {
         None if ev.feasible() => Outcome::Feasible(Box::new(ev)),
         Some(c) => Outcome::Rejected(c),
-        None => Outcome::Rejected(CheckName::NoConvergence),
+        None => Outcome::Rejected(CheckName::NoSolution),
     }
 }
 
@@ -449,9 +449,13 @@ fn screen_group(
             Err(_) => false,
         }
     };
-    // Compliance and input voltage: a passing prefix.
-    let comp_end = prefix_len(n, |i| probe(i, &|e| e.compliance_ok()));
-    let input_end = prefix_len(comp_end, |i| probe(i, &|e| e.input_voltage_ok()));
+    // Compliance and input voltage: a passing prefix. A corner that cannot be solved is
+    // no proof of either failure: it counts as passing here, so the candidate is verified
+    // and fails under the check that failed (thermal-runaway or no-solution).
+    let comp_end = prefix_len(n, |i| probe(i, &|e| e.compliance_ok() != Some(false)));
+    let input_end = prefix_len(comp_end, |i| {
+        probe(i, &|e| e.input_voltage_ok() != Some(false))
+    });
     // V_BE-offset bound: a failing prefix. A failed solve is not a proof of failure.
     let acc_start = prefix_len(input_end, |i| {
         probe(i, &|e| {

@@ -16,9 +16,13 @@
 //! * Degeneration: none, or every standard value of each resistor class's series from
 //!   1 ohm up to `V_out,min / I_in,max` (and `input_voltage_max / I_in,max`): above that the
 //!   drop across RE alone breaks compliance (or the input limit), whatever V_BE is.
-//! * A ratio n != 1: RE2 = RE1/n rounded to the nearest standard value (a 1:1 pair cannot
-//!   give n, so there is no undegenerated candidate), or a Widlar when n < 1 with RE2
-//!   solved from `I_out*RE2 = V_T ln(I_in/I_out)` at the design current and 25 °C.
+//! * A ratio n != 1: RE2 from `n I_in RE2 = I_in RE1 - V_T ln(n)` (the V_BE difference of
+//!   two equal devices at unequal currents; Gray et al. ch. 4, MODEL.md) at the geometric
+//!   mean of the input-current range and 25 °C, and both standard values around it are
+//!   candidates (a 1:1 pair cannot give n, so there is no undegenerated candidate). The
+//!   lower and the upper rounding form two groups, each ascending in RE1 *and* RE2, so the
+//!   search's monotone screens hold in each. A Widlar when n < 1 has RE2 solved from
+//!   `I_out*RE2 = V_T ln(I_in/I_out)` at the design current and 25 °C.
 //! * `allow`/`deny`: topology names filter topologies; class ids filter transistor and
 //!   resistor classes. An `allow` list applies to transistor classes only if it names
 //!   one, and to resistor classes only if it names one, so "allow: [npn-dual-matched]"
@@ -130,26 +134,42 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                 });
             }
             for r in &resistors {
-                let specs: Vec<DesignSpec> = r
-                    .series
-                    .values_between(RE_MIN_OHM, re_max)
-                    .into_iter()
-                    .filter_map(|re1| {
-                        let re2 = if unity {
-                            re1
-                        } else {
-                            r.series.nearest(re1 / n)?
-                        };
-                        Some(spec(re1, re2, Some(r)))
+                let values = r.series.values_between(RE_MIN_OHM, re_max);
+                if unity {
+                    let specs: Vec<DesignSpec> =
+                        values.iter().map(|&re1| spec(re1, re1, Some(r))).collect();
+                    if !specs.is_empty() {
+                        groups.push(Group {
+                            topology,
+                            pair: pair.id.clone(),
+                            resistor: Some(r.id.clone()),
+                            specs,
+                        });
+                    }
+                    continue;
+                }
+                // Lower rounding of RE2, then the upper one where it differs.
+                let brackets: Vec<(f64, (f64, f64))> = values
+                    .iter()
+                    .filter_map(|&re1| {
+                        let exact = ratio_re2(re1, n, design_current(req), ROOM_K)?;
+                        Some((re1, r.series.bracket(exact)?))
                     })
                     .collect();
-                if !specs.is_empty() {
-                    groups.push(Group {
-                        topology,
-                        pair: pair.id.clone(),
-                        resistor: Some(r.id.clone()),
-                        specs,
-                    });
+                for upper in [false, true] {
+                    let specs: Vec<DesignSpec> = brackets
+                        .iter()
+                        .filter(|(_, (lo, hi))| !upper || hi > lo)
+                        .map(|&(re1, (lo, hi))| spec(re1, if upper { hi } else { lo }, Some(r)))
+                        .collect();
+                    if !specs.is_empty() {
+                        groups.push(Group {
+                            topology,
+                            pair: pair.id.clone(),
+                            resistor: Some(r.id.clone()),
+                            specs,
+                        });
+                    }
                 }
             }
         }
@@ -168,6 +188,16 @@ pub fn widlar_re2(req: &Requirement, r: &ResistorClass) -> Option<f64> {
     let i_in = design_current(req);
     let re2 = thermal_voltage(ROOM_K) * (1.0 / n).ln() / (n * i_in);
     r.series.nearest(re2)
+}
+
+/// RE2 of a degenerated ratio mirror (n = I_out/I_in) with RE1 on the input side:
+/// `n I_in RE2 = I_in RE1 - V_T ln(n)`, the emitter-resistor drops differing by the V_BE
+/// difference of two equal devices at currents n apart (Gray, Hurst, Lewis & Meyer,
+/// ch. 4; MODEL.md), at input current `i_in_a` and temperature `t_k`. `None` when RE1 is
+/// too small to carry that V_BE difference (no positive RE2 exists).
+pub fn ratio_re2(re1_ohm: f64, n: f64, i_in_a: f64, t_k: f64) -> Option<f64> {
+    let re2 = (re1_ohm - thermal_voltage(t_k) * n.ln() / i_in_a) / n;
+    (re2 > 0.0 && re2.is_finite()).then_some(re2)
 }
 
 /// V_T = kT/q with the exact SI values of k and q (SI Brochure, 9th edition, 2019).

@@ -38,7 +38,11 @@ fn money(catalog: &Catalog, x: f64) -> String {
 fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String {
     if !x.is_finite() {
         return if x.is_nan() {
-            "no solution".into()
+            match name {
+                CheckName::ThermalRunaway | CheckName::NoSolution => "no solution".into(),
+                // A figure that needed a corner which could not be solved.
+                _ => "not available".into(),
+            }
         } else {
             eng(x, name.unit(), U)
         };
@@ -46,7 +50,7 @@ fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String
     match name {
         CheckName::Cost => money(catalog, x),
         CheckName::Accuracy | CheckName::Yield => percent(x),
-        CheckName::ThermalRunaway | CheckName::NoConvergence => format!("{x}"),
+        CheckName::ThermalRunaway | CheckName::NoSolution => format!("{x}"),
         _ => eng_sig(
             x,
             if name.unit() == "Ω" {
@@ -255,7 +259,17 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
                 eng(x, "A", U)
             }),
         ),
-        ("ratio n".into(), format!("{}", req.ratio)),
+        (
+            "ratio n".into(),
+            if (req.ratio - 1.0).abs() < 1e-12 {
+                format!("{}", req.ratio)
+            } else {
+                format!(
+                    "{}; RE2 from n·I_in·RE2 = I_in·RE1 − V_T·ln(n) at the geometric-mean input current and 25 °C, both standard values around it tried",
+                    req.ratio
+                )
+            },
+        ),
         (
             "output voltage (from the mirror rail)".into(),
             range(req.output_voltage_v.min, req.output_voltage_v.max, &|x| {
@@ -321,9 +335,10 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         });
     let verdict = match (chosen_row, &inp.best_rejected) {
         (Some(c), _) => format!(
-            "{} of {} candidate designs meet every requirement. Chosen ({} first): {}, {} per mirror, total error {} against {}; governing check {} with {} margin.",
+            "{}{} of {} candidate designs meet every requirement. Chosen ({} first): {}, {} per mirror, total error {} against {}; governing check {} with {} margin.",
+            if report.feasible_at_least { "At least " } else { "" },
             report.feasible,
-            report.evaluated,
+            report.candidate_space,
             report.prefer.as_str(),
             design_title(c),
             money(catalog, c.cost),
@@ -334,14 +349,14 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         ),
         (None, Some((row, check, margin))) => format!(
             "No design among {} candidates meets every requirement. The nearest miss, {}, fails {} by {}.",
-            report.evaluated,
+            report.candidate_space,
             design_title(row),
             check,
             percent(-margin)
         ),
         (None, None) => format!(
             "No design among {} candidates meets every requirement.",
-            report.evaluated
+            report.candidate_space
         ),
     };
 
@@ -476,6 +491,17 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             "random error".into(),
             "from the class's V_BE offset and beta mismatch sigmas and the resistor tolerance read as ±3 sigma".into(),
         ),
+        (
+            "compliance".into(),
+            format!(
+                "the lowest V_out at which every transistor keeps V_CE ≥ min_vce = {} at every corner with I_in max, at every ambient (the cold corner has the largest V_BE); a transistor with V_CB < 0 at V_out min is a caution, not a failure",
+                eng(req.min_vce_v, "V", U)
+            ),
+        ),
+        (
+            "failed solves".into(),
+            "a corner that cannot be solved fails thermal-runaway or no-solution, naming the build (nominal design or error-budget build); figures that needed it are not available, never computed from the other corners".into(),
+        ),
         ("Monte Carlo seed".into(), report.seed.to_string()),
         ("Monte Carlo samples".into(), report.samples.to_string()),
         (
@@ -516,8 +542,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         requirement: requirement_rows(req, catalog),
         chosen,
         runners_up,
-        evaluated: report.evaluated,
-        feasible_count: report.feasible,
+        counts: counts_sentence(report),
         rejected_by: report
             .rejected_by
             .iter()
@@ -531,4 +556,27 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
         assumptions,
         cautions,
     })
+}
+
+/// The candidate space and the feasible count, with "at least" where the search left
+/// candidates unverified: the same numbers as `rank` on the same files.
+fn counts_sentence(report: &RankReport) -> String {
+    let mut s = format!(
+        "{} candidate designs: {}{} feasible",
+        report.candidate_space,
+        if report.feasible_at_least {
+            "at least "
+        } else {
+            ""
+        },
+        report.feasible
+    );
+    if report.unverified > 0 {
+        s.push_str(&format!(
+            " ({} more passed every screen but cost more than the designs shown, so were not verified)",
+            report.unverified
+        ));
+    }
+    s.push_str(". A rejected design is counted under the check that rejected it: the screen that proved it fails, or the first failing check.");
+    s
 }

@@ -80,6 +80,7 @@ pub fn requirement() -> Requirement {
         min_yield: None,
         min_output_resistance_ohm: None,
         input_voltage_max_v: None,
+        min_vce_v: 0.3,
         max_cost: None,
         quantity: 1,
         load: LoadKind::General,
@@ -153,8 +154,7 @@ pub fn page() -> super::page::Page {
         requirement: vec![("name".into(), "tail <i>sink</i>".into())],
         chosen: Some(design(1, "wilson · npn-dual-test <b>bold</b>")),
         runners_up: vec![design(2, "simple · npn-dual-test")],
-        evaluated: 120,
-        feasible_count: 7,
+        counts: "120 candidate designs: 7 feasible. A rejected design is counted under the check that rejected it.".into(),
         rejected_by: vec![("accuracy".into(), 100), ("compliance".into(), 13)],
         best_rejected: Some(Rejected {
             design: design(0, "simple · cheap"),

@@ -189,11 +189,7 @@ pub fn render(page: &Page) -> String {
     o.push_str("</section>\n");
 
     o.push_str("<section id=\"rejected\">\n<h2>4 What was rejected and why</h2>\n");
-    let _ = writeln!(
-        o,
-        "<p>{} candidate designs evaluated, {} feasible. Each rejected design is counted under the first check it failed.</p>",
-        page.evaluated, page.feasible_count
-    );
+    let _ = writeln!(o, "<p>{}</p>", escape(&page.counts));
     if !page.rejected_by.is_empty() {
         table(&mut o, &page.rejected_by_table(), "rejected-by");
     }

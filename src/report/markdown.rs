@@ -150,11 +150,7 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
     }
 
     o.push_str("## 4 What was rejected and why\n\n");
-    let _ = writeln!(
-        o,
-        "{} candidate designs evaluated, {} feasible. Each rejected design is counted under the first check it failed.\n",
-        page.evaluated, page.feasible_count
-    );
+    let _ = writeln!(o, "{}\n", page.counts);
     if !page.rejected_by.is_empty() {
         table(&mut o, &page.rejected_by_table());
     }

@@ -81,8 +81,9 @@ pub struct Page {
     pub requirement: Vec<(String, String)>,
     pub chosen: Option<DesignView>,
     pub runners_up: Vec<DesignView>,
-    pub evaluated: usize,
-    pub feasible_count: usize,
+    /// The candidate space and feasible count in words ("at least" where the search did
+    /// not verify every candidate), the same numbers `rank` gives.
+    pub counts: String,
     pub rejected_by: Vec<(String, usize)>,
     pub best_rejected: Option<Rejected>,
     pub budget: Vec<BudgetBar>,

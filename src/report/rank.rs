@@ -309,12 +309,26 @@ fn checks_table(style: Style, checks: &[CheckRow]) -> Table {
         &["check", "value", "limit", "margin", "pass", "where"],
     );
     for c in checks {
+        // A figure that needed an unsolved corner is neither passed nor failed.
+        let unavailable = c.value.is_nan()
+            && !matches!(c.name, CheckName::ThermalRunaway | CheckName::NoSolution);
         t.add_row(vec![
             c.name.to_string(),
-            check_value(c.name, c.value),
+            if unavailable {
+                "not available".to_string()
+            } else {
+                check_value(c.name, c.value)
+            },
             check_value(c.name, c.limit),
             pct(c.margin),
-            if c.pass { "pass" } else { "FAIL" }.to_string(),
+            if unavailable {
+                "n/a"
+            } else if c.pass {
+                "pass"
+            } else {
+                "FAIL"
+            }
+            .to_string(),
             c.detail.clone(),
         ]);
     }
@@ -353,10 +367,11 @@ fn corners_table(style: Style, corners: &[CornerLine]) -> Table {
 }
 
 fn rejection_line(r: &RankReport) -> String {
+    let at_least = if r.feasible_at_least { "at least " } else { "" };
     let mut s = format!(
-        "{} candidate{} evaluated, {} feasible in {} famil{}",
-        r.evaluated,
-        if r.evaluated == 1 { "" } else { "s" },
+        "{} candidate{}: {at_least}{} feasible in {at_least}{} famil{}",
+        r.candidate_space,
+        if r.candidate_space == 1 { "" } else { "s" },
         r.feasible,
         r.families,
         if r.families == 1 { "y" } else { "ies" }
@@ -367,14 +382,11 @@ fn rejection_line(r: &RankReport) -> String {
             .iter()
             .map(|(c, n)| format!("{c} {n}"))
             .collect();
-        s.push_str(&format!(
-            "; rejected by (first failing check): {}",
-            parts.join(", ")
-        ));
+        s.push_str(&format!("; rejected by: {}", parts.join(", ")));
     }
     if r.unverified > 0 {
         s.push_str(&format!(
-            "; {} more passed every screen but cost more than the rows shown, so were not verified (--exhaustive verifies all)",
+            "; {} passed every screen but cost more than the rows shown, so were not verified (--exhaustive verifies all)",
             r.unverified
         ));
     }
@@ -742,6 +754,7 @@ mod tests {
                 pass: true,
                 detail: String::new(),
             }],
+            soft_saturation: Vec::new(),
         }
     }
 

@@ -37,8 +37,9 @@ fn args(topology: Topology) -> SolveArgs {
         topology,
         part: "npn-dual-test".into(),
         helper: None,
-        re1_ohm: 0.0,
-        re2_ohm: 0.0,
+        re1_ohm: None,
+        re2_ohm: None,
+        ratio: None,
         i_in_a: 1e-3,
         v_out_v: 5.0,
         supply_v: Some(12.0),
@@ -59,12 +60,14 @@ fn json_has_exactly_the_documented_keys() {
         keys,
         [
             "balance_voltage",
+            "cautions",
             "error",
             "i_in",
             "i_out",
             "iterations",
             "nodes",
             "r_out",
+            "ratio",
             "transistors",
             "v_in"
         ]
@@ -108,8 +111,8 @@ fn simple_mirror_reports_a_balance_voltage() {
 #[test]
 fn table_lists_figures_and_transistors() {
     let mut a = args(Topology::Simple);
-    a.re1_ohm = 100.0;
-    a.re2_ohm = 100.0;
+    a.re1_ohm = Some(100.0);
+    a.re2_ohm = Some(100.0);
     let r = solve_command(&catalog(), &a).unwrap();
     let mut buf = Vec::new();
     write_solve_table(&r, &mut buf).unwrap();
@@ -158,4 +161,69 @@ fn bad_input_is_named() {
     a.helper = Some("npn-single-test".into());
     let e = solve_command(&c, &a).unwrap_err();
     assert!(matches!(e, SolveCommandError::HelperPolarity { .. }), "{e}");
+}
+
+#[test]
+fn error_is_against_the_requested_ratio_and_one_sided_resistors_are_refused() {
+    // Gray et al. ch. 4: n I_in RE2 = I_in RE1 - V_T ln(n). A x10 mirror sized that way
+    // is within a few tenths of a percent of 10 (base current at BF 200, Early effect),
+    // measured against --ratio, not RE1/RE2.
+    let c = catalog();
+    let mut a = args(Topology::BetaHelper);
+    a.helper = Some("npn-single-test".into());
+    a.i_in_a = 100e-6;
+    a.self_heating = false;
+    a.re1_ohm = Some(24.9e3);
+    let e = solve_command(&c, &a).unwrap_err();
+    assert!(e.is_input_error());
+    let msg = e.to_string();
+    assert!(msg.contains("--re1 without --re2"), "{msg}");
+    a.ratio = Some(10.0);
+    let msg = solve_command(&c, &a).unwrap_err().to_string();
+    // (24.9k - 25.69 mV x ln 10 / 100 uA) / 10 = 2.43 kΩ.
+    assert!(msg.contains("RE2 = 2.43 kΩ"), "{msg}");
+    a.re2_ohm = Some(2.43e3);
+    let r = solve_command(&c, &a).unwrap();
+    assert_eq!(r.ratio, 10.0);
+    assert!(r.error.abs() < 5e-3, "{}", r.error);
+    assert!((r.i_out / (10.0 * 100e-6) - 1.0 - r.error).abs() < 1e-12);
+    // RE1/n instead misses by about V_T ln(n) / (I_in RE1) = 2.4 % (MODEL.md).
+    a.re2_ohm = Some(2.49e3);
+    let r = solve_command(&c, &a).unwrap();
+    assert!((-0.030..-0.018).contains(&r.error), "{}", r.error);
+    let mut a = args(Topology::Simple);
+    a.re2_ohm = Some(100.0);
+    assert!(solve_command(&c, &a).unwrap_err().is_input_error());
+}
+
+#[test]
+fn ratings_cautions_and_infinite_output_resistance() {
+    // A lopsided mirror named on purpose (1 kΩ / 10 Ω at 1 mA) carries about 50 mA at
+    // 4.5 V on Q2: dissipation near the package rating is a caution, as `check` shows.
+    let mut c = catalog();
+    c.transistors[0].ratings.power_per_package_w = 0.3;
+    let mut a = args(Topology::Simple);
+    a.self_heating = false;
+    a.re1_ohm = Some(1e3);
+    a.re2_ohm = Some(10.0);
+    let r = solve_command(&c, &a).unwrap();
+    assert!(r.i_out > 30e-3);
+    assert!(
+        r.cautions.iter().any(|c| c.contains("dissipat")),
+        "{:?}",
+        r.cautions
+    );
+    // No Early effect and no self-heating: nothing moves I_out with V_out (MODEL.md's
+    // output resistance is then infinite): null in JSON, "infinite" in the table.
+    let mut c = catalog();
+    c.transistors[0].model.early_voltage_v = None;
+    let mut a = args(Topology::Simple);
+    a.self_heating = false;
+    let r = solve_command(&c, &a).unwrap();
+    assert!(r.r_out.is_none());
+    let v = serde_json::to_value(&r).unwrap();
+    assert!(v["r_out"].is_null());
+    let mut buf = Vec::new();
+    write_solve_table(&r, &mut buf).unwrap();
+    assert!(String::from_utf8(buf).unwrap().contains("infinite"));
 }

@@ -229,14 +229,14 @@ fn balance_voltage_of_simple_mirror() {
     // (1 + V_out/VAF)/(1 + V_BE/VAF) = 1 + 2/BF).
     let c = npn(100.0, Some(100.0));
     let d = design(Topology::Simple, &c, 0.0, 0.0);
-    let v = balance_voltage(&d, &op(1e-3, 5.0), &nominal(), &iso()).unwrap();
+    let v = balance_voltage(&d, 1.0, &op(1e-3, 5.0), &nominal(), &iso()).unwrap();
     let s = solve_point(&d, &op(1e-3, v), &nominal(), &iso()).unwrap();
     assert!(s.error(1.0, 1e-3).abs() < 1e-9);
     assert!((2.0..3.5).contains(&v), "{v}");
     // No Early effect: the error never crosses zero.
     let c0 = npn(100.0, None);
     let d0 = design(Topology::Simple, &c0, 0.0, 0.0);
-    assert!(balance_voltage(&d0, &op(1e-3, 5.0), &nominal(), &iso()).is_none());
+    assert!(balance_voltage(&d0, 1.0, &op(1e-3, 5.0), &nominal(), &iso()).is_none());
 }
 
 #[test]
@@ -345,4 +345,42 @@ fn saturated_output_stays_between_the_rails() {
             assert!(sol.i_out_a < 100e-6, "{} at {v_out} V", topology.name());
         }
     }
+}
+
+#[test]
+fn ratio_mirror_resistors_follow_the_vbe_difference() {
+    // Gray, Hurst, Lewis & Meyer, ch. 4 (emitter-degenerated mirror with unequal
+    // resistors): with equal devices, I_in RE1 + V_BE1 = n I_in RE2 + V_BE2 and
+    // V_BE2 - V_BE1 = V_T ln(n), so n I_in RE2 = I_in RE1 - V_T ln(n). With base current and
+    // Early effect switched off (BF 1e9, no VAF) the solved ratio must be n to the
+    // residual of the model's `- 1` leakage terms; RE2 = RE1/n instead leaves about
+    // -V_T ln(n) / (I_in RE1 + V_T) (MODEL.md quotes -2.4 % for n = 10 with 2.5 V on RE1).
+    // Light (I_in RE1 = 4 V_T) and heavy (I_in RE1 = 2.5 V) degeneration, n above and
+    // below 1.
+    let c = npn(1e9, None);
+    let i_in = 100e-6;
+    let t = 300.15;
+    let vt = thermal_voltage(t);
+    for n in [2.0, 5.0, 10.0, 0.2] {
+        for re1 in [4.0 * vt / i_in, 2.5 / i_in] {
+            let re2 = mirrorpick::rank::ratio_re2(re1, n, i_in, t).unwrap();
+            let mut o = op(i_in, 10.0);
+            o.t_amb_k = t;
+            let d = design(Topology::Simple, &c, re1, re2);
+            let s = solve_point(&d, &o, &nominal(), &iso()).unwrap();
+            let e = s.i_out_a / (n * i_in) - 1.0;
+            assert!(e.abs() < 1e-6, "n {n}, RE1 {re1:.1}: error {e:e}");
+            // The old sizing RE2 = RE1/n, for contrast: the first-order error.
+            let d = design(Topology::Simple, &c, re1, re1 / n);
+            let s = solve_point(&d, &o, &nominal(), &iso()).unwrap();
+            let e_old = s.i_out_a / (n * i_in) - 1.0;
+            let first_order = -vt * n.ln() / (i_in * re1 + vt);
+            assert!(
+                (e_old - first_order).abs() < 0.15 * first_order.abs(),
+                "n {n}, RE1 {re1:.1}: RE1/n error {e_old:e}, first order {first_order:e}"
+            );
+        }
+    }
+    // The ratio needs RE1 to carry V_T ln(n): below that no positive RE2 exists.
+    assert!(mirrorpick::rank::ratio_re2(0.5 * vt * 10f64.ln() / i_in, 10.0, i_in, t).is_none());
 }

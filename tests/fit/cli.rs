@@ -229,3 +229,155 @@ fn a_supply_below_the_measured_voltages_is_a_usage_error() {
         "{err}"
     );
 }
+
+fn run_on(name: &str, text: &str, args: &[&str]) -> (i32, String, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join(name);
+    std::fs::write(&path, text).unwrap();
+    let out = cmd().arg("fit").arg(&path).args(args).output().unwrap();
+    (
+        out.status.code().unwrap(),
+        String::from_utf8(out.stdout).unwrap(),
+        String::from_utf8(out.stderr).unwrap(),
+    )
+}
+
+/// Rows of the shipped demo file at 100 µA (a simple mirror with 1 kΩ resistors).
+fn demo_rows(filter: impl Fn(&str) -> bool) -> String {
+    let text =
+        std::fs::read_to_string(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join(DEMO_CSV))
+            .unwrap();
+    let mut out = String::from("i_in,v_out,i_out,t_ambient\n");
+    for l in text
+        .lines()
+        .filter(|l| l.starts_with("100 uA") && filter(l))
+    {
+        out.push_str(l);
+        out.push('\n');
+    }
+    out
+}
+
+/// Issue 11: a row repeated to make up the count gave BF = 1.5e15 "fitted, converged".
+/// Repeated rows are one operating point; too few distinct points is exit 1 with the
+/// reason, whatever the file.
+#[test]
+fn a_repeated_row_does_not_make_up_for_a_missing_point() {
+    let mut text = demo_rows(|l| l.contains(",3 V,") || l.contains(",6 V,") || l.contains(",9 V,"));
+    let repeated = text.lines().nth(2).unwrap().to_string();
+    text.push_str(&repeated);
+    text.push('\n');
+    let (code, out, _) = run_on(
+        "dup.csv",
+        &text,
+        &["--topology", "simple", "--re1", "1k", "--re2", "1k"],
+    );
+    assert_eq!(code, 1, "{out}");
+    assert!(
+        out.contains("the data cannot support a model fit: the 4 active rows hold only 3 distinct operating points"),
+        "{out}"
+    );
+    assert!(!out.contains("converged"), "{out}");
+    // One point repeated ten times: the same.
+    let one = demo_rows(|l| l.contains(",5 V,"))
+        .lines()
+        .nth(1)
+        .unwrap()
+        .to_string();
+    let text = format!(
+        "i_in,v_out,i_out,t_ambient\n{}",
+        format!("{one}\n").repeat(10)
+    );
+    let (code, out, _) = run_on("same.csv", &text, &["--topology", "simple"]);
+    assert_eq!(code, 1, "{out}");
+    assert!(out.contains("only 1 distinct operating points"), "{out}");
+}
+
+/// Rank-deficient data of the same class: one programming current cannot separate beta
+/// from the offset, and once the offset is held the fit drives BF to infinity (the data
+/// sit above what any beta gives). That is exit 1 with the reason, not a number.
+#[test]
+fn a_fit_that_runs_beta_to_infinity_is_exit_1_with_the_reason() {
+    let text = demo_rows(|_| true);
+    let (code, out, _) = run_on(
+        "one-current.csv",
+        &text,
+        &[
+            "--topology",
+            "simple",
+            "--re1",
+            "1k",
+            "--re2",
+            "1k",
+            "--supply",
+            "12V",
+            "--ambient",
+            "27C",
+            "--self-heating",
+        ],
+    );
+    assert_eq!(code, 1, "{out}");
+    assert!(
+        out.contains("the data cannot support a model fit: the fit ran BF to"),
+        "{out}"
+    );
+    assert!(
+        out.contains("outside what a bipolar transistor has (1 to 100,000)"),
+        "{out}"
+    );
+    // JSON says the same and keeps no parameters.
+    let (code, out, _) = run_on(
+        "one-current.csv",
+        &text,
+        &[
+            "--topology",
+            "simple",
+            "--re1",
+            "1k",
+            "--re2",
+            "1k",
+            "--supply",
+            "12V",
+            "--ambient",
+            "27C",
+            "--self-heating",
+            "--format",
+            "json",
+        ],
+    );
+    assert_eq!(code, 1);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["model"].is_null());
+    assert!(v["model_failure"]
+        .as_str()
+        .unwrap()
+        .contains("the fit ran BF to"));
+}
+
+/// Issue 11: `t_ambiant` and `temp` were ignored, so 27 °C data were fitted at 25 °C.
+#[test]
+fn an_unknown_column_is_a_located_error_with_did_you_mean() {
+    for (header, col, name, suggestion) in [
+        ("i_in,v_out,i_out,t_ambiant", 18, "t_ambiant", "t_ambient"),
+        ("i_in,v_out,i_out,temp", 18, "temp", "t_ambient"),
+        ("i_in,vout,i_out", 6, "vout", "v_out"),
+    ] {
+        let text = format!(
+            "# bench log\n{header}\n100uA,2 V,101 uA{}\n",
+            if header.matches(',').count() == 3 {
+                ",27"
+            } else {
+                ""
+            }
+        );
+        let (code, out, err) = run_on("bench.csv", &text, &["--topology", "simple"]);
+        assert_eq!(code, 2, "{err}");
+        assert!(out.is_empty());
+        assert!(
+            err.contains(&format!(
+                "bench.csv:2:{col}: unknown column `{name}` (did you mean `{suggestion}`?)"
+            )),
+            "{err}"
+        );
+    }
+}

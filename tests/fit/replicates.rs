@@ -97,7 +97,11 @@ fn study(topology: Topology) -> Vec<Figures> {
 
 fn check(topology: Topology) {
     for (k, f) in KINDS.iter().zip(study(topology)) {
-        assert_eq!(f.held, 0, "{topology:?} {k:?} held in {} replicates", f.held);
+        assert_eq!(
+            f.held, 0,
+            "{topology:?} {k:?} held in {} replicates",
+            f.held
+        );
         let ratio = f.scatter / f.mean_se;
         assert!(
             (1.0 / 1.5..=1.5).contains(&ratio),

@@ -19,7 +19,7 @@ fn rank_succeeds_with_rows_and_cautions() {
         .args(["rank", LTP, "--top", "3", "--samples", "100"])
         .assert()
         .code(0)
-        .stdout(predicate::str::contains("candidates evaluated"))
+        .stdout(predicate::str::contains("candidates: "))
         .stdout(predicate::str::contains(
             "typical of each class, not guaranteed",
         ));
@@ -234,4 +234,15 @@ fn led_loads_get_their_caution() {
         .code(0)
         .stdout(predicate::str::contains("LED string"))
         .stdout(predicate::str::contains("datasheet"));
+}
+
+#[test]
+fn top_zero_is_a_usage_error() {
+    for command in ["rank", "report"] {
+        cmd()
+            .args([command, LTP, "--top", "0"])
+            .assert()
+            .code(2)
+            .stderr(predicate::str::contains("--top 0"));
+    }
 }

@@ -77,8 +77,10 @@ fn json_and_table_show_the_same_rows() {
     let v: serde_json::Value = serde_json::from_slice(&json).unwrap();
     for key in [
         "requirement",
+        "candidate_space",
         "evaluated",
         "feasible",
+        "feasible_at_least",
         "families",
         "every_value",
         "rejected_by",
@@ -88,9 +90,14 @@ fn json_and_table_show_the_same_rows() {
     ] {
         assert!(v.get(key).is_some(), "JSON lacks `{key}`");
     }
+    let at_least = if v["feasible_at_least"].as_bool().unwrap() {
+        "at least "
+    } else {
+        ""
+    };
     assert!(table.contains(&format!(
-        "{} candidates evaluated, {} feasible in {} families",
-        v["evaluated"], v["feasible"], v["families"]
+        "{} candidates: {at_least}{} feasible in {at_least}{} families",
+        v["candidate_space"], v["feasible"], v["families"]
     )));
     let rows = v["candidates"].as_array().unwrap();
     assert_eq!(rows.len(), 6);

@@ -117,6 +117,7 @@ pub fn requirement(accuracy: f64) -> Requirement {
         min_yield: None,
         min_output_resistance_ohm: None,
         input_voltage_max_v: None,
+        min_vce_v: 0.3,
         max_cost: None,
         quantity: 1,
         load: LoadKind::General,

@@ -37,6 +37,7 @@ fn requirement() -> Requirement {
         min_yield: None,
         min_output_resistance_ohm: None,
         input_voltage_max_v: None,
+        min_vce_v: 0.3,
         max_cost: None,
         quantity: 1,
         load: LoadKind::General,
@@ -148,7 +149,8 @@ fn simple_mirror_crosses_zero_error_at_the_solver_balance_voltage() {
         supply_v: req.supply_v,
         t_amb_k: ROOM_K,
     };
-    let solver = balance_voltage(&d, &op, &Mismatch::default(), &SolveOptions::default()).unwrap();
+    let solver =
+        balance_voltage(&d, 1.0, &op, &Mismatch::default(), &SolveOptions::default()).unwrap();
     assert_eq!(vb, solver);
     let curve = set
         .output
