@@ -267,7 +267,10 @@ fn governing_cell(r: &CandidateRow) -> String {
 }
 
 /// The default columns: what a designer decides on, narrow enough for 80 columns.
-const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
+/// A table column: its title and how to show a row.
+type TableColumn = (&'static str, fn(&CandidateRow) -> String);
+
+const NARROW: &[TableColumn] = &[
     ("#", rank_cell),
     ("design", design_cell),
     ("cost", |r| format!("{:.3}", r.cost)),
@@ -280,7 +283,7 @@ const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
 /// mark), the design in one cell, cost, total error, yield and the governing check with
 /// its margin. Cells wrap to keep the table within `style.width`.
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
-    let cols: Vec<(&str, fn(&CandidateRow) -> String)> = if style.wide {
+    let cols: Vec<TableColumn> = if style.wide {
         COLUMNS.iter().map(|c| (c.title, c.table_value)).collect()
     } else {
         NARROW.to_vec()
