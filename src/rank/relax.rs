@@ -282,12 +282,16 @@ fn pool(groups: &[Group]) -> Vec<DesignSpec> {
     out
 }
 
+/// A candidate judged for nearness: its design, (failing checks, worst margin), and the
+/// VCEO it would need (`None` when a corner did not solve; `Some(None)` when VCEO passes).
+type Judged = (DesignSpec, (usize, f64), Option<Option<f64>>);
+
 /// Advice for a requirement nothing meets; empty when some candidate is feasible.
 pub fn relax(req: &Requirement, catalog: &Catalog, groups: &[Group], mc: MonteCarlo) -> Vec<Relax> {
     let solves = AtomicU64::new(0);
     // Judge every pooled candidate fully at verdict depth: its nearness is how many
     // checks fail, then its worst margin over every check.
-    let mut judged: Vec<(DesignSpec, (usize, f64), Option<Option<f64>>)> = pool(groups)
+    let mut judged: Vec<Judged> = pool(groups)
         .par_iter()
         .filter_map(|s| {
             let d = resolve(catalog, s).ok()?;

@@ -1,7 +1,8 @@
 //! The finished reports of `rank`, `check` and `cheaper`: plain serde data that every
-//! output format is written from. Field names are the JSON keys; numbers are SI (ohms,
-//! volts, amperes, watts), errors and yields fractions, temperatures °C (`_c` fields) as
-//! in the `solve` report.
+//! output format is written from. JSON keys follow one convention, shared with the CSV
+//! columns: a dimensioned number is SI and its key ends in the unit (`_a`, `_v`, `_ohm`,
+//! `_w`, `_c` for °C); errors, yields, margins, ratios and costs are plain numbers
+//! (fractions; costs in the catalog's currency) without a suffix.
 
 use std::collections::BTreeMap;
 use std::fmt;
@@ -17,8 +18,11 @@ use crate::model::{LoadKind, Requirement, ZERO_CELSIUS_K};
 use super::order::Prefer;
 
 /// Bumped whenever a key changes meaning or disappears. 2: the check name
-/// `no-convergence` became `no-solution`, compliance follows `min_vce`, and checks whose
-/// corners did not solve are reported with a null value ("not available").
+/// `no-convergence` became `no-solution`, compliance follows `min_vce`, checks whose
+/// corners did not solve are reported with a null value ("not available"); every key of a
+/// dimensioned SI number ends in its unit (`_a`, `_v`, `_ohm`, `_w`, `_c` for °C), as in
+/// the CSV (`v_in_max` became `v_in_max_v`; corner, budget and junction keys likewise);
+/// `relax` added.
 pub const SCHEMA_VERSION: u32 = 2;
 
 /// One judged check as reported.
@@ -71,6 +75,7 @@ pub struct CandidateRow {
     pub yield_solved: f64,
     pub r_out_min_ohm: f64,
     pub compliance_v: f64,
+    #[serde(rename = "v_in_max_v")]
     pub v_in_max: f64,
     /// White output current noise density at the worst corner, A/√Hz (`null` when not
     /// computed: shown rows, `check` and requirements with `max_noise` have it).
@@ -221,16 +226,21 @@ impl CandidateRow {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CornerLine {
     /// The input current: forced, or solved through R_ref.
+    #[serde(rename = "i_in_a")]
     pub i_in: f64,
     /// The programming rail, volts (programmed designs only).
-    #[serde(skip_serializing_if = "Option::is_none")]
+    #[serde(rename = "rail_v", skip_serializing_if = "Option::is_none")]
     pub rail: Option<f64>,
+    #[serde(rename = "v_out_v")]
     pub v_out: f64,
     pub t_amb_c: f64,
+    #[serde(rename = "i_out_a")]
     pub i_out: f64,
     pub error: f64,
     pub error_random_sigma: f64,
+    #[serde(rename = "r_out_ohm")]
     pub r_out: f64,
+    #[serde(rename = "v_in_v")]
     pub v_in: f64,
     pub t_junction_max_c: f64,
 }
@@ -261,10 +271,12 @@ pub struct BudgetItem {
 /// The error budget at the worst corner.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct BudgetReport {
+    #[serde(rename = "i_in_a")]
     pub i_in: f64,
     /// The programming rail at the worst corner, volts (programmed designs only).
-    #[serde(skip_serializing_if = "Option::is_none")]
+    #[serde(rename = "rail_v", skip_serializing_if = "Option::is_none")]
     pub rail: Option<f64>,
+    #[serde(rename = "v_out_v")]
     pub v_out: f64,
     pub t_amb_c: f64,
     /// Signed systematic error by cause; the lines add up to `systematic_total`.
@@ -308,15 +320,20 @@ impl From<&ErrorBudget> for BudgetReport {
 pub struct Junction {
     pub name: String,
     pub t_junction_c: f64,
+    #[serde(rename = "power_w")]
     pub power: f64,
+    #[serde(rename = "v_ce_v")]
     pub v_ce: f64,
+    #[serde(rename = "i_c_a")]
     pub i_c: f64,
 }
 
 /// Junction temperatures at the corner with the hottest junction.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HottestCorner {
+    #[serde(rename = "i_in_a")]
     pub i_in: f64,
+    #[serde(rename = "v_out_v")]
     pub v_out: f64,
     pub t_amb_c: f64,
     pub junctions: Vec<Junction>,

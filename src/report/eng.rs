@@ -94,14 +94,17 @@ pub fn celsius(t_k: f64, charset: Charset) -> String {
     }
 }
 
-/// A fraction as a percentage with three significant digits (0.0123 -> "1.23 %").
+/// A fraction as a percentage with three significant digits (0.0123 -> "1.23 %"), to a
+/// resolution of 0.0001 % (1 ppm): finer digits are below what the solved figures
+/// support (solver tolerance, catalog values typical to a few percent), so a residue such
+/// as -2e-9 reads "0 %", not "-0.00000020 %".
 pub fn percent(fraction: f64) -> String {
     let p = fraction * 100.0;
     if !p.is_finite() {
         return "n/a".to_string();
     }
     let a = p.abs();
-    if a == 0.0 {
+    if a < 0.00005 {
         "0 %".to_string()
     } else if a >= 100.0 {
         format!("{p:.0} %")
@@ -112,8 +115,8 @@ pub fn percent(fraction: f64) -> String {
     } else if a >= 0.1 {
         format!("{p:.3} %")
     } else {
-        // Three significant digits in plain decimals (0.0158 %), down to 1e-6 %.
-        let decimals = (2 - a.log10().floor() as i32).clamp(3, 8) as usize;
+        // Three significant digits in plain decimals (0.0158 %), down to 0.0001 %.
+        let decimals = (2 - a.log10().floor() as i32).clamp(3, 4) as usize;
         format!("{p:.decimals$} %")
     }
 }
@@ -146,6 +149,8 @@ mod tests {
         assert_eq!(percent(0.5), "50.0 %");
         assert_eq!(percent(0.00123), "0.123 %");
         assert_eq!(percent(-0.000158), "-0.0158 %");
-        assert_eq!(percent(2.5e-7), "0.0000250 %");
+        assert_eq!(percent(2.5e-6), "0.0003 %");
+        assert_eq!(percent(-2.0e-9), "0 %");
+        assert_eq!(percent(2.5e-7), "0 %");
     }
 }

@@ -8,7 +8,7 @@
 
 use std::io::{self, Write};
 
-use comfy_table::{Cell, CellAlignment, Table};
+use comfy_table::{Cell, CellAlignment, ColumnConstraint, Table, Width};
 
 use super::{new_table, wrap, wrap_indented, Format, Style};
 use crate::check::CheckName;
@@ -218,9 +218,14 @@ fn dominant(r: &CandidateRow) -> Option<String> {
     Some(format!("{} {:.0} %", s.source, s.fraction * 100.0))
 }
 
+/// A number for CSV: six significant figures, then the shortest text that reads back to
+/// that value (`0.086`, not `0.08600000000000001`). Six figures are more than any solved
+/// figure supports (catalog values are typical to a few percent) and keep every E192
+/// resistor value exact. JSON keeps full precision.
 fn num(x: f64) -> String {
     if x.is_finite() {
-        format!("{x}")
+        let rounded: f64 = format!("{x:.5e}").parse().unwrap_or(x);
+        format!("{rounded}")
     } else {
         String::new()
     }
@@ -279,7 +284,6 @@ fn check_value(name: CheckName, x: f64) -> String {
 
 /// Titles of the columns that hold numbers (right-aligned).
 const NUMERIC: &[&str] = &[
-    "#",
     "noise",
     "RE1",
     "RE2",
@@ -347,13 +351,16 @@ fn governing_cell(r: &CandidateRow) -> String {
 }
 
 /// The default columns: what a designer decides on, narrow enough for 80 columns.
-const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
+/// A table column: its title and how to show a row.
+type TableColumn = (&'static str, fn(&CandidateRow) -> String);
+
+const NARROW: &[TableColumn] = &[
     ("#", rank_cell),
     ("design", design_cell),
     ("cost", |r| format!("{:.3}", r.cost)),
     ("total error", |r| pct(r.error_total)),
     ("yield", |r| pct(r.yield_fraction)),
-    ("governing, margin", governing_cell),
+    ("governing", governing_cell),
 ];
 
 /// The candidate table: with `style.wide` every column, otherwise rank (with the Pareto
@@ -361,7 +368,7 @@ const NARROW: &[(&str, fn(&CandidateRow) -> String)] = &[
 /// its margin. Cells wrap to keep the table within `style.width`.
 fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> Table {
     let programmed = rows.iter().any(|r| r.r_ref_resistor.is_some());
-    let cols: Vec<(&str, fn(&CandidateRow) -> String)> = if style.wide {
+    let cols: Vec<TableColumn> = if style.wide {
         COLUMNS
             .iter()
             .filter(|c| programmed || !c.programmed_only)
@@ -377,6 +384,13 @@ fn candidates_table(style: Style, rows: &[CandidateRow], extra: &[(&str, Vec<Str
         let mut cells: Vec<Cell> = cols.iter().map(|(_, f)| Cell::new(f(r))).collect();
         cells.extend(extra.iter().map(|(_, v)| Cell::new(&v[i])));
         t.add_row(cells);
+    }
+    if !style.wide {
+        // Room for a whole class id (the longest, with its comma, is 23 characters), so wrapping
+        // breaks the design between words; narrower columns wrap instead.
+        if let Some(col) = t.column_mut(1) {
+            col.set_constraint(ColumnConstraint::LowerBoundary(Width::Fixed(23)));
+        }
     }
     for (i, title) in header.iter().enumerate() {
         if NUMERIC.contains(title) {
@@ -551,13 +565,19 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
     let c = &e.candidate;
     writeln!(
         w,
-        "Design{}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
-        c.rank.map_or(String::new(), |k| format!(" #{k}")),
-        c.label(),
-        ohms(c.re1_ohm),
-        ohms(c.re2_ohm),
-        c.resistor.as_deref().unwrap_or("—"),
-        c.cost
+        "{}",
+        wrap(
+            &format!(
+                "Design{}: {}, RE1 {}, RE2 {}, resistor {}, cost {:.3}",
+                c.rank.map_or(String::new(), |k| format!(" #{k}")),
+                c.label(),
+                ohms(c.re1_ohm),
+                ohms(c.re2_ohm),
+                c.resistor.as_deref().unwrap_or("—"),
+                c.cost
+            ),
+            style.width
+        )
     )?;
     if let (Some(r), Some(class)) = (c.r_ref_ohm, &c.r_ref_resistor) {
         writeln!(
@@ -575,15 +595,27 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
     if c.yield_solved.is_finite() {
         writeln!(
             w,
-            "Yield: {} on the first-order model, {} with every build re-solved.",
-            c.yield_text(),
-            c.yield_solved_text()
+            "{}",
+            wrap(
+                &format!(
+                    "Yield: {} on the first-order model, {} with every build re-solved.",
+                    c.yield_text(),
+                    c.yield_solved_text()
+                ),
+                style.width
+            )
         )?;
     }
     writeln!(
         w,
-        "Checks (governing: {}):",
-        c.governing_check.map_or("—".into(), |g| g.to_string())
+        "{}",
+        wrap(
+            &format!(
+                "Checks (governing: {}):",
+                c.governing_check.map_or("—".into(), |g| g.to_string())
+            ),
+            style.width
+        )
     )?;
     writeln!(w, "{}", checks_table(style, &c.checks))?;
     if !e.corners.is_empty() {
@@ -597,9 +629,15 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         };
         writeln!(
             w,
-            "Error budget at the worst corner ({input}, V_out {}, ambient {:.1} °C):",
-            quantity(b.v_out, "V"),
-            b.t_amb_c
+            "{}",
+            wrap(
+                &format!(
+                    "Error budget at the worst corner ({input}, V_out {}, ambient {:.1} °C):",
+                    quantity(b.v_out, "V"),
+                    b.t_amb_c
+                ),
+                style.width
+            )
         )?;
         let mut t = new_table(style, &["cause", "kind", "error"]);
         for l in &b.systematic {
@@ -624,13 +662,10 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
         write_noise(w, n, style)?;
     }
     if let Some(h) = &e.hottest {
-        writeln!(
-            w,
-            "Junction temperatures at the hottest corner (I_in {}, V_out {}, ambient {:.1} °C):",
+        writeln!(w, "{}", wrap(&format!("Junction temperatures at the hottest corner (I_in {}, V_out {}, ambient {:.1} °C):",
             quantity(h.i_in, "A"),
             quantity(h.v_out, "V"),
-            h.t_amb_c
-        )?;
+            h.t_amb_c), style.width))?;
         let mut t = new_table(style, &["transistor", "T_j", "power", "V_CE", "I_C"]);
         for j in &h.junctions {
             t.add_row(vec![
@@ -692,10 +727,16 @@ pub fn write_check(
         Format::Table => {
             writeln!(
                 w,
-                "{}: {} against the requirement: {}",
-                r.requirement,
-                r.candidate.label(),
-                if r.pass { "PASS" } else { "FAIL" }
+                "{}",
+                wrap(
+                    &format!(
+                        "{}: {} against the requirement: {}",
+                        r.requirement,
+                        r.candidate.label(),
+                        if r.pass { "PASS" } else { "FAIL" }
+                    ),
+                    style.width
+                )
             )?;
             let e = Explanation {
                 candidate: r.candidate.clone(),
@@ -707,8 +748,11 @@ pub fn write_check(
             write_explanation(w, &e, style)?;
             writeln!(
                 w,
-                "Yield: {} Monte Carlo builds, seed {}.",
-                r.samples, r.seed
+                "{}",
+                wrap(
+                    &format!("Yield: {} Monte Carlo builds, seed {}.", r.samples, r.seed),
+                    style.width
+                )
             )
         }
     }
@@ -733,8 +777,7 @@ pub fn write_cheaper(
         Format::Csv => csv(w, &rows, &[("saving", saving), ("margin_given_up", given)]),
         Format::Table => {
             let c = &r.reference;
-            writeln!(
-                w,
+            let head = format!(
                 "{}: reference {} (RE1 {}, RE2 {}), cost {:.3}, {}; governing {} at {}",
                 r.requirement,
                 c.label(),
@@ -744,7 +787,8 @@ pub fn write_cheaper(
                 if r.reference_pass { "passes" } else { "fails" },
                 c.governing_check.map_or("—".into(), |g| g.to_string()),
                 pct(c.governing_margin())
-            )?;
+            );
+            writeln!(w, "{}", wrap(&head, style.width))?;
             if !rows.is_empty() {
                 let saving: Vec<String> = r
                     .alternatives
@@ -877,6 +921,16 @@ mod tests {
     }
 
     #[test]
+    fn csv_numbers_are_rounded_to_six_figures() {
+        assert_eq!(num(0.08600000000000001), "0.086");
+        assert_eq!(num(0.066 + 0.02), "0.086");
+        assert_eq!(num(1910.0), "1910");
+        assert_eq!(num(0.0017123456789), "0.00171235");
+        assert_eq!(num(2.58e6), "2580000");
+        assert_eq!(num(f64::NAN), "");
+    }
+
+    #[test]
     fn csv_header_and_row_come_from_one_column_list() {
         let mut out = Vec::new();
         csv(&mut out, &[row()], &[("pass", vec!["true".into()])]).unwrap();
@@ -895,6 +949,96 @@ mod tests {
         assert_eq!(
             lines[0].split(',').count(),
             lines[1].replace("\"thick, 1 %\"", "x").split(',').count()
+        );
+    }
+
+    fn long_row(k: usize) -> CandidateRow {
+        CandidateRow {
+            rank: Some(k),
+            topology: "beta-helper",
+            part: "npn-dual-highvoltage".into(),
+            helper: Some("npn-single-general".into()),
+            re1_ohm: 1910.0,
+            re2_ohm: 1910.0,
+            resistor: Some("thin-film-0p5pct".into()),
+            pareto: k % 2 == 1,
+            ..row()
+        }
+    }
+
+    fn widest_line(text: &str) -> usize {
+        text.lines().map(|l| l.chars().count()).max().unwrap_or(0)
+    }
+
+    #[test]
+    fn table_fits_80_and_120_columns() {
+        let rows: Vec<CandidateRow> = (1..=10).map(long_row).collect();
+        for width in [80u16, 120] {
+            for wide in [false, true] {
+                let style = Style {
+                    width: Some(width),
+                    wide,
+                    ..Style::default()
+                };
+                let t = candidates_table(style, &rows, &[]).to_string();
+                assert!(
+                    widest_line(&t) <= usize::from(width),
+                    "{width} columns, wide {wide}:\n{t}"
+                );
+            }
+            // The narrow table keeps whole words of the design cell.
+            let style = Style {
+                width: Some(width),
+                ..Style::default()
+            };
+            let t = candidates_table(style, &rows, &[]).to_string();
+            for word in [
+                "beta-helper",
+                "npn-dual-highvoltage",
+                "thin-film-0p5pct",
+                "1.91",
+            ] {
+                assert!(t.contains(word), "{word} split at {width}:\n{t}");
+            }
+        }
+        // Without a width (a file or pipe) the narrow table is not wrapped, and is far
+        // narrower than every column.
+        let narrow = candidates_table(Style::default(), &rows, &[]).to_string();
+        let wide = candidates_table(
+            Style {
+                wide: true,
+                ..Style::default()
+            },
+            &rows,
+            &[],
+        )
+        .to_string();
+        assert_eq!(narrow.lines().count(), rows.len() + 4);
+        assert!(widest_line(&narrow) + 60 < widest_line(&wide));
+        assert!(narrow.lines().nth(3).unwrap().contains("1 *"));
+    }
+
+    #[test]
+    fn design_cell_reads_as_one_design() {
+        assert_eq!(
+            design_cell(&long_row(1)),
+            "beta-helper npn-dual-highvoltage, helper npn-single-general, RE 1.91 kΩ thin-film-0p5pct"
+        );
+        let bare = CandidateRow {
+            re1_ohm: 0.0,
+            re2_ohm: 0.0,
+            resistor: None,
+            ..row()
+        };
+        assert_eq!(design_cell(&bare), "simple npn-dual-x, no RE");
+        let ratio = CandidateRow {
+            re1_ohm: 2000.0,
+            re2_ohm: 1000.0,
+            ..row()
+        };
+        assert_eq!(
+            design_cell(&ratio),
+            "simple npn-dual-x, RE1 2.00 kΩ RE2 1.00 kΩ thick, 1 %"
         );
     }
 

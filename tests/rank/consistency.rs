@@ -117,7 +117,7 @@ fn json_and_table_show_the_same_rows() {
             "yield",
             "r_out_min_ohm",
             "compliance_v",
-            "v_in_max",
+            "v_in_max_v",
             "governing_check",
             "pareto",
             "checks",
