@@ -124,6 +124,7 @@ pub fn noise_against_re(
         v_out_v: req.output_voltage_v.min,
         supply_v: req.supply_v,
         t_amb_k: ROOM_K,
+        rail_v: None,
     };
     values
         .into_iter()

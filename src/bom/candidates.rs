@@ -990,6 +990,7 @@ fn placeholder(o: &Cand) -> Evaluation {
         hottest: None,
         soft_saturation: Vec::new(),
         complete: false,
+        noise: None,
     }
 }
 

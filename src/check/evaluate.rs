@@ -328,6 +328,7 @@ impl<'a> Evaluator<'a> {
             v_out_v: corner.v_out_v,
             supply_v: self.req.supply_v,
             t_amb_k: corner.t_amb_k,
+            rail_v: corner.rail_v,
         };
         self.solves.fetch_add(1, Ordering::Relaxed);
         // The same solve as `solve_net` (bit for bit), plus the small-signal analysis.

@@ -166,6 +166,7 @@ mod tests {
             i_in_a: 1e-4,
             v_out_v: 2.0,
             t_amb_k: t,
+            rail_v: None,
         }
     }
 

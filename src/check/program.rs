@@ -137,6 +137,8 @@ mod tests {
             tcr_per_k: 1e-4,
             unit_cost: 0.0,
             power_rating_w: None,
+            min_ohm: crate::model::DEFAULT_MIN_OHM,
+            max_ohm: crate::model::DEFAULT_MAX_OHM,
             provenance: String::new(),
         };
         // IEC 60063 E96: 511k and 523k bracket 518k.

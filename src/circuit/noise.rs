@@ -490,6 +490,7 @@ mod tests {
             re1_ohm: if topology.desc().has_re1 { re } else { 0.0 },
             re2_ohm: re,
             re_tcr_per_k: 0.0,
+            r_ref: None,
         }
     }
 
@@ -499,6 +500,7 @@ mod tests {
             v_out_v: 5.0,
             supply_v: 10.0,
             t_amb_k: 300.0,
+            rail_v: None,
         }
     }
 

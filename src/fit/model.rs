@@ -341,6 +341,7 @@ pub fn model_currents(
         re1_ohm: setup.re1_ohm,
         re2_ohm: setup.re2_ohm,
         re_tcr_per_k: 0.0,
+        r_ref: None,
     };
     let mm = Mismatch {
         dvbe_v: [values.vbe_offset_v, 0.0],
@@ -358,6 +359,7 @@ pub fn model_currents(
                 v_out_v: p.v_out_v,
                 supply_v: setup.supply_v,
                 t_amb_k: p.t_amb_k.unwrap_or(setup.ambient_k),
+                rail_v: None,
             };
             net.solve(&op, &opts)
                 .map(|s| s.i_out_a)

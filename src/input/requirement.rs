@@ -36,8 +36,7 @@ use super::raw::{
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
     AccuracyOf, Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Program,
-    Range, Requirement,
-    Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V,
+    Range, Requirement, Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V,
 };
 use crate::units::{Dimension as D, Field};
 

@@ -298,6 +298,15 @@ pub fn shortfall(catalog: &Catalog, name: CheckName, value: f64, limit: f64) -> 
         CheckName::Cost => format!("costs {v}, the requirement allows {l}"),
         CheckName::ThermalRunaway => "runs away thermally at an operating corner".into(),
         CheckName::NoSolution => "has an operating corner with no solution".into(),
+        CheckName::Noise => {
+            format!("has {v} of output current noise, the requirement allows {l}")
+        }
+        CheckName::RefPower => {
+            format!("puts {v} into its programming resistor, rated (derated) for {l}")
+        }
+        CheckName::Tempco => {
+            format!("drifts {v} with temperature, the requirement allows {l}")
+        }
     }
 }
 
@@ -311,6 +320,9 @@ pub fn elements_of(catalog: &Catalog, c: &CandidateRow) -> Option<Vec<Element>> 
         re1_ohm: c.re1_ohm,
         re2_ohm: c.re2_ohm,
         resistor: c.resistor.clone(),
+        r_ref_ohm: c.r_ref_ohm.unwrap_or(0.0),
+        r_ref_resistor: c.r_ref_resistor.clone(),
+        r_ref_pick: None,
     };
     crate::check::resolve(catalog, &spec)
         .ok()

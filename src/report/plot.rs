@@ -709,8 +709,16 @@ pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<Stri
     let mut svg = String::new();
     let n = bars.len().max(1);
     let height = 150 + 40 * n as u32;
+    let mut legend = Legend::new();
+    if let Some(l) = limit {
+        legend.add(
+            Swatch::Dashed(BALANCE),
+            format!("limit {}", eng(l, "A/√Hz", Charset::Unicode)),
+        );
+    }
     {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, height + legend.height()))
+            .into_drawing_area();
         root.fill(&WHITE).map_err(&e)?;
         let pa = |x: f64| x * 1e12;
         let most = bars
@@ -764,14 +772,11 @@ pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<Stri
                     4,
                     ShapeStyle::from(BALANCE).stroke_width(1),
                 ))
-                .map_err(&e)?
-                .label(format!("limit {}", eng(l, "A/√Hz", Charset::Unicode)))
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BALANCE));
-            draw_legend(&mut chart).map_err(&e)?;
+                .map_err(&e)?;
         }
         root.present().map_err(&e)?;
     }
-    Ok(svg)
+    Ok(with_legends(svg, &[legend.markup(height)]))
 }
 
 #[cfg(test)]

@@ -942,7 +942,9 @@ mod tests {
         // Plain SI numbers; a missing number is empty; a comma is quoted (RFC 4180).
         assert!(lines[1].starts_with("1,simple,npn-dual-x,,4700,4700,\"thick, 1 %\",0.125,"));
         // No programming resistor: its columns are empty; the tempco is there for every row.
-        assert!(lines[1].contains(",0.005,0.98,,0.7,1.2,,,,12,0.0000000000025,,accuracy,0.5,true,true"));
+        assert!(
+            lines[1].contains(",0.005,0.98,,0.7,1.2,,,,12,0.0000000000025,,accuracy,0.5,true,true")
+        );
         assert!(lines[0].contains(
             ",v_in_max_v,r_ref_ohm,r_ref_resistor,r_ref_power_w,tempco_ppm_per_k,noise_a_per_rthz,"
         ));

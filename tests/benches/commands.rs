@@ -78,6 +78,9 @@ fn bench(c: &mut Criterion) {
         re1_ohm: 0.0,
         re2_ohm: 0.0,
         resistor: None,
+        r_ref_ohm: 0.0,
+        r_ref_resistor: None,
+        r_ref_pick: None,
     };
     for top in [None, Some(5)] {
         let name = match top {

@@ -95,6 +95,7 @@ fn bench(c: &mut Criterion) {
             re1_ohm: if t.desc().has_re1 { 1000.0 } else { 0.0 },
             re2_ohm: 1000.0,
             re_tcr_per_k: 0.0,
+            r_ref: None,
         };
         let net = Netlist::compile(&design, &mm).unwrap();
         group.bench_function(format!("{}/solve", t.name()), |b| {

@@ -71,6 +71,7 @@ fn one_point(catalog: &Catalog, rng: &mut ChaCha8Rng, tally: &mut Tally) {
         dbeta: [rng.gen_range(-0.1..0.1), rng.gen_range(-0.1..0.1)],
         dre1: rng.gen_range(-0.01..0.01),
         dre2: rng.gen_range(-0.01..0.01),
+        dref: 0.0,
     };
     let design = Design {
         topology,
@@ -79,12 +80,14 @@ fn one_point(catalog: &Catalog, rng: &mut ChaCha8Rng, tally: &mut Tally) {
         re1_ohm: re1,
         re2_ohm: re2,
         re_tcr_per_k: 0.0,
+        r_ref: None,
     };
     let p = OperatingPoint {
         i_in_a: i_in,
         v_out_v: v_out,
         supply_v: supply,
         t_amb_k: t_c + 273.15,
+        rail_v: None,
     };
     tally.points += 1;
     let what = format!(
