@@ -65,6 +65,7 @@
 //!    unverified designs are verified (with up to 16 neighbours of the same family, so a
 //!    failure does not cost one round each) and the program solved again. Each round
 //!    disproves or confirms at least one chosen design, so it ends.
+//!
 //! The board is then built from every verified feasible design only, so its optimum equals
 //! the full feed's (`tests/bom/fast_feed.rs` checks it on the shipped board and on random
 //! boards); among designs of equal board cost the chosen one may differ, and the
@@ -137,6 +138,16 @@ fn channel_requirements(design: &BoardDesign, catalog: &Catalog) -> Vec<Requirem
 
 /// Rank every channel of `design` and build the integer program's input, verifying only
 /// the candidates that can matter to the board (see the module docs, "The fast feed").
+/// One channel's screen: the candidates proved infeasible (with the check that did it)
+/// and the survivors.
+type Screened = (Vec<(DesignSpec, CheckName)>, Vec<Cand>);
+/// A usage's shape: line-item count and its (class, value, count) entries.
+type ShapeKey = (u32, Vec<(u32, Option<u64>, u32)>);
+/// Candidates by (channel, cost signature): (index, usage, line items).
+type Signatures = std::collections::HashMap<(u32, u64), Vec<(usize, u32, u32)>>;
+/// A design's resistor values by (class, value, count) entries and pair class.
+type ValueKey = (Vec<(String, Option<u64>, u32)>, String);
+
 pub fn design_problem(
     design: &BoardDesign,
     catalog: &Catalog,
@@ -318,7 +329,7 @@ fn fast_feed(
             .flat_map(|g| g.iter().map(|g| g.specs.len() as u64))
             .sum(),
     );
-    let mut screened: Vec<(Vec<(DesignSpec, CheckName)>, Vec<Cand>)> = reqs
+    let mut screened: Vec<Screened> = reqs
         .iter()
         .zip(&groups)
         .map(|(req, g)| {
@@ -658,7 +669,7 @@ fn lazy_verify(
     design: &BoardDesign,
     reqs: &[Requirement],
     catalog: &Catalog,
-    screened: &mut [(Vec<(DesignSpec, CheckName)>, Vec<Cand>)],
+    screened: &mut [Screened],
     kept: &[Vec<usize>],
     mc: MonteCarlo,
     solves: &AtomicU64,
@@ -858,7 +869,7 @@ fn reduce_optimistic(
     // with the largest margin (ties: the first).
     let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
     for (c, l) in live.iter().enumerate() {
-        let mut at: HashMap<(u32, Vec<(u32, Option<u64>, u32)>), usize> = HashMap::new();
+        let mut at: HashMap<ShapeKey, usize> = HashMap::new();
         let mut out: Vec<(usize, f64)> = Vec::new();
         for &(k, (_, m)) in l {
             let (t, rs) = &shape[c][k];
@@ -891,7 +902,7 @@ fn reduce_optimistic(
             .all(|r| r.0 == f.0 && r.1 == f.1)
             .then(|| ((f.0, f.1), rs.iter().map(|r| r.2).sum()))
     };
-    let mut sig: HashMap<(u32, u64), Vec<(usize, u32, u32)>> = HashMap::new();
+    let mut sig: Signatures = HashMap::new();
     let mut margin: HashMap<(u32, u64), f64> = HashMap::new();
     let mut in_multi: BTreeSet<(u32, u64)> = BTreeSet::new();
     for (c, out) in merged.iter().enumerate() {
@@ -1032,7 +1043,7 @@ fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidat
                 rs
             };
             let mut kept: Vec<(DesignUsage, (DesignSpec, Evaluation))> = Vec::new();
-            let mut at: BTreeMap<(Vec<(String, Option<u64>, u32)>, String), usize> =
+            let mut at: BTreeMap<ValueKey, usize> =
                 BTreeMap::new();
             for (o, d) in c.options.options.drain(..).zip(c.designs.drain(..)) {
                 let k = (key(&o), transistors_key(&o));

@@ -146,6 +146,10 @@ pub fn search(
     v
 }
 
+/// What `screen_only` returns: the candidates a screen proves infeasible (with the check
+/// they were counted under) and the survivors with their cost.
+pub type ScreenOutcome = (Vec<(DesignSpec, CheckName)>, Vec<(DesignSpec, f64)>);
+
 /// The screen alone, for callers that choose what to verify themselves (the board
 /// optimiser): every candidate a screen proves infeasible, with the check it was counted
 /// under, and every survivor with its cost, both in enumeration order.
@@ -154,7 +158,7 @@ pub fn screen_only(
     catalog: &Catalog,
     groups: &[Group],
     solves: &AtomicU64,
-) -> (Vec<(DesignSpec, CheckName)>, Vec<(DesignSpec, f64)>) {
+) -> ScreenOutcome {
     let per_group: Vec<Vec<(DesignSpec, Outcome)>> = groups
         .par_iter()
         .map(|g| screen_group(req, catalog, g, solves))
