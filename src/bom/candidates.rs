@@ -1043,8 +1043,7 @@ fn merge_private_values(channels: Vec<ChannelCandidates>) -> Vec<ChannelCandidat
                 rs
             };
             let mut kept: Vec<(DesignUsage, (DesignSpec, Evaluation))> = Vec::new();
-            let mut at: BTreeMap<ValueKey, usize> =
-                BTreeMap::new();
+            let mut at: BTreeMap<ValueKey, usize> = BTreeMap::new();
             for (o, d) in c.options.options.drain(..).zip(c.designs.drain(..)) {
                 let k = (key(&o), transistors_key(&o));
                 match at.get(&k) {
