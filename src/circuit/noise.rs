@@ -369,6 +369,19 @@ impl CircuitSystem<'_> {
                 slots: Some([r.slot, R_SLOT]),
             });
         }
+        // The programming resistor, from its rail to the input node.
+        if let Some(l) = net.r_ref {
+            if self.ref_g > 0.0 {
+                sources.push(NoiseSource {
+                    element: "Rref",
+                    kind: NoiseKind::Thermal,
+                    white_a2_per_hz: 4.0 * BOLTZMANN_J_PER_K * self.op.t_amb_k * self.ref_g,
+                    flicker_a2: 0.0,
+                    transfer: transfer(self.row_of(l.b), self.row_of(l.a)),
+                    slots: Some([l.b, l.a]),
+                });
+            }
+        }
         Some(NoiseAnalysis { sources })
     }
 }

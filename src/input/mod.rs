@@ -295,18 +295,31 @@ fn serde_problem(raw: &str) -> Problem {
         if let Some(rest) = body.strip_prefix(start) {
             let names = backticked(rest);
             if let Some((word, expected)) = names.split_first() {
+                // Enumerations take their capitalised and upper-case spellings as aliases:
+                // name each value once, as the documentation writes it (lower case).
+                let mut expected = expected.to_vec();
+                if !is_field {
+                    let mut once: Vec<String> = Vec::new();
+                    for n in &expected {
+                        let lower = n.to_ascii_lowercase();
+                        if !once.contains(&lower) {
+                            once.push(lower);
+                        }
+                    }
+                    expected = once;
+                }
                 let suggestion = did_you_mean(word, expected.iter().map(String::as_str));
                 let p = if is_field {
                     Problem::UnknownField {
                         field: word.clone(),
                         suggestion,
-                        expected: expected.to_vec(),
+                        expected,
                     }
                 } else {
                     Problem::UnknownName {
                         value: word.clone(),
                         suggestion,
-                        expected: expected.to_vec(),
+                        expected,
                     }
                 };
                 return if prefix.is_empty() {

@@ -65,26 +65,17 @@ pub struct RawCatalog {
 /// serde's own "unknown variant ..., expected one of ..." error, which the input module
 /// turns into a located message with a did-you-mean.
 macro_rules! any_case_enum {
-    ($name:ident { $($variant:ident => $text:literal),+ $(,)? }) => {
-        #[derive(Debug, Clone, Copy)]
+    ($name:ident { $($variant:ident => $lower:literal | $cap:literal | $upper:literal),+ $(,)? }) => {
+        // Derived, so serde keeps the value's position and YAML path in its errors; the
+        // capitalised and upper-case spellings are aliases.
+        #[derive(Debug, Clone, Copy, Deserialize)]
         pub enum $name {
-            $($variant),+
-        }
-
-        impl<'de> Deserialize<'de> for $name {
-            fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-                const NAMES: &[&str] = &[$($text),+];
-                let s = String::deserialize(d)?;
-                $(if s.eq_ignore_ascii_case($text) {
-                    return Ok($name::$variant);
-                })+
-                Err(de::Error::unknown_variant(&s, NAMES))
-            }
+            $(#[serde(rename = $lower, alias = $cap, alias = $upper)] $variant),+
         }
     };
 }
 
-any_case_enum!(RawPolarity { Npn => "npn", Pnp => "pnp" });
+any_case_enum!(RawPolarity { Npn => "npn" | "Npn" | "NPN", Pnp => "pnp" | "Pnp" | "PNP" });
 
 #[derive(Debug, Deserialize)]
 #[serde(
@@ -219,16 +210,16 @@ pub struct RawProgram {
     pub output_current: RawQty,
 }
 
-any_case_enum!(RawAccuracyOf { Ratio => "ratio", Output => "output" });
+any_case_enum!(RawAccuracyOf { Ratio => "ratio" | "Ratio" | "RATIO", Output => "output" | "Output" | "OUTPUT" });
 
-any_case_enum!(RawKind { Sink => "sink", Source => "source" });
+any_case_enum!(RawKind { Sink => "sink" | "Sink" | "SINK", Source => "source" | "Source" | "SOURCE" });
 
 any_case_enum!(RawLoad {
-    General => "general",
-    Led => "led",
-    Laser => "laser",
-    Sensor => "sensor",
-    Bias => "bias",
+    General => "general" | "General" | "GENERAL",
+    Led => "led" | "Led" | "LED",
+    Laser => "laser" | "Laser" | "LASER",
+    Sensor => "sensor" | "Sensor" | "SENSOR",
+    Bias => "bias" | "Bias" | "BIAS",
 });
 
 #[derive(Debug, Deserialize)]

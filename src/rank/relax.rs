@@ -23,6 +23,10 @@ use super::space::Group;
 /// How many candidates are bisected per field: the nearest to feasible (by their worst
 /// check margin) that the field can make feasible at all.
 pub const NEAREST: usize = 3;
+
+/// Added to the failing-check count of a design with an unsolved corner, so that it
+/// sorts after every design that solved everywhere.
+const UNSOLVED_PENALTY: usize = 1000;
 /// How many candidates (one per family, nearest first) are tried per field.
 const POOL: usize = 12;
 /// Bisection steps per field: the bracket shrinks by 2^-14, well below the two
@@ -312,7 +316,11 @@ pub fn relax(req: &Requirement, catalog: &Catalog, groups: &[Group], mc: MonteCa
                     .filter(|c| !c.pass)
                     .map(|c| c.value / VCEO_DERATING)
             });
-            let failing = ev.checks.iter().filter(|c| !c.pass).count();
+            // A design with an unsolved corner (thermal runaway, no solution) fails one
+            // named check and has no margins for the figures that needed the corner:
+            // it is far from feasible, not near, so it sorts after every solved design.
+            let failing = ev.checks.iter().filter(|c| !c.pass).count()
+                + if ev.complete { 0 } else { UNSOLVED_PENALTY };
             Some((d.spec.clone(), (failing, worst), vceo))
         })
         .collect();

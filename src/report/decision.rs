@@ -177,7 +177,7 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             eng(c.compliance_v, "V", U),
         ),
         num(
-            "v_in_max",
+            "v_in_max_v",
             "input voltage (max)",
             c.v_in_max,
             eng(c.v_in_max, "V", U),

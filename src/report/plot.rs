@@ -744,7 +744,8 @@ pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<Stri
                 SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
                 _ => String::new(),
             })
-            .label_style((FONT, 12))
+            .label_style((FONT, TICK))
+            .axis_desc_style((FONT, TICK))
             .light_line_style(RGBColor(235, 235, 235))
             .draw()
             .map_err(&e)?;

