@@ -351,7 +351,7 @@ mod bad_input {
         ));
         assert_eq!(
             located(&catalog_error("unknown-series.yaml")),
-            "unknown-series.yaml:32:13: `resistor_classes[0].series`: unknown value `E69`; expected one of `E24`, `E48`, `E96` or `E192`"
+            "unknown-series.yaml:32:13: `resistor_classes[0].series`: unknown value `E69`; expected one of `E12`, `E24`, `E48`, `E96` or `E192`"
         );
     }
 
