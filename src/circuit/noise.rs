@@ -657,6 +657,48 @@ mod tests {
         }
     }
 
+    /// A programming resistor from a rail joins the sources with its Johnson–Nyquist
+    /// density `4kT/R` (to 1e-6), and its transfer equals a finite-difference solve of
+    /// the full circuit to 1e-4, as every other source's does.
+    #[test]
+    fn programming_resistor_thermal_noise_reaches_the_output() {
+        let pair = class(150.0, Some(80.0));
+        let r_ohm = 47e3;
+        let d = Design {
+            r_ref: Some(crate::circuit::RefResistor {
+                ohm: r_ohm,
+                tcr_per_k: 0.0,
+            }),
+            ..design(Topology::Simple, &pair, 1e3)
+        };
+        let net = Netlist::compile(&d, &Mismatch::default()).unwrap();
+        let p = OperatingPoint {
+            rail_v: Some(10.0),
+            ..op(200e-6)
+        };
+        let opts = SolveOptions::default();
+        let (_, n) = net.solve_with_noise(&p, &opts).unwrap();
+        let s = n
+            .sources
+            .iter()
+            .find(|s| s.element == "Rref")
+            .expect("R_ref is a noise source");
+        let expected = 4.0 * K * p.t_amb_k / r_ohm;
+        assert!((s.white_a2_per_hz / expected - 1.0).abs() < 1e-6, "{s:?}");
+        let fd = net.finite_difference_transfer(&p, &opts, s, 1e-8).unwrap();
+        assert!(
+            (s.transfer - fd).abs() <= 1e-4 * s.transfer.abs() + 1e-6,
+            "small-signal {} vs finite difference {fd}",
+            s.transfer
+        );
+        // A current into the input node reaches the output at about the mirror's ratio.
+        assert!(
+            s.transfer.abs() > 0.5 && s.transfer.abs() < 1.5,
+            "{}",
+            s.transfer
+        );
+    }
+
     /// With no base current (BF -> infinity) the base spreading resistance is a noise
     /// voltage `4kT RB` in series with each base; in the simple mirror both reach Q2's
     /// V_BE one for one (Q1's through the input node), so the output carries
