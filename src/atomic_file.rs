@@ -110,11 +110,17 @@ impl PendingFile {
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_default();
-        let temp = tempfile::Builder::new()
-            .prefix(&format!(".{name}."))
-            .suffix(".tmp")
-            .tempfile_in(&self.dir)
-            .map_err(err)?;
+        let prefix = format!(".{name}.");
+        let mut builder = tempfile::Builder::new();
+        builder.prefix(&prefix).suffix(".tmp");
+        // A temporary file is private (0600) by default; the finished file is an ordinary
+        // output, so it gets the usual 0666 less the umask, as `File::create` would give.
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            builder.permissions(std::fs::Permissions::from_mode(0o666));
+        }
+        let temp = builder.tempfile_in(&self.dir).map_err(err)?;
         let guard = interrupts::Registered::new(temp.path());
         let result = (|| {
             let mut out = BufWriter::new(temp.as_file());
@@ -298,6 +304,18 @@ mod tests {
             .collect();
         v.sort();
         v
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn finished_files_are_not_private() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("out.txt");
+        PendingFile::create(&target).unwrap().commit(b"x").unwrap();
+        let mode = std::fs::metadata(&target).unwrap().permissions().mode() & 0o777;
+        // 0666 less the umask: readable by the group and others under the usual 022.
+        assert_ne!(mode & 0o044, 0, "mode {mode:o}");
     }
 
     #[test]

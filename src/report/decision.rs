@@ -53,6 +53,8 @@ fn check_value(catalog: &Catalog, name: CheckName, x: f64, sig: usize) -> String
         CheckName::Cost => money(catalog, x),
         CheckName::Accuracy | CheckName::Yield => percent(x),
         CheckName::ThermalRunaway | CheckName::NoSolution => format!("{x}"),
+        // A temperature coefficient reads in ppm/K, as the requirement writes it.
+        CheckName::Tempco => format!("{:.0} ppm/K", x * 1e6),
         _ => eng_sig(
             x,
             if name.unit() == "Ω" {
