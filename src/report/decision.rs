@@ -472,12 +472,24 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
             ),
         ),
         ("supply".into(), eng(req.supply_v, "V", U)),
-        (
-            "input current".into(),
-            range(req.input_current_a.min, req.input_current_a.max, &|x| {
-                eng(x, "A", U)
-            }),
-        ),
+        match &req.program {
+            // Programmed by a resistor from a rail: the rail and the wanted output are what
+            // the designer wrote; the input current follows from the solved circuit.
+            Some(p) => (
+                "programming".into(),
+                format!(
+                    "resistor R_ref from a rail at {} (from the mirror rail), for {} out",
+                    range(p.rail_v.min, p.rail_v.max, &|x| eng(x, "V", U)),
+                    eng(p.output_current_a, "A", U)
+                ),
+            ),
+            None => (
+                "input current".into(),
+                range(req.input_current_a.min, req.input_current_a.max, &|x| {
+                    eng(x, "A", U)
+                }),
+            ),
+        },
         (
             "ratio n".into(),
             if (req.ratio - 1.0).abs() < 1e-12 {
@@ -508,6 +520,18 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
             ),
         ),
     ];
+    if req.accuracy_of == crate::model::AccuracyOf::Output {
+        rows.push((
+            "accuracy of".into(),
+            "the output current against its wanted value".into(),
+        ));
+    }
+    if let Some(t) = req.max_tempco_per_k {
+        rows.push((
+            "largest output tempco".into(),
+            format!("{:.0} ppm/K", t * 1e6),
+        ));
+    }
     if let Some(y) = req.min_yield {
         rows.push(("minimum yield".into(), percent(y)));
     }
