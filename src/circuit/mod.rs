@@ -315,3 +315,33 @@ pub fn balance_voltage(
     }
     Some(0.5 * (a + b))
 }
+
+/// A dual of the given model with round class figures (1 mV V_BE sigma, 2 % beta sigma,
+/// 45 V, 100 mA, 300 mW, 600/250 K/W): the one fixture the engine's unit tests share.
+#[cfg(test)]
+pub(crate) fn test_pair(id: &str, model: crate::model::BjtParams) -> crate::model::TransistorClass {
+    use crate::model::{Matching, Polarity, Ratings, Thermal, TransistorClass};
+    TransistorClass {
+        id: id.into(),
+        summary: String::new(),
+        polarity: Polarity::Npn,
+        devices_per_package: 2,
+        package: String::new(),
+        model,
+        matching: Some(Matching {
+            vbe_offset_sigma_v: 1e-3,
+            beta_mismatch_sigma: 0.02,
+        }),
+        ratings: Ratings {
+            vceo_v: 45.0,
+            ic_max_a: 0.1,
+            power_per_package_w: 0.3,
+        },
+        thermal: Thermal {
+            theta_self_k_per_w: 600.0,
+            theta_mutual_k_per_w: 250.0,
+        },
+        unit_cost: 0.0,
+        provenance: String::new(),
+    }
+}

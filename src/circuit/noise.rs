@@ -460,9 +460,7 @@ impl Netlist {
 mod tests {
     use super::*;
     use crate::circuit::{Design, Mismatch};
-    use crate::model::{
-        BjtParams, Matching, Polarity, Ratings, Thermal, Topology, TransistorClass, ALL_TOPOLOGIES,
-    };
+    use crate::model::{BjtParams, Topology, TransistorClass, ALL_TOPOLOGIES};
 
     /// k and q exactly as defined by the SI (CODATA 2018), written out here so the test
     /// does not lean on the constants it checks.
@@ -470,29 +468,7 @@ mod tests {
     const Q: f64 = 1.602176634e-19;
 
     fn class(bf: f64, vaf: Option<f64>) -> TransistorClass {
-        TransistorClass {
-            id: "noise-test".into(),
-            summary: String::new(),
-            polarity: Polarity::Npn,
-            devices_per_package: 2,
-            package: String::new(),
-            model: BjtParams::new(1e-14, bf, vaf),
-            matching: Some(Matching {
-                vbe_offset_sigma_v: 1e-3,
-                beta_mismatch_sigma: 0.02,
-            }),
-            ratings: Ratings {
-                vceo_v: 45.0,
-                ic_max_a: 0.1,
-                power_per_package_w: 0.3,
-            },
-            thermal: Thermal {
-                theta_self_k_per_w: 600.0,
-                theta_mutual_k_per_w: 250.0,
-            },
-            unit_cost: 0.0,
-            provenance: String::new(),
-        }
+        crate::circuit::test_pair("noise-test", BjtParams::new(1e-14, bf, vaf))
     }
 
     fn design(topology: Topology, pair: &TransistorClass, re: f64) -> Design<'_> {

@@ -359,37 +359,13 @@ impl NonlinearSystem for CircuitSystem<'_> {
 mod tests {
     use super::*;
     use crate::circuit::{Design, Mismatch};
-    use crate::model::{
-        BjtParams, Matching, Polarity, Ratings, Thermal, TransistorClass, ALL_TOPOLOGIES,
-    };
+    use crate::model::{BjtParams, TransistorClass, ALL_TOPOLOGIES};
     use proptest::prelude::*;
 
     fn class(is: f64, bf: f64, vaf: f64, ikf: Option<f64>) -> TransistorClass {
         let mut model = BjtParams::new(is, bf, Some(vaf));
         model.knee_current_a = ikf;
-        TransistorClass {
-            id: "jacobian-test".into(),
-            summary: String::new(),
-            polarity: Polarity::Npn,
-            devices_per_package: 2,
-            package: String::new(),
-            model,
-            matching: Some(Matching {
-                vbe_offset_sigma_v: 1e-3,
-                beta_mismatch_sigma: 0.02,
-            }),
-            ratings: Ratings {
-                vceo_v: 45.0,
-                ic_max_a: 0.1,
-                power_per_package_w: 0.3,
-            },
-            thermal: Thermal {
-                theta_self_k_per_w: 600.0,
-                theta_mutual_k_per_w: 250.0,
-            },
-            unit_cost: 0.0,
-            provenance: String::new(),
-        }
+        crate::circuit::test_pair("jacobian-test", model)
     }
 
     proptest! {
