@@ -395,6 +395,48 @@ impl<'a> Evaluator<'a> {
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
+    /// The nominal error and the random 1-sigma error at each of `corners` (one solve
+    /// plus one per mismatch input each, the same solves as `evaluate`'s, so the values
+    /// are bit for bit the ones the accuracy check takes its maxima over). `None` when a
+    /// solve fails.
+    pub fn corner_errors(&self, corners: &[OperatingCorner]) -> Option<Vec<(f64, f64)>> {
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let nets = self.sensitivity_nets().ok()?;
+        corners
+            .iter()
+            .map(|c| {
+                let s0 = self.solve_net(&net, c, true).ok()?;
+                let d = self.sensitivities(&nets, c, &s0).ok()?;
+                Some((s0.error, budget::random_sigma(&d)))
+            })
+            .collect()
+    }
+
+    /// The corners of the largest nominal error and of the largest random sigma (one
+    /// corner when they coincide): where a similar design's total error is decided.
+    /// `None` when a corner does not solve.
+    pub fn worst_corners(&self) -> Option<Vec<OperatingCorner>> {
+        let e = self.corner_errors(&self.corners)?;
+        let arg = |f: fn(&(f64, f64)) -> f64| {
+            (0..e.len()).fold(0, |w, i| if f(&e[i]) > f(&e[w]) { i } else { w })
+        };
+        let (a, b) = (arg(|x| x.0.abs()), arg(|x| x.1));
+        let mut out = vec![self.corners[a]];
+        if b != a {
+            out.push(self.corners[b]);
+        }
+        Some(out)
+    }
+
+    /// `max |e| + k * max sigma` over `corners`: a lower bound of the total error (the
+    /// accuracy check takes both maxima over every corner). `None` when a solve fails.
+    pub fn corners_bound(&self, corners: &[OperatingCorner]) -> Option<f64> {
+        let e = self.corner_errors(corners)?;
+        let sys = e.iter().map(|x| x.0.abs()).fold(0.0, f64::max);
+        let rnd = e.iter().map(|x| x.1).fold(0.0, f64::max);
+        Some(sys + self.req.confidence_sigma * rnd)
+    }
+
     /// Monte Carlo yield with every sampled build re-solved at every corner (the same
     /// draws as the first-order yield): a confirmation for one design, too costly for a
     /// search. A build whose circuit fails to solve counts as out of spec.

@@ -91,7 +91,7 @@ pub struct Verdicts {
     pub solves: u64,
 }
 
-enum Outcome {
+pub(super) enum Outcome {
     Feasible(Box<Evaluation>),
     Rejected(CheckName),
     /// Passed every screen; not yet verified.
@@ -253,6 +253,9 @@ fn verify_survivors(
         }
         return;
     }
+    if let Goal::Cheapest(n, Unit::Families) = goal {
+        return cheapest_families(req, catalog, survivors, n, mc, solves, progress, v);
+    }
     // Buckets: one, or one per pair class.
     let mut buckets: Vec<(Option<String>, Vec<Survivor>)> = Vec::new();
     for s in survivors {
@@ -320,6 +323,170 @@ fn verify_survivors(
     merge(results, v);
 }
 
+/// The `n` cheapest families with a feasible design, each with its best row exact.
+/// Cost levels are taken in ascending order and each is finished whole (every family
+/// in it), so ties and the Pareto flags of the listed rows are exact, as when every
+/// member of a level was verified. Within a family every member costs the same, so the
+/// family's best row (the cost order's first) is its most accurate one: each family is
+/// searched best-first on the probe-corner bound of its total error (`best_first` with
+/// one row), which verifies a few members instead of all of them; the families of a
+/// level are searched in parallel. A family with no feasible member has every member
+/// verified. Members not needed for the best row stay unverified.
+#[allow(clippy::too_many_arguments)]
+fn cheapest_families(
+    req: &Requirement,
+    catalog: &Catalog,
+    survivors: Vec<Survivor>,
+    n: usize,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    v: &mut Verdicts,
+) {
+    let mut found = 0usize;
+    let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
+    let mut i = 0;
+    while i < survivors.len() {
+        if found >= n {
+            results.extend(survivors[i..].iter().map(|(k, s, _)| (*k, s.clone(), None)));
+            break;
+        }
+        let cost = survivors[i].2;
+        let mut end = i;
+        while end < survivors.len() && survivors[end].2 == cost {
+            end += 1;
+        }
+        let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
+        for s in &survivors[i..end] {
+            let key = family(&s.1);
+            match families.iter_mut().find(|(k, _)| *k == key) {
+                Some((_, f)) => f.push(s.clone()),
+                None => families.push((key, vec![s.clone()])),
+            }
+        }
+        let per_family: Vec<Vec<(usize, DesignSpec, Option<Outcome>)>> = families
+            .into_par_iter()
+            .map(|(_, f)| family_best(req, catalog, f, mc, solves, progress))
+            .collect();
+        for r in per_family {
+            found += usize::from(
+                r.iter()
+                    .any(|(_, _, o)| matches!(o, Some(Outcome::Feasible(_)))),
+            );
+            results.extend(r);
+        }
+        i = end;
+    }
+    merge(results, v);
+}
+
+/// A family's most accurate feasible member (every member costs the same), exactly, and
+/// every member verified on the way; `None` outcomes are left unverified.
+///
+/// Members are verified, most degeneration first, until one is feasible (a family with
+/// none has every member verified). Its worst corners (largest nominal error, largest
+/// random sigma) then give each other member a lower bound of its total error from
+/// those corners alone (`Evaluator::corners_bound`: the accuracy check takes the same
+/// maxima over every corner, so the bound never exceeds the total). Members are then
+/// verified in order of that bound until the best total error found is below the next
+/// bound: no unverified member can be more accurate. Members of one family differ only
+/// in resistor value, so their worst corners agree and the bound is nearly the total
+/// error itself; a member whose bound fails to solve gets 0 and is verified.
+fn family_best(
+    req: &Requirement,
+    catalog: &Catalog,
+    mut members: Vec<Survivor>,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
+    members.sort_by(|a, b| {
+        b.1.re1_ohm
+            .total_cmp(&a.1.re1_ohm)
+            .then(b.1.re2_ohm.total_cmp(&a.1.re2_ohm))
+            .then(a.0.cmp(&b.0))
+    });
+    let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
+        let out: Vec<_> = batch
+            .par_iter()
+            .map(
+                |(k, spec, _)| match resolve_sized(req, catalog, spec, solves) {
+                    Ok(d) => {
+                        let ev = Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc);
+                        (*k, d.spec.clone(), Some(outcome(ev)))
+                    }
+                    Err(_) => (*k, spec.clone(), None),
+                },
+            )
+            .collect();
+        progress.advance(batch.len() as u64);
+        out
+    };
+    // The smallest total error verified, and that design.
+    let best_of = |level: &[(usize, DesignSpec, Option<Outcome>)],
+                   best: &mut Option<(f64, DesignSpec)>| {
+        for (_, spec, o) in level {
+            if let Some(Outcome::Feasible(e)) = o {
+                let key = e.figures.error_total;
+                if best.as_ref().is_none_or(|b| key < b.0) {
+                    *best = Some((key, spec.clone()));
+                }
+            }
+        }
+    };
+    let mut results = Vec::new();
+    let mut best: Option<(f64, DesignSpec)> = None;
+    let mut i = 0;
+    while i < members.len() && best.is_none() {
+        let end = (i + FAMILY_BATCH).min(members.len());
+        let level = verify(&members[i..end]);
+        best_of(&level, &mut best);
+        results.extend(level);
+        i = end;
+    }
+    let Some((mut best_key, best_spec)) = best else {
+        return results;
+    };
+    let rest = &members[i..];
+    let worst = resolve(catalog, &best_spec)
+        .ok()
+        .and_then(|d| Evaluator::new(req, &d, solves).worst_corners());
+    let bounds: Vec<f64> = match &worst {
+        Some(cs) => rest
+            .par_iter()
+            .map(|(_, spec, _)| {
+                resolve_sized(req, catalog, spec, solves)
+                    .ok()
+                    .and_then(|d| Evaluator::new(req, &d, solves).corners_bound(cs))
+                    .unwrap_or(0.0)
+            })
+            .collect(),
+        None => vec![0.0; rest.len()],
+    };
+    let mut order: Vec<usize> = (0..rest.len()).collect();
+    order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
+    let mut j = 0;
+    while j < order.len() && bounds[order[j]] <= best_key {
+        let mut end = j;
+        while end < order.len() && end < j + FAMILY_BATCH && bounds[order[end]] <= best_key {
+            end += 1;
+        }
+        let batch: Vec<Survivor> = order[j..end].iter().map(|&x| rest[x].clone()).collect();
+        let level = verify(&batch);
+        let mut b = Some((best_key, best_spec.clone()));
+        best_of(&level, &mut b);
+        best_key = b.map_or(best_key, |b| b.0);
+        results.extend(level);
+        j = end;
+    }
+    results.extend(
+        order[j..]
+            .iter()
+            .map(|&x| (rest[x].0, rest[x].1.clone(), None)),
+    );
+    results
+}
+
 /// Best-first verification for the accuracy and balanced orders. Each survivor gets a
 /// lower bound of its sort key from the probe corner (`|e| + k sigma` there is at most
 /// the total error); survivors are verified in order of that bound until the `n`-th best
@@ -342,6 +509,33 @@ fn verify_by_bound(
     progress: &dyn Progress,
     v: &mut Verdicts,
 ) {
+    let results = best_first(
+        req, catalog, survivors, goal, n, unit, mc, solves, progress, BATCH,
+    );
+    merge(results, v);
+}
+
+/// Survivors verified at once by the best-first search: enough to keep two threads busy
+/// over a long list, few enough that a short one stops soon after its best design.
+const BATCH: usize = 64;
+/// The batch within one family (families are verified in parallel with each other).
+const FAMILY_BATCH: usize = 4;
+
+/// `verify_by_bound`'s search, returning every outcome (`None`: left unverified) for the
+/// caller to merge; `batch` designs are verified between two looks at the stop rule.
+#[allow(clippy::too_many_arguments)]
+fn best_first(
+    req: &Requirement,
+    catalog: &Catalog,
+    survivors: Vec<Survivor>,
+    goal: Goal,
+    n: usize,
+    unit: Unit,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    batch_size: usize,
+) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
     let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
         batch
             .par_iter()
@@ -405,13 +599,12 @@ fn verify_by_bound(
             .collect()
     };
     let mut keys = feasible_keys(&results);
-    const BATCH: usize = 64;
     let mut i = 0;
     while i < order.len() {
         if nth_key(&keys, n, unit).is_some_and(|k| k < bounds[order[i]]) {
             break;
         }
-        let end = (i + BATCH).min(order.len());
+        let end = (i + batch_size).min(order.len());
         let batch: Vec<Survivor> = order[i..end].iter().map(|&j| rest[j].clone()).collect();
         let level = verify(&batch);
         progress.advance((end - i) as u64);
@@ -424,7 +617,7 @@ fn verify_by_bound(
             .iter()
             .map(|&j| (rest[j].0, rest[j].1.clone(), None)),
     );
-    merge(results, v);
+    results
 }
 
 /// The `n`-th smallest key (1-based) over rows, or over families (each keyed by its
@@ -495,7 +688,7 @@ fn judge_all(
 }
 
 /// Screens one group: proven rejections, and survivors (with their cost) to verify.
-fn screen_group(
+pub(super) fn screen_group(
     req: &Requirement,
     catalog: &Catalog,
     g: &Group,
