@@ -428,13 +428,30 @@ impl<'a> Evaluator<'a> {
         Some(out)
     }
 
-    /// `max |e| + k * max sigma` over `corners`: a lower bound of the total error (the
-    /// accuracy check takes both maxima over every corner). `None` when a solve fails.
-    pub fn corners_bound(&self, corners: &[OperatingCorner]) -> Option<f64> {
-        let e = self.corner_errors(corners)?;
-        let sys = e.iter().map(|x| x.0.abs()).fold(0.0, f64::max);
-        let rnd = e.iter().map(|x| x.1).fold(0.0, f64::max);
-        Some(sys + self.req.confidence_sigma * rnd)
+    /// `max |e| + k * max sigma` over `corners` taken in order, stopping as soon as it
+    /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
+    /// maxima over every corner, from the same solves). Returns the bound reached and
+    /// whether every corner was taken; `None` when a solve fails.
+    pub fn error_bound_until(&self, corners: &[OperatingCorner], limit: f64) -> Option<(f64, bool)> {
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let nets = self.sensitivity_nets().ok()?;
+        let k = self.req.confidence_sigma;
+        let (mut sys, mut rnd) = (0.0f64, 0.0f64);
+        for (i, c) in corners.iter().enumerate() {
+            let s0 = self.solve_net(&net, c, true).ok()?;
+            let d = self.sensitivities(&nets, c, &s0).ok()?;
+            sys = sys.max(s0.error.abs());
+            rnd = rnd.max(budget::random_sigma(&d));
+            if sys + k * rnd > limit {
+                return Some((sys + k * rnd, i + 1 == corners.len()));
+            }
+        }
+        Some((sys + k * rnd, true))
+    }
+
+    /// Every corner of the requirement, in the evaluation's order.
+    pub fn corners(&self) -> &[OperatingCorner] {
+        &self.corners
     }
 
     /// Monte Carlo yield with every sampled build re-solved at every corner (the same

@@ -25,10 +25,10 @@ use std::sync::atomic::{AtomicU64, Ordering};
 
 use rayon::prelude::*;
 
-use super::order::{family, FamilyKey};
+use super::order::{bare_family, family, worth_listing, FamilyKey, NOTICEABLE_ERROR};
 use super::space::Group;
 use crate::check::{
-    choose_r_ref, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
+    choose_r_ref, probe_corner, resolve, OperatingCorner, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
     MonteCarlo, ResolvedDesign,
 };
 use crate::model::{Catalog, Requirement};
@@ -142,6 +142,7 @@ pub fn search(
         }
     }
     verify_survivors(req, catalog, survivors, goal, mc, &solves, progress, &mut v);
+
     v.solves = solves.load(Ordering::Relaxed);
     v
 }
@@ -323,7 +324,8 @@ fn verify_survivors(
     merge(results, v);
 }
 
-/// The `n` cheapest families with a feasible design, each with its best row exact.
+/// The `n` cheapest listed families (`order::listed_families`) with a feasible design,
+/// each with its best row exact.
 /// Cost levels are taken in ascending order and each is finished whole (every family
 /// in it), so ties and the Pareto flags of the listed rows are exact, as when every
 /// member of a level was verified. Within a family every member costs the same, so the
@@ -344,6 +346,8 @@ fn cheapest_families(
     v: &mut Verdicts,
 ) {
     let mut found = 0usize;
+    // Feasible family bests so far: family, cost, total error, worst corners (bare only).
+    let mut bests: Vec<(FamilyKey, f64, f64, Vec<OperatingCorner>)> = Vec::new();
     let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
     let mut i = 0;
     while i < survivors.len() {
@@ -364,126 +368,149 @@ fn cheapest_families(
                 None => families.push((key, vec![s.clone()])),
             }
         }
+        // Each family's hint corners and target from its bare design (a cheaper level,
+        // so already known): its worst corners, and the error a degenerated row must
+        // beat to be listed. Without one, the probe corner and no target.
         let per_family: Vec<Vec<(usize, DesignSpec, Option<Outcome>)>> = families
             .into_par_iter()
-            .map(|(_, f)| family_best(req, catalog, f, mc, solves, progress))
+            .map(|(_, f)| {
+                let bare = f
+                    .first()
+                    .and_then(|s| bare_family(&s.1))
+                    .and_then(|k| bests.iter().find(|b| b.0 == k));
+                let (hint, target) = match bare {
+                    // Cheaper than its bare design: listed whatever its error.
+                    Some(b) if cost < b.1 - 1e-12 => (b.3.clone(), f64::INFINITY),
+                    Some(b) => (b.3.clone(), (1.0 - NOTICEABLE_ERROR) * b.2),
+                    None => (vec![probe_corner(req)], f64::INFINITY),
+                };
+                family_best(req, catalog, f, &hint, target, mc, solves, progress)
+            })
             .collect();
+        // Each family's best row; it counts toward `n` when it will be listed (a
+        // degenerated row against its bare design, which is cheaper or as cheap, so
+        // already known: `order::listed_families`).
+        let mut level_bests: Vec<(DesignSpec, f64, f64)> = Vec::new();
         for r in per_family {
-            found += usize::from(
-                r.iter()
-                    .any(|(_, _, o)| matches!(o, Some(Outcome::Feasible(_)))),
-            );
+            let best = r
+                .iter()
+                .filter_map(|(_, spec, o)| match o {
+                    Some(Outcome::Feasible(e)) => Some((spec, e.cost, e.figures.error_total)),
+                    _ => None,
+                })
+                .min_by(|a, b| a.2.total_cmp(&b.2));
+            if let Some((spec, cost, err)) = best {
+                level_bests.push((spec.clone(), cost, err));
+                // The worst corners of a bare design hint its degenerated families.
+                let worst = if spec.resistor.is_none() {
+                    resolve(catalog, spec)
+                        .ok()
+                        .and_then(|d| Evaluator::new(req, &d, solves).worst_corners())
+                        .unwrap_or_else(|| vec![probe_corner(req)])
+                } else {
+                    Vec::new()
+                };
+                bests.push((family(spec), cost, err, worst));
+            }
             results.extend(r);
+        }
+        for (spec, cost, err) in &level_bests {
+            let hidden = bare_family(spec)
+                .and_then(|k| bests.iter().find(|b| b.0 == k))
+                .is_some_and(|b| !worth_listing((*cost, *err), (b.1, b.2)));
+            found += usize::from(!hidden);
         }
         i = end;
     }
     merge(results, v);
 }
 
-/// A family's most accurate feasible member (every member costs the same), exactly, and
-/// every member verified on the way; `None` outcomes are left unverified.
+/// A family's most accurate feasible member (every member costs the same), exactly when
+/// it is within `target` (a total error; `INFINITY`: always); `None` outcomes are left
+/// unverified.
 ///
-/// Members are verified, most degeneration first, until one is feasible (a family with
-/// none has every member verified). Its worst corners (largest nominal error, largest
-/// random sigma) then give each other member a lower bound of its total error from
-/// those corners alone (`Evaluator::corners_bound`: the accuracy check takes the same
-/// maxima over every corner, so the bound never exceeds the total). Members are then
-/// verified in order of that bound until the best total error found is below the next
-/// bound: no unverified member can be more accurate. Members of one family differ only
-/// in resistor value, so their worst corners agree and the bound is nearly the total
-/// error itself; a member whose bound fails to solve gets 0 and is verified.
+/// Every member first gets a lower bound of its total error from a few corners, `hint`
+/// (the worst corners of a related verified design: members differ only in resistor
+/// value, so theirs are nearly the same): `Evaluator::error_bound_until`, the maxima the
+/// accuracy check takes over every corner, from the same solves, taken over fewer. In
+/// ascending order of that bound, each member is then taken corner by corner (hint
+/// first) until its bound passes the best total error found so far (or `target`): such
+/// a member cannot be the family's best and stays unverified. A member that keeps under
+/// it at every corner is verified in full. Once the next bound is above the best total
+/// error, no unverified member can be more accurate. A bound over the accuracy
+/// requirement proves the member fails accuracy (counted there, as the screens do). A bound that fails to solve is 0
+/// (the member is verified). `FAMILY_BATCH` members are taken at a time, in parallel,
+/// against the best known before the batch, so the outcome does not depend on threads.
+#[allow(clippy::too_many_arguments)]
 fn family_best(
     req: &Requirement,
     catalog: &Catalog,
-    mut members: Vec<Survivor>,
+    members: Vec<Survivor>,
+    hint: &[OperatingCorner],
+    target: f64,
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
 ) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
-    members.sort_by(|a, b| {
-        b.1.re1_ohm
-            .total_cmp(&a.1.re1_ohm)
-            .then(b.1.re2_ohm.total_cmp(&a.1.re2_ohm))
-            .then(a.0.cmp(&b.0))
-    });
-    let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
-        let out: Vec<_> = batch
-            .par_iter()
-            .map(
-                |(k, spec, _)| match resolve_sized(req, catalog, spec, solves) {
-                    Ok(d) => {
-                        let ev = Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc);
-                        (*k, d.spec.clone(), Some(outcome(ev)))
-                    }
-                    Err(_) => (*k, spec.clone(), None),
-                },
-            )
-            .collect();
-        progress.advance(batch.len() as u64);
-        out
-    };
-    // The smallest total error verified, and that design.
-    let best_of = |level: &[(usize, DesignSpec, Option<Outcome>)],
-                   best: &mut Option<(f64, DesignSpec)>| {
-        for (_, spec, o) in level {
-            if let Some(Outcome::Feasible(e)) = o {
-                let key = e.figures.error_total;
-                if best.as_ref().is_none_or(|b| key < b.0) {
-                    *best = Some((key, spec.clone()));
-                }
-            }
-        }
-    };
-    let mut results = Vec::new();
-    let mut best: Option<(f64, DesignSpec)> = None;
-    let mut i = 0;
-    while i < members.len() && best.is_none() {
-        let end = (i + FAMILY_BATCH).min(members.len());
-        let level = verify(&members[i..end]);
-        best_of(&level, &mut best);
-        results.extend(level);
-        i = end;
-    }
-    let Some((mut best_key, best_spec)) = best else {
-        return results;
-    };
-    let rest = &members[i..];
-    let worst = resolve(catalog, &best_spec)
-        .ok()
-        .and_then(|d| Evaluator::new(req, &d, solves).worst_corners());
-    let bounds: Vec<f64> = match &worst {
-        Some(cs) => rest
-            .par_iter()
-            .map(|(_, spec, _)| {
-                resolve_sized(req, catalog, spec, solves)
-                    .ok()
-                    .and_then(|d| Evaluator::new(req, &d, solves).corners_bound(cs))
-                    .unwrap_or(0.0)
-            })
-            .collect(),
-        None => vec![0.0; rest.len()],
-    };
-    let mut order: Vec<usize> = (0..rest.len()).collect();
+    let bounds: Vec<f64> = members
+        .par_iter()
+        .map(|(_, spec, _)| {
+            resolve_sized(req, catalog, spec, solves)
+                .ok()
+                .and_then(|d| {
+                    Evaluator::new(req, &d, solves).error_bound_until(hint, f64::INFINITY)
+                })
+                .map_or(0.0, |b| b.0)
+        })
+        .collect();
+    let mut order: Vec<usize> = (0..members.len()).collect();
     order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
+    // Over the accuracy requirement a member fails (and is no candidate for the best).
+    let target = target.min(req.accuracy);
+    let mut best = f64::INFINITY;
+    let mut results = Vec::new();
     let mut j = 0;
-    while j < order.len() && bounds[order[j]] <= best_key {
+    while j < order.len() && bounds[order[j]] <= best.min(target) {
+        let limit = best.min(target);
         let mut end = j;
-        while end < order.len() && end < j + FAMILY_BATCH && bounds[order[end]] <= best_key {
+        while end < order.len() && end < j + FAMILY_BATCH && bounds[order[end]] <= limit {
             end += 1;
         }
-        let batch: Vec<Survivor> = order[j..end].iter().map(|&x| rest[x].clone()).collect();
-        let level = verify(&batch);
-        let mut b = Some((best_key, best_spec.clone()));
-        best_of(&level, &mut b);
-        best_key = b.map_or(best_key, |b| b.0);
+        let level: Vec<(usize, DesignSpec, Option<Outcome>)> = order[j..end]
+            .par_iter()
+            .map(|&x| {
+                let (k, spec, _) = &members[x];
+                let Ok(d) = resolve_sized(req, catalog, spec, solves) else {
+                    return (*k, spec.clone(), None);
+                };
+                let e = Evaluator::new(req, &d, solves);
+                let mut cs: Vec<OperatingCorner> = hint.to_vec();
+                cs.extend(e.corners().iter().filter(|c| !hint.contains(c)));
+                // Over the limit at some corner: not the best (and infeasible when over
+                // the accuracy requirement); else verified.
+                if let Some((b, _)) = e.error_bound_until(&cs, limit).filter(|b| b.0 > limit) {
+                    let o = (b > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
+                    return (*k, d.spec.clone(), o);
+                }
+                let ev = e.evaluate(Depth::Screen, mc);
+                (*k, d.spec.clone(), Some(outcome(ev)))
+            })
+            .collect();
+        progress.advance((end - j) as u64);
+        for (_, _, o) in &level {
+            if let Some(Outcome::Feasible(e)) = o {
+                best = best.min(e.figures.error_total);
+            }
+        }
         results.extend(level);
         j = end;
     }
-    results.extend(
-        order[j..]
-            .iter()
-            .map(|&x| (rest[x].0, rest[x].1.clone(), None)),
-    );
+    // The rest cannot be the best; a bound over the accuracy requirement proves a
+    // failure, counted under accuracy as the screens count theirs.
+    results.extend(order[j..].iter().map(|&x| {
+        let o = (bounds[x] > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
+        (members[x].0, members[x].1.clone(), o)
+    }));
     results
 }
 
