@@ -251,14 +251,14 @@ fn help_has_worked_examples() {
 
 #[test]
 fn helpers_on_spare_devices_share_the_pair_model() {
-    // A 5-device array holds the whole beta-helper mirror (MODEL.md, packages).
+    // A 6-device array holds the whole beta-helper mirror (MODEL.md, packages).
     let out = mirrorpick()
         .args([
             "export",
             "--spice",
             TAIL,
             "--part",
-            "npn-array-5",
+            "npn-array-6",
             "--topology",
             "beta-helper",
         ])
@@ -268,8 +268,8 @@ fn helpers_on_spare_devices_share_the_pair_model() {
     let deck = String::from_utf8(out.stdout).unwrap();
     assert_eq!(
         mirrorpick::report::spice::defined_models(&deck),
-        std::collections::BTreeSet::from(["npn_array_5".to_string()])
+        std::collections::BTreeSet::from(["npn_array_6".to_string()])
     );
     // All three devices in package Q1: the helper is its third unit.
-    assert!(deck.contains("\nQ1C S in b npn_array_5 "), "{deck}");
+    assert!(deck.contains("\nQ1C S in b npn_array_6 "), "{deck}");
 }
