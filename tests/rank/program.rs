@@ -220,5 +220,8 @@ fn r_ref_tcr_is_judged_at_the_end_of_its_band_that_adds_to_the_drift() {
     let with_tcr = check(&req, &cat_tcr, &s).candidate.tempco_ppm_per_k;
     assert!(flat > 0.0, "{flat}");
     let added = with_tcr - flat;
-    assert!((added / 100.0 - 1.0).abs() < 0.10, "{with_tcr} - {flat} = {added} ppm/K");
+    assert!(
+        (added / 100.0 - 1.0).abs() < 0.10,
+        "{with_tcr} - {flat} = {added} ppm/K"
+    );
 }
