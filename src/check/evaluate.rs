@@ -436,23 +436,29 @@ impl<'a> Evaluator<'a> {
 
     /// `max |e| + k * max sigma` over `corners` taken in order, stopping as soon as it
     /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
-    /// maxima over every corner, from the same solves). Returns the bound reached and
-    /// whether every corner was taken; `None` when a solve fails.
-    pub fn error_bound_until(&self, corners: &[OperatingCorner], limit: f64) -> Option<(f64, bool)> {
+    /// maxima over every corner, from the same solves). `from` carries on from the
+    /// `(max |e|, max sigma)` of corners already taken. Returns the bound reached and
+    /// both maxima; `None` when a solve fails.
+    pub fn error_bound_until(
+        &self,
+        corners: &[OperatingCorner],
+        limit: f64,
+        from: (f64, f64),
+    ) -> Option<(f64, (f64, f64))> {
         let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
         let nets = self.sensitivity_nets().ok()?;
         let k = self.req.confidence_sigma;
-        let (mut sys, mut rnd) = (0.0f64, 0.0f64);
-        for (i, c) in corners.iter().enumerate() {
+        let (mut sys, mut rnd) = from;
+        for c in corners {
+            if sys + k * rnd > limit {
+                break;
+            }
             let s0 = self.solve_net(&net, c, true).ok()?;
             let d = self.sensitivities(&nets, c, &s0).ok()?;
             sys = sys.max(s0.error.abs());
             rnd = rnd.max(budget::random_sigma(&d));
-            if sys + k * rnd > limit {
-                return Some((sys + k * rnd, i + 1 == corners.len()));
-            }
         }
-        Some((sys + k * rnd, true))
+        Some((sys + k * rnd, (sys, rnd)))
     }
 
     /// Every corner of the requirement, in the evaluation's order.

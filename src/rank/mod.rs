@@ -106,7 +106,7 @@ pub fn rank(
         // Families the degenerated-row rule does not list leave rows to fill. The cost
         // order's search counts listed families itself; the others search again for as
         // many more families as were not listed.
-        let hidden = run.report.families - run.rows.len();
+        let hidden = run.report.families.saturating_sub(run.rows.len());
         let more = wanted + hidden;
         if opts.every_value
             || opts.prefer == Prefer::Cost

@@ -452,23 +452,40 @@ fn family_best(
     solves: &AtomicU64,
     progress: &dyn Progress,
 ) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
-    let bounds: Vec<f64> = members
+    // Each member's bound from the hint corners and the maxima behind it; a member whose
+    // bound does not solve is verified at once (the verification meets the same failure
+    // and records it), and one that cannot be resolved is left unverified.
+    type Start = Result<(f64, (f64, f64)), Option<(DesignSpec, Outcome)>>;
+    let starts: Vec<Start> = members
         .par_iter()
         .map(|(_, spec, _)| {
-            resolve_sized(req, catalog, spec, solves)
-                .ok()
-                .and_then(|d| {
-                    Evaluator::new(req, &d, solves).error_bound_until(hint, f64::INFINITY)
-                })
-                .map_or(0.0, |b| b.0)
+            let d = resolve_sized(req, catalog, spec, solves).map_err(|_| None)?;
+            let e = Evaluator::new(req, &d, solves);
+            e.error_bound_until(hint, f64::INFINITY, (0.0, 0.0))
+                .ok_or_else(|| Some((d.spec.clone(), outcome(e.evaluate(Depth::Screen, mc)))))
         })
         .collect();
-    let mut order: Vec<usize> = (0..members.len()).collect();
+    let mut results = Vec::new();
+    let mut bounds = vec![f64::INFINITY; members.len()];
+    let mut maxima = vec![(0.0, 0.0); members.len()];
+    let mut live = Vec::new();
+    for (x, st) in starts.into_iter().enumerate() {
+        match st {
+            Ok((b, m)) => {
+                bounds[x] = b;
+                maxima[x] = m;
+                live.push(x);
+            }
+            Err(Some((spec, o))) => results.push((members[x].0, spec, Some(o))),
+            Err(None) => results.push((members[x].0, members[x].1.clone(), None)),
+        }
+    }
+    progress.advance((members.len() - live.len()) as u64);
+    let mut order = live;
     order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
     // Over the accuracy requirement a member fails (and is no candidate for the best).
     let target = target.min(req.accuracy);
     let mut best = f64::INFINITY;
-    let mut results = Vec::new();
     let mut j = 0;
     while j < order.len() && bounds[order[j]] <= best.min(target) {
         let limit = best.min(target);
@@ -484,11 +501,14 @@ fn family_best(
                     return (*k, spec.clone(), None);
                 };
                 let e = Evaluator::new(req, &d, solves);
-                let mut cs: Vec<OperatingCorner> = hint.to_vec();
-                cs.extend(e.corners().iter().filter(|c| !hint.contains(c)));
+                let rest: Vec<OperatingCorner> =
+                    e.corners().iter().filter(|c| !hint.contains(c)).copied().collect();
                 // Over the limit at some corner: not the best (and infeasible when over
                 // the accuracy requirement); else verified.
-                if let Some((b, _)) = e.error_bound_until(&cs, limit).filter(|b| b.0 > limit) {
+                if let Some((b, _)) = e
+                    .error_bound_until(&rest, limit, maxima[x])
+                    .filter(|b| b.0 > limit)
+                {
                     let o = (b > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
                     return (*k, d.spec.clone(), o);
                 }

@@ -167,6 +167,7 @@ pub fn page() -> super::page::Page {
         counts: "120 candidate designs: 7 feasible. A rejected design is counted under the check that rejected it.".into(),
         rejected_by: vec![("accuracy".into(), 100), ("compliance".into(), 13)],
         best_rejected: Some(Rejected {
+        relax: Vec::new(),
             design: design(0, "simple · cheap"),
             check: "accuracy".into(),
             margin: -0.2,
