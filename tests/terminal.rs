@@ -133,6 +133,7 @@ allow: [simple]
 ";
 
 #[test]
+#[ignore = "about 100 s unoptimised (a 250 V search full of thermal runaway, then the advice's bisections); run optimised in .ci/run"]
 fn relax_advice_on_an_impossible_requirement() {
     let dir = tempfile::tempdir().unwrap();
     let req = write(dir.path(), "hv.yaml", IMPOSSIBLE);
@@ -160,13 +161,14 @@ fn relax_advice_on_an_impossible_requirement() {
     // The VCEO a class would need: above the 250 V output / 0.8 derating, less V_BE.
     let need = catalog["value"].as_f64().unwrap();
     assert!((300.0..320.0).contains(&need), "{need}");
-    // The output voltage that does pass is below the derated 240 V of the best class.
+    // The output voltage that does pass is at most the derated 240 V of the best class
+    // (at 240 V the output transistor's V_CE is 240 V less its emitter's potential).
     let vmax = relax
         .iter()
         .find(|r| r["field"] == "output_voltage.max")
         .expect("output_voltage.max advice");
     let value = vmax["value"].as_f64().unwrap();
-    assert!(value > 5.0 && value < 240.0, "{value}");
+    assert!(value > 5.0 && value <= 240.0, "{value}");
     assert!(vmax["design"].as_str().unwrap().starts_with("simple "));
     // The advice holds: with that one field changed, the named design family passes.
     let fixed = IMPOSSIBLE.replace("max: 250 V", &format!("max: {value} V"));
