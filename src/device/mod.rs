@@ -369,7 +369,11 @@ mod tests {
             let e = d.eval_with_vce(vbe, vbe, 0.0);
             let ie = d.is * (vbe / d.vt).exp_m1() / d.bf;
             assert!(e.ic < -10.0 * ie, "{e:?}");
-            assert!((e.ie / ie - 1.0).abs() <= 4.0 * f64::EPSILON, "{} vs {ie}", e.ie);
+            assert!(
+                (e.ie / ie - 1.0).abs() <= 4.0 * f64::EPSILON,
+                "{} vs {ie}",
+                e.ie
+            );
             assert!((e.ic + e.ib - e.ie).abs() <= 4.0 * f64::EPSILON * e.ic.abs());
         }
     }
