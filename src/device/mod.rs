@@ -194,18 +194,22 @@ impl BjtAtT {
     #[inline]
     pub fn eval_with_vce(&self, vbe: f64, vbc: f64, vce: f64) -> BjtEval {
         let vt = self.vt;
-        let a = (vbe / vt).exp();
-        let c = (vbc / vt).exp();
-        // `a - 1`, `c - 1` and `a - c` without cancellation: near zero bias (a hot junction
-        // whose IS dwarfs a picoamp input) and in saturation (a ~ c) the plain differences
-        // lose every digit that KCL at 1e-9 of the node's current needs.
-        let fwd = (vbe / vt).exp_m1();
-        let rev = (vbc / vt).exp_m1();
-        let it_n = if vce >= 0.0 {
-            -a * (-vce / vt).exp_m1()
+        // `e^x` and `e^x - 1` of each junction, and `a - c`, without cancellation: near zero
+        // bias (a hot junction whose IS dwarfs a picoamp input) and in saturation (a ~ c)
+        // the plain differences lose every digit that KCL at 1e-9 of the node's current
+        // needs. One transcendental per junction on the usual path.
+        let (a, fwd) = exp_and_expm1(vbe / vt);
+        let (c, rev) = exp_and_expm1(vbc / vt);
+        let d = vce / vt;
+        // I_T / IS. Where a >= e c (or the reverse) the plain difference loses at most a
+        // bit; closer, it is formed from V_CE itself.
+        let it_n = if d.abs() >= 1.0 {
+            a - c
+        } else if d >= 0.0 {
+            -a * (-d).exp_m1()
         } else {
-            c * (vce / vt).exp_m1()
-        }; // I_T / IS
+            c * d.exp_m1()
+        };
         let is = self.is;
         let (early, dearly) = early_factor(vce, self.vaf_inv);
         let br_inv = 1.0 / self.br;
@@ -259,6 +263,19 @@ impl BjtAtT {
             dic_dt,
             dib_dt,
         }
+    }
+}
+
+/// `(e^x, e^x - 1)`, each to a few roundings: from `expm1` where `e^x` is not small (so
+/// `1 +` it loses nothing), from `exp` where it is (so `- 1` loses nothing).
+#[inline]
+fn exp_and_expm1(x: f64) -> (f64, f64) {
+    if x > -1.0 {
+        let m = x.exp_m1();
+        (m + 1.0, m)
+    } else {
+        let e = x.exp();
+        (e, e - 1.0)
     }
 }
 
