@@ -692,7 +692,7 @@ mod tests {
         let single = fixtures::npn_single();
         let helper = (!crate::check::helpers_fit_in_spares(t, &pair)).then_some(&single);
         let re2 = if t == Topology::Widlar { 4700.0 } else { re };
-        refdes::elements(t, &place(t, &pair, helper), re, re2, Some("thin-film"))
+        refdes::elements(t, &place(t, &pair, helper), re, re2, Some("thin-film"), None)
     }
 
     #[test]
