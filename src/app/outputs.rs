@@ -204,6 +204,9 @@ pub fn run_curves(
         if req.input_current_a.max > req.input_current_a.min {
             parts.push(plot::error_vs_input_svg(&set)?);
         }
+        if let Some(rail) = plot::output_vs_rail_svg(&set)? {
+            parts.push(rail);
+        }
         f.commit(stack_svgs(&parts).as_bytes())?;
     }
     report::curves::write(&set, format, style, out)?;
