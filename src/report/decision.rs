@@ -626,7 +626,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
     let schematic_plot = (!parts.is_empty()).then(|| Plot {
         id: "schematic".into(),
         title: "Schematic of the chosen design".into(),
-        svg: schematic::schematic_svg(&parts, polarity, None),
+        svg: schematic::schematic_svg(&parts, polarity, None, req.program.map(|p| p.rail_v)),
         caption: format!(
             "Drawn from the {} netlist; designators as in the parts list and the SPICE export. {}",
             chosen_row.map_or("", |c| c.topology),
@@ -642,6 +642,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             &parts,
             polarity,
             Some(&format!("{}: {}", req.name, design_title(c))),
+            req.program.map(|p| p.rail_v),
         )
     });
 

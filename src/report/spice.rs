@@ -727,4 +727,62 @@ mod tests {
         );
         assert!(deck.trim_end().ends_with(".end"));
     }
+
+    #[test]
+    fn element_names_are_the_schematics_designators_r_ref_included() {
+        let pair = fixtures::npn_dual();
+        let single = fixtures::npn_single();
+        let class = fixtures::resistor_class();
+        let mut req = fixtures::requirement();
+        req.program = Some(crate::model::Program {
+            rail_v: crate::model::Range {
+                min: 11.4,
+                max: 12.6,
+            },
+            output_current_a: 1e-3,
+        });
+        for t in ALL_TOPOLOGIES {
+            let helper = (!crate::check::helpers_fit_in_spares(t, &pair)).then_some(&single);
+            let d = SpiceDesign {
+                topology: t,
+                pair: &pair,
+                helper,
+                re1_ohm: 100.0,
+                re2_ohm: if t == Topology::Widlar { 4700.0 } else { 100.0 },
+                resistor: Some(&class),
+                r_ref: Some(SpiceRef {
+                    ohm: 11e3,
+                    class: &class,
+                }),
+            };
+            let deck = render(&d, &req, &fixtures::provenance());
+            let parts = elements(&d);
+            let svg = crate::report::schematic::schematic_svg(
+                &parts,
+                pair.polarity,
+                None,
+                req.program.map(|p| p.rail_v),
+            );
+            let doc = scraper::Html::parse_fragment(&svg);
+            let sel = scraper::Selector::parse("g.part").unwrap();
+            let drawn: BTreeSet<String> = doc
+                .select(&sel)
+                .map(|g| g.value().attr("data-designator").unwrap().to_string())
+                .collect();
+            // Element lines: a Q or R designator first (sources and the subcircuit call
+            // start with V and X).
+            let named: BTreeSet<String> = deck
+                .lines()
+                .filter(|l| l.starts_with('Q') || l.starts_with('R'))
+                .map(|l| l.split_whitespace().next().unwrap().to_string())
+                .collect();
+            assert_eq!(named, drawn, "{}:\n{deck}", t.name());
+            let r_ref = crate::check::refdes::designator_of(&parts, "Rref").unwrap();
+            assert!(
+                deck.contains(&format!("\n{r_ref} vp in 1.1e4 ")),
+                "R_ref in the bench:\n{deck}"
+            );
+            assert!(deck.contains("\nVP vp 0 DC 1.14e1\n"), "{deck}");
+        }
+    }
 }
