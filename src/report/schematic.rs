@@ -430,24 +430,29 @@ pub fn schematic_svg(
             });
         }
         // Pins joined straight down: a port or emitter above a collector (or resistor
-        // top) in the same lead, with nothing in between.
+        // top) in the same lead, with nothing in between; each joins the nearest pin
+        // below it, so a resistor above a terminal joins the terminal, not past it.
         let mut served = vec![false; pins.len()];
         for a in 0..pins.len() {
-            for b in 0..pins.len() {
-                let (pa, pb) = (pins[a], pins[b]);
-                let upper = matches!(pa.kind, PinKind::Port | PinKind::Emitter | PinKind::Bottom);
-                let lower = matches!(pb.kind, PinKind::Collector | PinKind::Top);
-                if a != b
-                    && upper
-                    && lower
-                    && !served[a]
-                    && (pa.x - pb.x).abs() < 0.5
-                    && pa.y < pb.y
-                    && clear_v(pa.x, pa.y, pb.y)
-                {
-                    wires.push(((pa.x, pa.y), (pb.x, pb.y)));
-                    served[a] = true;
-                }
+            let pa = pins[a];
+            if !matches!(pa.kind, PinKind::Port | PinKind::Emitter | PinKind::Bottom) {
+                continue;
+            }
+            let below = (0..pins.len())
+                .filter(|&b| {
+                    let pb = pins[b];
+                    let lower = matches!(pb.kind, PinKind::Collector | PinKind::Top)
+                        || (pb.kind == PinKind::Port && pa.kind == PinKind::Bottom);
+                    b != a
+                        && lower
+                        && (pa.x - pb.x).abs() < 0.5
+                        && pa.y < pb.y
+                        && clear_v(pa.x, pa.y, pb.y)
+                })
+                .min_by(|&b, &c| pins[b].y.total_cmp(&pins[c].y));
+            if let Some(b) = below {
+                wires.push(((pa.x, pa.y), (pins[b].x, pins[b].y)));
+                served[a] = true;
             }
         }
         let live: Vec<usize> = (0..pins.len()).filter(|&k| !served[k]).collect();
