@@ -802,6 +802,14 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
                         .into(),
             });
         }
+        if let Some(svg) = plot::output_vs_rail_svg(set)? {
+            plots.push(Plot {
+                id: "output-vs-rail".into(),
+                title: "Output current against the program rail".into(),
+                svg,
+                caption: "R_ref in the circuit, nominal devices with self-heating, at the ends of the output-voltage window; blue: the rail's range; green: the wanted output current with the required accuracy".into(),
+            });
+        }
     }
 
     let corners = match explain {
