@@ -20,8 +20,9 @@
 //! Resistor designators are numbered across the board as the packages are (IEEE 315
 //! class letter R): channel by channel, copy by copy, each copy's resistors in the order
 //! of its `resistors` entries (emitter resistors RE1, RE2, then the programming
-//! resistor: the netlist order of `check::refdes`), so a one-copy board carries the
-//! designators of the design's own schematic, report and SPICE deck.
+//! resistor: the netlist order of `check::refdes`), so a board's first channel, with one
+//! copy, carries the resistor designators of the design's own schematic, report and SPICE
+//! deck (its transistors do too when its packages are numbered first).
 
 use std::io::{self, Write};
 

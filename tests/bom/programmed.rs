@@ -89,7 +89,8 @@ fn two_channels_with_the_same_r_ref_value_share_one_line_item() {
 fn a_one_copy_channel_carries_its_designs_own_designators() {
     let (plan, dp, catalog) = board();
     let refs = resistor_designators(&plan);
-    // The first channel has one copy and is placed first: board numbering starts there.
+    // The first channel has one copy: resistor numbering starts there, and on this board
+    // its package is numbered first too (the plan numbers packages, `bom::plan`).
     let a = &plan.channels[0];
     assert_eq!(a.count, 1);
     let spec = &dp.channels[0].designs[a.option].0;
