@@ -76,6 +76,12 @@
 //! take it; a helper verified as a separate single may only be a single of that class
 //! (its ratings were checked with that class and no other).
 //!
+//! **Programming resistors.** A channel programmed by a resistor from a rail has R_ref
+//! sized per candidate from its solved input voltage (`check::choose_r_ref`) as soon as
+//! it survives the screen, before any bound is taken: R_ref is one more resistor item
+//! (its class and value), counted in the share, the line items and the usage exactly
+//! like an emitter resistor, so channels whose R_ref values agree share one line item.
+//!
 //! **No feasible design.** The channel gets no option and a reason: the check that
 //! rejected its cheapest candidate, with the count of rejections by check.
 //!
@@ -89,7 +95,8 @@ use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
-use crate::check::{CheckName, MonteCarlo};
+use crate::check::{choose_r_ref, CheckName, MonteCarlo};
+use rayon::prelude::*;
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
 use crate::rank::{enumerate, screen_only, search, verify_each, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
@@ -272,6 +279,10 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
             }
         }
     }
+    if let (Some(r), true) = (d.r_ref, spec.r_ref_ohm > 0.0) {
+        share += r.unit_cost;
+        items.push(Item::Resistor(r.id.clone(), spec.r_ref_ohm.to_bits()));
+    }
     items.sort();
     items.dedup();
     Some(Cand {
@@ -335,9 +346,10 @@ fn fast_feed(
         .map(|(req, g)| {
             let (rejected, survivors) = screen_only(req, catalog, g, &solves);
             progress.advance(rejected.len() as u64);
+            // R_ref is sized here (three solves a candidate): its value is a line item.
             let cands = survivors
-                .into_iter()
-                .filter_map(|(spec, _)| cand(spec, catalog))
+                .into_par_iter()
+                .filter_map(|(spec, _)| cand(choose_r_ref(req, catalog, &spec, &solves), catalog))
                 .collect();
             (rejected, cands)
         })
@@ -602,19 +614,26 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
         (spec.helper.clone(), Some(Vec::new()))
     };
     let mut resistors: Vec<ResistorUse> = Vec::new();
-    if let Some(class) = &spec.resistor {
-        for value in [spec.re1_ohm, spec.re2_ohm] {
-            if value <= 0.0 {
-                continue;
-            }
-            match resistors.iter_mut().find(|r| r.value_ohm == value) {
-                Some(r) => r.count += 1,
-                None => resistors.push(ResistorUse {
-                    class: class.clone(),
-                    value_ohm: value,
-                    count: 1,
-                }),
-            }
+    // Emitter resistors, then R_ref (its own class): one entry per (class, value).
+    let re = spec
+        .resistor
+        .iter()
+        .flat_map(|c| [(c, spec.re1_ohm), (c, spec.re2_ohm)]);
+    let r_ref = spec.r_ref_resistor.iter().map(|c| (c, spec.r_ref_ohm));
+    for (class, value) in re.chain(r_ref) {
+        if value <= 0.0 {
+            continue;
+        }
+        match resistors
+            .iter_mut()
+            .find(|r| r.value_ohm == value && r.class == *class)
+        {
+            Some(r) => r.count += 1,
+            None => resistors.push(ResistorUse {
+                class: class.clone(),
+                value_ohm: value,
+                count: 1,
+            }),
         }
     }
     let (governing_check, governing_margin) = ev
@@ -655,6 +674,12 @@ pub fn label(spec: &DesignSpec) -> String {
             ", RE {}/{} {r}",
             ohm(spec.re1_ohm),
             ohm(spec.re2_ohm)
+        ));
+    }
+    if let (Some(r), true) = (&spec.r_ref_resistor, spec.r_ref_ohm > 0.0) {
+        s.push_str(&format!(
+            ", R_ref {} {r}",
+            format_quantity(spec.r_ref_ohm, Dimension::Resistance)
         ));
     }
     s
