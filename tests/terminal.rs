@@ -266,14 +266,24 @@ fn relax_advice_on_a_programmed_requirement_in_rank_and_the_report() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     // The report carries the same advice.
     let o = mirrorpick()
-        .args(["report", req.to_str().unwrap(), "--samples", "200", "--out", "-"])
+        .args([
+            "report",
+            req.to_str().unwrap(),
+            "--samples",
+            "200",
+            "--out",
+            "-",
+        ])
         .output()
         .unwrap();
     let page = text(&o);
     assert!(page.contains("What to relax"), "{page}");
     let sentence = acc["text"].as_str().unwrap().replace('\'', "&#39;");
     assert!(page.contains("id=\"relax\""), "{page}");
-    assert!(page.contains(sentence.split(" makes ").next().unwrap()), "{sentence}");
+    assert!(
+        page.contains(sentence.split(" makes ").next().unwrap()),
+        "{sentence}"
+    );
 }
 
 #[test]

@@ -326,7 +326,10 @@ fn pool(req: &Requirement, catalog: &Catalog, groups: &[Group]) -> Vec<DesignSpe
             }
             picks.sort_unstable();
             picks.dedup();
-            picks.into_iter().map(|i| g.specs[i].clone()).collect::<Vec<_>>()
+            picks
+                .into_iter()
+                .map(|i| g.specs[i].clone())
+                .collect::<Vec<_>>()
         })
         .collect()
 }

@@ -28,8 +28,8 @@ use rayon::prelude::*;
 use super::order::{bare_family, family, worth_listing, FamilyKey, NOTICEABLE_ERROR};
 use super::space::Group;
 use crate::check::{
-    choose_r_ref, probe_corner, resolve, OperatingCorner, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
-    MonteCarlo, ResolvedDesign,
+    choose_r_ref, probe_corner, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation,
+    Evaluator, MonteCarlo, OperatingCorner, ResolvedDesign,
 };
 use crate::model::{Catalog, Requirement};
 
@@ -501,8 +501,12 @@ fn family_best(
                     return (*k, spec.clone(), None);
                 };
                 let e = Evaluator::new(req, &d, solves);
-                let rest: Vec<OperatingCorner> =
-                    e.corners().iter().filter(|c| !hint.contains(c)).copied().collect();
+                let rest: Vec<OperatingCorner> = e
+                    .corners()
+                    .iter()
+                    .filter(|c| !hint.contains(c))
+                    .copied()
+                    .collect();
                 // Over the limit at some corner: not the best (and infeasible when over
                 // the accuracy requirement); else verified.
                 if let Some((b, _)) = e
