@@ -438,27 +438,42 @@ impl<'a> Evaluator<'a> {
     /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
     /// maxima over every corner, from the same solves). `from` carries on from the
     /// `(max |e|, max sigma)` of corners already taken. Returns the bound reached and
-    /// both maxima; `None` when a solve fails.
+    /// both maxima, or the check a failed solve fails (`thermal-runaway`, `no-solution`:
+    /// the design fails it, as its verification would). A rating (VCEO, Ic max, dissipation)
+    /// already broken at a corner stops the walk with a bound of minus infinity: the
+    /// design fails, and its screen stops at that corner as cheaply.
     pub fn error_bound_until(
         &self,
         corners: &[OperatingCorner],
         limit: f64,
         from: (f64, f64),
-    ) -> Option<(f64, (f64, f64))> {
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
-        let nets = self.sensitivity_nets().ok()?;
+    ) -> Result<(f64, (f64, f64)), CheckName> {
+        let failed = |f: SolveFailure| failure_check(&f, "nominal design").name;
+        let net = self
+            .compile(&Mismatch::default(), NOMINAL)
+            .map_err(failed)?;
+        let nets = self.sensitivity_nets().map_err(failed)?;
         let k = self.req.confidence_sigma;
         let (mut sys, mut rnd) = from;
         for c in corners {
             if sys + k * rnd > limit {
                 break;
             }
-            let s0 = self.solve_net(&net, c, true).ok()?;
-            let d = self.sensitivities(&nets, c, &s0).ok()?;
+            let s0 = self.solve_net(&net, c, true).map_err(failed)?;
+            let one = std::slice::from_ref(&s0);
+            let broken = !ratings::vceo(self.design, one).pass
+                || !ratings::ic_max(self.design, one).pass
+                || !ratings::dissipation(self.design, one).pass;
+            if broken {
+                return Ok((f64::NEG_INFINITY, (sys, rnd)));
+            }
+            let d = self
+                .sensitivities(&nets, c, &s0)
+                .map_err(|(_, f)| failed(f))?;
             sys = sys.max(s0.error.abs());
             rnd = rnd.max(budget::random_sigma(&d));
         }
-        Some((sys + k * rnd, (sys, rnd)))
+        Ok((sys + k * rnd, (sys, rnd)))
     }
 
     /// Every corner of the requirement, in the evaluation's order.

@@ -453,16 +453,18 @@ fn family_best(
     progress: &dyn Progress,
 ) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
     // Each member's bound from the hint corners and the maxima behind it; a member whose
-    // bound does not solve is verified at once (the verification meets the same failure
-    // and records it), and one that cannot be resolved is left unverified.
-    type Start = Result<(f64, (f64, f64)), Option<(DesignSpec, Outcome)>>;
+    // bound does not solve fails under that solve's check (a corner is never dropped, so
+    // its verification fails there too), and one that cannot be resolved is left
+    // unverified.
+    type Start = Result<(f64, (f64, f64)), Option<Box<(DesignSpec, Outcome)>>>;
     let starts: Vec<Start> = members
         .par_iter()
         .map(|(_, spec, _)| {
             let d = resolve_sized(req, catalog, spec, solves).map_err(|_| None)?;
             let e = Evaluator::new(req, &d, solves);
+            // A failed solve fails the design under that solve's check.
             e.error_bound_until(hint, f64::INFINITY, (0.0, 0.0))
-                .ok_or_else(|| Some((d.spec.clone(), outcome(e.evaluate(Depth::Screen, mc)))))
+                .map_err(|c| Some(Box::new((d.spec.clone(), Outcome::Rejected(c)))))
         })
         .collect();
     let mut results = Vec::new();
@@ -476,7 +478,10 @@ fn family_best(
                 maxima[x] = m;
                 live.push(x);
             }
-            Err(Some((spec, o))) => results.push((members[x].0, spec, Some(o))),
+            Err(Some(b)) => {
+                let (spec, o) = *b;
+                results.push((members[x].0, spec, Some(o)));
+            }
             Err(None) => results.push((members[x].0, members[x].1.clone(), None)),
         }
     }
@@ -508,11 +513,17 @@ fn family_best(
                     .copied()
                     .collect();
                 // Over the limit at some corner: not the best (and infeasible when over
-                // the accuracy requirement); else verified.
-                if let Some((b, _)) = e
-                    .error_bound_until(&rest, limit, maxima[x])
-                    .filter(|b| b.0 > limit)
-                {
+                // the accuracy requirement); else verified. A rating broken at a hint
+                // corner goes straight to its (short) verification.
+                let walked = if bounds[x] > f64::NEG_INFINITY {
+                    e.error_bound_until(&rest, limit, maxima[x])
+                } else {
+                    Ok((f64::NEG_INFINITY, maxima[x]))
+                };
+                if let Err(c) = walked {
+                    return (*k, d.spec.clone(), Some(Outcome::Rejected(c)));
+                }
+                if let Some((b, _)) = walked.ok().filter(|b| b.0 > limit) {
                     let o = (b > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
                     return (*k, d.spec.clone(), o);
                 }

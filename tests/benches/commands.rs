@@ -89,9 +89,7 @@ fn bench(c: &mut Criterion) {
         extremes: false,
     };
     group.bench_function("report 100 V 2 mA", |b| {
-        b.iter(|| {
-            run_report(&CatalogSource::Default, &report_args, &mut std::io::sink()).unwrap()
-        })
+        b.iter(|| run_report(&CatalogSource::Default, &report_args, &mut std::io::sink()).unwrap())
     });
 
     let ltp = load(&examples().join("ltp-tail-sink.yaml"), &catalog);
