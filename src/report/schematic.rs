@@ -558,9 +558,7 @@ pub fn schematic_svg(
         None => vec![(rail_lo, rail_hi)],
         Some((plo, phi)) => [(rail_lo, plo - 24.0), (phi + 24.0, rail_hi)]
             .into_iter()
-            .filter(|&(a, b)| {
-                b - a >= 60.0 || s_taps.iter().any(|&x| x >= a && x <= b)
-            })
+            .filter(|&(a, b)| b - a >= 60.0 || s_taps.iter().any(|&x| x >= a && x <= b))
             .collect(),
     };
     if let Some((plo, _)) = p_span {
@@ -889,7 +887,10 @@ mod tests {
                             .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
                             .collect();
                         assert_eq!(g.len(), 1, "{} once", e.designator);
-                        assert_eq!(g[0].value().attr("data-value"), Some(value_text(e).as_str()));
+                        assert_eq!(
+                            g[0].value().attr("data-value"),
+                            Some(value_text(e).as_str())
+                        );
                         assert_eq!(g[0].value().attr("data-netlist"), Some(e.netlist_name));
                     }
                     let r_ref = parts.iter().find(|e| e.netlist_name == "Rref").unwrap();
