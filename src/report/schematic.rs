@@ -541,12 +541,13 @@ pub fn schematic_svg(
     let p_label = [
         "P: program rail".to_string(),
         match program_rail {
+            // Measured from the mirror rail R, as every voltage (below it for a source).
             Some(r) if (r.max - r.min).abs() > 1e-12 => format!(
-                "{} to {}",
+                "{} to {} from R",
                 eng(r.min, "V", Charset::Unicode),
                 eng(r.max, "V", Charset::Unicode)
             ),
-            Some(r) => eng(r.min, "V", Charset::Unicode),
+            Some(r) => format!("{} from R", eng(r.min, "V", Charset::Unicode)),
             None => "voltage not given".to_string(),
         },
     ];
@@ -900,7 +901,7 @@ mod tests {
                     assert_eq!(p.len(), 1, "one program rail");
                     let text: String = p[0].text().collect();
                     assert!(text.contains("P: program rail"), "{text}");
-                    assert!(text.contains("11.4 V to 12.6 V"), "{text}");
+                    assert!(text.contains("11.4 V to 12.6 V from R"), "{text}");
                     // The rail sits above R_ref in a sink, below it in a source: the
                     // rail's y against the resistor's label.
                     let y_of = |needle: &str| -> f64 {

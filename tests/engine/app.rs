@@ -340,7 +340,7 @@ fn a_programmed_simple_mirror_drifts_as_the_v_be_over_the_r_ref_drop() {
 #[test]
 fn the_input_is_forced_or_programmed_never_both_or_neither() {
     let c = catalog();
-    // (I_in, rail, R_ref, what the refusal says)
+    // (--iin, --rail, --rref, what the message says)
     type Case = (Option<f64>, Option<f64>, Option<f64>, &'static str);
     let cases: [Case; 5] = [
         (Some(1e-3), Some(12.0), Some(11e3), "not both"),
