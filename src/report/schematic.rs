@@ -795,6 +795,25 @@ mod tests {
         )
     }
 
+    /// The drawn group of each element, in `parts` order; every element is drawn exactly
+    /// once and nothing else is drawn as a part.
+    fn part_groups<'d>(doc: &'d scraper::Html, parts: &[Element]) -> Vec<scraper::ElementRef<'d>> {
+        let sel = scraper::Selector::parse("g.part").unwrap();
+        let groups: Vec<_> = doc.select(&sel).collect();
+        assert_eq!(groups.len(), parts.len());
+        parts
+            .iter()
+            .map(|e| {
+                let g: Vec<_> = groups
+                    .iter()
+                    .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
+                    .collect();
+                assert_eq!(g.len(), 1, "{} once", e.designator);
+                *g[0]
+            })
+            .collect()
+    }
+
     #[test]
     fn every_part_appears_once_with_designator_and_value() {
         for t in ALL_TOPOLOGIES {
@@ -803,16 +822,9 @@ mod tests {
                 for pol in [Polarity::Npn, Polarity::Pnp] {
                     let svg = schematic_svg(&parts, pol, Some("t <&> t"), None);
                     let doc = scraper::Html::parse_fragment(&svg);
-                    let sel = scraper::Selector::parse("g.part").unwrap();
-                    let groups: Vec<_> = doc.select(&sel).collect();
-                    assert_eq!(groups.len(), parts.len(), "{} dpp {dpp} re {re}", t.name());
-                    for e in &parts {
-                        let g: Vec<_> = groups
-                            .iter()
-                            .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
-                            .collect();
-                        assert_eq!(g.len(), 1, "{} once", e.designator);
-                        let text: Vec<String> = g[0]
+                    let groups = part_groups(&doc, &parts);
+                    for (e, g) in parts.iter().zip(&groups) {
+                        let text: Vec<String> = g
                             .text()
                             .map(|s| s.trim().to_string())
                             .filter(|s| !s.is_empty())
@@ -878,21 +890,10 @@ mod tests {
                 for pol in [Polarity::Npn, Polarity::Pnp] {
                     let svg = schematic_svg(&parts, pol, None, Some(rail));
                     let doc = scraper::Html::parse_fragment(&svg);
-                    let sel = scraper::Selector::parse("g.part").unwrap();
-                    let groups: Vec<_> = doc.select(&sel).collect();
-                    assert_eq!(groups.len(), parts.len(), "{} dpp {dpp}", t.name());
                     // Every element exactly once, with its designator and value.
-                    for e in &parts {
-                        let g: Vec<_> = groups
-                            .iter()
-                            .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
-                            .collect();
-                        assert_eq!(g.len(), 1, "{} once", e.designator);
-                        assert_eq!(
-                            g[0].value().attr("data-value"),
-                            Some(value_text(e).as_str())
-                        );
-                        assert_eq!(g[0].value().attr("data-netlist"), Some(e.netlist_name));
+                    for (e, g) in parts.iter().zip(part_groups(&doc, &parts)) {
+                        assert_eq!(g.value().attr("data-value"), Some(value_text(e).as_str()));
+                        assert_eq!(g.value().attr("data-netlist"), Some(e.netlist_name));
                     }
                     let r_ref = parts.iter().find(|e| e.netlist_name == "Rref").unwrap();
                     assert!(svg.contains("511 kΩ") || svg.contains("511.0 kΩ"), "{svg}");
