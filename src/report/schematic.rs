@@ -30,7 +30,7 @@ use std::collections::BTreeMap;
 
 use maud::{html, Markup};
 
-use super::eng::{eng, Charset};
+use super::eng::{eng, eng_range, Charset};
 use crate::check::refdes::{Element, ElementKind, PROGRAM_RAIL};
 use crate::model::{Polarity, Range};
 
@@ -542,12 +542,7 @@ pub fn schematic_svg(
         "P: program rail".to_string(),
         match program_rail {
             // Measured from the mirror rail R, as every voltage (below it for a source).
-            Some(r) if (r.max - r.min).abs() > 1e-12 => format!(
-                "{} to {} from R",
-                eng(r.min, "V", Charset::Unicode),
-                eng(r.max, "V", Charset::Unicode)
-            ),
-            Some(r) => format!("{} from R", eng(r.min, "V", Charset::Unicode)),
+            Some(r) => format!("{} from R", eng_range(r.min, r.max, "V", Charset::Unicode)),
             None => "voltage not given".to_string(),
         },
     ];
