@@ -404,7 +404,13 @@ pub fn for_design(
     });
     set.noise_vs_re = noise_against_re(design, req, solve_opts);
     if programmed {
-        let with_ref = Netlist::compile(&Design { r_ref: design_r_ref, ..forced }, &mm)?;
+        let with_ref = Netlist::compile(
+            &Design {
+                r_ref: design_r_ref,
+                ..forced
+            },
+            &mm,
+        )?;
         let hint = req.input_current_a.max;
         sweep_rail(&mut set, req, opts, |rail, v, t| {
             let op = OperatingPoint {

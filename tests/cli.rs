@@ -773,8 +773,16 @@ mod programmed {
     #[test]
     fn solve_takes_a_rail_and_r_ref_instead_of_a_current() {
         let out = mirrorpick()
-            .args(["solve", "--topology", "simple", "--part", "npn-dual-general"])
-            .args(["--rail", "5V", "--rref", "4.3k", "--vout", "3V", "--supply", "5V"])
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
+            .args([
+                "--rail", "5V", "--rref", "4.3k", "--vout", "3V", "--supply", "5V",
+            ])
             .args(["--rref-resistor", "thin-film-0p1pct", "--format", "json"])
             .assert()
             .success()
@@ -790,19 +798,34 @@ mod programmed {
         assert!(v["r_ref_power_w"].as_f64().unwrap() > 0.0);
         assert!(v["tempco_ppm_per_k"].as_f64().unwrap() > 100.0);
         mirrorpick()
-            .args(["solve", "--topology", "simple", "--part", "npn-dual-general"])
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
             .args(["--rail", "5V", "--rref", "4.3k", "--vout", "3V"])
             .assert()
             .success()
             .stdout(predicate::str::contains("R_ref power"))
             .stdout(predicate::str::contains("output tempco"));
         for (extra, says) in [
-            (vec!["--iin", "1mA", "--rail", "5V", "--rref", "4.3k"], "not both"),
+            (
+                vec!["--iin", "1mA", "--rail", "5V", "--rref", "4.3k"],
+                "not both",
+            ),
             (vec![], "give the input"),
             (vec!["--rail", "5V"], "--rail needs --rref"),
         ] {
             mirrorpick()
-                .args(["solve", "--topology", "simple", "--part", "npn-dual-general"])
+                .args([
+                    "solve",
+                    "--topology",
+                    "simple",
+                    "--part",
+                    "npn-dual-general",
+                ])
                 .args(["--vout", "3V"])
                 .args(extra)
                 .assert()
@@ -852,7 +875,9 @@ mod programmed {
             .args(DESIGN)
             .assert()
             .success()
-            .stdout(predicate::str::contains("Output current against the program rail"));
+            .stdout(predicate::str::contains(
+                "Output current against the program rail",
+            ));
     }
 
     #[test]
@@ -870,7 +895,10 @@ mod programmed {
         assert!(deck.contains("\nR3 vp in 2.74e3 "), "{deck}");
         assert!(deck.contains("\nVP vp 0 DC 4.9e0\n"), "{deck}");
         assert!(!deck.contains("\nIIN "), "no forced current:\n{deck}");
-        assert!(deck.contains(".dc VOUT 0 5.1e0 2.55e-2 VP 4.9e0 5.1e0 2e-1"), "{deck}");
+        assert!(
+            deck.contains(".dc VOUT 0 5.1e0 2.55e-2 VP 4.9e0 5.1e0 2e-1"),
+            "{deck}"
+        );
         assert!(
             deck.contains("programmed by R3 from the program rail P, 4.90 V to 5.10 V"),
             "{deck}"

@@ -82,12 +82,13 @@ impl<'a> Resolved<'a> {
             re1_ohm: self.re1_ohm,
             re2_ohm: self.re2_ohm,
             resistor: self.resistor,
-            r_ref: self.r_ref_class.filter(|_| self.r_ref_ohm > 0.0).map(|class| {
-                spice::SpiceRef {
+            r_ref: self
+                .r_ref_class
+                .filter(|_| self.r_ref_ohm > 0.0)
+                .map(|class| spice::SpiceRef {
                     ohm: self.r_ref_ohm,
                     class,
-                }
-            }),
+                }),
         }
     }
 }

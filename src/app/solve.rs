@@ -526,15 +526,9 @@ fn programming(args: &SolveArgs) -> Result<Program, SolveCommandError> {
 fn tempco(net: &Netlist, op: &OperatingPoint, opts: &SolveOptions, i_out: f64) -> Option<f64> {
     const DT: f64 = 5.0;
     let at = |t: f64| {
-        net.solve(
-            &OperatingPoint {
-                t_amb_k: t,
-                ..*op
-            },
-            opts,
-        )
-        .ok()
-        .map(|s| s.i_out_a)
+        net.solve(&OperatingPoint { t_amb_k: t, ..*op }, opts)
+            .ok()
+            .map(|s| s.i_out_a)
     };
     let (lo, hi) = (at(op.t_amb_k - DT)?, at(op.t_amb_k + DT)?);
     let t = (hi - lo) / (2.0 * DT * i_out);
@@ -552,10 +546,7 @@ fn r_ref_caution(
     let name = crate::check::refdes::designator_of(parts, crate::check::refdes::R_REF_NAME)?;
     let rating = match class {
         Some(c) => c.power_rating_at(ambient_k),
-        None => crate::model::derated_power(
-            crate::model::DEFAULT_POWER_RATING_W,
-            ambient_k,
-        ),
+        None => crate::model::derated_power(crate::model::DEFAULT_POWER_RATING_W, ambient_k),
     };
     let p = sol.r_ref_power_w;
     let of = if class.is_some() {
@@ -774,7 +765,9 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         "output tempco (±5 K)".to_string(),
         report
             .tempco_ppm_per_k
-            .map_or("no solution at ±5 K".to_string(), |t| format!("{t:+.0} ppm/K")),
+            .map_or("no solution at ±5 K".to_string(), |t| {
+                format!("{t:+.0} ppm/K")
+            }),
     ]);
     figures.add_row(vec![
         "balance voltage".to_string(),

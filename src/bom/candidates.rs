@@ -94,12 +94,12 @@ use std::collections::BTreeMap;
 use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
-use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
 use crate::check::{choose_r_ref, CheckName, MonteCarlo};
-use rayon::prelude::*;
+use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
 use crate::rank::{enumerate, screen_only, search, verify_each, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
+use rayon::prelude::*;
 
 /// One channel's candidates as passed to the program, with what is needed to report on
 /// the chosen one.
@@ -670,11 +670,16 @@ pub fn label(spec: &DesignSpec) -> String {
                 "—".to_string()
             }
         };
-        s.push_str(&format!(
-            ", RE {}/{} {r}",
-            ohm(spec.re1_ohm),
-            ohm(spec.re2_ohm)
-        ));
+        // As the ranking's design cell writes it.
+        if spec.re1_ohm == spec.re2_ohm {
+            s.push_str(&format!(", RE {} {r}", ohm(spec.re1_ohm)));
+        } else {
+            s.push_str(&format!(
+                ", RE1 {} RE2 {} {r}",
+                ohm(spec.re1_ohm),
+                ohm(spec.re2_ohm)
+            ));
+        }
     }
     if let (Some(r), true) = (&spec.r_ref_resistor, spec.r_ref_ohm > 0.0) {
         s.push_str(&format!(

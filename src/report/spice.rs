@@ -425,7 +425,10 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
                     e.designator,
                     num(*ohm),
                     eng(*ohm, "ohm", a),
-                    class.as_deref().map(|c| format!(", class {}", comment_text(c))).unwrap_or_default()
+                    class
+                        .as_deref()
+                        .map(|c| format!(", class {}", comment_text(c)))
+                        .unwrap_or_default()
                 );
             }
         }

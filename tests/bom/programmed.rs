@@ -6,14 +6,21 @@ use std::path::Path;
 
 use mirrorpick::bom::candidates::design_problem;
 use mirrorpick::bom::render::resistor_designators;
-use mirrorpick::bom::{optimise, BomItem, BomOutcome, BoardPlan};
+use mirrorpick::bom::{optimise, BoardPlan, BomItem, BomOutcome};
 use mirrorpick::check::{self, MonteCarlo};
 use mirrorpick::input;
 use mirrorpick::model::Catalog;
 use mirrorpick::rank::Silent;
 
-fn board() -> (BoardPlan, mirrorpick::bom::candidates::DesignProblem, Catalog) {
-    let dir = Path::new(concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/design"));
+fn board() -> (
+    BoardPlan,
+    mirrorpick::bom::candidates::DesignProblem,
+    Catalog,
+) {
+    let dir = Path::new(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/design"
+    ));
     let text = std::fs::read_to_string(dir.join("programmed-pair.yaml")).unwrap();
     let draft = input::load_design("programmed-pair.yaml", &text, dir).expect("reads");
     let catalog = input::load_default_catalog().expect("catalog");
@@ -107,7 +114,10 @@ fn a_one_copy_channel_carries_its_designs_own_designators() {
     own.sort();
     board.sort();
     assert_eq!(board, own, "{}", a.label);
-    assert!(own.iter().any(|r| r == "R3") || spec.re1_ohm == 0.0, "{own:?}");
+    assert!(
+        own.iter().any(|r| r == "R3") || spec.re1_ohm == 0.0,
+        "{own:?}"
+    );
     // Later channels continue the numbering: no designator is used twice on the board.
     let all: Vec<&String> = refs.iter().flatten().flatten().collect();
     let mut unique = all.clone();

@@ -91,7 +91,10 @@ fn json_has_exactly_the_documented_keys() {
         ]
     );
     assert!(v["rail_v"].is_null() && v["r_ref_ohm"].is_null() && v["r_ref_power_w"].is_null());
-    assert!(v["tempco_ppm_per_k"].is_number(), "every design has a tempco");
+    assert!(
+        v["tempco_ppm_per_k"].is_number(),
+        "every design has a tempco"
+    );
     let q = &v["transistors"][0];
     let mut tk: Vec<_> = q.as_object().unwrap().keys().cloned().collect();
     tk.sort();
@@ -275,7 +278,11 @@ fn a_rail_and_r_ref_solve_the_input_current() {
     // V_BE of the solved circuit.
     let r = solve_command(&catalog(), &programmed(5.0, 4.3e3)).unwrap();
     let expected = (5.0 - r.v_in) / 4.3e3;
-    assert!((r.i_in / expected - 1.0).abs() < 1e-6, "{} vs {expected}", r.i_in);
+    assert!(
+        (r.i_in / expected - 1.0).abs() < 1e-6,
+        "{} vs {expected}",
+        r.i_in
+    );
     assert!((0.5..0.8).contains(&r.v_in), "one V_BE: {}", r.v_in);
     // The power in R_ref is (V_prog - V_in) I_in.
     let p = r.r_ref_power_w.unwrap();
@@ -322,7 +329,10 @@ fn a_programmed_simple_mirror_drifts_as_the_v_be_over_the_r_ref_drop() {
     let r15 = ideal(15.0, 143e3);
     let t15 = r15.tempco_ppm_per_k.unwrap();
     let expected = 2e-3 / (15.0 - r15.v_in) * 1e6;
-    assert!((t15 / expected - 1.0).abs() < 0.10, "{t15} vs {expected} ppm/K");
+    assert!(
+        (t15 / expected - 1.0).abs() < 0.10,
+        "{t15} vs {expected} ppm/K"
+    );
     let proportion = (5.0 - r5.v_in) / (15.0 - r15.v_in);
     assert!((t15 / t5 / proportion - 1.0).abs() < 0.05, "{t15} / {t5}");
 }
@@ -330,7 +340,9 @@ fn a_programmed_simple_mirror_drifts_as_the_v_be_over_the_r_ref_drop() {
 #[test]
 fn the_input_is_forced_or_programmed_never_both_or_neither() {
     let c = catalog();
-    let cases: [(Option<f64>, Option<f64>, Option<f64>, &str); 5] = [
+    // (--iin, --rail, --rref, what the message says)
+    type Case = (Option<f64>, Option<f64>, Option<f64>, &'static str);
+    let cases: [Case; 5] = [
         (Some(1e-3), Some(12.0), Some(11e3), "not both"),
         (None, None, None, "give the input"),
         (None, Some(12.0), None, "--rail needs --rref"),
@@ -349,5 +361,8 @@ fn the_input_is_forced_or_programmed_never_both_or_neither() {
     let mut a = programmed(12.0, 11e3);
     a.r_ref_resistor = Some("no-such-film".into());
     let e = solve_command(&c, &a).unwrap_err();
-    assert!(e.is_input_error() && e.to_string().contains("no-such-film"), "{e}");
+    assert!(
+        e.is_input_error() && e.to_string().contains("no-such-film"),
+        "{e}"
+    );
 }
