@@ -929,6 +929,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             .map(|(k, v)| (k.to_string(), *v))
             .collect(),
         best_rejected,
+        relax: report.relax.iter().map(|r| r.text.clone()).collect(),
         budget,
         budget_table,
         plots,
