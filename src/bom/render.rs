@@ -585,19 +585,13 @@ const COLUMNS: &[Column] = &[
 /// currency in their column name (`unit_cost_eur`).
 pub fn write_csv(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
     let cur = currency_suffix(&plan.currency);
-    let header: Vec<String> = COLUMNS
-        .iter()
-        .map(|c| crate::report::csv::escape(&(c.name)(&cur)))
-        .collect();
-    writeln!(out, "{}", header.join(","))?;
-    for l in &plan.bom {
-        let row: Vec<String> = COLUMNS
+    crate::report::csv::write_records(
+        out,
+        COLUMNS.iter().map(|c| (c.name)(&cur)).collect(),
+        plan.bom
             .iter()
-            .map(|c| crate::report::csv::escape(&(c.value)(l)))
-            .collect();
-        writeln!(out, "{}", row.join(","))?;
-    }
-    Ok(())
+            .map(|l| COLUMNS.iter().map(|c| (c.value)(l)).collect()),
+    )
 }
 
 #[cfg(test)]

@@ -1,5 +1,10 @@
-//! CSV writing (RFC 4180 quoting). The header and every row come from one column list,
-//! so they cannot drift apart.
+//! CSV writing. The header and every row come from one column list, so they cannot
+//! drift apart; quoting (RFC 4180: a field with a comma, quote or line break is quoted,
+//! quotes doubled) is the `csv` crate's, the one writer every CSV output goes through.
+//!
+//! The bench-data reader (`fit::measurements`) stays hand-written: it reports every bad
+//! field at its line and column with the quantity it expected, which the crate's
+//! byte-offset errors would need a second pass to give.
 
 use std::io::{self, Write};
 
@@ -9,23 +14,29 @@ pub struct Column<T> {
     pub get: fn(&T) -> String,
 }
 
-/// Quote a field when it holds a comma, quote or line break.
-pub fn escape(field: &str) -> String {
-    if field.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", field.replace('"', "\"\""))
-    } else {
-        field.to_string()
-    }
+pub fn write<T>(columns: &[Column<T>], rows: &[T], out: &mut dyn Write) -> io::Result<()> {
+    write_records(
+        out,
+        columns.iter().map(|c| c.name.to_string()).collect(),
+        rows.iter()
+            .map(|row| columns.iter().map(|c| (c.get)(row)).collect()),
+    )
 }
 
-pub fn write<T>(columns: &[Column<T>], rows: &[T], out: &mut dyn Write) -> io::Result<()> {
-    let header: Vec<&str> = columns.iter().map(|c| c.name).collect();
-    writeln!(out, "{}", header.join(","))?;
-    for row in rows {
-        let fields: Vec<String> = columns.iter().map(|c| escape(&(c.get)(row))).collect();
-        writeln!(out, "{}", fields.join(","))?;
+/// `header`, then one line per record, `\n`-terminated.
+pub fn write_records(
+    out: &mut dyn Write,
+    header: Vec<String>,
+    records: impl IntoIterator<Item = Vec<String>>,
+) -> io::Result<()> {
+    let mut w = ::csv::WriterBuilder::new()
+        .terminator(::csv::Terminator::Any(b'\n'))
+        .from_writer(out);
+    w.write_record(&header).map_err(io::Error::other)?;
+    for r in records {
+        w.write_record(&r).map_err(io::Error::other)?;
     }
-    Ok(())
+    w.flush()
 }
 
 /// A number as a CSV field: the shortest text that reads back to the same double
@@ -45,9 +56,13 @@ mod tests {
 
     #[test]
     fn quotes_only_when_needed() {
-        assert_eq!(escape("plain"), "plain");
-        assert_eq!(escape("a,b"), "\"a,b\"");
-        assert_eq!(escape("say \"hi\""), "\"say \"\"hi\"\"\"");
+        let mut buf = Vec::new();
+        let rows = [vec!["plain".into(), "a,b".into(), "say \"hi\"".into()]];
+        write_records(&mut buf, vec!["x".into(), "y".into(), "z".into()], rows).unwrap();
+        assert_eq!(
+            String::from_utf8(buf).unwrap(),
+            "x,y,z\nplain,\"a,b\",\"say \"\"hi\"\"\"\n"
+        );
     }
 
     #[test]

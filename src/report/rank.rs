@@ -859,27 +859,17 @@ fn json<T: serde::Serialize>(w: &mut dyn Write, v: &T) -> io::Result<()> {
 }
 
 fn csv(w: &mut dyn Write, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) -> io::Result<()> {
-    let mut header: Vec<&str> = COLUMNS.iter().map(|c| c.csv).collect();
-    header.extend(extra.iter().map(|(h, _)| *h));
-    writeln!(w, "{}", header.join(","))?;
-    for (i, r) in rows.iter().enumerate() {
-        let mut cells: Vec<String> = COLUMNS
-            .iter()
-            .map(|c| csv_field(&(c.csv_value)(r)))
-            .collect();
-        cells.extend(extra.iter().map(|(_, v)| csv_field(&v[i])));
-        writeln!(w, "{}", cells.join(","))?;
-    }
-    Ok(())
-}
-
-/// RFC 4180 quoting when a field needs it.
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
+    let mut header: Vec<String> = COLUMNS.iter().map(|c| c.csv.to_string()).collect();
+    header.extend(extra.iter().map(|(h, _)| h.to_string()));
+    super::csv::write_records(
+        w,
+        header,
+        rows.iter().enumerate().map(|(i, r)| {
+            let mut cells: Vec<String> = COLUMNS.iter().map(|c| (c.csv_value)(r)).collect();
+            cells.extend(extra.iter().map(|(_, v)| v[i].clone()));
+            cells
+        }),
+    )
 }
 
 #[cfg(test)]
