@@ -276,6 +276,10 @@ pub struct DesignCli {
     /// Resistor class of R_ref (default: the --resistor class).
     #[arg(long, value_name = "CLASS")]
     pub rref_resistor: Option<String>,
+    /// Outputs fed by the one input side, each with its own output transistor and RE2
+    /// (1 to 8; default: the requirement's `outputs`). Not for wilson or wilson4.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=8))]
+    pub outputs: Option<u8>,
 }
 
 #[derive(Debug, Args)]
@@ -348,6 +352,7 @@ impl From<MonteCarloArgs> for MonteCarlo {
 impl DesignCli {
     fn into_args(self, helper: Option<String>) -> DesignArgs {
         DesignArgs {
+            outputs: self.outputs,
             part: self.part,
             topology: self.topology,
             helper,
@@ -404,6 +409,10 @@ pub struct SolveCli {
     /// Relative beta deviation of Q2 against Q1 (e.g. 0.02 or 2 %).
     #[arg(long, value_parser = fraction, default_value = "0", allow_hyphen_values = true)]
     pub dbeta: f64,
+    /// Outputs fed by the one input side, each with its own output transistor and RE2
+    /// (1 to 8). Not for wilson or wilson4.
+    #[arg(long, value_name = "N", default_value_t = 1, value_parser = clap::value_parser!(u8).range(1..=8))]
+    pub outputs: u8,
     /// Output format.
     #[arg(long, value_enum, default_value_t = TableOrJson::Table)]
     pub format: TableOrJson,
@@ -643,6 +652,7 @@ impl Cli {
                     TableOrJson::Json => Format::Json,
                 },
                 args: SolveArgs {
+                    shape: mirrorpick::model::Shape::outputs(a.outputs),
                     topology: a.topology,
                     part: a.part,
                     helper: a.helper,

@@ -28,6 +28,8 @@ pub struct Resolved<'a> {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<&'a ResistorClass>,
+    /// Outputs on the input side and the area ratio.
+    pub shape: crate::model::Shape,
     /// The class the helper transistors actually sit in, per the package layout, when it
     /// is not the pair's class.
     pub helper_placed: Option<&'a TransistorClass>,
@@ -36,6 +38,7 @@ pub struct Resolved<'a> {
 impl<'a> Resolved<'a> {
     pub fn design(&self) -> Design<'a> {
         Design {
+            shape: self.shape,
             r_ref: None,
             topology: self.topology,
             pair: self.pair,
@@ -110,6 +113,7 @@ pub fn resolve<'a>(
         re1_ohm: spec.re1_ohm,
         re2_ohm: spec.re2_ohm,
         resistor: d.resistor,
+        shape: spec.shape,
     })
 }
 

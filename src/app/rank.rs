@@ -37,6 +37,8 @@ pub struct DesignArgs {
     pub rref: Option<String>,
     /// R_ref's resistor class (`--rref-resistor`); default the `--resistor` class.
     pub rref_resistor: Option<String>,
+    /// Outputs on the one input side (`--outputs`); default the requirement's `outputs`.
+    pub outputs: Option<u8>,
 }
 
 /// Arguments of `rank`.
@@ -284,7 +286,15 @@ pub fn design_spec(
         (re1, re2)
     };
     let (r_ref_ohm, r_ref_resistor, r_ref_pick) = ref_resistor(req, catalog, a)?;
+    let outputs = a.outputs.unwrap_or(req.outputs);
+    if outputs > 1 && !topology.desc().fans_out {
+        return Err(AppError::Usage(format!(
+            "the {} topology has one output only (its output transistor sits in the feedback loop); with {outputs} outputs choose simple, beta-helper, cascode or widlar",
+            topology.name()
+        )));
+    }
     Ok(DesignSpec {
+        shape: crate::model::Shape::outputs(outputs),
         topology,
         pair: a.part.clone(),
         helper: a.helper.clone(),

@@ -47,6 +47,7 @@ pub struct ReportArgs {
 /// The nominal design of a ranked row, for the curves.
 fn design_of<'a>(catalog: &'a Catalog, row: &CandidateRow) -> Option<Design<'a>> {
     Some(Design {
+        shape: row.shape,
         r_ref: None,
         topology: Topology::from_name(row.topology)?,
         pair: catalog.transistor(&row.part)?,

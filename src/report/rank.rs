@@ -884,6 +884,10 @@ mod tests {
 
     fn row() -> CandidateRow {
         CandidateRow {
+            outputs: 1,
+            area: "1".into(),
+            worst_output: 1,
+            shape: crate::model::Shape::SINGLE,
             rank: Some(1),
             topology: "simple",
             part: "npn-dual-x".into(),
@@ -960,6 +964,10 @@ mod tests {
 
     fn long_row(k: usize) -> CandidateRow {
         CandidateRow {
+            outputs: 1,
+            area: "1".into(),
+            worst_output: 1,
+            shape: crate::model::Shape::SINGLE,
             rank: Some(k),
             topology: "beta-helper",
             part: "npn-dual-highvoltage".into(),

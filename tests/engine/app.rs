@@ -34,6 +34,7 @@ fn catalog() -> Catalog {
 
 fn args(topology: Topology) -> SolveArgs {
     SolveArgs {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology,
         part: "npn-dual-test".into(),
         helper: None,

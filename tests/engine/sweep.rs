@@ -67,6 +67,7 @@ fn one_point(catalog: &Catalog, rng: &mut ChaCha8Rng, tally: &mut Tally) {
     let t_c = rng.gen_range(-60.0..200.0);
     let self_heating = rng.gen_bool(0.5);
     let mismatch = Mismatch {
+        more: Default::default(),
         dvbe_v: [rng.gen_range(-5e-3..5e-3), rng.gen_range(-5e-3..5e-3)],
         dbeta: [rng.gen_range(-0.1..0.1), rng.gen_range(-0.1..0.1)],
         dre1: rng.gen_range(-0.01..0.01),
@@ -74,6 +75,7 @@ fn one_point(catalog: &Catalog, rng: &mut ChaCha8Rng, tally: &mut Tally) {
         dref: 0.0,
     };
     let design = Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology,
         pair,
         helper,
