@@ -69,10 +69,12 @@ fn json_has_exactly_the_documented_keys() {
             "nodes",
             "noise_a_per_rthz",
             "noise_sources",
+            "outputs",
             "r_out",
             "ratio",
             "transistors",
-            "v_in"
+            "v_in",
+            "worst_output"
         ]
     );
     let q = &v["transistors"][0];
