@@ -280,6 +280,10 @@ pub struct DesignCli {
     /// (1 to 8; default: the requirement's `outputs`). Not for wilson or wilson4.
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=8))]
     pub outputs: Option<u8>,
+    /// Area ratio from devices in parallel in one array: `n` devices on each output
+    /// (ratio n) or `1/n` on the input side (ratio 1/n), n from 2 to 4; default 1.
+    #[arg(long, value_name = "n|1/n")]
+    pub area: Option<String>,
 }
 
 #[derive(Debug, Args)]
@@ -353,6 +357,7 @@ impl DesignCli {
     fn into_args(self, helper: Option<String>) -> DesignArgs {
         DesignArgs {
             outputs: self.outputs,
+            area: self.area,
             part: self.part,
             topology: self.topology,
             helper,
