@@ -1,5 +1,9 @@
 //! Calendar dates for provenance lines (reports, emitted catalog classes). Owns the one
 //! Unix-time-to-date conversion; must not format anything else.
+//!
+//! Hand-written on purpose: one formatted UTC date is all the tool needs, and these dozen
+//! lines (tested on leap days below) cost less than a date crate and its dependency tree,
+//! which would also pull in time-zone data the tool must not use (records are UTC).
 
 /// `YYYY-MM-DD` (UTC) of a Unix time in seconds, by the civil-from-days algorithm
 /// (proleptic Gregorian calendar; Hinnant, "chrono-compatible low-level date algorithms").

@@ -510,7 +510,7 @@ mod commands {
             .args(["catalog", "show", "npn-pair-monolithic"])
             .assert()
             .success()
-            .stdout(predicate::str::contains("40.0 µV"))
+            .stdout(predicate::str::contains("50.0 µV"))
             .stdout(predicate::str::contains("provenance"));
         let out = mirrorpick()
             .args(["catalog", "show", "thin-film-0p1pct", "--format", "json"])

@@ -513,3 +513,71 @@ fn every_example_runs() {
         );
     }
 }
+
+/// Three 15 mA LED sinks with 0.6 V of headroom: the cheapest rows all run their output
+/// transistor in soft saturation at the lowest output voltage.
+const LED_SINKS: &str = "name: status LED sinks
+kind: sink
+supply: 5 V
+input_current: {min: 15 mA, max: 15 mA}
+output_voltage: {min: 0.6 V, max: 3 V}
+ambient: {min: 0 °C, max: 60 °C}
+accuracy: 10 %
+load: led
+";
+
+#[test]
+fn one_caution_line_per_kind_of_soft_saturation() {
+    let dir = tempfile::tempdir().unwrap();
+    let req = write(dir.path(), "led.yaml", LED_SINKS);
+    let o = mirrorpick()
+        .args([
+            "rank",
+            req.to_str().unwrap(),
+            "--top",
+            "3",
+            "--samples",
+            "200",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let out = text(&o);
+    let lines: Vec<&str> = out
+        .lines()
+        .filter(|l| l.contains("soft saturation"))
+        .collect();
+    assert!(!lines.is_empty(), "{out}");
+    // No two lines name the same transistors: rows sharing a caution share its line.
+    let tails: Vec<&str> = lines
+        .iter()
+        .map(|l| l.split_once(": ").map_or(*l, |(_, t)| t))
+        .collect();
+    let mut unique = tails.clone();
+    unique.sort_unstable();
+    unique.dedup();
+    assert_eq!(unique.len(), tails.len(), "{out}");
+    assert!(lines.iter().any(|l| l.contains("#1, #2")), "{out}");
+}
+
+#[test]
+fn cheaper_names_a_failed_reference_in_words() {
+    // An undegenerated simple mirror in a two-dice dual at 15 mA and 3 V runs away
+    // thermally: the header says so, with no empty figure where a margin would be.
+    let dir = tempfile::tempdir().unwrap();
+    let req = write(dir.path(), "led.yaml", LED_SINKS);
+    let o = mirrorpick()
+        .args(["cheaper", req.to_str().unwrap()])
+        .args(["--part", "npn-dual-prematched", "--topology", "simple"])
+        .args(["--top", "1", "--samples", "200"])
+        .output()
+        .unwrap();
+    let out = text(&o);
+    let head = out.lines().next().unwrap_or_default();
+    assert!(
+        head.contains("reference simple npn-dual-prematched, no RE"),
+        "{head}"
+    );
+    assert!(head.ends_with("fails on thermal-runaway"), "{head}");
+    assert!(!head.contains('—'), "{head}");
+}

@@ -235,10 +235,16 @@ impl<'a> Evaluator<'a> {
             re_tcr_per_k: d.resistor.map_or(0.0, |r| r.tcr_per_k),
             r_ref: (d.spec.r_ref_ohm > 0.0).then(|| RefResistor {
                 ohm: d.spec.r_ref_ohm,
+                // A class's TCR is a band (±TCR) with either sign possible. The end
+                // judged is the one that adds to the input side's V_BE drift at both
+                // ends of the ambient range: V_in falls as it warms, so I_in rises, and
+                // an R_ref that falls with temperature makes it rise further (and fall
+                // further when cold). Taking +TCR would let the resistor cancel part of
+                // the drift and pass designs that a part at the other end of the band fails.
                 tcr_per_k: if variant.no_ref_tcr {
                     0.0
                 } else {
-                    d.r_ref.map_or(0.0, |r| r.tcr_per_k)
+                    -d.r_ref.map_or(0.0, |r| r.tcr_per_k.abs())
                 },
             }),
         }

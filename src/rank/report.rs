@@ -517,10 +517,28 @@ pub fn cautions(req: &Requirement, rows: &[CandidateRow]) -> Vec<Caution> {
             }
         }
         if !r.soft_saturation.is_empty() {
-            out.push(Caution::SoftSaturation {
-                who,
-                transistors: r.soft_saturation.clone(),
+            // Rows with the same transistors in soft saturation share one line ("#1, #2,
+            // #3: Q2 has ..."): five copies of one sentence hide the other cautions.
+            let same = out.iter_mut().find_map(|c| match c {
+                Caution::SoftSaturation { who, transistors }
+                    if *transistors == r.soft_saturation =>
+                {
+                    Some(who)
+                }
+                _ => None,
             });
+            match (same, r.rank) {
+                (Some(who), Some(k)) => {
+                    if let Some((first, _)) = who.split_once(' ').filter(|_| !who.contains(',')) {
+                        *who = first.to_string();
+                    }
+                    who.push_str(&format!(", #{k}"));
+                }
+                _ => out.push(Caution::SoftSaturation {
+                    who,
+                    transistors: r.soft_saturation.clone(),
+                }),
+            }
         }
     }
     if matches!(req.load, LoadKind::Led | LoadKind::Laser) {

@@ -96,6 +96,13 @@ pub fn design_title(c: &CandidateRow) -> String {
     if let Some(r) = &c.resistor {
         s.push_str(&format!(" ({r})"));
     }
+    // Rows that differ only in the programming resistor must not read alike.
+    if let Some(ohm) = c.r_ref_ohm {
+        s.push_str(&format!(" · R_ref {}", eng(ohm, "ohm", U)));
+        if let Some(r) = &c.r_ref_resistor {
+            s.push_str(&format!(" ({r})"));
+        }
+    }
     s
 }
 
@@ -135,6 +142,30 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             "resistor class",
             c.resistor.clone().unwrap_or_else(|| "none".into()),
         ),
+    ];
+    let mut figures = figures;
+    if let Some(ohm) = c.r_ref_ohm {
+        figures.push(num(
+            "r_ref_ohm",
+            "programming resistor R_ref",
+            ohm,
+            eng(ohm, "ohm", U),
+        ));
+        figures.push(text(
+            "r_ref_resistor",
+            "R_ref class",
+            c.r_ref_resistor.clone().unwrap_or_else(|| "none".into()),
+        ));
+        if let Some(w) = c.r_ref_power_w {
+            figures.push(num(
+                "r_ref_power_w",
+                "R_ref power (worst corner)",
+                w,
+                eng(w, "W", U),
+            ));
+        }
+    }
+    figures.extend([
         num("cost", "cost per mirror", c.cost, money(catalog, c.cost)),
         num(
             "ratio_achieved",
@@ -184,8 +215,18 @@ fn view(catalog: &Catalog, c: &CandidateRow) -> DesignView {
             c.v_in_max,
             eng(c.v_in_max, "V", U),
         ),
-    ];
-    let mut figures = figures;
+    ]);
+    if c.tempco_ppm_per_k.is_finite() {
+        figures.push(num(
+            "tempco_ppm_per_k",
+            "output tempco (average over the ambient range; steepest slope)",
+            c.tempco_ppm_per_k,
+            format!(
+                "{:+.0} ppm/K; {:+.0} ppm/K",
+                c.tempco_ppm_per_k, c.tempco_worst_ppm_per_k
+            ),
+        ));
+    }
     if c.noise_a_per_rthz.is_finite() {
         figures.push(num(
             "noise_a_per_rthz",
@@ -462,6 +503,13 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
             format!("{} to {}", f(lo), f(hi))
         }
     };
+    // Enough digits that both ends read as written (9.99 V to 10.01 V, not to 10.0 V).
+    let volts_apart = |lo: f64, hi: f64| {
+        let rounded = |x: f64, d: usize| format!("{x:.*e}", d - 1).parse().unwrap_or(x);
+        let exact = |x: f64, d: usize| (rounded(x, d) - x).abs() <= 1e-3 * (hi - lo).abs();
+        let sig = (3..=6).find(|&d| exact(lo, d) && exact(hi, d)).unwrap_or(6);
+        range(lo, hi, &|x| eng_sig(x, "V", U, sig))
+    };
     let mut rows = vec![
         ("name".to_string(), req.name.clone()),
         (
@@ -480,7 +528,7 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
                 "programming".into(),
                 format!(
                     "resistor R_ref from a rail at {} (from the mirror rail), for {} out",
-                    range(p.rail_v.min, p.rail_v.max, &|x| eng(x, "V", U)),
+                    volts_apart(p.rail_v.min, p.rail_v.max),
                     eng(p.output_current_a, "A", U)
                 ),
             ),

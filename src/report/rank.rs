@@ -796,16 +796,21 @@ pub fn write_cheaper(
         Format::Csv => csv(w, &rows, &[("saving", saving), ("margin_given_up", given)]),
         Format::Table => {
             let c = &r.reference;
+            // The same design text as the table's cells; a check that failed without a
+            // figure (a runaway, an unsolvable corner) is named without a margin.
+            let verdict = match (r.reference_pass, c.governing_check) {
+                (true, Some(_)) => format!("passes; governing {}", governing_cell(c)),
+                (false, Some(_)) if c.governing_margin().is_finite() => {
+                    format!("fails on {}", governing_cell(c))
+                }
+                (false, Some(g)) => format!("fails on {g}"),
+                (pass, None) => (if pass { "passes" } else { "fails" }).to_string(),
+            };
             let head = format!(
-                "{}: reference {} (RE1 {}, RE2 {}), cost {:.3}, {}; governing {} at {}",
+                "{}: reference {}, cost {:.3}, {verdict}",
                 r.requirement,
-                c.label(),
-                ohms(c.re1_ohm),
-                ohms(c.re2_ohm),
+                design_cell(c),
                 c.cost,
-                if r.reference_pass { "passes" } else { "fails" },
-                c.governing_check.map_or("—".into(), |g| g.to_string()),
-                pct(c.governing_margin())
             );
             writeln!(w, "{}", wrap(&head, style.width))?;
             if !rows.is_empty() {

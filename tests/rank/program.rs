@@ -202,3 +202,26 @@ fn yield_with_r_ref_sampled_agrees_with_a_brute_force_re_solve() {
     assert!((0.5..0.97).contains(&y), "yield {y}");
     assert!((y - ys).abs() < 0.04, "first-order {y} vs re-solved {ys}");
 }
+
+#[test]
+fn r_ref_tcr_is_judged_at_the_end_of_its_band_that_adds_to_the_drift() {
+    // A class's TCR is a ±band. For I_in = (V_prog - V_in) / R_ref, a fractional change
+    // of R_ref moves I_in by the same fraction with opposite sign, so the end of the band
+    // that adds to the V_BE drift adds |TCR| to the output tempco (differentiate the
+    // expression; Sedra & Smith, current-mirror chapter, for I_in). Judging the other end
+    // would pass designs a part at the far end of the band fails.
+    let mut drifting = rref_class(0.001);
+    drifting.tcr_per_k = 100e-6;
+    let cat = catalog(vec![ideal_pair()], vec![rref_class(0.001)]);
+    let cat_tcr = catalog(vec![ideal_pair()], vec![drifting]);
+    let req = programmed(5.0, 100e-6, (0.0, 70.0), 0.5);
+    let s = with_rref(Topology::Simple, None);
+    let flat = check(&req, &cat, &s).candidate.tempco_ppm_per_k;
+    let with_tcr = check(&req, &cat_tcr, &s).candidate.tempco_ppm_per_k;
+    assert!(flat > 0.0, "{flat}");
+    let added = with_tcr - flat;
+    assert!(
+        (added / 100.0 - 1.0).abs() < 0.10,
+        "{with_tcr} - {flat} = {added} ppm/K"
+    );
+}

@@ -251,14 +251,14 @@ fn help_has_worked_examples() {
 
 #[test]
 fn helpers_on_spare_devices_share_the_pair_model() {
-    // A 5-device array holds the whole beta-helper mirror (MODEL.md, packages).
+    // A 6-device array holds the whole beta-helper mirror (MODEL.md, packages).
     let out = mirrorpick()
         .args([
             "export",
             "--spice",
             TAIL,
             "--part",
-            "npn-array-5",
+            "npn-array-6",
             "--topology",
             "beta-helper",
         ])
@@ -268,8 +268,39 @@ fn helpers_on_spare_devices_share_the_pair_model() {
     let deck = String::from_utf8(out.stdout).unwrap();
     assert_eq!(
         mirrorpick::report::spice::defined_models(&deck),
-        std::collections::BTreeSet::from(["npn_array_5".to_string()])
+        std::collections::BTreeSet::from(["npn_array_6".to_string()])
     );
     // All three devices in package Q1: the helper is its third unit.
-    assert!(deck.contains("\nQ1C S in b npn_array_5 "), "{deck}");
+    assert!(deck.contains("\nQ1C S in b npn_array_6 "), "{deck}");
+}
+
+#[test]
+fn a_programmed_report_names_r_ref_and_the_rail_as_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let req = dir.path().join("bridge.yaml");
+    std::fs::write(
+        &req,
+        "name: bridge excitation\nkind: sink\nsupply: 12 V\n\
+         program: {rail: {min: 9.99 V, max: 10.01 V}, output_current: 2 mA}\n\
+         output_voltage: {min: 2 V, max: 8 V}\nambient: {min: 0 °C, max: 50 °C}\n\
+         accuracy: 5 %\n",
+    )
+    .unwrap();
+    let out = mirrorpick()
+        .arg("report")
+        .arg(&req)
+        .args(["--out", "-", "--samples", "200"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let html = String::from_utf8(out.stdout).unwrap();
+    // Both ends of the rail as the designer wrote them, not "9.99 V to 10.0 V".
+    assert!(html.contains("9.990 V to 10.01 V"), "rail range");
+    // The chosen design's title and figures carry R_ref, so rows that differ only in it
+    // do not read alike.
+    assert!(html.contains("programming resistor R_ref"));
+    assert!(html.contains("R_ref class"));
+    assert!(html.contains("R_ref power (worst corner)"));
+    assert!(html.contains("· R_ref "));
+    assert!(html.contains("output tempco"));
 }
