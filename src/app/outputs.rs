@@ -73,6 +73,7 @@ impl<'a> Resolved<'a> {
             re1_ohm: self.re1_ohm,
             re2_ohm: self.re2_ohm,
             resistor: self.resistor,
+            shape: self.shape,
         }
     }
 }

@@ -703,9 +703,14 @@ impl<'a> Evaluator<'a> {
                     rnd[kk] = rnd[kk].max(r);
                 }
             }
-            let w_out = (0..outs)
-                .max_by(|&a, &b| (sys[a] + k * rnd[a]).total_cmp(&(sys[b] + k * rnd[b])))
-                .unwrap_or(0);
+            // The largest total; outputs equal but for rounding keep the lower number.
+            let total = |o: usize| sys[o] + k * rnd[o];
+            let mut w_out = 0;
+            for o in 1..outs {
+                if total(o) > total(w_out) * (1.0 + 1e-9) {
+                    w_out = o;
+                }
+            }
             worst = Some(corner_of[w_out]);
             figures.worst_output = w_out as u8 + 1;
             figures.error_systematic = sys[w_out];

@@ -230,7 +230,8 @@ impl Solution {
         let mut worst = (0, error(self.outputs()[0]));
         for (k, &i) in self.outputs().iter().enumerate().skip(1) {
             let e = error(i);
-            if e.abs() > worst.1.abs() {
+            // Outputs equal but for rounding keep the lower number.
+            if e.abs() > worst.1.abs() * (1.0 + 1e-9) + 1e-15 {
                 worst = (k, e);
             }
         }
