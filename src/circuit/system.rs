@@ -405,13 +405,28 @@ mod tests {
             v_out in 0.3..30.0f64,
             jitter in prop::collection::vec(-0.02..0.02f64, MAX_DIM),
             thermal in any::<bool>(),
+            outputs in 1u8..=3,
+            area in 0u8..3,
         ) {
             let topology = ALL_TOPOLOGIES[t];
+            // Multi-output and area-ratio forms where the topology has them.
+            let shape = if topology.desc().fans_out {
+                crate::model::Shape {
+                    outputs,
+                    area: match (area, topology.desc().has_re1) {
+                        (1, true) => crate::model::Area::Output(2),
+                        (2, true) => crate::model::Area::Input(3),
+                        _ => crate::model::Area::Unit,
+                    },
+                }
+            } else {
+                crate::model::Shape::SINGLE
+            };
             let pair = class(10f64.powf(is), bf, vaf, knee);
             let helper = class(2.0 * 10f64.powf(is), bf * 0.7, vaf, None);
             let (re1, re2) = if topology.desc().has_re1 { (re, re) } else { (0.0, re.max(100.0)) };
             let design = Design {
-                shape: crate::model::Shape::SINGLE,
+                shape,
                 r_ref: None,
                 topology,
                 pair: &pair,
@@ -420,7 +435,8 @@ mod tests {
                 re2_ohm: re2,
                 re_tcr_per_k: 1e-4,
             };
-            let mm = Mismatch { dref: 0.0, dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01, more: Default::default() };
+            let mut mm = Mismatch { dref: 0.0, dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01, more: Default::default() };
+            mm.set_output(2, crate::circuit::OutputDeviation { dvbe_v: [-1.5e-3, 1e-3], dbeta: [-0.01, 0.02], dre2: 0.005 });
             let net = Netlist::compile(&design, &mm).unwrap();
             let op = OperatingPoint { rail_v: None, i_in_a: 10f64.powf(i_in), v_out_v: v_out, supply_v: v_out + 2.0, t_amb_k: 320.0 };
             let mut sys = CircuitSystem::new(&net, op);

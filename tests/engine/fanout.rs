@@ -185,3 +185,27 @@ fn heating_in_one_array_moves_each_output_by_the_hand_calculation() {
     }
     assert_eq!(packages.len(), 2, "outputs fill two arrays");
 }
+
+#[test]
+fn each_output_has_the_output_resistance_of_one_transistor() {
+    // Gray et al., ch. 4: a simple mirror's output resistance is r_o = (VAF + V_CE)/I_C of
+    // its output transistor. With several outputs, each output's own (the others held at
+    // V_out) is still one transistor's r_o, not r_o / N.
+    let c = class(
+        "npn-array-wide",
+        Polarity::Npn,
+        20,
+        BjtParams::new(1e-14, 200.0, Some(80.0)),
+    );
+    let p = op(1e-3, 5.0);
+    for n in [1u8, 2, 4] {
+        let d = Design {
+            shape: Shape::outputs(n),
+            ..design(Topology::Simple, &c, 0.0, 0.0)
+        };
+        let s = solve_point(&d, &p, &nominal(), &iso()).unwrap();
+        let r = mirrorpick::circuit::output_resistance(&d, &p, &nominal(), &iso()).unwrap();
+        let r_o = (80.0 + 5.0) / s.outputs()[0];
+        assert!(rel(r, r_o) < 0.02, "N {n}: {r} against {r_o}");
+    }
+}
