@@ -47,7 +47,7 @@ pub(crate) fn blocks_for(devices_per_package: u32, o: &DesignUsage) -> (Vec<u32>
         // Several outputs over several arrays: full packages, then the rest, as the
         // placement fills them (`model::fanout::place`).
         let mut blocks = vec![d; (m / d) as usize];
-        if m % d > 0 {
+        if !m.is_multiple_of(d) {
             blocks.push(m % d);
         }
         (blocks, 0, o.helpers)

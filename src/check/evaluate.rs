@@ -800,11 +800,20 @@ impl<'a> Evaluator<'a> {
         }
 
         if all_builds {
+            let of_output = if scales.len() > 1 {
+                format!(
+                    "; output {} (the worst of {})",
+                    figures.worst_output,
+                    scales.len()
+                )
+            } else {
+                String::new()
+            };
             checks.push(Check::at_most(
                 CheckName::Accuracy,
                 figures.error_total,
                 req.accuracy,
-                format!("systematic + {k} x random sigma"),
+                format!("systematic + {k} x random sigma{of_output}"),
             ));
         } else {
             checks.push(Check::not_available(

@@ -443,18 +443,18 @@ pub fn place(form: &Form, devices_per_package: u32) -> Vec<Seat> {
             seat[i].package = k as u8;
         }
     }
-    for i in 0..n {
-        if form.transistors[i].role != Role::Helper {
+    for (line, s) in form.transistors.iter().zip(seat.iter_mut()) {
+        if line.role != Role::Helper {
             continue;
         }
         match used.iter().position(|&u| u < dpp) {
             Some(k) => {
                 used[k] += 1;
-                seat[i].package = k as u8;
+                s.package = k as u8;
             }
             None => {
                 used.push(dpp);
-                seat[i] = Seat {
+                *s = Seat {
                     package: (used.len() - 1) as u8,
                     helper_class: true,
                 };
