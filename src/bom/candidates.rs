@@ -653,6 +653,12 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
 /// `wilson npn-dual-general + npn-single-general, RE 1.00 kΩ/1.00 kΩ thick-film-1pct`.
 pub fn label(spec: &DesignSpec) -> String {
     let mut s = format!("{} {}", spec.topology.name(), spec.pair);
+    if spec.shape.outputs > 1 {
+        s.push_str(&format!(" ×{} outputs", spec.shape.outputs));
+    }
+    if !matches!(spec.shape.area, crate::model::Area::Unit) {
+        s.push_str(&format!(" area {}", spec.shape.area_text()));
+    }
     if let Some(h) = &spec.helper {
         s.push_str(&format!(" + {h}"));
     }
