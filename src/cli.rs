@@ -67,7 +67,11 @@ from the mirror rail; a PNP class is solved as a source.\n\nExit status: 0 solve
 could not give a trusted answer (no convergence, thermal runaway), 2 bad input.\n\nExample:\n  \
 mirrorpick solve --topology simple --part npn-dual-prematched --iin 1mA --vout 10V --self-heating\n  \
 mirrorpick solve --topology wilson --part npn-dual-general --re 220 --iin 100uA --vout 5V --supply 12V --format json\n  \
-mirrorpick solve --topology beta-helper --part npn-dual-prematched --re1 24.9k --re2 2.43k --ratio 10 --iin 100uA --vout 5V --supply 12V\n\n\
+mirrorpick solve --topology beta-helper --part npn-dual-prematched --re1 24.9k --re2 2.43k --ratio 10 --iin 100uA --vout 5V --supply 12V\n  \
+mirrorpick solve --topology simple --part npn-dual-general --rail 12V --rref 11.3k --rref-resistor thin-film-0p1pct --vout 5V --supply 12V\n\n\
+Input: --iin forces the input current; --rail with --rref programs it by a resistor from the rail \
+(the input current is then solved with the circuit, and R_ref's power and the output's tempco are \
+printed). Give one or the other.\n\n\
 Emitter resistors: --re for equal ones, or --re1 and --re2 together (one alone would be a lopsided \
 mirror; the message gives the RE2 a ratio needs: n I_in RE2 = I_in RE1 - V_T ln n). The error is \
 I_out/(n I_in) - 1 against --ratio (default 1). Cautions compare V_CE, I_C and package dissipation \
@@ -393,9 +397,20 @@ pub struct SolveCli {
     /// The intended ratio n = I_out / I_in the error is measured against [default: 1].
     #[arg(long, value_parser = ratio_value)]
     pub ratio: Option<f64>,
-    /// Programming current I_in (e.g. 100uA).
+    /// Forced programming current I_in (e.g. 100uA); or give --rail with --rref.
     #[arg(long, value_parser = current, allow_hyphen_values = true)]
-    pub iin: f64,
+    pub iin: Option<f64>,
+    /// Program rail (e.g. 12V) from the mirror rail, instead of --iin: R_ref (--rref)
+    /// from it to the input sets the input current, solved with the circuit.
+    #[arg(long, value_parser = voltage, allow_hyphen_values = true)]
+    pub rail: Option<f64>,
+    /// Programming resistor R_ref from --rail to the input (e.g. 11k).
+    #[arg(long, value_parser = resistance, allow_hyphen_values = true)]
+    pub rref: Option<f64>,
+    /// Resistor class of R_ref (its TCR and power rating; default: TCR 0 and a chip
+    /// resistor's rating).
+    #[arg(long, value_name = "CLASS")]
+    pub rref_resistor: Option<String>,
     /// Output voltage from the mirror rail (e.g. 5V), a magnitude for NPN and PNP alike.
     #[arg(long, value_parser = voltage, allow_hyphen_values = true)]
     pub vout: f64,
@@ -665,6 +680,9 @@ impl Cli {
                     re2_ohm: a.re.or(a.re2),
                     ratio: a.ratio,
                     i_in_a: a.iin,
+                    rail_v: a.rail,
+                    r_ref_ohm: a.rref,
+                    r_ref_resistor: a.rref_resistor,
                     v_out_v: a.vout,
                     supply_v: a.supply,
                     ambient_k: a.ambient,

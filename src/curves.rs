@@ -7,7 +7,11 @@
 //! a design through the circuit layer, nominal devices. A point that does not converge
 //! is kept as a gap (`None`), never as a guessed number. The white output noise against
 //! the emitter-resistor value shows the trade degeneration makes (transistor shot noise
-//! for resistor thermal noise).
+//! for resistor thermal noise). A design programmed by a resistor from a rail adds the
+//! output current against the rail voltage (over the rail's range and half its width,
+//! at least 10 % of the nominal rail, beyond each end), solved with R_ref in the circuit;
+//! its other families are swept with the input current forced at the nominal
+//! `output_current / ratio`, as a bench would set it.
 
 use serde::Serialize;
 
@@ -62,6 +66,20 @@ pub struct ErrorCurve {
     pub error: Vec<Option<f64>>,
 }
 
+/// I_out against the program rail at one output voltage and ambient (a design
+/// programmed by R_ref).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RailCurve {
+    pub v_out_v: f64,
+    pub t_amb_k: f64,
+    pub rail_v: Vec<f64>,
+    /// `None` where the solver did not converge.
+    pub i_out_a: Vec<Option<f64>>,
+}
+
+/// Points on each rail curve.
+pub const RAIL_POINTS: usize = 41;
+
 /// Everything the curve plots and tables show, with the requirement's windows.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CurveSet {
@@ -82,6 +100,13 @@ pub struct CurveSet {
     /// White output noise density against the emitter-resistor value (empty for the
     /// Widlar, whose RE2 sets its ratio).
     pub noise_vs_re: Vec<NoisePoint>,
+    /// The program rail's range (null when the input current is forced).
+    #[serde(serialize_with = "opt_range_as_map")]
+    pub rail_window_v: Option<Range>,
+    /// The wanted output current of a programmed requirement.
+    pub output_wanted_a: Option<f64>,
+    /// I_out against the rail voltage at V_out min and max (empty when forced).
+    pub rail: Vec<RailCurve>,
 }
 
 /// The design's white output current noise with its emitter resistors scaled to
@@ -159,6 +184,22 @@ pub fn noise_against_re(
             }
         })
         .collect()
+}
+
+fn opt_range_as_map<S: serde::Serializer>(r: &Option<Range>, s: S) -> Result<S::Ok, S::Error> {
+    match r {
+        Some(r) => range_as_map(r, s),
+        None => s.serialize_none(),
+    }
+}
+
+/// The rail voltages of the rail family: the rail's range and beyond it on both sides
+/// by half its width, or 10 % of the nominal rail when that is more; above 0 V.
+pub fn rail_grid(rail: Range, count: usize) -> Vec<f64> {
+    let nominal = 0.5 * (rail.min + rail.max);
+    let beyond = (0.5 * (rail.max - rail.min)).max(0.1 * nominal);
+    let lo = (rail.min - beyond).max(0.02 * nominal);
+    linear_grid(lo, rail.max + beyond, count)
 }
 
 fn range_as_map<S: serde::Serializer>(r: &Range, s: S) -> Result<S::Ok, S::Error> {
@@ -293,12 +334,44 @@ where
         balance_voltage_v,
         failed_points: failed,
         noise_vs_re: Vec::new(),
+        rail_window_v: None,
+        output_wanted_a: None,
+        rail: Vec::new(),
     }
+}
+
+/// The rail family: `solve(rail_v, v_out_v, t_amb_k) -> Some(i_out_a)` at V_out min and
+/// max, at each ambient swept. Adds its failed points to `set.failed_points`.
+pub fn sweep_rail<F>(set: &mut CurveSet, req: &Requirement, opts: &CurveOptions, solve: F)
+where
+    F: Fn(f64, f64, f64) -> Option<f64>,
+{
+    let Some(p) = req.program else {
+        return;
+    };
+    let rails = rail_grid(p.rail_v, RAIL_POINTS);
+    let mut window = vec![req.output_voltage_v.min, req.output_voltage_v.max];
+    window.dedup();
+    for &t in &ambients(req, opts.ambient_extremes) {
+        for &v in &window {
+            let i: Vec<Option<f64>> = rails.iter().map(|&r| solve(r, v, t)).collect();
+            set.failed_points += i.iter().filter(|x| x.is_none()).count();
+            set.rail.push(RailCurve {
+                v_out_v: v,
+                t_amb_k: t,
+                rail_v: rails.clone(),
+                i_out_a: i,
+            });
+        }
+    }
+    set.rail_window_v = Some(p.rail_v);
+    set.output_wanted_a = Some(p.output_current_a);
 }
 
 /// Sweeps the curves of `design` against `req` with nominal (matched) devices, with or
 /// without self-heating. The balance voltage is the solver's, at I_in max and 25 °C.
 /// Fails only when the design cannot be compiled (for example a missing helper class).
+/// A design with R_ref (and a requirement with `program`) adds the rail family.
 pub fn for_design(
     design: &Design,
     req: &Requirement,
@@ -306,6 +379,13 @@ pub fn for_design(
     solve_opts: &SolveOptions,
 ) -> Result<CurveSet, SolveFailure> {
     let mm = Mismatch::default();
+    let programmed = design.r_ref.is_some() && req.program.is_some();
+    let design_r_ref = design.r_ref;
+    let forced = Design {
+        r_ref: None,
+        ..*design
+    };
+    let design = &forced;
     let net = Netlist::compile(design, &mm)?;
     let point = |i_in_a, v_out_v, t_amb_k| OperatingPoint {
         rail_v: None,
@@ -384,6 +464,23 @@ pub fn for_design(
     }
     set.output = families;
     set.noise_vs_re = noise_against_re(design, req, solve_opts);
+    if programmed {
+        let with_ref = Netlist::compile(
+            &Design {
+                r_ref: design_r_ref,
+                ..forced
+            },
+            &mm,
+        )?;
+        let hint = req.input_current_a.max;
+        sweep_rail(&mut set, req, opts, |rail, v, t| {
+            let op = OperatingPoint {
+                rail_v: Some(rail),
+                ..point(hint, v, t)
+            };
+            with_ref.solve(&op, solve_opts).ok().map(|s| s.i_out_a)
+        });
+    }
     Ok(set)
 }
 

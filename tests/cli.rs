@@ -763,3 +763,156 @@ mod solve_command {
             .stderr(predicate::str::contains("expected one of simple"));
     }
 }
+
+/// A requirement programmed by a resistor from a rail, through every command that names
+/// a design.
+mod programmed {
+    use super::*;
+
+    const REQ: &str = "requirements-examples/logic-rail-programmed-sink.yaml";
+    const DESIGN: [&str; 8] = [
+        "--part",
+        "npn-dual-general",
+        "--topology",
+        "simple",
+        "--re",
+        "1.62k",
+        "--resistor",
+        "thin-film-0p1pct",
+    ];
+
+    #[test]
+    fn solve_takes_a_rail_and_r_ref_instead_of_a_current() {
+        let out = mirrorpick()
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
+            .args([
+                "--rail", "5V", "--rref", "4.3k", "--vout", "3V", "--supply", "5V",
+            ])
+            .args(["--rref-resistor", "thin-film-0p1pct", "--format", "json"])
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+        let (i_in, v_in) = (v["i_in"].as_f64().unwrap(), v["v_in"].as_f64().unwrap());
+        // Sedra & Smith: I_in = (V_prog - V_BE) / R_ref with the solved V_BE (TCR is
+        // zero effect at 25 °C).
+        assert!((i_in / ((5.0 - v_in) / 4.3e3) - 1.0).abs() < 1e-6, "{v}");
+        assert_eq!(v["r_ref_resistor"], "thin-film-0p1pct");
+        assert!(v["r_ref_power_w"].as_f64().unwrap() > 0.0);
+        assert!(v["tempco_ppm_per_k"].as_f64().unwrap() > 100.0);
+        mirrorpick()
+            .args([
+                "solve",
+                "--topology",
+                "simple",
+                "--part",
+                "npn-dual-general",
+            ])
+            .args(["--rail", "5V", "--rref", "4.3k", "--vout", "3V"])
+            .assert()
+            .success()
+            .stdout(predicate::str::contains("R_ref power"))
+            .stdout(predicate::str::contains("output tempco"));
+        for (extra, says) in [
+            (
+                vec!["--iin", "1mA", "--rail", "5V", "--rref", "4.3k"],
+                "not both",
+            ),
+            (vec![], "give the input"),
+            (vec!["--rail", "5V"], "--rail needs --rref"),
+        ] {
+            mirrorpick()
+                .args([
+                    "solve",
+                    "--topology",
+                    "simple",
+                    "--part",
+                    "npn-dual-general",
+                ])
+                .args(["--vout", "3V"])
+                .args(extra)
+                .assert()
+                .code(2)
+                .stderr(predicate::str::contains(says));
+        }
+    }
+
+    #[test]
+    fn curves_add_the_output_against_the_rail() {
+        let out = mirrorpick()
+            .args(["curves", REQ])
+            .args(DESIGN)
+            .args(["--format", "json"])
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+        assert_eq!(v["rail_window_v"]["min"], 4.9);
+        assert_eq!(v["output_wanted_a"], 1e-3);
+        let rail = v["rail"].as_array().unwrap();
+        assert_eq!(rail.len(), 2, "at V_out min and max");
+        for c in rail {
+            let r: Vec<f64> = c["rail_v"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|x| x.as_f64().unwrap())
+                .collect();
+            let i: Vec<f64> = c["i_out_a"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|x| x.as_f64().unwrap())
+                .collect();
+            // Over the rail's range and beyond it on both sides.
+            assert!(r[0] < 4.9 && *r.last().unwrap() > 5.1, "{r:?}");
+            // More rail, more current: (V_rail - V_in) / R_ref.
+            assert!(i.windows(2).all(|w| w[1] > w[0]), "{i:?}");
+            let mid = i[r.len() / 2];
+            assert!((mid / 1e-3 - 1.0).abs() < 0.02, "{mid}");
+        }
+        mirrorpick()
+            .args(["curves", REQ])
+            .args(DESIGN)
+            .assert()
+            .success()
+            .stdout(predicate::str::contains(
+                "Output current against the program rail",
+            ));
+    }
+
+    #[test]
+    fn the_spice_bench_drives_the_input_through_r_ref_from_the_rail() {
+        let out = mirrorpick()
+            .args(["export", "--spice", REQ])
+            .args(DESIGN)
+            .args(["--rref", "2.74k"])
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone();
+        let deck = String::from_utf8(out).unwrap();
+        assert!(deck.contains("\nR3 vp in 2.74e3 "), "{deck}");
+        assert!(deck.contains("\nVP vp 0 DC 4.9e0\n"), "{deck}");
+        assert!(!deck.contains("\nIIN "), "no forced current:\n{deck}");
+        assert!(
+            deck.contains(".dc VOUT 0 5.1e0 2.55e-2 VP 4.9e0 5.1e0 2e-1"),
+            "{deck}"
+        );
+        assert!(
+            deck.contains("programmed by R3 from the program rail P, 4.90 V to 5.10 V"),
+            "{deck}"
+        );
+    }
+}

@@ -33,13 +33,20 @@ pub struct Resolved<'a> {
     /// The class the helper transistors actually sit in, per the package layout, when it
     /// is not the pair's class.
     pub helper_placed: Option<&'a TransistorClass>,
+    /// The programming resistor, ohms (0: the input current is forced).
+    pub r_ref_ohm: f64,
+    /// R_ref's class.
+    pub r_ref_class: Option<&'a ResistorClass>,
 }
 
 impl<'a> Resolved<'a> {
     pub fn design(&self) -> Design<'a> {
         Design {
             shape: self.shape,
-            r_ref: None,
+            r_ref: (self.r_ref_ohm > 0.0).then(|| crate::circuit::RefResistor {
+                ohm: self.r_ref_ohm,
+                tcr_per_k: self.r_ref_class.map_or(0.0, |r| r.tcr_per_k),
+            }),
             topology: self.topology,
             pair: self.pair,
             helper: self.helper,
@@ -62,7 +69,12 @@ impl<'a> Resolved<'a> {
                 ohm(self.re2_ohm)
             ),
         };
-        format!("{} · {}{res}", self.topology.name(), self.pair.id)
+        let r_ref = if self.r_ref_ohm > 0.0 {
+            format!(" · R_ref = {}", ohm(self.r_ref_ohm))
+        } else {
+            String::new()
+        };
+        format!("{} · {}{res}{r_ref}", self.topology.name(), self.pair.id)
     }
 
     pub fn spice(&self) -> spice::SpiceDesign<'a> {
@@ -74,6 +86,13 @@ impl<'a> Resolved<'a> {
             re2_ohm: self.re2_ohm,
             resistor: self.resistor,
             shape: self.shape,
+            r_ref: self
+                .r_ref_class
+                .filter(|_| self.r_ref_ohm > 0.0)
+                .map(|class| spice::SpiceRef {
+                    ohm: self.r_ref_ohm,
+                    class,
+                }),
         }
     }
 }
@@ -86,6 +105,16 @@ pub fn resolve<'a>(
     req: &crate::model::Requirement,
 ) -> Result<Resolved<'a>, AppError> {
     let spec = design_spec(req, catalog, args)?;
+    // Without --rref, R_ref is the standard value nearest the exact one, as `check` takes.
+    let spec = check::choose_r_ref(req, catalog, &spec, &std::sync::atomic::AtomicU64::new(0));
+    if let (Some(p), true) = (req.program, spec.r_ref_pick.is_some()) {
+        return Err(AppError::Usage(format!(
+            "R_ref cannot be sized for this design: it does not solve at the wanted output \
+             current {} or the nominal rail {} is below its input voltage; name R_ref with --rref",
+            crate::units::format_prefixed(p.output_current_a, "A"),
+            crate::units::format_prefixed(p.rail_nominal_v(), "V")
+        )));
+    }
     let d = check::resolve(catalog, &spec).map_err(crate::rank::RankError::from)?;
     let polarity = req.kind.polarity();
     if d.pair.polarity != polarity {
@@ -115,6 +144,8 @@ pub fn resolve<'a>(
         re2_ohm: spec.re2_ohm,
         resistor: d.resistor,
         shape: spec.shape,
+        r_ref_ohm: spec.r_ref_ohm,
+        r_ref_class: d.r_ref,
     })
 }
 
@@ -178,6 +209,9 @@ pub fn run_curves(
         // With a single programming current there is no error-against-current curve.
         if req.input_current_a.max > req.input_current_a.min {
             parts.push(plot::error_vs_input_svg(&set)?);
+        }
+        if let Some(rail) = plot::output_vs_rail_svg(&set)? {
+            parts.push(rail);
         }
         f.commit(stack_svgs(&parts).as_bytes())?;
     }

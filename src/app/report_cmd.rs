@@ -48,7 +48,15 @@ pub struct ReportArgs {
 fn design_of<'a>(catalog: &'a Catalog, row: &CandidateRow) -> Option<Design<'a>> {
     Some(Design {
         shape: row.shape,
-        r_ref: None,
+        // A programmed row's R_ref, so the curves add the output against the rail.
+        r_ref: row.r_ref_ohm.map(|ohm| crate::circuit::RefResistor {
+            ohm,
+            tcr_per_k: row
+                .r_ref_resistor
+                .as_ref()
+                .and_then(|r| catalog.resistor(r))
+                .map_or(0.0, |r| r.tcr_per_k),
+        }),
         topology: Topology::from_name(row.topology)?,
         pair: catalog.transistor(&row.part)?,
         helper: match &row.helper {

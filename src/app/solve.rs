@@ -20,6 +20,13 @@
 //! `density_a_per_rthz` = that source's white output density, and `flicker_a2` = its
 //! output flicker coefficient, density `/ f`).
 //!
+//! A programmed design (`--rail V --rref R`, with `--rref-resistor CLASS` for its TCR and
+//! power rating) is solved with the programming resistor from the rail to the input: the
+//! input current is the circuit's, not forced. Its JSON adds `rail_v`, `r_ref_ohm`,
+//! `r_ref_resistor` and `r_ref_power_w` (null when the input is forced);
+//! `tempco_ppm_per_k` (every design) is the output current's slope with the ambient at
+//! this point, `(I_out(T + 5 K) - I_out(T - 5 K)) / (10 K I_out(T))`.
+//!
 //! Emitter resistors: `--re` sets RE1 = RE2; `--re1` and `--re2` go together (one
 //! without the other would solve a lopsided mirror, so it is refused with the RE2 the
 //! ratio needs); a Widlar takes `--re2` only and needs `--ratio`.
@@ -50,7 +57,14 @@ pub struct SolveArgs {
     pub re2_ohm: Option<f64>,
     /// The requested ratio n = I_out / I_in (`--ratio`); 1 when absent.
     pub ratio: Option<f64>,
-    pub i_in_a: f64,
+    /// The forced input current (`--iin`); exclusive with `rail_v`.
+    pub i_in_a: Option<f64>,
+    /// The program rail (`--rail`), volts from the mirror rail; needs `r_ref_ohm`.
+    pub rail_v: Option<f64>,
+    /// The programming resistor from the rail to the input (`--rref`).
+    pub r_ref_ohm: Option<f64>,
+    /// R_ref's resistor class (`--rref-resistor`): its TCR and power rating.
+    pub r_ref_resistor: Option<String>,
     pub v_out_v: f64,
     /// Defaults to `v_out_v`.
     pub supply_v: Option<f64>,
@@ -94,6 +108,15 @@ pub enum SolveCommandError {
     /// The emitter resistors given do not describe the mirror asked for.
     #[error("{0}")]
     Resistors(String),
+    /// The input is neither forced nor programmed, or both, or half programmed.
+    #[error("{0}")]
+    Input(String),
+    #[error("unknown resistor class `{}`{}; expected one of {}", crate::text::shown(id), did_you_mean(.suggestions), .known.join(", "))]
+    UnknownResistor {
+        id: String,
+        suggestions: Vec<String>,
+        known: Vec<String>,
+    },
     /// The design needs a helper and the catalog has no single of that polarity.
     #[error("{0}")]
     NoHelper(SolveFailure),
@@ -150,6 +173,7 @@ pub struct TransistorReport {
 /// The `solve` command's finished result (the JSON wire type).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SolveReport {
+    /// The input current: forced, or solved through R_ref.
     pub i_in: f64,
     /// The worst output's current (the only output's on a single-output design).
     pub i_out: f64,
@@ -171,6 +195,15 @@ pub struct SolveReport {
     /// White output current noise density, A/√Hz (small-signal; docs/model.md).
     pub noise_a_per_rthz: f64,
     pub noise_sources: Vec<NoiseSourceReport>,
+    /// The program rail, volts from the mirror rail (null: the input current is forced).
+    pub rail_v: Option<f64>,
+    pub r_ref_ohm: Option<f64>,
+    pub r_ref_resistor: Option<String>,
+    /// Power in R_ref at this point, watts.
+    pub r_ref_power_w: Option<f64>,
+    /// The output current's temperature coefficient at this point, ppm/K (null when a
+    /// neighbouring ambient does not solve).
+    pub tempco_ppm_per_k: Option<f64>,
 }
 
 /// One output of the solved point.
@@ -214,6 +247,8 @@ fn check(
     } else {
         let dimension = match what {
             "the input current" => D::Current,
+            "the program rail" => D::Voltage,
+            "R_ref" => D::Resistance,
             "the output voltage" | "the supply" | "the V_BE offset" => D::Voltage,
             "the ambient temperature" => D::Temperature,
             "RE1" | "RE2" => D::Resistance,
@@ -261,12 +296,27 @@ pub fn solve_command(
         None => catalog.cheapest_single(pair.polarity),
     };
     let supply = args.supply_v.unwrap_or(args.v_out_v);
-    check(
-        "the input current",
-        args.i_in_a,
-        args.i_in_a > 0.0,
-        "a current above 0 A",
-    )?;
+    let program = programming(args)?;
+    let r_ref_class = match &args.r_ref_resistor {
+        None => None,
+        Some(id) => Some(catalog.resistor(id).ok_or_else(|| {
+            SolveCommandError::UnknownResistor {
+                id: id.clone(),
+                suggestions: crate::input::did_you_mean(
+                    id,
+                    catalog.resistors.iter().map(|r| r.id.as_str()),
+                )
+                .into_iter()
+                .collect(),
+                known: catalog.resistors.iter().map(|r| r.id.clone()).collect(),
+            }
+        })?),
+    };
+    let i_in_hint = match program {
+        Program::Forced(i) => i,
+        // Only a start-point hint: the netlist solves the input current itself.
+        Program::Resistor { rail_v, r_ref_ohm } => rail_v / r_ref_ohm,
+    };
     check(
         "the output voltage",
         args.v_out_v,
@@ -293,7 +343,7 @@ pub fn solve_command(
         ratio > 0.0,
         "a ratio I_out/I_in above 0",
     )?;
-    let (re1_ohm, re2_ohm) = resistors(args, widlar, ratio)?;
+    let (re1_ohm, re2_ohm) = resistors(args, widlar, ratio, i_in_hint)?;
     check("RE1", re1_ohm, re1_ohm >= 0.0, "a resistance >= 0 ohm")?;
     check("RE2", re2_ohm, re2_ohm >= 0.0, "a resistance >= 0 ohm")?;
     check(
@@ -311,7 +361,13 @@ pub fn solve_command(
 
     let design = Design {
         shape: args.shape,
-        r_ref: None,
+        r_ref: match program {
+            Program::Forced(_) => None,
+            Program::Resistor { r_ref_ohm, .. } => Some(crate::circuit::RefResistor {
+                ohm: r_ref_ohm,
+                tcr_per_k: r_ref_class.map_or(0.0, |r| r.tcr_per_k),
+            }),
+        },
         topology: args.topology,
         pair,
         helper,
@@ -325,8 +381,11 @@ pub fn solve_command(
         ..Mismatch::default()
     };
     let op = OperatingPoint {
-        rail_v: None,
-        i_in_a: args.i_in_a,
+        rail_v: match program {
+            Program::Forced(_) => None,
+            Program::Resistor { rail_v, .. } => Some(rail_v),
+        },
+        i_in_a: i_in_hint,
         v_out_v: args.v_out_v,
         supply_v: supply,
         t_amb_k: args.ambient_k,
@@ -363,6 +422,7 @@ pub fn solve_command(
     } else {
         helper
     };
+    let r_ref_ohm = design.r_ref.map(|r| r.ohm);
     let packages = match crate::model::fanout::form(args.topology, args.shape) {
         Ok(form) if !args.shape.is_single() => check::place_form(form, pair, placed_helper),
         _ => check::place(args.topology, pair, placed_helper),
@@ -374,11 +434,19 @@ pub fn solve_command(
         re1_ohm,
         re2_ohm,
         None,
+        r_ref_ohm.map(|ohm| crate::check::refdes::RefPart {
+            ohm,
+            class: args.r_ref_resistor.as_deref(),
+        }),
     );
-    let err = |i: f64| i / (n * op.i_in_a) - 1.0;
+    let mut cautions = rating_cautions(&design, helper_used, &sol, &op);
+    if let Some(c) = r_ref_caution(&parts, r_ref_class, &sol, args.ambient_k) {
+        cautions.push(c);
+    }
+    let err = |i: f64| i / (n * sol.i_in_a) - 1.0;
     let (worst, worst_error) = sol.worst_output(err);
     Ok(SolveReport {
-        i_in: op.i_in_a,
+        i_in: sol.i_in_a,
         i_out: sol.outputs()[worst],
         error: worst_error,
         worst_output: worst + 1,
@@ -415,7 +483,12 @@ pub fn solve_command(
             .collect(),
         iterations: sol.iterations,
         ratio: n,
-        cautions: rating_cautions(&design, helper_used, &sol, &op),
+        cautions,
+        rail_v: program.rail(),
+        r_ref_ohm,
+        r_ref_resistor: r_ref_ohm.and(r_ref_class.map(|r| r.id.clone())),
+        r_ref_power_w: r_ref_ohm.map(|_| sol.r_ref_power_w),
+        tempco_ppm_per_k: tempco(&net, &op, &opts, sol.i_out_a).map(|t| t * 1e6),
         noise_a_per_rthz: noise.white_density(),
         noise_sources: noise
             .sources
@@ -431,13 +504,119 @@ pub fn solve_command(
     })
 }
 
+/// How the input is set.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Program {
+    Forced(f64),
+    Resistor { rail_v: f64, r_ref_ohm: f64 },
+}
+
+impl Program {
+    fn rail(self) -> Option<f64> {
+        match self {
+            Program::Forced(_) => None,
+            Program::Resistor { rail_v, .. } => Some(rail_v),
+        }
+    }
+}
+
+/// `--iin`, or `--rail` with `--rref`: exactly one way of setting the input.
+fn programming(args: &SolveArgs) -> Result<Program, SolveCommandError> {
+    let bad = |m: &str| Err(SolveCommandError::Input(m.to_string()));
+    match (args.i_in_a, args.rail_v, args.r_ref_ohm) {
+        (Some(_), Some(_), _) => bad(
+            "--iin and --rail both set the input: give --iin for a forced input current, or --rail with --rref for a programming resistor, not both",
+        ),
+        (Some(_), None, Some(_)) => bad(
+            "--rref needs --rail (the rail it hangs from) instead of --iin: a programmed input current is solved, not forced",
+        ),
+        (Some(i), None, None) => {
+            if args.r_ref_resistor.is_some() {
+                return bad("--rref-resistor needs --rail and --rref (a programming resistor)");
+            }
+            check("the input current", i, i > 0.0, "a current above 0 A")?;
+            Ok(Program::Forced(i))
+        }
+        (None, Some(_), None) => bad(
+            "--rail needs --rref, the programming resistor from the rail to the input (for example --rail 12V --rref 11k)",
+        ),
+        (None, Some(rail_v), Some(r_ref_ohm)) => {
+            check(
+                "the program rail",
+                rail_v,
+                rail_v > 0.0,
+                "a voltage above 0 V from the mirror rail",
+            )?;
+            check("R_ref", r_ref_ohm, r_ref_ohm > 0.0, "a resistance above 0 ohm")?;
+            Ok(Program::Resistor { rail_v, r_ref_ohm })
+        }
+        (None, None, _) => bad(
+            "give the input: --iin for a forced input current (for example --iin 100uA), or --rail with --rref for a programming resistor (for example --rail 12V --rref 11k)",
+        ),
+    }
+}
+
+/// The output's relative slope with the ambient at `op`: a central difference over
+/// +-5 K (`None` when either neighbour does not solve).
+fn tempco(net: &Netlist, op: &OperatingPoint, opts: &SolveOptions, i_out: f64) -> Option<f64> {
+    const DT: f64 = 5.0;
+    let at = |t: f64| {
+        net.solve(&OperatingPoint { t_amb_k: t, ..*op }, opts)
+            .ok()
+            .map(|s| s.i_out_a)
+    };
+    let (lo, hi) = (at(op.t_amb_k - DT)?, at(op.t_amb_k + DT)?);
+    let t = (hi - lo) / (2.0 * DT * i_out);
+    t.is_finite().then_some(t)
+}
+
+/// R_ref's power against its class's rating derated at the ambient (the default chip
+/// rating when no class is named), as `check` judges it.
+fn r_ref_caution(
+    parts: &[crate::check::refdes::Element],
+    class: Option<&crate::model::ResistorClass>,
+    sol: &crate::circuit::Solution,
+    ambient_k: f64,
+) -> Option<String> {
+    let name = crate::check::refdes::designator_of(parts, crate::check::refdes::R_REF_NAME)?;
+    let rating = match class {
+        Some(c) => c.power_rating_at(ambient_k),
+        None => crate::model::derated_power(crate::model::DEFAULT_POWER_RATING_W, ambient_k),
+    };
+    let p = sol.r_ref_power_w;
+    let of = if class.is_some() {
+        "its class's rating"
+    } else {
+        "a chip resistor's default rating (no --rref-resistor)"
+    };
+    if p > rating {
+        Some(format!(
+            "{name} (R_ref) dissipates {} against {} allowed at this ambient ({of}, derated above 70 °C)",
+            eng(p, "W"),
+            eng(rating, "W")
+        ))
+    } else if p > 0.5 * rating {
+        Some(format!(
+            "{name} (R_ref) dissipates {:.0} % of {of} at this ambient; choose a larger size or a higher-rated class",
+            100.0 * p / rating
+        ))
+    } else {
+        None
+    }
+}
+
 fn helper_needed(design: &Design) -> bool {
     check::helper_count(design.topology) > 0
         && !check::helpers_fit_in_spares_for(design.topology, design.shape, design.pair)
 }
 
 /// RE1 and RE2 from what was given; a lopsided pair is refused rather than assumed.
-fn resistors(args: &SolveArgs, widlar: bool, ratio: f64) -> Result<(f64, f64), SolveCommandError> {
+fn resistors(
+    args: &SolveArgs,
+    widlar: bool,
+    ratio: f64,
+    i_in_a: f64,
+) -> Result<(f64, f64), SolveCommandError> {
     let bad = |m: String| Err(SolveCommandError::Resistors(m));
     if widlar {
         if args.re1_ohm.is_some_and(|r| r > 0.0) {
@@ -452,10 +631,10 @@ fn resistors(args: &SolveArgs, widlar: bool, ratio: f64) -> Result<(f64, f64), S
         return Ok((0.0, re2));
     }
     let suggestion = |re1: f64| -> String {
-        match crate::rank::ratio_re2(re1, ratio, args.i_in_a, args.ambient_k) {
+        match crate::rank::ratio_re2(re1, ratio, i_in_a, args.ambient_k) {
             Some(re2) => format!(
                 "for a ratio of {ratio} at {} and this ambient, n I_in RE2 = I_in RE1 - V_T ln(n) gives RE2 = {}",
-                eng(args.i_in_a, "A"),
+                eng(i_in_a, "A"),
                 eng(re2, "Ω")
             ),
             None => format!("RE1 is too small to set a ratio of {ratio} at this current"),
@@ -589,7 +768,25 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         .load_preset(UTF8_FULL)
         .set_content_arrangement(ContentArrangement::Disabled)
         .set_header(vec!["figure", "value"]);
-    figures.add_row(vec!["input current".to_string(), eng(report.i_in, "A")]);
+    if let (Some(rail), Some(r)) = (report.rail_v, report.r_ref_ohm) {
+        figures.add_row(vec!["program rail".to_string(), eng(rail, "V")]);
+        figures.add_row(vec![
+            "R_ref".to_string(),
+            match &report.r_ref_resistor {
+                Some(c) => format!("{} ({c})", eng(r, "Ω")),
+                None => format!("{} (TCR 0: no --rref-resistor)", eng(r, "Ω")),
+            },
+        ]);
+    }
+    figures.add_row(vec![
+        if report.rail_v.is_some() {
+            "input current (solved)"
+        } else {
+            "input current"
+        }
+        .to_string(),
+        eng(report.i_in, "A"),
+    ]);
     if report.outputs.len() > 1 {
         for o in &report.outputs {
             let worst = if o.output == report.worst_output {
@@ -624,6 +821,17 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
             .map_or("infinite (no Early effect)".to_string(), |r| eng(r, "Ω")),
     ]);
     figures.add_row(vec!["input voltage".to_string(), eng(report.v_in, "V")]);
+    if let Some(p) = report.r_ref_power_w {
+        figures.add_row(vec!["R_ref power".to_string(), eng(p, "W")]);
+    }
+    figures.add_row(vec![
+        "output tempco (±5 K)".to_string(),
+        report
+            .tempco_ppm_per_k
+            .map_or("no solution at ±5 K".to_string(), |t| {
+                format!("{t:+.0} ppm/K")
+            }),
+    ]);
     figures.add_row(vec![
         "balance voltage".to_string(),
         report

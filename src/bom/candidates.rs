@@ -76,6 +76,12 @@
 //! take it; a helper verified as a separate single may only be a single of that class
 //! (its ratings were checked with that class and no other).
 //!
+//! **Programming resistors.** A channel programmed by a resistor from a rail has R_ref
+//! sized per candidate from its solved input voltage (`check::choose_r_ref`) as soon as
+//! it survives the screen, before any bound is taken: R_ref is one more resistor item
+//! (its class and value), counted in the share, the line items and the usage exactly
+//! like an emitter resistor, so channels whose R_ref values agree share one line item.
+//!
 //! **No feasible design.** The channel gets no option and a reason: the check that
 //! rejected its cheapest candidate, with the count of rejections by check.
 //!
@@ -88,11 +94,14 @@ use std::collections::BTreeMap;
 use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
-use crate::check::{helper_count, helpers_fit_in_spares_for, resolve, DesignSpec, Evaluation};
-use crate::check::{CheckName, MonteCarlo};
+use crate::check::{
+    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, DesignSpec,
+    Evaluation, MonteCarlo,
+};
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
 use crate::rank::{enumerate, screen_only, search, verify_each, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
+use rayon::prelude::*;
 
 /// One channel's candidates as passed to the program, with what is needed to report on
 /// the chosen one.
@@ -271,6 +280,10 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
             }
         }
     }
+    if let (Some(r), true) = (d.r_ref, spec.r_ref_ohm > 0.0) {
+        share += r.unit_cost;
+        items.push(Item::Resistor(r.id.clone(), spec.r_ref_ohm.to_bits()));
+    }
     items.sort();
     items.dedup();
     Some(Cand {
@@ -334,9 +347,10 @@ fn fast_feed(
         .map(|(req, g)| {
             let (rejected, survivors) = screen_only(req, catalog, g, &solves);
             progress.advance(rejected.len() as u64);
+            // R_ref is sized here (three solves a candidate): its value is a line item.
             let cands = survivors
-                .into_iter()
-                .filter_map(|(spec, _)| cand(spec, catalog))
+                .into_par_iter()
+                .filter_map(|(spec, _)| cand(choose_r_ref(req, catalog, &spec, &solves), catalog))
                 .collect();
             (rejected, cands)
         })
@@ -612,21 +626,28 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
         (spec.helper.clone(), Some(Vec::new()))
     };
     let mut resistors: Vec<ResistorUse> = Vec::new();
-    if let Some(class) = &spec.resistor {
-        // RE1 once, RE2 once per output.
-        let re2_count = u32::from(spec.shape.outputs);
-        for (value, count) in [(spec.re1_ohm, 1), (spec.re2_ohm, re2_count)] {
-            if value <= 0.0 {
-                continue;
-            }
-            match resistors.iter_mut().find(|r| r.value_ohm == value) {
-                Some(r) => r.count += count,
-                None => resistors.push(ResistorUse {
-                    class: class.clone(),
-                    value_ohm: value,
-                    count,
-                }),
-            }
+    // Emitter resistors (RE1 once, RE2 once per output), then R_ref (its own class): one
+    // entry per (class, value).
+    let outputs = u32::from(spec.shape.outputs);
+    let re = spec
+        .resistor
+        .iter()
+        .flat_map(|c| [(c, spec.re1_ohm, 1), (c, spec.re2_ohm, outputs)]);
+    let r_ref = spec.r_ref_resistor.iter().map(|c| (c, spec.r_ref_ohm, 1));
+    for (class, value, count) in re.chain(r_ref) {
+        if value <= 0.0 {
+            continue;
+        }
+        match resistors
+            .iter_mut()
+            .find(|r| r.value_ohm == value && r.class == *class)
+        {
+            Some(r) => r.count += count,
+            None => resistors.push(ResistorUse {
+                class: class.clone(),
+                value_ohm: value,
+                count,
+            }),
         }
     }
     let (governing_check, governing_margin) = ev
@@ -674,6 +695,12 @@ pub fn label(spec: &DesignSpec) -> String {
             ", RE {}/{} {r}",
             ohm(spec.re1_ohm),
             ohm(spec.re2_ohm)
+        ));
+    }
+    if let (Some(r), true) = (&spec.r_ref_resistor, spec.r_ref_ohm > 0.0) {
+        s.push_str(&format!(
+            ", R_ref {} {r}",
+            format_quantity(spec.r_ref_ohm, Dimension::Resistance)
         ));
     }
     s

@@ -10,12 +10,19 @@
 //!    channels: [{ channel, count, option, label, topology, pair_class, helper_class,
 //!                 resistors: [{ class, value_ohm, count }], governing_check,
 //!                 governing_margin, copies: [{ copy, matched: ["Q1A", ...],
-//!                 helpers: [...] }] }],
+//!                 helpers: [...], resistors: ["R1", ...] }] }],
 //!    parts_cost_per_board, parts_cost_per_build, line_items_cost, total_cost,
 //!    baseline: { options, parts_cost_per_board, line_items, total_cost,
 //!                within_line_item_limit }, saving,
 //!    shared_packages: [{ designator, occupants: ["channel#copy", ...] }] }`.
 //! Fields that do not apply to a line kind are `null`.
+//!
+//! Resistor designators are numbered across the board as the packages are (IEEE 315
+//! class letter R): channel by channel, copy by copy, each copy's resistors in the order
+//! of its `resistors` entries (emitter resistors RE1, RE2, then the programming
+//! resistor: the netlist order of `check::refdes`), so a board's first channel, with one
+//! copy, carries the resistor designators of the design's own schematic, report and SPICE
+//! deck (its transistors do too when its packages are numbered first).
 
 use std::io::{self, Write};
 
@@ -37,6 +44,29 @@ fn slot(s: &DeviceSlot) -> String {
 
 fn slots(v: &[DeviceSlot]) -> String {
     v.iter().map(slot).collect::<Vec<_>>().join(" ")
+}
+
+/// Board-wide resistor designators: per channel, per copy, `R1`, `R2`, ... (module docs).
+pub fn resistor_designators(plan: &BoardPlan) -> Vec<Vec<Vec<String>>> {
+    let mut n = 0;
+    plan.channels
+        .iter()
+        .map(|a| {
+            a.copies
+                .iter()
+                .map(|_| {
+                    a.resistors
+                        .iter()
+                        .flat_map(|r| 0..r.count)
+                        .map(|_| {
+                            n += 1;
+                            format!("R{n}")
+                        })
+                        .collect()
+                })
+                .collect()
+        })
+        .collect()
 }
 
 fn item_name(l: &BomLine) -> (String, String) {
@@ -143,7 +173,8 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
         ]
     };
     asg.load_preset(UTF8_FULL_CONDENSED).set_header(header);
-    for a in &plan.channels {
+    let res_refs = resistor_designators(plan);
+    for (k, a) in plan.channels.iter().enumerate() {
         let re = a
             .resistors
             .iter()
@@ -160,10 +191,15 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
         let places = a
             .copies
             .iter()
-            .map(|c| {
+            .enumerate()
+            .map(|(j, c)| {
                 let mut s = format!("#{}: {}", c.copy, slots(&c.matched));
                 if !c.helpers.is_empty() {
                     s.push_str(&format!(" + helper {}", slots(&c.helpers)));
+                }
+                let r = &res_refs[k][j];
+                if !r.is_empty() {
+                    s.push_str(&format!(", {}", r.join(" ")));
                 }
                 s
             })
@@ -286,6 +322,7 @@ struct JsonCopy {
     copy: u32,
     matched: Vec<String>,
     helpers: Vec<String>,
+    resistors: Vec<String>,
 }
 
 #[derive(Serialize)]
@@ -382,10 +419,12 @@ pub fn write_json(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
             },
         })
         .collect();
+    let res_refs = resistor_designators(plan);
     let channels = plan
         .channels
         .iter()
-        .map(|a| JsonChannel {
+        .zip(&res_refs)
+        .map(|(a, refs)| JsonChannel {
             channel: &a.channel,
             count: a.count,
             option: a.option,
@@ -407,10 +446,12 @@ pub fn write_json(plan: &BoardPlan, out: &mut dyn Write) -> io::Result<()> {
             copies: a
                 .copies
                 .iter()
-                .map(|c| JsonCopy {
+                .zip(refs)
+                .map(|(c, r)| JsonCopy {
                     copy: c.copy,
                     matched: c.matched.iter().map(slot).collect(),
                     helpers: c.helpers.iter().map(slot).collect(),
+                    resistors: r.clone(),
                 })
                 .collect(),
         })

@@ -417,15 +417,26 @@ impl<'a> Evaluator<'a> {
 
     /// Monte Carlo yield with every sampled build re-solved at every corner (the same
     /// draws as the first-order yield): a confirmation for one design, too costly for a
-    /// search. A build whose circuit fails to solve counts as out of spec.
+    /// search. A build whose circuit fails to solve counts as out of spec
+    /// (`solved_yield_and_failure` says which one).
     pub fn solved_yield(&self, mc: MonteCarlo) -> f64 {
+        self.solved_yield_and_failure(mc).0
+    }
+
+    /// The re-solved yield and the first sampled build that could not be solved at a
+    /// corner (thermal runaway, no solution), which the verdict names rather than counting
+    /// it silently as one more build out of spec. A build's corners are solved in order
+    /// until one is out of spec or fails to solve.
+    pub fn solved_yield_and_failure(&self, mc: MonteCarlo) -> (f64, Option<SampleFailure>) {
         if mc.samples == 0 {
-            return f64::NAN;
+            return (f64::NAN, None);
         }
         let sigmas = self.sigmas();
         let scales = self.output_scales();
         let mut good = 0u32;
-        for zs in outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs) {
+        let mut first_failure: Option<SampleFailure> = None;
+        let builds = outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs);
+        for (k, zs) in builds.enumerate() {
             let z = zs[0];
             let mut mm = Mismatch {
                 dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
@@ -436,10 +447,10 @@ impl<'a> Evaluator<'a> {
                 more: Default::default(),
             };
             // Every further output draws its own devices' and RE2's deviations.
-            for (k, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
+            for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
                 let s = |i: usize| zk[i] * sigmas[i] * sk[i];
                 mm.set_output(
-                    k as u8 + 1,
+                    o as u8 + 1,
                     OutputDeviation {
                         dvbe_v: [s(0), s(1)],
                         dbeta: [s(2), s(3)],
@@ -447,16 +458,39 @@ impl<'a> Evaluator<'a> {
                     },
                 );
             }
-            let Ok(net) = self.compile(&mm, NOMINAL) else {
-                continue;
+            let mut fail = |corner: Option<OperatingCorner>, failure: SolveFailure| {
+                first_failure.get_or_insert(SampleFailure {
+                    sample: k as u32 + 1,
+                    samples: mc.samples,
+                    seed: mc.seed,
+                    corner,
+                    failure,
+                });
             };
-            let within = self.corners.iter().all(|c| {
-                self.solve_net(&net, c, true)
-                    .is_ok_and(|s| s.error.abs() <= self.req.accuracy)
-            });
+            let net = match self.compile(&mm, NOMINAL) {
+                Ok(net) => net,
+                Err(f) => {
+                    fail(None, f);
+                    continue;
+                }
+            };
+            let mut within = true;
+            for c in &self.corners {
+                match self.solve_net(&net, c, true) {
+                    Ok(s) if s.error.abs() <= self.req.accuracy => {}
+                    Ok(_) => within = false,
+                    Err(f) => {
+                        fail(Some(*c), f);
+                        within = false;
+                    }
+                }
+                if !within {
+                    break;
+                }
+            }
             good += u32::from(within);
         }
-        f64::from(good) / f64::from(mc.samples)
+        (f64::from(good) / f64::from(mc.samples), first_failure)
     }
 
     fn input_limit(&self) -> f64 {
@@ -856,7 +890,11 @@ impl<'a> Evaluator<'a> {
                         None => String::new(),
                     };
                     let (value, detail) = if near {
-                        figures.yield_solved = self.solved_yield(mc);
+                        let (y, failure) = self.solved_yield_and_failure(mc);
+                        figures.yield_solved = y;
+                        if let Some(f) = failure {
+                            push_failure(&mut checks, failure_check(&f.failure, &f.build()));
+                        }
                         (
                             figures.yield_solved,
                             format!(
@@ -1264,8 +1302,30 @@ fn modified(class: &TransistorClass, v: Variant) -> TransistorClass {
     c
 }
 
+/// A sampled build of the re-solved yield that could not be solved.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SampleFailure {
+    /// 1-based, in the order of the seeded draws.
+    pub sample: u32,
+    pub samples: u32,
+    pub seed: u64,
+    /// The corner that failed; `None` when the build's netlist could not be compiled.
+    pub corner: Option<OperatingCorner>,
+    pub failure: SolveFailure,
+}
+
+impl SampleFailure {
+    /// The build in the words of `failure_check`.
+    pub fn build(&self) -> String {
+        format!(
+            "yield sample {} of {} (seed {}; counted out of spec)",
+            self.sample, self.samples, self.seed
+        )
+    }
+}
+
 /// A failed solve as a check of its own name, saying in which build it happened (the
-/// nominal design or an error-budget build; MODEL.md).
+/// nominal design, an error-budget build or a yield sample; MODEL.md).
 fn failure_check(f: &SolveFailure, build: &str) -> Check {
     // The failure names the topology, part and operating point; add which build.
     let at = format!("in the {build}: {f}");

@@ -33,7 +33,7 @@ pub use design::{
 };
 pub use evaluate::{
     compliance_rule, tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
-    YIELD_SCREEN_BAND,
+    SampleFailure, YIELD_SCREEN_BAND,
 };
 pub use montecarlo::linear_yield;
 pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};

@@ -9,7 +9,9 @@
 //! (`bom::plan`). Packages are numbered in placement order (`check::design::place`: pair
 //! packages first, then helper singles); letters follow the netlist names inside a
 //! package, so a pair's reference device is `A`. Resistors are numbered in netlist order
-//! (RE1 before RE2); an emitter resistor of 0 ohm is a wire, not a part, and gets none.
+//! (RE1 before RE2, then the programming resistor `Rref`, which runs from the program
+//! rail `P` to the input); an emitter resistor of 0 ohm is a wire, not a part, and gets
+//! none.
 
 use crate::model::{fanout, Polarity, Role, Shape, Topology};
 
@@ -78,14 +80,28 @@ pub fn device_designator(package: usize, device: usize, devices_per_package: u32
     }
 }
 
+/// The programming resistor of a design: its value and class id.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RefPart<'a> {
+    pub ohm: f64,
+    pub class: Option<&'a str>,
+}
+
+/// The netlist name of the programming resistor (`Rref P in`).
+pub const R_REF_NAME: &str = "Rref";
+/// The node the programming resistor hangs from: the program rail.
+pub const PROGRAM_RAIL: &str = "P";
+
 /// Every part of a design in netlist order (transistors, then resistors), designated.
-/// `packages` is the design's placement; `resistor` the resistor class id, if any.
+/// `packages` is the design's placement; `resistor` the resistor class id, if any;
+/// `r_ref` the programming resistor, when the design has one.
 pub fn elements(
     topology: Topology,
     packages: &[Package],
     re1_ohm: f64,
     re2_ohm: f64,
     resistor: Option<&str>,
+    r_ref: Option<RefPart>,
 ) -> Vec<Element> {
     elements_of_shape(
         topology,
@@ -94,6 +110,7 @@ pub fn elements(
         re1_ohm,
         re2_ohm,
         resistor,
+        r_ref,
     )
 }
 
@@ -107,6 +124,7 @@ pub fn elements_of_shape(
     re1_ohm: f64,
     re2_ohm: f64,
     resistor: Option<&str>,
+    r_ref: Option<RefPart>,
 ) -> Vec<Element> {
     let Ok(form) = fanout::form(topology, shape) else {
         return Vec::new();
@@ -155,6 +173,18 @@ pub fn elements_of_shape(
             });
         }
     }
+    if let Some(r) = r_ref.filter(|r| r.ohm > 0.0) {
+        out.push(Element {
+            designator: format!("R{}", n + 1),
+            netlist_name: R_REF_NAME,
+            kind: ElementKind::Resistor {
+                a: "in",
+                b: PROGRAM_RAIL,
+                ohm: r.ohm,
+                class: r.class.map(str::to_string),
+            },
+        });
+    }
     out
 }
 
@@ -183,6 +213,7 @@ mod tests {
             &pk,
             re1,
             re.max(100.0 * f64::from(t == Topology::Widlar)),
+            None,
             None,
         )
         .iter()
@@ -219,6 +250,26 @@ mod tests {
             names(Topology::Widlar, 2, false, 0.0),
             "Q1=Q1A Q2=Q1B RE2=R1"
         );
+    }
+
+    #[test]
+    fn the_programming_resistor_follows_the_emitter_resistors() {
+        let pair = class("pair", 2, 1.0);
+        let pk = place(Topology::Wilson, &pair, None);
+        let r = RefPart {
+            ohm: 511e3,
+            class: Some("thin"),
+        };
+        let with = |re: f64| {
+            elements(Topology::Wilson, &pk, re, re, None, Some(r))
+                .iter()
+                .filter(|e| !e.is_transistor())
+                .map(|e| format!("{}={}", e.netlist_name, e.designator))
+                .collect::<Vec<_>>()
+                .join(" ")
+        };
+        assert_eq!(with(100.0), "RE1=R1 RE2=R2 Rref=R3");
+        assert_eq!(with(0.0), "Rref=R1");
     }
 
     #[test]

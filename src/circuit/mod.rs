@@ -343,7 +343,7 @@ pub fn balance_voltage(
     let n = ratio;
     let err = |v: f64| -> Option<f64> {
         let p = OperatingPoint { v_out_v: v, ..*op };
-        net.solve(&p, opts).ok().map(|s| s.error(n, op.i_in_a))
+        net.solve(&p, opts).ok().map(|s| s.error(n, s.i_in_a))
     };
     let base = net.solve(op, opts).ok()?;
     let (mut a, mut b) = (base.v_in_v.max(0.0), op.supply_v);

@@ -615,11 +615,14 @@ impl Netlist {
                     }
                     changed = true;
                 }
+                // Both junctions move their anode (the base) down where it is free:
+                // raising an emitter here could undo a base another device's collector
+                // pinned, and the two clamps would chase each other.
                 if v[t.b] - v[t.e] > lim {
-                    if free(t.e) {
-                        v[t.e] = v[t.b] - lim;
-                    } else if free(t.b) {
+                    if free(t.b) {
                         v[t.b] = v[t.e] + lim;
+                    } else if free(t.e) {
+                        v[t.e] = v[t.b] - lim;
                     }
                     changed = true;
                 }
@@ -671,7 +674,14 @@ impl Netlist {
             let (mut lam, mut step) = (0.0f64, 0.125f64);
             while lam < 1.0 && step > 1e-5 {
                 let next = (lam + step).min(1.0);
-                sys.op = path(&target, next);
+                // The last step solves the target itself, not the path's rounded image of
+                // it (`supply + 1 (V_out - supply)` may miss V_out by an ulp, which a
+                // saturated junction turns into a KCL error far above the tolerance).
+                sys.op = if next >= 1.0 {
+                    target
+                } else {
+                    path(&target, next)
+                };
                 let mut xt = x;
                 let mut c = solve::solve(&*sys, &mut xt, newton);
                 total += c.iterations();
@@ -938,9 +948,8 @@ impl CircuitSystem<'_> {
         for i in 0..net.n_tr {
             let t = &net.tr[i];
             let d = self.device(i, x);
-            let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
-            let ev = d.eval(vbe, vbc);
-            let vce = vbe - vbc;
+            let (vbe, vbc, vce) = (v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
+            let ev = d.eval_with_vce(vbe, vbc, vce);
             if t.c == OUT_SLOT {
                 outputs[usize::from(t.output.max(1)) - 1] += ev.ic;
             }

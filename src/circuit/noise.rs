@@ -277,7 +277,9 @@ impl CircuitSystem<'_> {
         let mut currents = [(0.0, 0.0); MAX_TRANSISTORS];
         for i in 0..net.n_tr {
             let t = &net.tr[i];
-            let ev = self.device(i, x).eval(v[t.b] - v[t.e], v[t.b] - v[t.c]);
+            let ev =
+                self.device(i, x)
+                    .eval_with_vce(v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
             currents[i] = (ev.ic, ev.ib);
             base[i] = self.row_of_for(t.b, t.output);
             let rb = t.noise.rb_ohm;

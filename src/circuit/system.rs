@@ -140,9 +140,9 @@ impl<'n> CircuitSystem<'n> {
         let v = self.slot_voltages(x);
         let mut p = [0.0; super::MAX_TRANSISTORS];
         for (i, t) in self.net.tr[..self.net.n_tr].iter().enumerate() {
-            let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
-            let ev = self.device(i, x).eval(vbe, vbc);
-            p[i] = (vbe - vbc) * ev.ic + vbe * ev.ib;
+            let (vbe, vbc, vce) = (v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
+            let ev = self.device(i, x).eval_with_vce(vbe, vbc, vce);
+            p[i] = vce * ev.ic + vbe * ev.ib;
         }
         p
     }
@@ -219,8 +219,8 @@ impl<'n> CircuitSystem<'n> {
             let t = &net.tr[i];
             let d = self.device(i, x);
             let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
-            let ev = d.eval(vbe, vbc);
-            let ie = ev.ic + ev.ib;
+            let ev = d.eval_with_vce(vbe, vbc, v[t.c] - v[t.e]);
+            let ie = ev.ie;
             let rows = [
                 self.index_of(t.c, t.output),
                 self.index_of(t.b, t.output),
@@ -268,7 +268,7 @@ impl<'n> CircuitSystem<'n> {
                 }
             }
             if self.thermal {
-                let vce = vbe - vbc;
+                let vce = v[t.c] - v[t.e];
                 p[i] = vce * ev.ic + vbe * ev.ib;
                 let own = [ev.ic, ev.ib, -ie];
                 for m in 0..3 {

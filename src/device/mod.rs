@@ -128,11 +128,15 @@ pub struct BjtAtT {
     dln_bf_dt: f64,
 }
 
-/// Terminal currents (into collector and base, NPN form) and their derivatives.
+/// Terminal currents (into collector and base, out of the emitter, NPN form) and their
+/// derivatives. `ic + ib == ie` up to one rounding.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct BjtEval {
     pub ic: f64,
     pub ib: f64,
+    /// The emitter current, computed so it keeps its relative precision where `ic` and `ib`
+    /// nearly cancel (see `eval`).
+    pub ie: f64,
     pub dic_dvbe: f64,
     pub dic_dvbc: f64,
     pub dib_dvbe: f64,
@@ -142,12 +146,19 @@ pub struct BjtEval {
 }
 
 impl BjtAtT {
-    /// The V_BE at which the forward junction carries `i_a`: `V_T ln(I/IS(T))`
-    /// (MODEL.md's start point). Non-positive currents give the critical voltage scale.
+    /// The V_BE at which the forward junction carries `i_a`: `V_T ln(1 + I/IS(T))`, the
+    /// exact inverse of the model's diode (MODEL.md's start point `V_T ln(I/IS)` wherever
+    /// I >> IS). Where IS dwarfs the current (picoamps into a hot junction) the logarithm
+    /// alone would start the junction hundreds of millivolts reverse biased, where its
+    /// current no longer depends on the voltage and Newton runs away; the true bias is a
+    /// few microvolts forward. Non-positive currents give 0 V.
     #[inline]
     pub fn vbe_for_current(&self, i_a: f64) -> f64 {
-        let i = if i_a > 0.0 { i_a } else { self.is };
-        self.vt * (i / self.is).ln()
+        if i_a > 0.0 {
+            self.vt * (i_a / self.is).ln_1p()
+        } else {
+            0.0
+        }
     }
 
     /// Like `vbe_for_current`, for a collector current `i_a` at `v_ce`: the transport
@@ -173,14 +184,36 @@ impl BjtAtT {
     /// IKF knee on the forward base current (MODEL.md, "Device model").
     #[inline]
     pub fn eval(&self, vbe: f64, vbc: f64) -> BjtEval {
+        self.eval_with_vce(vbe, vbc, vbe - vbc)
+    }
+
+    /// `eval` with `V_CE` given as well: taken from the node voltages directly it keeps
+    /// its precision in saturation, where it is a millivolt or less and `vbe - vbc` would
+    /// carry the rounding of two junction voltages (and that error, divided by V_T, is
+    /// the error of the transport current). `vce` must equal `vbe - vbc` to rounding.
+    #[inline]
+    pub fn eval_with_vce(&self, vbe: f64, vbc: f64, vce: f64) -> BjtEval {
         let vt = self.vt;
-        let a = (vbe / vt).exp();
-        let c = (vbc / vt).exp();
+        // `e^x` and `e^x - 1` of each junction, and `a - c`, without cancellation: near zero
+        // bias (a hot junction whose IS dwarfs a picoamp input) and in saturation (a ~ c)
+        // the plain differences lose every digit that KCL at 1e-9 of the node's current
+        // needs. One transcendental per junction on the usual path.
+        let (a, fwd) = exp_and_expm1(vbe / vt);
+        let (c, rev) = exp_and_expm1(vbc / vt);
+        let d = vce / vt;
+        // I_T / IS. Where a >= e c (or the reverse) the plain difference loses at most a
+        // bit; closer, it is formed from V_CE itself.
+        let it_n = if d.abs() >= 1.0 {
+            a - c
+        } else if d >= 0.0 {
+            -a * (-d).exp_m1()
+        } else {
+            c * d.exp_m1()
+        };
         let is = self.is;
-        let (early, dearly) = early_factor(vbe - vbc, self.vaf_inv);
-        let it_n = a - c; // I_T / IS
+        let (early, dearly) = early_factor(vce, self.vaf_inv);
         let br_inv = 1.0 / self.br;
-        let ic_n = it_n * early - br_inv * (c - 1.0);
+        let ic_n = it_n * early - br_inv * rev;
         let ic = is * ic_n;
         let da = a / vt;
         let dc = c / vt;
@@ -193,17 +226,36 @@ impl BjtAtT {
         let dic_dt = ic * self.dln_is_dt + is * ((da_dt - dc_dt) * early - br_inv * dc_dt);
 
         let bf_inv = 1.0 / self.bf;
-        let knee = 1.0 + ic * self.ikf_inv;
-        let fwd = a - 1.0;
-        let ib = is * (knee * fwd * bf_inv + br_inv * (c - 1.0));
-        let dib_dvbe = is * bf_inv * (knee * da + fwd * dic_dvbe * self.ikf_inv);
-        let dib_dvbc = is * (bf_inv * fwd * dic_dvbc * self.ikf_inv + br_inv * dc);
+        // The knee is high injection in forward operation: a collector current flowing
+        // backwards (a saturated device) leaves the forward beta alone. Read literally,
+        // `1 + I_C/IKF` would turn negative below -IKF and make the forward base current
+        // change sign (docs/model.md, departures).
+        let k_ikf = if ic > 0.0 { self.ikf_inv } else { 0.0 };
+        let knee = 1.0 + ic * k_ikf;
+        let ib = is * (knee * fwd * bf_inv + br_inv * rev);
+        let dib_dvbe = is * bf_inv * (knee * da + fwd * dic_dvbe * k_ikf);
+        let dib_dvbc = is * (bf_inv * fwd * dic_dvbc * k_ikf + br_inv * dc);
         let dib_dt = ib * self.dln_is_dt
-            + is * (bf_inv * (dic_dt * self.ikf_inv * fwd + knee * (da_dt - fwd * self.dln_bf_dt))
+            + is * (bf_inv * (dic_dt * k_ikf * fwd + knee * (da_dt - fwd * self.dln_bf_dt))
                 + br_inv * dc_dt);
+        // Where the collector and base currents have opposite signs (saturation, reverse
+        // bias, leakage at a hot junction) the emitter current is a small difference of
+        // large ones, and `ic + ib` would carry the rounding of the large ones: in a
+        // saturated output device fed by a beta helper it is 10^3 to 10^6 times smaller
+        // than either, and KCL at its emitter could not be met to 1e-9 of what flows there.
+        // There the reverse-junction terms, which cancel exactly, are left out of the sum
+        // and the base current is taken as `ie - ic`. Elsewhere the plain sum is exact to
+        // one rounding.
+        let (ib, ie) = if ic * ib < 0.0 {
+            let ie = is * (it_n * early + knee * fwd * bf_inv);
+            (ie - ic, ie)
+        } else {
+            (ib, ic + ib)
+        };
         BjtEval {
             ic,
             ib,
+            ie,
             dic_dvbe,
             dic_dvbc,
             dib_dvbe,
@@ -211,6 +263,19 @@ impl BjtAtT {
             dic_dt,
             dib_dt,
         }
+    }
+}
+
+/// `(e^x, e^x - 1)`, each to a few roundings: from `expm1` where `e^x` is not small (so
+/// `1 +` it loses nothing), from `exp` where it is (so `- 1` loses nothing).
+#[inline]
+fn exp_and_expm1(x: f64) -> (f64, f64) {
+    if x > -1.0 {
+        let m = x.exp_m1();
+        (m + 1.0, m)
+    } else {
+        let e = x.exp();
+        (e, e - 1.0)
     }
 }
 
@@ -307,6 +372,43 @@ mod tests {
         let ib = 1e-14 * ((a - 1.0) / 100.0 + (c - 1.0));
         assert!((e.ic / ic - 1.0).abs() < 1e-12);
         assert!((e.ib / ib - 1.0).abs() < 1e-12);
+    }
+
+    /// At V_CE = 0 the transport current is zero, so by MODEL.md's equations
+    /// I_E = I_C + I_B = (IS/BF)(e^(V_BE/V_T) - 1) exactly; the collector and base currents
+    /// are each about BF/BR times larger. The emitter current must keep its own precision,
+    /// and the knee must not act on the negative collector current of this saturated
+    /// device (docs/model.md, departures).
+    #[test]
+    fn saturated_emitter_current_keeps_its_precision() {
+        let d = Bjt::new(&params(), 0.0, 0.0).at(300.15);
+        for vbe in [0.55, 0.7, 0.85] {
+            let e = d.eval_with_vce(vbe, vbe, 0.0);
+            let ie = d.is * (vbe / d.vt).exp_m1() / d.bf;
+            assert!(e.ic < -10.0 * ie, "{e:?}");
+            assert!(
+                (e.ie / ie - 1.0).abs() <= 4.0 * f64::EPSILON,
+                "{} vs {ie}",
+                e.ie
+            );
+            assert!((e.ic + e.ib - e.ie).abs() <= 4.0 * f64::EPSILON * e.ic.abs());
+        }
+    }
+
+    /// Near zero bias the `- 1` terms decide the current: a microvolt across a junction
+    /// carries IS V / V_T (first order of MODEL.md's diode), which `e^x - 1` in floating
+    /// point gets wrong from the 8th digit.
+    #[test]
+    fn zero_bias_currents_are_linear_in_the_voltage() {
+        let d = Bjt::new(&BjtParams::new(1e-9, 100.0, None), 0.0, 0.0).at(300.15);
+        let v = 1e-6;
+        let e = d.eval(v, 0.0);
+        let x = v / d.vt;
+        let ib = d.is * (x + x * x / 2.0 + x * x * x / 6.0) / d.bf;
+        assert!((e.ib / ib - 1.0).abs() < 1e-12, "{} vs {ib}", e.ib);
+        // And the start point inverts it: that current needs that microvolt.
+        let vb = d.vbe_for_current(ib * d.bf);
+        assert!((vb / v - 1.0).abs() < 1e-9, "{vb}");
     }
 
     #[test]

@@ -21,7 +21,7 @@ pub use requirement::{
     DEFAULT_MIN_VCE_V,
 };
 pub use resistor::{
-    ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, DEFAULT_POWER_RATING_W,
+    derated_power, ResistorClass, Series, DEFAULT_MAX_OHM, DEFAULT_MIN_OHM, DEFAULT_POWER_RATING_W,
     LEAKAGE_CAUTION_OHM,
 };
 pub use topology::{

@@ -220,9 +220,15 @@ impl ResistorClass {
     /// The rating at ambient `t_amb_k`: full to 70 °C, derated linearly to zero at
     /// 155 °C, the usual chip-resistor curve (common practice, no source).
     pub fn power_rating_at(&self, t_amb_k: f64) -> f64 {
-        let t_c = t_amb_k - 273.15;
-        self.power_rating() * ((155.0 - t_c) / 85.0).clamp(0.0, 1.0)
+        derated_power(self.power_rating(), t_amb_k)
     }
+}
+
+/// A chip resistor's rating `rating_w` (at 70 °C) at ambient `t_amb_k`: full to 70 °C,
+/// linearly to zero at 155 °C (common practice, no source).
+pub fn derated_power(rating_w: f64, t_amb_k: f64) -> f64 {
+    let t_c = t_amb_k - 273.15;
+    rating_w * ((155.0 - t_c) / 85.0).clamp(0.0, 1.0)
 }
 
 #[cfg(test)]

@@ -8,9 +8,12 @@
 //! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
 //! `balance_voltage_v` (null when none), `failed_points`, `noise_vs_re` (list of
 //! {`i_in_a`, `re1_ohm`, `re2_ohm`, `noise_a_per_rthz` (null when unsolved), `dominant`,
-//! `forward_active`}). CSV
-//! columns: `curve` (`output`, `error` or `noise`), `i_in_a`, `t_amb_c`, `v_out_v`,
-//! `i_out_a`, `error`, `re1_ohm`, `noise_a_per_rthz` (the last two on `noise` rows only).
+//! `forward_active`}), `rail_window_v` ({`min`, `max`} or null), `output_wanted_a` (null
+//! when forced), `rail` (a programmed design's I_out against the rail: list of
+//! {`v_out_v`, `t_amb_k`, `rail_v`: [..], `i_out_a`: [.. or null]}). CSV
+//! columns: `curve` (`output`, `error`, `noise` or `rail`), `i_in_a`, `t_amb_c`, `v_out_v`,
+//! `i_out_a`, `error`, `re1_ohm`, `noise_a_per_rthz` (the last two on `noise` rows only),
+//! `rail_v` (on `rail` rows only; their `error` is against the wanted output current).
 
 use std::io::{self, Write};
 
@@ -32,16 +35,24 @@ struct Point {
     error: Option<f64>,
     re1_ohm: Option<f64>,
     noise_a_per_rthz: Option<f64>,
+    rail_v: Option<f64>,
 }
 
-const COLUMNS: [Column<Point>; 8] = [
+const COLUMNS: [Column<Point>; 9] = [
     Column {
         name: "curve",
         get: |p| p.curve.to_string(),
     },
     Column {
         name: "i_in_a",
-        get: |p| format!("{}", p.i_in_a),
+        // Empty on rail rows: the input current is the circuit's there.
+        get: |p| {
+            if p.i_in_a.is_finite() {
+                format!("{}", p.i_in_a)
+            } else {
+                String::new()
+            }
+        },
     },
     Column {
         name: "t_amb_c",
@@ -67,6 +78,10 @@ const COLUMNS: [Column<Point>; 8] = [
         name: "noise_a_per_rthz",
         get: |p| csv::opt(p.noise_a_per_rthz),
     },
+    Column {
+        name: "rail_v",
+        get: |p| csv::opt(p.rail_v),
+    },
 ];
 
 fn points(set: &CurveSet) -> Vec<Point> {
@@ -82,6 +97,7 @@ fn points(set: &CurveSet) -> Vec<Point> {
                 error: c.i_out_a[k].map(|i| i / (set.ratio * c.i_in_a) - 1.0),
                 re1_ohm: None,
                 noise_a_per_rthz: None,
+                rail_v: None,
             });
         }
     }
@@ -96,6 +112,7 @@ fn points(set: &CurveSet) -> Vec<Point> {
                 error: c.error[k],
                 re1_ohm: None,
                 noise_a_per_rthz: None,
+                rail_v: None,
             });
         }
     }
@@ -109,7 +126,24 @@ fn points(set: &CurveSet) -> Vec<Point> {
             error: None,
             re1_ohm: Some(n.re1_ohm),
             noise_a_per_rthz: n.noise_a_per_rthz,
+            rail_v: None,
         });
+    }
+    let wanted = set.output_wanted_a.unwrap_or(f64::NAN);
+    for c in &set.rail {
+        for (k, &r) in c.rail_v.iter().enumerate() {
+            v.push(Point {
+                curve: "rail",
+                i_in_a: f64::NAN,
+                t_amb_k: c.t_amb_k,
+                v_out_v: c.v_out_v,
+                i_out_a: c.i_out_a[k],
+                error: c.i_out_a[k].map(|i| i / wanted - 1.0),
+                re1_ohm: None,
+                noise_a_per_rthz: None,
+                rail_v: Some(r),
+            });
+        }
     }
     v
 }
@@ -214,6 +248,47 @@ pub fn write(set: &CurveSet, format: Format, style: Style, out: &mut dyn Write) 
                     "Output current noise against the emitter resistors (I_in {}, V_out {}, 25 °C; small-signal, valid well below the transistors' poles):",
                     eng(set.noise_vs_re[0].i_in_a, "A", u),
                     eng(set.v_out_window_v.min, "V", u)
+                )?;
+                writeln!(out, "{t}")?;
+            }
+            if let (Some(rw), Some(wanted)) = (set.rail_window_v, set.output_wanted_a) {
+                let mut t = new_table(
+                    style,
+                    &[
+                        "V_out",
+                        "ambient",
+                        &format!("I_out at {}", eng(rw.min, "V", u)),
+                        &format!("I_out at {}", eng(0.5 * (rw.min + rw.max), "V", u)),
+                        &format!("I_out at {}", eng(rw.max, "V", u)),
+                        "change over the rail's range",
+                    ],
+                );
+                for c in &set.rail {
+                    let i = |r: f64| at(&c.rail_v, &c.i_out_a, r);
+                    let show = |x: Option<f64>| {
+                        x.map_or("no solution".to_string(), |x| {
+                            format!("{} ({})", eng(x, "A", u), percent(x / wanted - 1.0))
+                        })
+                    };
+                    let (a, m, b) = (i(rw.min), i(0.5 * (rw.min + rw.max)), i(rw.max));
+                    t.add_row(vec![
+                        eng(c.v_out_v, "V", u),
+                        celsius(c.t_amb_k, u),
+                        show(a),
+                        show(m),
+                        show(b),
+                        match (a, b, m) {
+                            (Some(a), Some(b), Some(m)) => percent((b - a) / m),
+                            _ => "—".into(),
+                        },
+                    ]);
+                }
+                writeln!(
+                    out,
+                    "Output current against the program rail (R_ref in the circuit; in brackets against the wanted {}), swept from {} to {}:",
+                    eng(wanted, "A", u),
+                    eng(set.rail.first().and_then(|c| c.rail_v.first().copied()).unwrap_or(rw.min), "V", u),
+                    eng(set.rail.first().and_then(|c| c.rail_v.last().copied()).unwrap_or(rw.max), "V", u)
                 )?;
                 writeln!(out, "{t}")?;
             }

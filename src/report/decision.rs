@@ -675,7 +675,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
     let schematic_plot = (!parts.is_empty()).then(|| Plot {
         id: "schematic".into(),
         title: "Schematic of the chosen design".into(),
-        svg: schematic::schematic_svg(&parts, polarity, None),
+        svg: schematic::schematic_svg(&parts, polarity, None, req.program.map(|p| p.rail_v)),
         caption: format!(
             "Drawn from the {} netlist; designators as in the parts list and the SPICE export. {}",
             chosen_row.map_or("", |c| c.topology),
@@ -691,6 +691,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             &parts,
             polarity,
             Some(&format!("{}: {}", req.name, design_title(c))),
+            req.program.map(|p| p.rail_v),
         )
     });
 
@@ -800,6 +801,14 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
                 caption:
                     "At the ends of the output-voltage window, nominal devices with self-heating"
                         .into(),
+            });
+        }
+        if let Some(svg) = plot::output_vs_rail_svg(set)? {
+            plots.push(Plot {
+                id: "output-vs-rail".into(),
+                title: "Output current against the program rail".into(),
+                svg,
+                caption: "R_ref in the circuit, nominal devices with self-heating, at the ends of the output-voltage window; blue: the rail's range; green: the wanted output current with the required accuracy".into(),
             });
         }
     }

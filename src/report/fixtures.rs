@@ -94,6 +94,22 @@ pub fn requirement() -> Requirement {
     }
 }
 
+/// A thin-film resistor class.
+pub fn resistor_class() -> crate::model::ResistorClass {
+    crate::model::ResistorClass {
+        id: "thin-film-test".into(),
+        summary: "thin film".into(),
+        series: crate::model::Series::E96,
+        tolerance: 0.001,
+        tcr_per_k: 25e-6,
+        unit_cost: 0.01,
+        power_rating_w: None,
+        provenance: "invented for renderer tests".into(),
+        min_ohm: crate::model::DEFAULT_MIN_OHM,
+        max_ohm: crate::model::DEFAULT_MAX_OHM,
+    }
+}
+
 pub fn provenance() -> Provenance {
     Provenance {
         catalog_source: "test-catalog.yaml".into(),

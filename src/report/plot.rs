@@ -604,6 +604,113 @@ pub fn error_vs_input_svg(set: &CurveSet) -> Result<String, PlotError> {
     Ok(with_legends(svg, &[legend.markup(CHART_H)]))
 }
 
+/// A programmed design's output current against its program rail, at V_out min and
+/// max: the rail's range shaded, the wanted current with its accuracy band. `None` when
+/// the set has no rail family (a forced input current).
+pub fn output_vs_rail_svg(set: &CurveSet) -> Result<Option<String>, PlotError> {
+    let (Some(window), Some(wanted)) = (set.rail_window_v, set.output_wanted_a) else {
+        return Ok(None);
+    };
+    if set.rail.is_empty() {
+        return Ok(None);
+    }
+    let what = "output-against-rail";
+    let e = err(what);
+    let xs_all = || set.rail.iter().flat_map(|c| c.rail_v.iter().copied());
+    let x_lo = xs_all().fold(f64::INFINITY, f64::min);
+    let x_hi = xs_all().fold(f64::NEG_INFINITY, f64::max);
+    let band = (wanted * (1.0 - set.accuracy), wanted * (1.0 + set.accuracy));
+    let data = set
+        .rail
+        .iter()
+        .flat_map(|c| c.i_out_a.iter().flatten().copied());
+    let (d_lo, d_hi) = data.fold((band.0, band.1), |(a, b), i| (a.min(i), b.max(i)));
+    let (scale, unit) = current_scale(d_hi);
+    let pad = (d_hi - d_lo) * 0.08;
+    let (y_lo, y_hi) = (((d_lo - pad).max(0.0)) * scale, (d_hi + pad) * scale);
+    let several = {
+        let mut t: Vec<f64> = set.rail.iter().map(|c| c.t_amb_k).collect();
+        t.dedup();
+        t.len() > 1
+    };
+    let mut legend = Legend::new();
+    legend.add(Swatch::Fill(WINDOW_FILL), "program rail's range");
+    legend.add(
+        Swatch::Fill(BAND_FILL),
+        format!(
+            "wanted {} ±{}",
+            eng(wanted, "A", Charset::Unicode),
+            super::eng::percent(set.accuracy)
+        ),
+    );
+    for (k, c) in set.rail.iter().enumerate() {
+        let v = eng(c.v_out_v, "V", Charset::Unicode);
+        let label = if several {
+            format!("V_out {v}, {}", celsius(c.t_amb_k, Charset::Unicode))
+        } else {
+            format!("V_out {v}")
+        };
+        legend.add(Swatch::Line(PALETTE[k % PALETTE.len()], 2), label);
+    }
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH, CHART_H + legend.height()))
+            .into_drawing_area();
+        root.fill(&WHITE).map_err(&e)?;
+        let (area, _) = root.split_vertically(CHART_H);
+        let span = y_hi - y_lo;
+        let digits = if span > 0.0 {
+            (2.0 - span.log10().floor()).clamp(1.0, 6.0) as usize
+        } else {
+            1
+        };
+        let mut chart = ChartBuilder::on(&area)
+            .caption("Output current against program rail", (FONT, 18))
+            .margin(12)
+            .margin_right(30)
+            .x_label_area_size(44)
+            .y_label_area_size(64)
+            .build_cartesian_2d(x_lo..x_hi, y_lo..y_hi)
+            .map_err(&e)?;
+        chart
+            .configure_mesh()
+            .x_desc("program rail from the mirror rail (V)")
+            .y_desc(format!("I_out ({unit})"))
+            .y_label_formatter(&|v| format!("{v:.digits$}"))
+            .label_style((FONT, TICK))
+            .axis_desc_style((FONT, TICK))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(&e)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(window.min, y_lo), (window.max, y_hi)],
+                WINDOW_FILL.mix(0.6).filled(),
+            )))
+            .map_err(&e)?;
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [
+                    (x_lo, (band.0 * scale).max(y_lo)),
+                    (x_hi, (band.1 * scale).min(y_hi)),
+                ],
+                BAND_FILL.mix(0.7).filled(),
+            )))
+            .map_err(&e)?;
+        for (k, c) in set.rail.iter().enumerate() {
+            let ys: Vec<Option<f64>> = c.i_out_a.iter().map(|i| i.map(|i| i * scale)).collect();
+            let wide = !several || (c.t_amb_k - crate::curves::ROOM_K).abs() < 1e-9;
+            let style =
+                ShapeStyle::from(PALETTE[k % PALETTE.len()]).stroke_width(if wide { 2 } else { 1 });
+            for run in runs(&c.rail_v, &ys, y_lo, y_hi) {
+                chart.draw_series(LineSeries::new(run, style)).map_err(&e)?;
+            }
+        }
+        root.present().map_err(&e)?;
+    }
+    Ok(Some(with_legends(svg, &[legend.markup(CHART_H)])))
+}
+
 /// One bar of the error budget.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BudgetBar {

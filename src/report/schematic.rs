@@ -12,7 +12,11 @@
 //!   emitter); columns are ordered input side first, then devices whose collector goes
 //!   to the opposite rail, then the outputs; bases face the middle of the drawing;
 //! * resistors to the mirror rail hang below their emitter; resistors to the opposite
-//!   rail hang from it above their node; any other resistor gets a column of its own;
+//!   rail, or to the program rail `P` (the programming resistor), hang from it above
+//!   their node; any other resistor gets a column of its own;
+//! * the program rail is a short rail of its own at the opposite rail's height, above
+//!   the programming resistor, labelled with its voltage range; the opposite rail
+//!   stops short of it;
 //! * every other net is a horizontal trunk (at the height of a base on it when it has
 //!   one) with each pin brought to it through the lane beside its transistor; a
 //!   collector directly below an emitter of the same net is joined straight; the input
@@ -27,8 +31,8 @@ use std::collections::BTreeMap;
 use maud::{html, Markup};
 
 use super::eng::{eng, Charset};
-use crate::check::refdes::{Element, ElementKind};
-use crate::model::Polarity;
+use crate::check::refdes::{Element, ElementKind, PROGRAM_RAIL};
+use crate::model::{Polarity, Range};
 
 const COL_W: f64 = 190.0;
 /// Where the first column sits before the drawing is shifted to fit its labels.
@@ -86,8 +90,19 @@ struct Placed {
 
 type Seg = ((f64, f64), (f64, f64));
 
-/// Draws the schematic of `parts` as one standalone SVG element. `title` heads it.
-pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>) -> String {
+/// Is `node` a rail drawn at the top (sink coordinates): the opposite or program rail.
+fn top_rail(node: &str) -> bool {
+    node == "S" || node == PROGRAM_RAIL
+}
+
+/// Draws the schematic of `parts` as one standalone SVG element. `title` heads it;
+/// `program_rail` is the range of the program rail `P` when a part hangs from it.
+pub fn schematic_svg(
+    parts: &[Element],
+    polarity: Polarity,
+    title: Option<&str>,
+    program_rail: Option<Range>,
+) -> String {
     let tr: Vec<usize> = (0..parts.len())
         .filter(|&i| parts[i].is_transistor())
         .collect();
@@ -223,9 +238,9 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
             (*a, Band::Bottom)
         } else if *a == "R" {
             (*b, Band::Bottom)
-        } else if *b == "S" {
+        } else if top_rail(b) {
             (*a, Band::Top)
-        } else if *a == "S" {
+        } else if top_rail(a) {
             (*b, Band::Top)
         } else {
             ("", Band::Middle)
@@ -283,7 +298,11 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
     }
     for (&i, &(c, band)) in &res_place {
         let (_, b, _) = terms(i);
-        let node = if b == "R" || b == "S" { terms(i).0 } else { b };
+        let node = if b == "R" || top_rail(b) {
+            terms(i).0
+        } else {
+            b
+        };
         // Under (or over) the collector/emitter lead of the part it belongs to.
         let lead_x = emitter_owner(node)
             .or(toucher(node))
@@ -343,7 +362,7 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
             }
             ElementKind::Resistor { a, b, .. } => {
                 // The rail end is at the rail side; otherwise `a` on top.
-                let (top, bottom) = if *a == "R" || *b == "S" {
+                let (top, bottom) = if *a == "R" || top_rail(b) {
                     (*b, *a)
                 } else {
                     (*a, *b)
@@ -386,7 +405,7 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
     let mut ports: Vec<(&str, f64)> = Vec::new();
     let mut rail_taps: Vec<(f64, f64)> = Vec::new();
     for (&net, pins) in &nets {
-        if net == "R" || net == "S" {
+        if net == "R" || top_rail(net) {
             let rail = if net == "R" { y_r } else { y_s };
             for p in pins {
                 wires.push(((p.x, p.y), (p.x, rail)));
@@ -411,24 +430,29 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
             });
         }
         // Pins joined straight down: a port or emitter above a collector (or resistor
-        // top) in the same lead, with nothing in between.
+        // top) in the same lead, with nothing in between; each joins the nearest pin
+        // below it, so a resistor above a terminal joins the terminal, not past it.
         let mut served = vec![false; pins.len()];
         for a in 0..pins.len() {
-            for b in 0..pins.len() {
-                let (pa, pb) = (pins[a], pins[b]);
-                let upper = matches!(pa.kind, PinKind::Port | PinKind::Emitter | PinKind::Bottom);
-                let lower = matches!(pb.kind, PinKind::Collector | PinKind::Top);
-                if a != b
-                    && upper
-                    && lower
-                    && !served[a]
-                    && (pa.x - pb.x).abs() < 0.5
-                    && pa.y < pb.y
-                    && clear_v(pa.x, pa.y, pb.y)
-                {
-                    wires.push(((pa.x, pa.y), (pb.x, pb.y)));
-                    served[a] = true;
-                }
+            let pa = pins[a];
+            if !matches!(pa.kind, PinKind::Port | PinKind::Emitter | PinKind::Bottom) {
+                continue;
+            }
+            let below = (0..pins.len())
+                .filter(|&b| {
+                    let pb = pins[b];
+                    let lower = matches!(pb.kind, PinKind::Collector | PinKind::Top)
+                        || (pb.kind == PinKind::Port && pa.kind == PinKind::Bottom);
+                    b != a
+                        && lower
+                        && (pa.x - pb.x).abs() < 0.5
+                        && pa.y < pb.y
+                        && clear_v(pa.x, pa.y, pb.y)
+                })
+                .min_by(|&b, &c| pins[b].y.total_cmp(&pins[c].y));
+            if let Some(b) = below {
+                wires.push(((pa.x, pa.y), (pins[b].x, pins[b].y)));
+                served[a] = true;
             }
         }
         let live: Vec<usize> = (0..pins.len()).filter(|&k| !served[k]).collect();
@@ -503,6 +527,44 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
     let text_w = |s: &str| s.chars().count() as f64 * TEXT_PX * 0.6;
     let mut x_lo = rail_lo;
     let mut x_hi = rail_hi;
+    // The program rail: a short rail over the parts hanging from it, its label to the
+    // left; the opposite rail keeps what is left of its span, wherever it has taps.
+    let p_xs: Vec<f64> = nets
+        .get(PROGRAM_RAIL)
+        .map(|ps| ps.iter().map(|p| p.x).collect())
+        .unwrap_or_default();
+    let p_span = (!p_xs.is_empty()).then(|| {
+        let lo = p_xs.iter().copied().fold(f64::INFINITY, f64::min) - 40.0;
+        let hi = p_xs.iter().copied().fold(f64::NEG_INFINITY, f64::max) + 40.0;
+        (lo, hi)
+    });
+    let p_label = [
+        "P: program rail".to_string(),
+        match program_rail {
+            Some(r) if (r.max - r.min).abs() > 1e-12 => format!(
+                "{} to {}",
+                eng(r.min, "V", Charset::Unicode),
+                eng(r.max, "V", Charset::Unicode)
+            ),
+            Some(r) => eng(r.min, "V", Charset::Unicode),
+            None => "voltage not given".to_string(),
+        },
+    ];
+    let s_taps: Vec<f64> = nets
+        .get("S")
+        .map(|ps| ps.iter().map(|p| p.x).collect())
+        .unwrap_or_default();
+    let s_segments: Vec<(f64, f64)> = match p_span {
+        None => vec![(rail_lo, rail_hi)],
+        Some((plo, phi)) => [(rail_lo, plo - 24.0), (phi + 24.0, rail_hi)]
+            .into_iter()
+            .filter(|&(a, b)| b - a >= 60.0 || s_taps.iter().any(|&x| x >= a && x <= b))
+            .collect(),
+    };
+    if let Some((plo, _)) = p_span {
+        let w = p_label.iter().map(|l| text_w(l)).fold(0.0, f64::max);
+        x_lo = x_lo.min(plo - 10.0 - w);
+    }
     for (&i, p) in &placed {
         let e = &parts[i];
         let w = text_w(&e.designator).max(text_w(&value_text(e)));
@@ -623,6 +685,20 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
         ("R: mirror rail, +V_S", "S: opposite rail, 0 V")
     };
     let rail_label_dy = |y: f64| if fy(y) > height / 2.0 { 20.0 } else { -8.0 };
+    let s_label_x = s_segments.first().map_or(rail_lo, |s| s.0);
+    let on_rail_end = |x: f64, y: f64| {
+        let ends = if (y - y_s).abs() < 0.5 {
+            s_segments
+                .iter()
+                .flat_map(|s| [s.0, s.1])
+                .chain(p_span.into_iter().flat_map(|s| [s.0, s.1]))
+                .collect::<Vec<f64>>()
+        } else {
+            vec![rail_lo, rail_hi]
+        };
+        ends.iter().any(|&e| (x - e).abs() < 1.0)
+    };
+
     let svg = html! {
         svg xmlns="http://www.w3.org/2000/svg" width=(r(width)) height=(r(height)) viewBox=(format!("0 0 {} {}", r(width), r(height))) class="schematic" role="img" aria-label="schematic of the chosen design" {
             rect x="0" y="0" width=(r(width)) height=(r(height)) fill="#fff" {}
@@ -633,14 +709,23 @@ pub fn schematic_svg(parts: &[Element], polarity: Polarity, title: Option<&str>)
             g class="rails" {
                 (line(rail_lo, y_r, rail_hi, y_r, 2.4))
                 (text(rail_lo, fy(y_r) + rail_label_dy(y_r), "start", "normal", r_label))
-                (line(rail_lo, y_s, rail_hi, y_s, 2.4))
-                (text(rail_lo, fy(y_s) + rail_label_dy(y_s), "start", "normal", s_label))
+                @for (a, b) in &s_segments {
+                    (line(*a, y_s, *b, y_s, 2.4))
+                }
+                (text(s_label_x, fy(y_s) + rail_label_dy(y_s), "start", "normal", s_label))
+                @if let Some((plo, phi)) = p_span {
+                    g class="program-rail" data-rail=(p_label[1]) {
+                        (line(plo, y_s, phi, y_s, 2.4))
+                        (text(plo - 10.0, fy(y_s) - 4.0, "end", "600", &p_label[0]))
+                        (text(plo - 10.0, fy(y_s) + 14.0, "end", "normal", &p_label[1]))
+                    }
+                }
             }
             g class="wires" {
                 @for ((x1, y1), (x2, y2)) in &wires {
                     (line(*x1, *y1, *x2, *y2, 1.6))
                 }
-                @for (x, y) in dots.iter().chain(rail_taps.iter().filter(|(x, _)| *x > rail_lo + 1.0 && *x < rail_hi - 1.0)) {
+                @for (x, y) in dots.iter().chain(rail_taps.iter().filter(|(x, y)| !on_rail_end(*x, *y))) {
                     circle cx=(r(*x)) cy=(r(fy(*y))) r="3.2" fill=(STROKE) {}
                 }
             }
@@ -686,13 +771,27 @@ mod tests {
     use crate::report::fixtures;
 
     fn parts_of(t: Topology, dpp: u32, re: f64) -> Vec<Element> {
+        parts_with(t, dpp, re, None)
+    }
+
+    fn parts_with(t: Topology, dpp: u32, re: f64, r_ref: Option<f64>) -> Vec<Element> {
         let mut pair = fixtures::npn_dual();
         pair.id = "npn-dual-<x>".into();
         pair.devices_per_package = dpp;
         let single = fixtures::npn_single();
         let helper = (!crate::check::helpers_fit_in_spares(t, &pair)).then_some(&single);
         let re2 = if t == Topology::Widlar { 4700.0 } else { re };
-        refdes::elements(t, &place(t, &pair, helper), re, re2, Some("thin-film"))
+        refdes::elements(
+            t,
+            &place(t, &pair, helper),
+            re,
+            re2,
+            Some("thin-film"),
+            r_ref.map(|ohm| refdes::RefPart {
+                ohm,
+                class: Some("thin-film-0p1pct"),
+            }),
+        )
     }
 
     #[test]
@@ -701,7 +800,7 @@ mod tests {
             for (dpp, re) in [(2, 0.0), (2, 100.0), (1, 47.0), (4, 0.0)] {
                 let parts = parts_of(t, dpp, re);
                 for pol in [Polarity::Npn, Polarity::Pnp] {
-                    let svg = schematic_svg(&parts, pol, Some("t <&> t"));
+                    let svg = schematic_svg(&parts, pol, Some("t <&> t"), None);
                     let doc = scraper::Html::parse_fragment(&svg);
                     let sel = scraper::Selector::parse("g.part").unwrap();
                     let groups: Vec<_> = doc.select(&sel).collect();
@@ -741,9 +840,9 @@ mod tests {
             let y = head.rfind(" y=\"").unwrap();
             head[y + 4..].split('"').next().unwrap().parse().unwrap()
         };
-        let sink = schematic_svg(&parts, Polarity::Npn, None);
+        let sink = schematic_svg(&parts, Polarity::Npn, None, None);
         assert!(y_of(&sink, "R: mirror rail") > y_of(&sink, "S: opposite rail"));
-        let source = schematic_svg(&parts, Polarity::Pnp, None);
+        let source = schematic_svg(&parts, Polarity::Pnp, None, None);
         assert!(y_of(&source, "R: mirror rail") < y_of(&source, "S: opposite rail"));
     }
 
@@ -761,8 +860,64 @@ mod tests {
                 class: None,
             },
         });
-        let svg = schematic_svg(&parts, Polarity::Npn, None);
+        let svg = schematic_svg(&parts, Polarity::Npn, None, None);
         assert!(svg.contains("data-designator=\"R3\""));
         assert!(svg.contains("10.0 kΩ"));
+    }
+
+    #[test]
+    fn the_programming_resistor_hangs_from_a_labelled_program_rail() {
+        let rail = Range {
+            min: 11.4,
+            max: 12.6,
+        };
+        for t in ALL_TOPOLOGIES {
+            for (dpp, re) in [(2, 0.0), (2, 100.0), (1, 47.0)] {
+                let parts = parts_with(t, dpp, re, Some(511e3));
+                for pol in [Polarity::Npn, Polarity::Pnp] {
+                    let svg = schematic_svg(&parts, pol, None, Some(rail));
+                    let doc = scraper::Html::parse_fragment(&svg);
+                    let sel = scraper::Selector::parse("g.part").unwrap();
+                    let groups: Vec<_> = doc.select(&sel).collect();
+                    assert_eq!(groups.len(), parts.len(), "{} dpp {dpp}", t.name());
+                    // Every element exactly once, with its designator and value.
+                    for e in &parts {
+                        let g: Vec<_> = groups
+                            .iter()
+                            .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
+                            .collect();
+                        assert_eq!(g.len(), 1, "{} once", e.designator);
+                        assert_eq!(
+                            g[0].value().attr("data-value"),
+                            Some(value_text(e).as_str())
+                        );
+                        assert_eq!(g[0].value().attr("data-netlist"), Some(e.netlist_name));
+                    }
+                    let r_ref = parts.iter().find(|e| e.netlist_name == "Rref").unwrap();
+                    assert!(svg.contains("511 kΩ") || svg.contains("511.0 kΩ"), "{svg}");
+                    let sel = scraper::Selector::parse("g.program-rail").unwrap();
+                    let p: Vec<_> = doc.select(&sel).collect();
+                    assert_eq!(p.len(), 1, "one program rail");
+                    let text: String = p[0].text().collect();
+                    assert!(text.contains("P: program rail"), "{text}");
+                    assert!(text.contains("11.4 V to 12.6 V"), "{text}");
+                    // The rail sits above R_ref in a sink, below it in a source: the
+                    // rail's y against the resistor's label.
+                    let y_of = |needle: &str| -> f64 {
+                        let k = svg.find(needle).unwrap();
+                        let head = &svg[..k];
+                        let y = head.rfind(" y=\"").unwrap();
+                        head[y + 4..].split('"').next().unwrap().parse().unwrap()
+                    };
+                    let rail_y = y_of("P: program rail");
+                    let ref_y = y_of(&format!(">{}<", r_ref.designator));
+                    if pol == Polarity::Npn {
+                        assert!(rail_y < ref_y, "{} sink", t.name());
+                    } else {
+                        assert!(rail_y > ref_y, "{} source", t.name());
+                    }
+                }
+            }
+        }
     }
 }

@@ -32,6 +32,16 @@ pub struct SpiceDesign<'a> {
     pub resistor: Option<&'a ResistorClass>,
     /// Outputs on the input side and the area ratio (`Shape::SINGLE` for one output).
     pub shape: Shape,
+    /// The programming resistor, when the requirement programs the mirror by one; the
+    /// deck's bench then drives the input through it from the program rail source.
+    pub r_ref: Option<SpiceRef<'a>>,
+}
+
+/// A programming resistor: value and class.
+#[derive(Debug, Clone, Copy)]
+pub struct SpiceRef<'a> {
+    pub ohm: f64,
+    pub class: &'a ResistorClass,
 }
 
 /// Pins of the subcircuit, in order: input, output, mirror rail, opposite rail.
@@ -139,6 +149,10 @@ pub fn elements(design: &SpiceDesign) -> Vec<Element> {
         },
         design.re2_ohm,
         design.resistor.map(|r| r.id.as_str()),
+        design.r_ref.map(|r| crate::check::refdes::RefPart {
+            ohm: r.ohm,
+            class: Some(r.class.id.as_str()),
+        }),
     )
 }
 
@@ -192,20 +206,37 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         design.pair.polarity.as_str().to_uppercase()
     );
     comment(&mut o, &format!("requirement: {}", req.name));
+    let parts = elements(design);
+    let programming = match (req.program, design.r_ref) {
+        (Some(p), Some(_)) => format!(
+            "programmed by {} from the program rail P, {} to {} (nominal {}) from the mirror \
+             rail, for I_out {}",
+            crate::check::refdes::designator_of(&parts, crate::check::refdes::R_REF_NAME)
+                .unwrap_or("R_ref"),
+            eng(p.rail_v.min, "V", a),
+            eng(p.rail_v.max, "V", a),
+            eng(p.rail_nominal_v(), "V", a),
+            eng(p.output_current_a, "A", a)
+        ),
+        _ => format!(
+            "I_in {} to {}",
+            eng(req.input_current_a.min, "A", a),
+            eng(req.input_current_a.max, "A", a)
+        ),
+    };
     comment(
         &mut o,
         &format!(
-            "  supply {}; I_in {} to {}, ratio {}; V_out {} to {} from the mirror rail; \
-             ambient {} to {}; accuracy {} at {} sigma",
+            "  supply {}; {programming}, ratio {}; V_out {} to {} from the mirror rail; \
+             ambient {} to {}; accuracy {} of the {} at {} sigma",
             eng(req.supply_v, "V", a),
-            eng(req.input_current_a.min, "A", a),
-            eng(req.input_current_a.max, "A", a),
             req.ratio,
             eng(req.output_voltage_v.min, "V", a),
             eng(req.output_voltage_v.max, "V", a),
             celsius(req.ambient_k.min, a),
             celsius(req.ambient_k.max, a),
             percent(req.accuracy),
+            req.accuracy_of.as_str(),
             req.confidence_sigma
         ),
     );
@@ -244,6 +275,20 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
                 percent(r.tolerance),
                 ppm(r.tcr_per_k),
                 r.summary
+            ),
+        );
+    }
+    if let Some(r) = design.r_ref {
+        comment(
+            &mut o,
+            &format!(
+                "programming resistor {} ({} series, {} tolerance, {} ppm/K, rated {}): {}",
+                r.class.id,
+                r.class.series.as_str(),
+                percent(r.class.tolerance),
+                ppm(r.class.tcr_per_k),
+                eng(r.class.power_rating(), "W", a),
+                r.class.summary
             ),
         );
     }
@@ -286,8 +331,10 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         .chain(["R", "S"])
         .collect();
     let _ = writeln!(o, ".subckt {subckt} {}", pins.join(" "));
-    let parts = elements(design);
-    for el in &parts {
+    // The programming resistor joins the program rail, which is the bench's: it is
+    // placed there, under the same designator.
+    let is_ref = |e: &Element| e.netlist_name == crate::check::refdes::R_REF_NAME;
+    for el in parts.iter().filter(|e| !is_ref(e)) {
         match &el.kind {
             ElementKind::Transistor {
                 collector,
@@ -356,12 +403,62 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
     }
     o.push('\n');
 
-    // The test bench: the output voltage swept from 0 to the supply at I_in min and max.
-    let (i_min, i_max) = (req.input_current_a.min, req.input_current_a.max);
+    // The test bench: the output voltage swept from 0 to the supply at I_in min and max,
+    // or, for a programmed design, at the program rail's ends.
     let vs = req.supply_v;
     let step = vs / 200.0;
-    o.push_str("* Test bench: V_out swept from 0 to the supply (measured from the mirror rail)\n");
-    o.push_str("* at I_in min and max. I_out = -I(VOUT) in both polarities.\n");
+    let r_ref = match (req.program, parts.iter().find(|e| is_ref(e))) {
+        (Some(p), Some(e)) => Some((p, e)),
+        _ => None,
+    };
+    let (i_min, i_max) = (req.input_current_a.min, req.input_current_a.max);
+    match r_ref {
+        None => {
+            o.push_str(
+                "* Test bench: V_out swept from 0 to the supply (measured from the mirror rail)\n",
+            );
+            o.push_str("* at I_in min and max. I_out = -I(VOUT) in both polarities.\n");
+        }
+        Some((p, e)) => {
+            let _ = writeln!(
+                o,
+                "* Test bench: V_out swept from 0 to the supply (measured from the mirror rail)"
+            );
+            let _ = writeln!(
+                o,
+                "* at the program rail's ends, {} and {}. VP is the program rail P, {} from the",
+                eng(p.rail_v.min, "V", a),
+                eng(p.rail_v.max, "V", a),
+                eng(p.rail_nominal_v(), "V", a)
+            );
+            let _ = writeln!(
+                o,
+                "* mirror rail; {} (R_ref) sets the input current from it. I_out = -I(VOUT).",
+                e.designator
+            );
+        }
+    }
+    let ref_line = |o: &mut String, vp: &str| {
+        if let Some((_, e)) = r_ref {
+            if let ElementKind::Resistor { ohm, class, .. } = &e.kind {
+                let tcr = design
+                    .r_ref
+                    .map(|r| format!(", TCR {} ppm/K", ppm(r.class.tcr_per_k)))
+                    .unwrap_or_default();
+                let _ = writeln!(
+                    o,
+                    "{} {vp} in {}  ; netlist Rref (R_ref), {}{tcr}{}",
+                    e.designator,
+                    num(*ohm),
+                    eng(*ohm, "ohm", a),
+                    class
+                        .as_deref()
+                        .map(|c| format!(", class {}", comment_text(c)))
+                        .unwrap_or_default()
+                );
+            }
+        }
+    };
     let several = outs.len() > 1;
     if several {
         o.push_str("* Every output is held at V_out; a 0 V source per output reads its current,\n");
@@ -378,7 +475,15 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         Polarity::Npn => {
             o.push_str("* Sink: mirror rail at ground, opposite rail at +V_S.\n");
             let _ = writeln!(o, "VS vs 0 DC {}", bench(vs));
-            let _ = writeln!(o, "IIN vs in DC {}", bench(i_min));
+            match r_ref {
+                None => {
+                    let _ = writeln!(o, "IIN vs in DC {}", bench(i_min));
+                }
+                Some((p, _)) => {
+                    let _ = writeln!(o, "VP vp 0 DC {}", bench(p.rail_v.min));
+                    ref_line(&mut o, "vp");
+                }
+            }
             let _ = writeln!(o, "VOUT out 0 DC {}", bench(req.output_voltage_v.max));
             if several {
                 for (k, n) in outs.iter().enumerate() {
@@ -389,11 +494,29 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         }
         Polarity::Pnp => {
             o.push_str("* Source: mirror rail at +V_S, opposite rail at ground; the input\n");
-            o.push_str(
-                "* current is drawn out of 'in' and V_out is measured down from the rail.\n",
-            );
+            match r_ref {
+                None => {
+                    o.push_str(
+                        "* current is drawn out of 'in' and V_out is measured down from the rail.\n",
+                    );
+                }
+                Some(_) => {
+                    o.push_str(
+                        "* current flows out of 'in' into the program rail, which sits VP below the\n\
+                         * mirror rail; V_out is measured down from the rail.\n",
+                    );
+                }
+            }
             let _ = writeln!(o, "VS rail 0 DC {}", bench(vs));
-            let _ = writeln!(o, "IIN in 0 DC {}", bench(i_min));
+            match r_ref {
+                None => {
+                    let _ = writeln!(o, "IIN in 0 DC {}", bench(i_min));
+                }
+                Some((p, _)) => {
+                    let _ = writeln!(o, "VP rail vp DC {}", bench(p.rail_v.min));
+                    ref_line(&mut o, "vp");
+                }
+            }
             let _ = writeln!(o, "VOUT rail out DC {}", bench(req.output_voltage_v.max));
             if several {
                 for (k, n) in outs.iter().enumerate() {
@@ -404,15 +527,19 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         }
     }
     let _ = writeln!(o, ".temp 25");
-    if i_max > i_min {
+    let (second, lo, hi) = match r_ref {
+        Some((p, _)) => ("VP", p.rail_v.min, p.rail_v.max),
+        None => ("IIN", i_min, i_max),
+    };
+    if hi > lo {
         let _ = writeln!(
             o,
-            ".dc VOUT 0 {} {} IIN {} {} {}",
+            ".dc VOUT 0 {} {} {second} {} {} {}",
             bench(vs),
             bench(step),
-            bench(i_min),
-            bench(i_max),
-            bench(i_max - i_min)
+            bench(lo),
+            bench(hi),
+            bench(hi - lo)
         );
     } else {
         let _ = writeln!(o, ".dc VOUT 0 {} {}", bench(vs), bench(step));
@@ -479,6 +606,7 @@ mod tests {
                 re1_ohm: 100.0,
                 re2_ohm: 100.0,
                 resistor: None,
+                r_ref: None,
             };
             let deck = render(&d, &req, &fixtures::provenance());
             let uses_helper = t.desc().transistors.iter().any(|l| l.role == Role::Helper);
@@ -521,6 +649,7 @@ mod tests {
             re1_ohm: 100.0,
             re2_ohm: 100.0,
             resistor: None,
+            r_ref: None,
         };
         let deck = render(&d, &req, &fixtures::provenance());
         assert!(
@@ -554,6 +683,7 @@ mod tests {
                     re1_ohm: re,
                     re2_ohm: if t == Topology::Widlar { 1000.0 } else { re },
                     resistor: None,
+                    r_ref: None,
                 };
                 let deck = render(&d, &req, &fixtures::provenance());
                 let sub: Vec<&str> = deck
@@ -611,6 +741,7 @@ mod tests {
             re1_ohm,
             re2_ohm,
             resistor: None,
+            r_ref: None,
         };
         let deck = render(
             &mk(Topology::Simple, 0.0, 0.0),
@@ -641,6 +772,7 @@ mod tests {
             re1_ohm: 0.0,
             re2_ohm: 0.0,
             resistor: None,
+            r_ref: None,
         };
         let deck = render(&d, &req, &fixtures::provenance());
         assert!(card(&deck, &model_name(&pair.id)).contains(" PNP("));
@@ -667,6 +799,7 @@ mod tests {
             re1_ohm: 0.0,
             re2_ohm: 0.0,
             resistor: None,
+            r_ref: None,
         };
         let deck = render(&d, &req, &fixtures::provenance());
         assert!(deck.is_ascii());
@@ -686,5 +819,64 @@ mod tests {
             "{deck}"
         );
         assert!(deck.trim_end().ends_with(".end"));
+    }
+
+    #[test]
+    fn element_names_are_the_schematics_designators_r_ref_included() {
+        let pair = fixtures::npn_dual();
+        let single = fixtures::npn_single();
+        let class = fixtures::resistor_class();
+        let mut req = fixtures::requirement();
+        req.program = Some(crate::model::Program {
+            rail_v: crate::model::Range {
+                min: 11.4,
+                max: 12.6,
+            },
+            output_current_a: 1e-3,
+        });
+        for t in ALL_TOPOLOGIES {
+            let helper = (!crate::check::helpers_fit_in_spares(t, &pair)).then_some(&single);
+            let d = SpiceDesign {
+                shape: Shape::SINGLE,
+                topology: t,
+                pair: &pair,
+                helper,
+                re1_ohm: 100.0,
+                re2_ohm: if t == Topology::Widlar { 4700.0 } else { 100.0 },
+                resistor: Some(&class),
+                r_ref: Some(SpiceRef {
+                    ohm: 11e3,
+                    class: &class,
+                }),
+            };
+            let deck = render(&d, &req, &fixtures::provenance());
+            let parts = elements(&d);
+            let svg = crate::report::schematic::schematic_svg(
+                &parts,
+                pair.polarity,
+                None,
+                req.program.map(|p| p.rail_v),
+            );
+            let doc = scraper::Html::parse_fragment(&svg);
+            let sel = scraper::Selector::parse("g.part").unwrap();
+            let drawn: BTreeSet<String> = doc
+                .select(&sel)
+                .map(|g| g.value().attr("data-designator").unwrap().to_string())
+                .collect();
+            // Element lines: a Q or R designator first (sources and the subcircuit call
+            // start with V and X).
+            let named: BTreeSet<String> = deck
+                .lines()
+                .filter(|l| l.starts_with('Q') || l.starts_with('R'))
+                .map(|l| l.split_whitespace().next().unwrap().to_string())
+                .collect();
+            assert_eq!(named, drawn, "{}:\n{deck}", t.name());
+            let r_ref = crate::check::refdes::designator_of(&parts, "Rref").unwrap();
+            assert!(
+                deck.contains(&format!("\n{r_ref} vp in 1.1e4 ")),
+                "R_ref in the bench:\n{deck}"
+            );
+            assert!(deck.contains("\nVP vp 0 DC 1.14e1\n"), "{deck}");
+        }
     }
 }

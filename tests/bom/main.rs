@@ -9,5 +9,6 @@ mod design;
 mod fast_feed;
 mod fixtures;
 mod optimum;
+mod programmed;
 mod random;
 mod render;

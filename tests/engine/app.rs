@@ -21,6 +21,14 @@ fn catalog() -> Catalog {
                 1,
                 BjtParams::new(2e-14, 150.0, Some(90.0)),
             ),
+            // Base current and Early effect out of the way: what is left of the output's
+            // drift is the programming network's.
+            class(
+                "npn-dual-ideal-test",
+                Polarity::Npn,
+                2,
+                BjtParams::new(1e-14, 1e6, None),
+            ),
             class(
                 "pnp-dual-test",
                 Polarity::Pnp,
@@ -41,7 +49,10 @@ fn args(topology: Topology) -> SolveArgs {
         re1_ohm: None,
         re2_ohm: None,
         ratio: None,
-        i_in_a: 1e-3,
+        i_in_a: Some(1e-3),
+        rail_v: None,
+        r_ref_ohm: None,
+        r_ref_resistor: None,
         v_out_v: 5.0,
         supply_v: Some(12.0),
         ambient_k: 298.15,
@@ -71,11 +82,21 @@ fn json_has_exactly_the_documented_keys() {
             "noise_sources",
             "outputs",
             "r_out",
+            "r_ref_ohm",
+            "r_ref_power_w",
+            "r_ref_resistor",
+            "rail_v",
             "ratio",
+            "tempco_ppm_per_k",
             "transistors",
             "v_in",
             "worst_output"
         ]
+    );
+    assert!(v["rail_v"].is_null() && v["r_ref_ohm"].is_null() && v["r_ref_power_w"].is_null());
+    assert!(
+        v["tempco_ppm_per_k"].is_number(),
+        "every design has a tempco"
     );
     let q = &v["transistors"][0];
     let mut tk: Vec<_> = q.as_object().unwrap().keys().cloned().collect();
@@ -160,7 +181,7 @@ fn bad_input_is_named() {
         other => panic!("{other:?}"),
     }
     let mut a = args(Topology::Simple);
-    a.i_in_a = -1e-3;
+    a.i_in_a = Some(-1e-3);
     let e = solve_command(&c, &a).unwrap_err();
     assert!(
         e.is_input_error() && e.to_string().contains("input current"),
@@ -185,7 +206,7 @@ fn error_is_against_the_requested_ratio_and_one_sided_resistors_are_refused() {
     let c = catalog();
     let mut a = args(Topology::BetaHelper);
     a.helper = Some("npn-single-test".into());
-    a.i_in_a = 100e-6;
+    a.i_in_a = Some(100e-6);
     a.self_heating = false;
     a.re1_ohm = Some(24.9e3);
     let e = solve_command(&c, &a).unwrap_err();
@@ -240,4 +261,109 @@ fn ratings_cautions_and_infinite_output_resistance() {
     let mut buf = Vec::new();
     write_solve_table(&r, &mut buf).unwrap();
     assert!(String::from_utf8(buf).unwrap().contains("infinite"));
+}
+
+/// A simple mirror programmed from a rail, no self-heating, no Early effect worth the
+/// name: the circuit of Sedra & Smith's and Horowitz & Hill's programming resistor.
+fn programmed(rail_v: f64, r_ref_ohm: f64) -> SolveArgs {
+    let mut a = args(Topology::Simple);
+    a.i_in_a = None;
+    a.rail_v = Some(rail_v);
+    a.r_ref_ohm = Some(r_ref_ohm);
+    a.self_heating = false;
+    a
+}
+
+#[test]
+fn a_rail_and_r_ref_solve_the_input_current() {
+    // Sedra & Smith, Microelectronic Circuits (current mirror biasing); Horowitz & Hill,
+    // The Art of Electronics (current mirrors): I_in = (V_prog - V_BE) / R_ref, with the
+    // V_BE of the solved circuit.
+    let r = solve_command(&catalog(), &programmed(5.0, 4.3e3)).unwrap();
+    let expected = (5.0 - r.v_in) / 4.3e3;
+    assert!(
+        (r.i_in / expected - 1.0).abs() < 1e-6,
+        "{} vs {expected}",
+        r.i_in
+    );
+    assert!((0.5..0.8).contains(&r.v_in), "one V_BE: {}", r.v_in);
+    // The power in R_ref is (V_prog - V_in) I_in.
+    let p = r.r_ref_power_w.unwrap();
+    assert!((p / ((5.0 - r.v_in) * r.i_in) - 1.0).abs() < 1e-6, "{p}");
+    assert_eq!(r.rail_v, Some(5.0));
+    assert_eq!(r.r_ref_ohm, Some(4.3e3));
+    // The error is against the solved input current.
+    assert!((r.error - (r.i_out / r.i_in - 1.0)).abs() < 1e-12);
+    // A Wilson's input sits two V_BE up (Gray, Hurst, Lewis & Meyer, Analysis and Design
+    // of Analog ICs, ch. 4).
+    let mut w = programmed(5.0, 3.6e3);
+    w.topology = Topology::Wilson;
+    w.helper = Some("npn-single-test".into());
+    let rw = solve_command(&catalog(), &w).unwrap();
+    assert!((1.1..1.6).contains(&rw.v_in), "two V_BE: {}", rw.v_in);
+    assert!((rw.i_in / ((5.0 - rw.v_in) / 3.6e3) - 1.0).abs() < 1e-6);
+}
+
+#[test]
+fn a_programmed_simple_mirror_drifts_as_the_v_be_over_the_r_ref_drop() {
+    // -(dV_BE/dT) / (V_prog - V_BE) with dV_BE/dT about -2 mV/K (common practice, no
+    // source): about +460 ppm/K from 5 V, within 10 %; from 15 V proportionally less.
+    // The transistors have no base current or Early effect to speak of (BF 10^6), so the
+    // programming network's drift is all there is.
+    let ideal = |rail: f64, r: f64| {
+        let mut a = programmed(rail, r);
+        a.part = "npn-dual-ideal-test".into();
+        solve_command(&catalog(), &a).unwrap()
+    };
+    // About 100 uA, where this class's V_BE (0.59 V) moves by -2.0 mV/K.
+    let r5 = ideal(5.0, 43e3);
+    let t5 = r5.tempco_ppm_per_k.unwrap();
+    assert!((t5 / 460.0 - 1.0).abs() < 0.10, "{t5} ppm/K");
+    // The same formula with the solved input voltage's own slope, tighter.
+    let v_in_at = |dt: f64| {
+        let mut a = programmed(5.0, 43e3);
+        a.part = "npn-dual-ideal-test".into();
+        a.ambient_k += dt;
+        solve_command(&catalog(), &a).unwrap().v_in
+    };
+    let dvin_dt = (v_in_at(5.0) - v_in_at(-5.0)) / 10.0;
+    let exact = -dvin_dt / (5.0 - r5.v_in) * 1e6;
+    assert!((t5 / exact - 1.0).abs() < 0.02, "{t5} vs {exact} ppm/K");
+    let r15 = ideal(15.0, 143e3);
+    let t15 = r15.tempco_ppm_per_k.unwrap();
+    let expected = 2e-3 / (15.0 - r15.v_in) * 1e6;
+    assert!(
+        (t15 / expected - 1.0).abs() < 0.10,
+        "{t15} vs {expected} ppm/K"
+    );
+    let proportion = (5.0 - r5.v_in) / (15.0 - r15.v_in);
+    assert!((t15 / t5 / proportion - 1.0).abs() < 0.05, "{t15} / {t5}");
+}
+
+#[test]
+fn the_input_is_forced_or_programmed_never_both_or_neither() {
+    let c = catalog();
+    let cases: [(Option<f64>, Option<f64>, Option<f64>, &str); 5] = [
+        (Some(1e-3), Some(12.0), Some(11e3), "not both"),
+        (None, None, None, "give the input"),
+        (None, Some(12.0), None, "--rail needs --rref"),
+        (Some(1e-3), None, Some(11e3), "--rref needs --rail"),
+        (None, Some(-1.0), Some(11e3), "program rail"),
+    ];
+    for (iin, rail, rref, says) in cases {
+        let mut a = args(Topology::Simple);
+        a.i_in_a = iin;
+        a.rail_v = rail;
+        a.r_ref_ohm = rref;
+        let e = solve_command(&c, &a).unwrap_err();
+        assert!(e.is_input_error(), "{e}");
+        assert!(e.to_string().contains(says), "{says}: {e}");
+    }
+    let mut a = programmed(12.0, 11e3);
+    a.r_ref_resistor = Some("no-such-film".into());
+    let e = solve_command(&c, &a).unwrap_err();
+    assert!(
+        e.is_input_error() && e.to_string().contains("no-such-film"),
+        "{e}"
+    );
 }

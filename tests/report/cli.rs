@@ -57,7 +57,7 @@ fn curves_table_csv_json_and_svg() {
     let csv = String::from_utf8(out.stdout).unwrap();
     assert_eq!(
         csv.lines().next().unwrap(),
-        "curve,i_in_a,t_amb_c,v_out_v,i_out_a,error,re1_ohm,noise_a_per_rthz"
+        "curve,i_in_a,t_amb_c,v_out_v,i_out_a,error,re1_ohm,noise_a_per_rthz,rail_v"
     );
     assert!(csv.lines().count() > 121);
     // The noise against the emitter resistors: no degeneration, then 24 values.

@@ -164,11 +164,35 @@ fn an_unwritable_path_fails_first_and_leaves_nothing() {
 
 #[test]
 fn designators_agree_between_schematic_parts_table_and_spice() {
+    let (_, r_ref) = designators_agree(TAIL);
+    assert_eq!(r_ref, None, "a forced input current has no R_ref");
+}
+
+#[test]
+fn designators_agree_with_a_programming_resistor() {
+    // R_ref is one more part: drawn once from its program rail, listed, and named the
+    // same in the SPICE bench.
+    let (drawn, r_ref) = designators_agree("requirements-examples/ltp-tail-programmed.yaml");
+    let r_ref = r_ref.expect("R_ref drawn");
+    assert!(drawn.contains(&r_ref), "{drawn:?}");
+    // Resistors are numbered RE1, RE2, then R_ref: it is the last R.
+    let last = drawn
+        .iter()
+        .filter(|d| d.starts_with('R'))
+        .max_by_key(|d| d[1..].parse::<u32>().unwrap())
+        .unwrap();
+    assert_eq!(*last, r_ref);
+}
+
+/// Reports `req`, then checks the schematic file, the page's parts table and the SPICE
+/// export of the chosen design name the same parts; returns the designators drawn and
+/// R_ref's, when there is one.
+fn designators_agree(req: &str) -> (Vec<String>, Option<String>) {
     let dir = tempfile::tempdir().unwrap();
     let page = dir.path().join("tail.html");
     let svg = dir.path().join("tail-schematic.svg");
     mirrorpick()
-        .args(["report", TAIL, "--out"])
+        .args(["report", req, "--out"])
         .arg(&page)
         .arg("--schematic")
         .arg(&svg)
@@ -218,7 +242,7 @@ fn designators_agree_between_schematic_parts_table_and_spice() {
     // The SPICE export of the same design names its elements the same way.
     let (re1, re2) = (raw("re1_ohm"), raw("re2_ohm"));
     let mut cmd = mirrorpick();
-    cmd.args(["export", "--spice", TAIL, "--part"])
+    cmd.args(["export", "--spice", req, "--part"])
         .arg(figure("part"))
         .arg("--topology")
         .arg(figure("topology"));
@@ -229,6 +253,20 @@ fn designators_agree_between_schematic_parts_table_and_spice() {
     if re1 > 0.0 || re2 > 0.0 {
         cmd.args(["--re", &format!("{re2}"), "--resistor", &figure("resistor")]);
     }
+    // The programming resistor as drawn (its class is the emitter resistors' here).
+    let r_ref: Vec<String> = select(&file, "g.part[data-netlist=Rref]")
+        .iter()
+        .map(|g| g.value().attr("data-value").unwrap().to_string())
+        .collect();
+    let r_ref_designator = select(&file, "g.part[data-netlist=Rref]")
+        .first()
+        .map(|g| g.value().attr("data-designator").unwrap().to_string());
+    if let Some(v) = r_ref.first() {
+        cmd.args(["--rref", v]);
+        if re1 == 0.0 && re2 == 0.0 {
+            cmd.args(["--resistor", &figure("resistor")]);
+        }
+    }
     let out = cmd.output().unwrap();
     assert!(
         out.status.success(),
@@ -236,11 +274,9 @@ fn designators_agree_between_schematic_parts_table_and_spice() {
         String::from_utf8_lossy(&out.stderr)
     );
     let deck = String::from_utf8(out.stdout).unwrap();
+    // Parts in the subcircuit, and R_ref in the bench.
     let mut elements: Vec<String> = deck
         .lines()
-        .skip_while(|l| !l.starts_with(".subckt"))
-        .skip(1)
-        .take_while(|l| !l.starts_with(".ends"))
         .filter(|l| l.starts_with('Q') || l.starts_with('R'))
         .map(|l| l.split_whitespace().next().unwrap().to_string())
         .collect();
@@ -250,6 +286,7 @@ fn designators_agree_between_schematic_parts_table_and_spice() {
         "SPICE element names are the schematic's designators"
     );
     assert!(deck.contains("Not modelled in this deck: self-heating"));
+    (drawn, r_ref_designator)
 }
 
 #[test]
