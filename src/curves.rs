@@ -401,18 +401,49 @@ pub fn for_design(
         &mm,
         solve_opts,
     );
-    if design.shape.outputs == 1 {
-        let mut set = sweep(req, opts, balance, |i, v, t| {
+    let mut set = if design.shape.outputs == 1 {
+        sweep(req, opts, balance, |i, v, t| {
             net.solve(&point(i, v, t), solve_opts)
                 .ok()
                 .map(|s| s.i_out_a)
+        })
+    } else {
+        multi_output_set(&net, design, req, opts, balance, &point, solve_opts)
+    };
+    set.noise_vs_re = noise_against_re(design, req, solve_opts);
+    if programmed {
+        let with_ref = Netlist::compile(
+            &Design {
+                r_ref: design_r_ref,
+                ..forced
+            },
+            &mm,
+        )?;
+        let hint = req.input_current_a.max;
+        sweep_rail(&mut set, req, opts, |rail, v, t| {
+            let op = OperatingPoint {
+                rail_v: Some(rail),
+                ..point(hint, v, t)
+            };
+            with_ref.solve(&op, solve_opts).ok().map(|s| s.i_out_a)
         });
-        set.noise_vs_re = noise_against_re(design, req, solve_opts);
-        return Ok(set);
     }
-    // Several outputs: every point solved once for all of them. The error curves are
-    // the worst output's; the output curves one family per output, where outputs differ
-    // (with nominal devices only heating sets them apart, e.g. a second array).
+    Ok(set)
+}
+
+/// The curves of a design with several outputs: every point solved once for all of them.
+/// The error curves are the worst output's; the output curves one family per output,
+/// where outputs differ (with nominal devices only heating sets them apart, e.g. a second
+/// array).
+fn multi_output_set(
+    net: &Netlist,
+    design: &Design,
+    req: &Requirement,
+    opts: &CurveOptions,
+    balance: Option<f64>,
+    point: &dyn Fn(f64, f64, f64) -> OperatingPoint,
+    solve_opts: &SolveOptions,
+) -> CurveSet {
     let memo: std::cell::RefCell<std::collections::HashMap<[u64; 3], Option<Vec<f64>>>> =
         Default::default();
     let all = |i: f64, v: f64, t: f64| -> Option<Vec<f64>> {
@@ -463,25 +494,7 @@ pub fn for_design(
         families.extend(kept);
     }
     set.output = families;
-    set.noise_vs_re = noise_against_re(design, req, solve_opts);
-    if programmed {
-        let with_ref = Netlist::compile(
-            &Design {
-                r_ref: design_r_ref,
-                ..forced
-            },
-            &mm,
-        )?;
-        let hint = req.input_current_a.max;
-        sweep_rail(&mut set, req, opts, |rail, v, t| {
-            let op = OperatingPoint {
-                rail_v: Some(rail),
-                ..point(hint, v, t)
-            };
-            with_ref.solve(&op, solve_opts).ok().map(|s| s.i_out_a)
-        });
-    }
-    Ok(set)
+    set
 }
 
 /// Voltages where a curve's error changes sign, interpolated linearly between the two
