@@ -24,18 +24,20 @@ use std::sync::{Mutex, OnceLock};
 use super::topology::{Branch, Role, Topology, TransistorLine, ALL_TOPOLOGIES};
 
 /// Most outputs on one input side. Beyond eight the input side carries the base current
-/// of every output and boards use a second reference; eight also bounds the solved system
-/// (a cascode with eight outputs has 37 unknowns with self-heating).
+/// of every output and boards use a second reference.
 pub const MAX_OUTPUTS: u8 = 8;
 /// Most devices in parallel for an area ratio (a five-device array: 1 + 4).
 pub const MAX_PARALLEL: u8 = 4;
 /// Most transistors in any form.
-pub const MAX_FORM_TRANSISTORS: usize = 20;
+pub const MAX_FORM_TRANSISTORS: usize = 16;
 /// Most unknown nodes in any form.
 pub const MAX_FORM_NODES: usize = 20;
 /// Most unknowns (nodes plus junction temperatures) of any form: one less than the
-/// solver's capacity, whose last row holds the output current.
-pub const MAX_FORM_UNKNOWNS: usize = 39;
+/// solver's capacity, whose last row holds the output current. The capacity is a stack
+/// matrix on every solve, so it is kept as small as the forms allow: eight outputs of a
+/// simple, beta-helper or Widlar mirror (at most 21 unknowns) and four of a cascode (21;
+/// eight would need 37).
+pub const MAX_FORM_UNKNOWNS: usize = 23;
 
 /// Devices in parallel on one side of the mirror.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -593,7 +595,14 @@ mod tests {
                 Err(FormError::DoesNotFanOut(_))
             ));
         }
-        assert!(form(Topology::Cascode, Shape::outputs(MAX_OUTPUTS)).is_ok());
+        for t in [Topology::Simple, Topology::BetaHelper, Topology::Widlar] {
+            assert!(form(t, Shape::outputs(MAX_OUTPUTS)).is_ok(), "{t:?}");
+        }
+        assert!(form(Topology::Cascode, Shape::outputs(4)).is_ok());
+        assert!(matches!(
+            form(Topology::Cascode, Shape::outputs(5)),
+            Err(FormError::TooLarge { .. })
+        ));
         assert!(matches!(
             form(Topology::Simple, Shape::outputs(MAX_OUTPUTS + 1)),
             Err(FormError::Outputs(_))
