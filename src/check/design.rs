@@ -92,7 +92,7 @@ impl ResolvedDesign<'_> {
             self.spec.re1_ohm,
             self.spec.re2_ohm,
             self.spec.resistor.as_deref(),
-            (self.spec.r_ref_ohm > 0.0).then(|| super::refdes::RefPart {
+            (self.spec.r_ref_ohm > 0.0).then_some(super::refdes::RefPart {
                 ohm: self.spec.r_ref_ohm,
                 class: self.spec.r_ref_resistor.as_deref(),
             }),
