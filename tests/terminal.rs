@@ -133,7 +133,7 @@ allow: [simple]
 ";
 
 #[test]
-#[ignore = "known gap: since unsolved corners fail under their own names, the 250 V case gets the catalog advice but no output_voltage.max advice (32 V passes when tried by hand)"]
+#[ignore = "about 100 s unoptimised (a 250 V search full of thermal runaway, then the advice's bisections); run optimised in .ci/run"]
 fn relax_advice_on_an_impossible_requirement() {
     let dir = tempfile::tempdir().unwrap();
     let req = write(dir.path(), "hv.yaml", IMPOSSIBLE);
@@ -161,13 +161,14 @@ fn relax_advice_on_an_impossible_requirement() {
     // The VCEO a class would need: above the 250 V output / 0.8 derating, less V_BE.
     let need = catalog["value"].as_f64().unwrap();
     assert!((300.0..320.0).contains(&need), "{need}");
-    // The output voltage that does pass is below the derated 240 V of the best class.
+    // The output voltage that does pass is at most the derated 240 V of the best class
+    // (at 240 V the output transistor's V_CE is 240 V less its emitter's potential).
     let vmax = relax
         .iter()
         .find(|r| r["field"] == "output_voltage.max")
         .expect("output_voltage.max advice");
     let value = vmax["value"].as_f64().unwrap();
-    assert!(value > 5.0 && value < 240.0, "{value}");
+    assert!(value > 5.0 && value <= 240.0, "{value}");
     assert!(vmax["design"].as_str().unwrap().starts_with("simple "));
     // The advice holds: with that one field changed, the named design family passes.
     let fixed = IMPOSSIBLE.replace("max: 250 V", &format!("max: {value} V"));
@@ -219,6 +220,70 @@ fn relax_advice_on_a_nearly_feasible_requirement() {
         .output()
         .unwrap();
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+}
+
+/// A PNP source programmed from a 12 V +-5 % rail to 1 mA within 3 %: the rail's
+/// tolerance alone moves the output by about 5 %, so nothing passes.
+const PROGRAMMED: &str = "name: PNP source, 1 mA from a 12 V rail
+kind: source
+supply: 12.6 V
+program:
+  rail: {min: 11.4 V, max: 12.6 V}
+  output_current: 1 mA
+output_voltage: {min: 2 V, max: 8 V}
+ambient: {min: 0 °C, max: 70 °C}
+accuracy: 3 %
+allow: [simple, wilson, thick-film-1pct]
+";
+
+#[test]
+fn relax_advice_on_a_programmed_requirement_in_rank_and_the_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let req = write(dir.path(), "pnp.yaml", PROGRAMMED);
+    let o = mirrorpick()
+        .args(["rank", req.to_str().unwrap(), "--samples", "200"])
+        .args(["--format", "json"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    let v = json(&o);
+    let relax = v["relax"].as_array().unwrap();
+    let acc = relax
+        .iter()
+        .find(|r| r["field"] == "accuracy")
+        .unwrap_or_else(|| panic!("accuracy advice in {relax:?}"));
+    // The rail's +-5 % alone is more than the asked 3 %; less than 20 % suffices.
+    let value = acc["value"].as_f64().unwrap();
+    assert!(value > 0.03 && value < 0.2, "{value}");
+    assert!(acc["design"].as_str().unwrap().contains("R_ref"), "{acc}");
+    // The advice holds: with that accuracy the requirement is met.
+    let fixed = PROGRAMMED.replace("accuracy: 3 %", &format!("accuracy: {} %", value * 100.0));
+    let req2 = write(dir.path(), "fixed.yaml", &fixed);
+    let o = mirrorpick()
+        .args(["rank", req2.to_str().unwrap(), "--samples", "200"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    // The report carries the same advice.
+    let o = mirrorpick()
+        .args([
+            "report",
+            req.to_str().unwrap(),
+            "--samples",
+            "200",
+            "--out",
+            "-",
+        ])
+        .output()
+        .unwrap();
+    let page = text(&o);
+    assert!(page.contains("What to relax"), "{page}");
+    let sentence = acc["text"].as_str().unwrap().replace('\'', "&#39;");
+    assert!(page.contains("id=\"relax\""), "{page}");
+    assert!(
+        page.contains(sentence.split(" makes ").next().unwrap()),
+        "{sentence}"
+    );
 }
 
 #[test]

@@ -691,11 +691,16 @@ pub fn label(spec: &DesignSpec) -> String {
                 "—".to_string()
             }
         };
-        s.push_str(&format!(
-            ", RE {}/{} {r}",
-            ohm(spec.re1_ohm),
-            ohm(spec.re2_ohm)
-        ));
+        // As the ranking's design cell writes it.
+        if spec.re1_ohm == spec.re2_ohm {
+            s.push_str(&format!(", RE {} {r}", ohm(spec.re1_ohm)));
+        } else {
+            s.push_str(&format!(
+                ", RE1 {} RE2 {} {r}",
+                ohm(spec.re1_ohm),
+                ohm(spec.re2_ohm)
+            ));
+        }
     }
     if let (Some(r), true) = (&spec.r_ref_resistor, spec.r_ref_ohm > 0.0) {
         s.push_str(&format!(

@@ -415,6 +415,86 @@ impl<'a> Evaluator<'a> {
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
+    /// The nominal error and the random 1-sigma error at each of `corners` (one solve
+    /// plus one per mismatch input each, the same solves as `evaluate`'s, so the values
+    /// are bit for bit the ones the accuracy check takes its maxima over). `None` when a
+    /// solve fails.
+    pub fn corner_errors(&self, corners: &[OperatingCorner]) -> Option<Vec<(f64, f64)>> {
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let nets = self.sensitivity_nets().ok()?;
+        corners
+            .iter()
+            .map(|c| {
+                let s0 = self.solve_net(&net, c, true).ok()?;
+                let d = self.sensitivities(&nets, c, &s0).ok()?;
+                Some((s0.error, budget::random_sigma(&d)))
+            })
+            .collect()
+    }
+
+    /// The corners of the largest nominal error and of the largest random sigma (one
+    /// corner when they coincide): where a similar design's total error is decided.
+    /// `None` when a corner does not solve.
+    pub fn worst_corners(&self) -> Option<Vec<OperatingCorner>> {
+        let e = self.corner_errors(&self.corners)?;
+        let arg = |f: fn(&(f64, f64)) -> f64| {
+            (0..e.len()).fold(0, |w, i| if f(&e[i]) > f(&e[w]) { i } else { w })
+        };
+        let (a, b) = (arg(|x| x.0.abs()), arg(|x| x.1));
+        let mut out = vec![self.corners[a]];
+        if b != a {
+            out.push(self.corners[b]);
+        }
+        Some(out)
+    }
+
+    /// `max |e| + k * max sigma` over `corners` taken in order, stopping as soon as it
+    /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
+    /// maxima over every corner, from the same solves). `from` carries on from the
+    /// `(max |e|, max sigma)` of corners already taken. Returns the bound reached and
+    /// both maxima, or the check a failed solve fails (`thermal-runaway`, `no-solution`:
+    /// the design fails it, as its verification would). A rating (VCEO, Ic max, dissipation)
+    /// already broken at a corner stops the walk with a bound of minus infinity: the
+    /// design fails, and its screen stops at that corner as cheaply.
+    pub fn error_bound_until(
+        &self,
+        corners: &[OperatingCorner],
+        limit: f64,
+        from: (f64, f64),
+    ) -> Result<(f64, (f64, f64)), CheckName> {
+        let failed = |f: SolveFailure| failure_check(&f, "nominal design").name;
+        let net = self
+            .compile(&Mismatch::default(), NOMINAL)
+            .map_err(failed)?;
+        let nets = self.sensitivity_nets().map_err(failed)?;
+        let k = self.req.confidence_sigma;
+        let (mut sys, mut rnd) = from;
+        for c in corners {
+            if sys + k * rnd > limit {
+                break;
+            }
+            let s0 = self.solve_net(&net, c, true).map_err(failed)?;
+            let one = std::slice::from_ref(&s0);
+            let broken = !ratings::vceo(self.design, one).pass
+                || !ratings::ic_max(self.design, one).pass
+                || !ratings::dissipation(self.design, one).pass;
+            if broken {
+                return Ok((f64::NEG_INFINITY, (sys, rnd)));
+            }
+            let d = self
+                .sensitivities(&nets, c, &s0)
+                .map_err(|(_, f)| failed(f))?;
+            sys = sys.max(s0.error.abs());
+            rnd = rnd.max(budget::random_sigma(&d));
+        }
+        Ok((sys + k * rnd, (sys, rnd)))
+    }
+
+    /// Every corner of the requirement, in the evaluation's order.
+    pub fn corners(&self) -> &[OperatingCorner] {
+        &self.corners
+    }
+
     /// Monte Carlo yield with every sampled build re-solved at every corner (the same
     /// draws as the first-order yield): a confirmation for one design, too costly for a
     /// search. A build whose circuit fails to solve counts as out of spec

@@ -16,7 +16,10 @@ use std::sync::atomic::{AtomicU64, Ordering};
 use rayon::prelude::*;
 use thiserror::Error;
 
-pub use order::{family, first_per, pareto, sort, FamilyKey, Prefer};
+pub use order::{
+    bare_family, family, first_per, listed_families, pareto, sort, worth_listing, FamilyKey,
+    Prefer, NOTICEABLE_ERROR,
+};
 pub use relax::{relax, Relax, NEAREST};
 pub use report::{
     cautions, Alternative, BudgetItem, BudgetReport, CandidateRow, Caution, CheaperReport,
@@ -86,18 +89,35 @@ pub fn rank(
     progress: &dyn Progress,
 ) -> Result<RankRun, RankError> {
     let groups = enumerate(req, catalog);
-    let n = opts.top.max(opts.explain.unwrap_or(0)).max(1);
+    let wanted = opts.top.max(opts.explain.unwrap_or(0)).max(1);
     let unit = if opts.every_value {
         Unit::Rows
     } else {
         Unit::Families
     };
-    let goal = match opts.prefer {
-        Prefer::Cost => Goal::Cheapest(n, unit),
-        Prefer::Accuracy => Goal::MostAccurate(n, unit),
-        Prefer::Balanced => Goal::Balanced(n, unit),
+    let mut n = wanted;
+    let mut run = loop {
+        let goal = match opts.prefer {
+            Prefer::Cost => Goal::Cheapest(n, unit),
+            Prefer::Accuracy => Goal::MostAccurate(n, unit),
+            Prefer::Balanced => Goal::Balanced(n, unit),
+        };
+        let run = rank_with_goal(req, catalog, opts, goal, &groups, progress)?;
+        // Families the degenerated-row rule does not list leave rows to fill. The cost
+        // order's search counts listed families itself; the others search again for as
+        // many more families as were not listed.
+        let hidden = run.report.families.saturating_sub(run.rows.len());
+        let more = wanted + hidden;
+        if opts.every_value
+            || opts.prefer == Prefer::Cost
+            || run.rows.len() >= wanted
+            || run.report.unverified == 0
+            || more <= n
+        {
+            break run;
+        }
+        n = more;
     };
-    let mut run = rank_with_goal(req, catalog, opts, goal, &groups, progress)?;
     if run.ranked.is_empty() {
         run.report.relax = relax(req, catalog, &groups, opts.mc);
     }
@@ -135,7 +155,7 @@ fn rank_with_goal(
     let listed: Vec<usize> = if opts.every_value {
         (0..ranked.len()).collect()
     } else {
-        families.clone()
+        listed_families(&ranked, &families)
     };
     if let Some(k) = opts.explain {
         if !listed.is_empty() && (k == 0 || k > listed.len()) {

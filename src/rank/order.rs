@@ -14,6 +14,15 @@
 //! A *family* is every design that differs only in resistor value (topology, pair,
 //! helper, resistor class; no degeneration has no resistor class, so it is a family of
 //! its own). `rank` shows each family's first row in the order, and so does `cheaper`.
+//!
+//! A degenerated family (emitter resistors) is listed only when its best row is worth
+//! the resistors against the same design without them (topology, pair, helper, R_ref
+//! class; its *bare* family): the bare design is not feasible, or the degenerated row
+//! costs less, or its total error is at least `NOTICEABLE_ERROR` (a tenth) below the bare
+//! design's. A token 2.7 ohm that moves 1.47 % to 1.46 % is not listed; 21 kohm that brings
+//! it to 1.28 % is. The first row of the order is always listed, so the rule never
+//! changes which design is first (in the cost order it cannot apply to it anyway: the
+//! bare design is cheaper, so it would come first).
 
 use std::cmp::Ordering;
 
@@ -103,6 +112,56 @@ pub fn family(s: &DesignSpec) -> FamilyKey {
     )
 }
 
+/// How much smaller a degenerated design's total error must be than its bare design's
+/// to be listed: a tenth (common practice, no source: a change a designer reads off the
+/// three printed figures without comparing digits).
+pub const NOTICEABLE_ERROR: f64 = 0.10;
+
+/// The family of the same design without emitter resistors, or `None` for a design
+/// without them.
+pub fn bare_family(s: &DesignSpec) -> Option<FamilyKey> {
+    s.resistor.as_ref().map(|_| {
+        (
+            s.topology,
+            s.pair.clone(),
+            s.helper.clone(),
+            None,
+            s.r_ref_resistor.clone(),
+        )
+    })
+}
+
+/// Whether a degenerated design of `(cost, total error)` is worth listing beside its
+/// feasible bare design's `(cost, total error)`.
+pub fn worth_listing(degenerated: (f64, f64), bare: (f64, f64)) -> bool {
+    degenerated.0 < bare.0 - 1e-12 || degenerated.1 <= (1.0 - NOTICEABLE_ERROR) * bare.1
+}
+
+/// The family bests (indices into `items`, in order, as from `first_per` by family) that
+/// are listed: every one but a degenerated row not worth listing beside its bare design
+/// (see the module docs); the first is always kept.
+pub fn listed_families(items: &[(DesignSpec, Evaluation)], bests: &[usize]) -> Vec<usize> {
+    let best_of = |key: &FamilyKey| {
+        bests
+            .iter()
+            .map(|&i| &items[i])
+            .find(|(s, _)| family(s) == *key)
+            .map(|(_, e)| (e.cost, e.figures.error_total))
+    };
+    bests
+        .iter()
+        .enumerate()
+        .filter(|(pos, &i)| {
+            let (s, e) = &items[i];
+            *pos == 0
+                || bare_family(s)
+                    .and_then(|k| best_of(&k))
+                    .is_none_or(|bare| worth_listing((e.cost, e.figures.error_total), bare))
+        })
+        .map(|(_, &i)| i)
+        .collect()
+}
+
 /// Indices of the first item of each key in `items` (already in ranking order): the best
 /// row of each family, or of whatever `key` groups by.
 pub fn first_per<T, K: PartialEq>(items: &[T], key: impl Fn(&T) -> K) -> Vec<usize> {
@@ -165,6 +224,16 @@ mod tests {
         ];
         assert_eq!(pareto(&pts), vec![true, false, true, true, false, true]);
         assert!(pareto(&[]).is_empty());
+    }
+
+    #[test]
+    fn a_degenerated_row_needs_a_tenth_less_error_or_a_lower_cost() {
+        // The expo example's Wilson: bare 1.47 %, 2.70 ohm 1.46 %, 21 kohm 1.28 %.
+        assert!(!worth_listing((4.524, 0.0146), (4.520, 0.0147)));
+        assert!(worth_listing((4.640, 0.0128), (4.520, 0.0147)));
+        assert!(worth_listing((4.640, 0.0132), (4.520, 0.0147)));
+        assert!(!worth_listing((4.640, 0.0133), (4.520, 0.0147)));
+        assert!(worth_listing((4.5, 0.0147), (4.520, 0.0147)));
     }
 
     #[test]

@@ -14,10 +14,11 @@ use std::sync::atomic::AtomicU64;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::check::{resolve, CheckName, Depth, DesignSpec, Evaluator, MonteCarlo, VCEO_DERATING};
+use crate::check::{self, CheckName, Depth, DesignSpec, MonteCarlo, VCEO_DERATING};
 use crate::model::{Catalog, Requirement};
 use crate::units::{format_prefixed, format_quantity, Dimension};
 
+use super::search::{screen_group, Outcome};
 use super::space::Group;
 
 /// How many candidates are bisected per field: the nearest to feasible (by their worst
@@ -120,6 +121,33 @@ fn moves(req: &Requirement) -> Vec<Move> {
             apply: |r, x| r.supply_v = x,
         },
     ];
+    if let Some(p) = req.program {
+        // A tighter rail: the rail's tolerance moves the programmed current one for one.
+        m.push(Move {
+            field: "program.rail.min",
+            dimension: Dimension::Voltage,
+            from: p.rail_v.min,
+            to: p.rail_v.max,
+            log: false,
+            apply: |r, x| {
+                if let Some(p) = r.program.as_mut() {
+                    p.rail_v.min = x;
+                }
+            },
+        });
+        m.push(Move {
+            field: "program.rail.max",
+            dimension: Dimension::Voltage,
+            from: p.rail_v.max,
+            to: p.rail_v.min,
+            log: false,
+            apply: |r, x| {
+                if let Some(p) = r.program.as_mut() {
+                    p.rail_v.max = x;
+                }
+            },
+        });
+    }
     if let Some(r) = req.min_output_resistance_ohm {
         m.push(Move {
             field: "min_output_resistance",
@@ -164,13 +192,11 @@ fn moves(req: &Requirement) -> Vec<Move> {
     m
 }
 
+/// Whether `spec` meets `req`. A programmed design gets its R_ref sized for `req` (the
+/// changed requirement), as the search would size it.
 fn feasible(req: &Requirement, catalog: &Catalog, spec: &DesignSpec, mc: MonteCarlo) -> bool {
     let solves = AtomicU64::new(0);
-    resolve(catalog, spec).is_ok_and(|d| {
-        Evaluator::new(req, &d, &solves)
-            .evaluate(Depth::Verdict, mc)
-            .feasible()
-    })
+    check::verify(req, catalog, spec, Depth::Verdict, mc, &solves).is_ok_and(|(_, e)| e.feasible())
 }
 
 /// The value nearest `m.from` (within the bisection's resolution, rounded outward) that
@@ -258,6 +284,10 @@ fn describe(spec: &DesignSpec) -> String {
         }
         s.push_str(&format!(" {class}"));
     }
+    if let Some(class) = &spec.r_ref_resistor {
+        // Its value is sized from the solved circuit for the changed requirement.
+        s.push_str(&format!(", R_ref {class}"));
+    }
     s
 }
 
@@ -270,20 +300,38 @@ fn show(x: f64, d: Dimension) -> String {
     }
 }
 
-/// A few candidates per family to judge nearness from: the design without emitter
-/// resistors, and the smallest, middle and largest resistor value of each resistor class.
-fn pool(groups: &[Group]) -> Vec<DesignSpec> {
-    let mut out = Vec::new();
-    for g in groups {
-        let n = g.specs.len();
-        if n == 0 {
-            continue;
-        }
-        let mut picks = vec![0, n / 2, n - 1];
-        picks.dedup();
-        out.extend(picks.into_iter().map(|i| g.specs[i].clone()));
-    }
-    out
+/// A few candidates per family to judge nearness from: the smallest, middle and largest
+/// resistor value of each group, and the same three among the values that pass the
+/// search's screens (the screens bound accuracy from below and compliance from above, so
+/// a design that can be made feasible by one field usually sits in that window: at 250 V
+/// the window is where a simple mirror's 32 V version passes, which the even picks miss).
+fn pool(req: &Requirement, catalog: &Catalog, groups: &[Group]) -> Vec<DesignSpec> {
+    let solves = AtomicU64::new(0);
+    groups
+        .par_iter()
+        .flat_map_iter(|g| {
+            let n = g.specs.len();
+            let mut picks: Vec<usize> = Vec::new();
+            if n > 0 {
+                picks.extend([0, n / 2, n - 1]);
+                let passed: Vec<usize> = screen_group(req, catalog, g, &solves)
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, (_, o))| matches!(o, Outcome::Survivor(_)))
+                    .map(|(i, _)| i)
+                    .collect();
+                if let (Some(&a), Some(&b)) = (passed.first(), passed.last()) {
+                    picks.extend([a, passed[passed.len() / 2], b]);
+                }
+            }
+            picks.sort_unstable();
+            picks.dedup();
+            picks
+                .into_iter()
+                .map(|i| g.specs[i].clone())
+                .collect::<Vec<_>>()
+        })
+        .collect()
 }
 
 /// A candidate judged for nearness: its design, (failing checks, worst margin), and the
@@ -295,11 +343,12 @@ pub fn relax(req: &Requirement, catalog: &Catalog, groups: &[Group], mc: MonteCa
     let solves = AtomicU64::new(0);
     // Judge every pooled candidate fully at verdict depth: its nearness is how many
     // checks fail, then its worst margin over every check.
-    let mut judged: Vec<Judged> = pool(groups)
+    let mut judged: Vec<Judged> = pool(req, catalog, groups)
         .par_iter()
         .filter_map(|s| {
-            let d = resolve(catalog, s).ok()?;
-            let ev = Evaluator::new(req, &d, &solves).evaluate(Depth::Verdict, mc);
+            // R_ref sized for the requirement as written (a programmed design fails
+            // every check without one).
+            let (_, ev) = check::verify(req, catalog, s, Depth::Verdict, mc, &solves).ok()?;
             if ev.feasible() {
                 return None;
             }
@@ -321,7 +370,8 @@ pub fn relax(req: &Requirement, catalog: &Catalog, groups: &[Group], mc: MonteCa
             // it is far from feasible, not near, so it sorts after every solved design.
             let failing = ev.checks.iter().filter(|c| !c.pass).count()
                 + if ev.complete { 0 } else { UNSOLVED_PENALTY };
-            Some((d.spec.clone(), (failing, worst), vceo))
+            // The unsized spec: each probe sizes R_ref for its own requirement.
+            Some((s.clone(), (failing, worst), vceo))
         })
         .collect();
     if judged.is_empty() {

@@ -25,11 +25,11 @@ use std::sync::atomic::{AtomicU64, Ordering};
 
 use rayon::prelude::*;
 
-use super::order::{family, FamilyKey};
+use super::order::{bare_family, family, worth_listing, FamilyKey, NOTICEABLE_ERROR};
 use super::space::Group;
 use crate::check::{
-    choose_r_ref, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
-    MonteCarlo, ResolvedDesign,
+    choose_r_ref, probe_corner, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation,
+    Evaluator, MonteCarlo, OperatingCorner, ResolvedDesign,
 };
 use crate::model::{Catalog, Requirement};
 
@@ -91,7 +91,7 @@ pub struct Verdicts {
     pub solves: u64,
 }
 
-enum Outcome {
+pub(super) enum Outcome {
     Feasible(Box<Evaluation>),
     Rejected(CheckName),
     /// Passed every screen; not yet verified.
@@ -142,6 +142,7 @@ pub fn search(
         }
     }
     verify_survivors(req, catalog, survivors, goal, mc, &solves, progress, &mut v);
+
     v.solves = solves.load(Ordering::Relaxed);
     v
 }
@@ -253,6 +254,9 @@ fn verify_survivors(
         }
         return;
     }
+    if let Goal::Cheapest(n, Unit::Families) = goal {
+        return cheapest_families(req, catalog, survivors, n, mc, solves, progress, v);
+    }
     // Buckets: one, or one per pair class.
     let mut buckets: Vec<(Option<String>, Vec<Survivor>)> = Vec::new();
     for s in survivors {
@@ -320,6 +324,231 @@ fn verify_survivors(
     merge(results, v);
 }
 
+/// The `n` cheapest listed families (`order::listed_families`) with a feasible design,
+/// each with its best row exact.
+/// Cost levels are taken in ascending order and each is finished whole (every family
+/// in it), so ties and the Pareto flags of the listed rows are exact, as when every
+/// member of a level was verified. Within a family every member costs the same, so the
+/// family's best row (the cost order's first) is its most accurate one: each family is
+/// searched best-first on the probe-corner bound of its total error (`best_first` with
+/// one row), which verifies a few members instead of all of them; the families of a
+/// level are searched in parallel. A family with no feasible member has every member
+/// verified. Members not needed for the best row stay unverified.
+#[allow(clippy::too_many_arguments)]
+fn cheapest_families(
+    req: &Requirement,
+    catalog: &Catalog,
+    survivors: Vec<Survivor>,
+    n: usize,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    v: &mut Verdicts,
+) {
+    let mut found = 0usize;
+    // Feasible family bests so far: family, cost, total error, worst corners (bare only).
+    let mut bests: Vec<(FamilyKey, f64, f64, Vec<OperatingCorner>)> = Vec::new();
+    let mut results: Vec<(usize, DesignSpec, Option<Outcome>)> = Vec::new();
+    let mut i = 0;
+    while i < survivors.len() {
+        if found >= n {
+            results.extend(survivors[i..].iter().map(|(k, s, _)| (*k, s.clone(), None)));
+            break;
+        }
+        let cost = survivors[i].2;
+        let mut end = i;
+        while end < survivors.len() && survivors[end].2 == cost {
+            end += 1;
+        }
+        let mut families: Vec<(FamilyKey, Vec<Survivor>)> = Vec::new();
+        for s in &survivors[i..end] {
+            let key = family(&s.1);
+            match families.iter_mut().find(|(k, _)| *k == key) {
+                Some((_, f)) => f.push(s.clone()),
+                None => families.push((key, vec![s.clone()])),
+            }
+        }
+        // Each family's hint corners and target from its bare design (a cheaper level,
+        // so already known): its worst corners, and the error a degenerated row must
+        // beat to be listed. Without one, the probe corner and no target.
+        let per_family: Vec<Vec<(usize, DesignSpec, Option<Outcome>)>> = families
+            .into_par_iter()
+            .map(|(_, f)| {
+                let bare = f
+                    .first()
+                    .and_then(|s| bare_family(&s.1))
+                    .and_then(|k| bests.iter().find(|b| b.0 == k));
+                let (hint, target) = match bare {
+                    // Cheaper than its bare design: listed whatever its error.
+                    Some(b) if cost < b.1 - 1e-12 => (b.3.clone(), f64::INFINITY),
+                    Some(b) => (b.3.clone(), (1.0 - NOTICEABLE_ERROR) * b.2),
+                    None => (vec![probe_corner(req)], f64::INFINITY),
+                };
+                family_best(req, catalog, f, &hint, target, mc, solves, progress)
+            })
+            .collect();
+        // Each family's best row; it counts toward `n` when it will be listed (a
+        // degenerated row against its bare design, which is cheaper or as cheap, so
+        // already known: `order::listed_families`).
+        let mut level_bests: Vec<(DesignSpec, f64, f64)> = Vec::new();
+        for r in per_family {
+            let best = r
+                .iter()
+                .filter_map(|(_, spec, o)| match o {
+                    Some(Outcome::Feasible(e)) => Some((spec, e.cost, e.figures.error_total)),
+                    _ => None,
+                })
+                .min_by(|a, b| a.2.total_cmp(&b.2));
+            if let Some((spec, cost, err)) = best {
+                level_bests.push((spec.clone(), cost, err));
+                // The worst corners of a bare design hint its degenerated families.
+                let worst = if spec.resistor.is_none() {
+                    resolve(catalog, spec)
+                        .ok()
+                        .and_then(|d| Evaluator::new(req, &d, solves).worst_corners())
+                        .unwrap_or_else(|| vec![probe_corner(req)])
+                } else {
+                    Vec::new()
+                };
+                bests.push((family(spec), cost, err, worst));
+            }
+            results.extend(r);
+        }
+        for (spec, cost, err) in &level_bests {
+            let hidden = bare_family(spec)
+                .and_then(|k| bests.iter().find(|b| b.0 == k))
+                .is_some_and(|b| !worth_listing((*cost, *err), (b.1, b.2)));
+            found += usize::from(!hidden);
+        }
+        i = end;
+    }
+    merge(results, v);
+}
+
+/// A family's most accurate feasible member (every member costs the same), exactly when
+/// it is within `target` (a total error; `INFINITY`: always); `None` outcomes are left
+/// unverified.
+///
+/// Every member first gets a lower bound of its total error from a few corners, `hint`
+/// (the worst corners of a related verified design: members differ only in resistor
+/// value, so theirs are nearly the same): `Evaluator::error_bound_until`, the maxima the
+/// accuracy check takes over every corner, from the same solves, taken over fewer. In
+/// ascending order of that bound, each member is then taken corner by corner (hint
+/// first) until its bound passes the best total error found so far (or `target`): such
+/// a member cannot be the family's best and stays unverified. A member that keeps under
+/// it at every corner is verified in full. Once the next bound is above the best total
+/// error, no unverified member can be more accurate. A bound over the accuracy
+/// requirement proves the member fails accuracy (counted there, as the screens do). A bound that fails to solve is 0
+/// (the member is verified). `FAMILY_BATCH` members are taken at a time, in parallel,
+/// against the best known before the batch, so the outcome does not depend on threads.
+#[allow(clippy::too_many_arguments)]
+fn family_best(
+    req: &Requirement,
+    catalog: &Catalog,
+    members: Vec<Survivor>,
+    hint: &[OperatingCorner],
+    target: f64,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
+    // Each member's bound from the hint corners and the maxima behind it; a member whose
+    // bound does not solve fails under that solve's check (a corner is never dropped, so
+    // its verification fails there too), and one that cannot be resolved is left
+    // unverified.
+    type Start = Result<(f64, (f64, f64)), Option<Box<(DesignSpec, Outcome)>>>;
+    let starts: Vec<Start> = members
+        .par_iter()
+        .map(|(_, spec, _)| {
+            let d = resolve_sized(req, catalog, spec, solves).map_err(|_| None)?;
+            let e = Evaluator::new(req, &d, solves);
+            // A failed solve fails the design under that solve's check.
+            e.error_bound_until(hint, f64::INFINITY, (0.0, 0.0))
+                .map_err(|c| Some(Box::new((d.spec.clone(), Outcome::Rejected(c)))))
+        })
+        .collect();
+    let mut results = Vec::new();
+    let mut bounds = vec![f64::INFINITY; members.len()];
+    let mut maxima = vec![(0.0, 0.0); members.len()];
+    let mut live = Vec::new();
+    for (x, st) in starts.into_iter().enumerate() {
+        match st {
+            Ok((b, m)) => {
+                bounds[x] = b;
+                maxima[x] = m;
+                live.push(x);
+            }
+            Err(Some(b)) => {
+                let (spec, o) = *b;
+                results.push((members[x].0, spec, Some(o)));
+            }
+            Err(None) => results.push((members[x].0, members[x].1.clone(), None)),
+        }
+    }
+    progress.advance((members.len() - live.len()) as u64);
+    let mut order = live;
+    order.sort_by(|&a, &b| bounds[a].total_cmp(&bounds[b]).then(a.cmp(&b)));
+    // Over the accuracy requirement a member fails (and is no candidate for the best).
+    let target = target.min(req.accuracy);
+    let mut best = f64::INFINITY;
+    let mut j = 0;
+    while j < order.len() && bounds[order[j]] <= best.min(target) {
+        let limit = best.min(target);
+        let mut end = j;
+        while end < order.len() && end < j + FAMILY_BATCH && bounds[order[end]] <= limit {
+            end += 1;
+        }
+        let level: Vec<(usize, DesignSpec, Option<Outcome>)> = order[j..end]
+            .par_iter()
+            .map(|&x| {
+                let (k, spec, _) = &members[x];
+                let Ok(d) = resolve_sized(req, catalog, spec, solves) else {
+                    return (*k, spec.clone(), None);
+                };
+                let e = Evaluator::new(req, &d, solves);
+                let rest: Vec<OperatingCorner> = e
+                    .corners()
+                    .iter()
+                    .filter(|c| !hint.contains(c))
+                    .copied()
+                    .collect();
+                // Over the limit at some corner: not the best (and infeasible when over
+                // the accuracy requirement); else verified. A rating broken at a hint
+                // corner goes straight to its (short) verification.
+                let walked = if bounds[x] > f64::NEG_INFINITY {
+                    e.error_bound_until(&rest, limit, maxima[x])
+                } else {
+                    Ok((f64::NEG_INFINITY, maxima[x]))
+                };
+                if let Err(c) = walked {
+                    return (*k, d.spec.clone(), Some(Outcome::Rejected(c)));
+                }
+                if let Some((b, _)) = walked.ok().filter(|b| b.0 > limit) {
+                    let o = (b > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
+                    return (*k, d.spec.clone(), o);
+                }
+                let ev = e.evaluate(Depth::Screen, mc);
+                (*k, d.spec.clone(), Some(outcome(ev)))
+            })
+            .collect();
+        progress.advance((end - j) as u64);
+        for (_, _, o) in &level {
+            if let Some(Outcome::Feasible(e)) = o {
+                best = best.min(e.figures.error_total);
+            }
+        }
+        results.extend(level);
+        j = end;
+    }
+    // The rest cannot be the best; a bound over the accuracy requirement proves a
+    // failure, counted under accuracy as the screens count theirs.
+    results.extend(order[j..].iter().map(|&x| {
+        let o = (bounds[x] > req.accuracy).then_some(Outcome::Rejected(CheckName::Accuracy));
+        (members[x].0, members[x].1.clone(), o)
+    }));
+    results
+}
+
 /// Best-first verification for the accuracy and balanced orders. Each survivor gets a
 /// lower bound of its sort key from the probe corner (`|e| + k sigma` there is at most
 /// the total error); survivors are verified in order of that bound until the `n`-th best
@@ -342,6 +571,33 @@ fn verify_by_bound(
     progress: &dyn Progress,
     v: &mut Verdicts,
 ) {
+    let results = best_first(
+        req, catalog, survivors, goal, n, unit, mc, solves, progress, BATCH,
+    );
+    merge(results, v);
+}
+
+/// Survivors verified at once by the best-first search: enough to keep two threads busy
+/// over a long list, few enough that a short one stops soon after its best design.
+const BATCH: usize = 64;
+/// The batch within one family (families are verified in parallel with each other).
+const FAMILY_BATCH: usize = 4;
+
+/// `verify_by_bound`'s search, returning every outcome (`None`: left unverified) for the
+/// caller to merge; `batch` designs are verified between two looks at the stop rule.
+#[allow(clippy::too_many_arguments)]
+fn best_first(
+    req: &Requirement,
+    catalog: &Catalog,
+    survivors: Vec<Survivor>,
+    goal: Goal,
+    n: usize,
+    unit: Unit,
+    mc: MonteCarlo,
+    solves: &AtomicU64,
+    progress: &dyn Progress,
+    batch_size: usize,
+) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
     let verify = |batch: &[Survivor]| -> Vec<(usize, DesignSpec, Option<Outcome>)> {
         batch
             .par_iter()
@@ -405,13 +661,12 @@ fn verify_by_bound(
             .collect()
     };
     let mut keys = feasible_keys(&results);
-    const BATCH: usize = 64;
     let mut i = 0;
     while i < order.len() {
         if nth_key(&keys, n, unit).is_some_and(|k| k < bounds[order[i]]) {
             break;
         }
-        let end = (i + BATCH).min(order.len());
+        let end = (i + batch_size).min(order.len());
         let batch: Vec<Survivor> = order[i..end].iter().map(|&j| rest[j].clone()).collect();
         let level = verify(&batch);
         progress.advance((end - i) as u64);
@@ -424,7 +679,7 @@ fn verify_by_bound(
             .iter()
             .map(|&j| (rest[j].0, rest[j].1.clone(), None)),
     );
-    merge(results, v);
+    results
 }
 
 /// The `n`-th smallest key (1-based) over rows, or over families (each keyed by its
@@ -495,7 +750,7 @@ fn judge_all(
 }
 
 /// Screens one group: proven rejections, and survivors (with their cost) to verify.
-fn screen_group(
+pub(super) fn screen_group(
     req: &Requirement,
     catalog: &Catalog,
     g: &Group,

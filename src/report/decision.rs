@@ -3,7 +3,7 @@
 //! provenance. Formatting only; every number comes from the ranking's report, so the
 //! page's figures are the JSON's figures.
 
-use super::eng::{celsius, eng, eng_sig, percent, Charset};
+use super::eng::{celsius, eng, eng_range, eng_sig, percent, Charset};
 use super::page::{CheckRow, DesignView, Figure, Page, Plot, Rejected, Table};
 use super::plot::{self, BudgetBar, NoiseBar, PlotError};
 use super::schematic;
@@ -503,13 +503,6 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
             format!("{} to {}", f(lo), f(hi))
         }
     };
-    // Enough digits that both ends read as written (9.99 V to 10.01 V, not to 10.0 V).
-    let volts_apart = |lo: f64, hi: f64| {
-        let rounded = |x: f64, d: usize| format!("{x:.*e}", d - 1).parse().unwrap_or(x);
-        let exact = |x: f64, d: usize| (rounded(x, d) - x).abs() <= 1e-3 * (hi - lo).abs();
-        let sig = (3..=6).find(|&d| exact(lo, d) && exact(hi, d)).unwrap_or(6);
-        range(lo, hi, &|x| eng_sig(x, "V", U, sig))
-    };
     let mut rows = vec![
         ("name".to_string(), req.name.clone()),
         (
@@ -528,7 +521,7 @@ fn requirement_rows(req: &Requirement, catalog: &Catalog) -> Vec<(String, String
                 "programming".into(),
                 format!(
                     "resistor R_ref from a rail at {} (from the mirror rail), for {} out",
-                    volts_apart(p.rail_v.min, p.rail_v.max),
+                    eng_range(p.rail_v.min, p.rail_v.max, "V", U),
                     eng(p.output_current_a, "A", U)
                 ),
             ),
@@ -937,6 +930,7 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             .map(|(k, v)| (k.to_string(), *v))
             .collect(),
         best_rejected,
+        relax: report.relax.iter().map(|r| r.text.clone()).collect(),
         budget,
         budget_table,
         plots,

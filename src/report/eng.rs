@@ -18,6 +18,22 @@ pub fn eng(value: f64, unit: &str, charset: Charset) -> String {
     eng_sig(value, unit, charset, 3)
 }
 
+/// `lo to hi` with enough digits (3 to 6) that both ends read as written: a 10 V ±0.1 %
+/// rail is "9.990 V to 10.01 V", not "9.99 V to 10.0 V". One value when they are equal.
+pub fn eng_range(lo: f64, hi: f64, unit: &str, charset: Charset) -> String {
+    if lo == hi {
+        return eng(lo, unit, charset);
+    }
+    let rounded = |x: f64, d: usize| format!("{x:.*e}", d - 1).parse().unwrap_or(x);
+    let exact = |x: f64, d: usize| (rounded(x, d) - x).abs() <= 1e-3 * (hi - lo).abs();
+    let sig = (3..=6).find(|&d| exact(lo, d) && exact(hi, d)).unwrap_or(6);
+    format!(
+        "{} to {}",
+        eng_sig(lo, unit, charset, sig),
+        eng_sig(hi, unit, charset, sig)
+    )
+}
+
 /// As [`eng`], with `sig` significant digits (3 to 9).
 pub fn eng_sig(value: f64, unit: &str, charset: Charset, sig: usize) -> String {
     let sig = sig.clamp(3, 9);
@@ -124,6 +140,15 @@ pub fn percent(fraction: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ranges_keep_the_digits_that_tell_their_ends_apart() {
+        let u = Charset::Unicode;
+        assert_eq!(eng_range(9.99, 10.01, "V", u), "9.990 V to 10.01 V");
+        assert_eq!(eng_range(28.5, 31.5, "V", u), "28.5 V to 31.5 V");
+        assert_eq!(eng_range(4.9, 5.1, "V", u), "4.90 V to 5.10 V");
+        assert_eq!(eng_range(12.0, 12.0, "V", u), "12.0 V");
+    }
 
     #[test]
     fn engineering_notation() {

@@ -201,6 +201,13 @@ pub fn render(page: &Page) -> String {
                             p id="nearest-miss" { (r.headline) "." }
                             (design(&r.design, "best-rejected"))
                         }
+                        @if !page.relax.is_empty() {
+                            h3 { "What to relax" }
+                            p { "One requirement field at a time; each value found by the solver for the nearest candidates." }
+                            ul id="relax" {
+                                @for r in &page.relax { li { (r) } }
+                            }
+                        }
                     }
 
                     section id="budget" {

@@ -187,6 +187,13 @@ pub fn render(page: &Page, stem: &str) -> (String, Vec<(String, String)>) {
         );
         design(&mut o, &r.design);
     }
+    if !page.relax.is_empty() {
+        o.push_str("### What to relax\n\nOne requirement field at a time; each value found by the solver for the nearest candidates.\n\n");
+        for r in &page.relax {
+            let _ = writeln!(o, "* {}", escape(r));
+        }
+        o.push('\n');
+    }
     o.push_str("## 5 Error budget\n\n");
     if page.chosen.is_none() {
         o.push_str("No design was chosen, so there is no budget to show.\n\n");

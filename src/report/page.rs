@@ -96,6 +96,9 @@ pub struct Page {
     pub counts: String,
     pub rejected_by: Vec<(String, usize)>,
     pub best_rejected: Option<Rejected>,
+    /// What to relax when nothing passes (`rank`'s `relax`, as sentences); empty when a
+    /// design was chosen.
+    pub relax: Vec<String>,
     pub budget: Vec<BudgetBar>,
     pub budget_table: Table,
     pub plots: Vec<Plot>,

@@ -30,7 +30,7 @@ use std::collections::BTreeMap;
 
 use maud::{html, Markup};
 
-use super::eng::{eng, Charset};
+use super::eng::{eng, eng_range, Charset};
 use crate::check::refdes::{Element, ElementKind, PROGRAM_RAIL};
 use crate::model::{Polarity, Range};
 
@@ -541,12 +541,8 @@ pub fn schematic_svg(
     let p_label = [
         "P: program rail".to_string(),
         match program_rail {
-            Some(r) if (r.max - r.min).abs() > 1e-12 => format!(
-                "{} to {}",
-                eng(r.min, "V", Charset::Unicode),
-                eng(r.max, "V", Charset::Unicode)
-            ),
-            Some(r) => eng(r.min, "V", Charset::Unicode),
+            // Measured from the mirror rail R, as every voltage (below it for a source).
+            Some(r) => format!("{} from R", eng_range(r.min, r.max, "V", Charset::Unicode)),
             None => "voltage not given".to_string(),
         },
     ];
@@ -794,6 +790,25 @@ mod tests {
         )
     }
 
+    /// The drawn group of each element, in `parts` order; every element is drawn exactly
+    /// once and nothing else is drawn as a part.
+    fn part_groups<'d>(doc: &'d scraper::Html, parts: &[Element]) -> Vec<scraper::ElementRef<'d>> {
+        let sel = scraper::Selector::parse("g.part").unwrap();
+        let groups: Vec<_> = doc.select(&sel).collect();
+        assert_eq!(groups.len(), parts.len());
+        parts
+            .iter()
+            .map(|e| {
+                let g: Vec<_> = groups
+                    .iter()
+                    .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
+                    .collect();
+                assert_eq!(g.len(), 1, "{} once", e.designator);
+                *g[0]
+            })
+            .collect()
+    }
+
     #[test]
     fn every_part_appears_once_with_designator_and_value() {
         for t in ALL_TOPOLOGIES {
@@ -802,16 +817,9 @@ mod tests {
                 for pol in [Polarity::Npn, Polarity::Pnp] {
                     let svg = schematic_svg(&parts, pol, Some("t <&> t"), None);
                     let doc = scraper::Html::parse_fragment(&svg);
-                    let sel = scraper::Selector::parse("g.part").unwrap();
-                    let groups: Vec<_> = doc.select(&sel).collect();
-                    assert_eq!(groups.len(), parts.len(), "{} dpp {dpp} re {re}", t.name());
-                    for e in &parts {
-                        let g: Vec<_> = groups
-                            .iter()
-                            .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
-                            .collect();
-                        assert_eq!(g.len(), 1, "{} once", e.designator);
-                        let text: Vec<String> = g[0]
+                    let groups = part_groups(&doc, &parts);
+                    for (e, g) in parts.iter().zip(&groups) {
+                        let text: Vec<String> = g
                             .text()
                             .map(|s| s.trim().to_string())
                             .filter(|s| !s.is_empty())
@@ -877,21 +885,10 @@ mod tests {
                 for pol in [Polarity::Npn, Polarity::Pnp] {
                     let svg = schematic_svg(&parts, pol, None, Some(rail));
                     let doc = scraper::Html::parse_fragment(&svg);
-                    let sel = scraper::Selector::parse("g.part").unwrap();
-                    let groups: Vec<_> = doc.select(&sel).collect();
-                    assert_eq!(groups.len(), parts.len(), "{} dpp {dpp}", t.name());
                     // Every element exactly once, with its designator and value.
-                    for e in &parts {
-                        let g: Vec<_> = groups
-                            .iter()
-                            .filter(|g| g.value().attr("data-designator") == Some(&e.designator))
-                            .collect();
-                        assert_eq!(g.len(), 1, "{} once", e.designator);
-                        assert_eq!(
-                            g[0].value().attr("data-value"),
-                            Some(value_text(e).as_str())
-                        );
-                        assert_eq!(g[0].value().attr("data-netlist"), Some(e.netlist_name));
+                    for (e, g) in parts.iter().zip(part_groups(&doc, &parts)) {
+                        assert_eq!(g.value().attr("data-value"), Some(value_text(e).as_str()));
+                        assert_eq!(g.value().attr("data-netlist"), Some(e.netlist_name));
                     }
                     let r_ref = parts.iter().find(|e| e.netlist_name == "Rref").unwrap();
                     assert!(svg.contains("511 kΩ") || svg.contains("511.0 kΩ"), "{svg}");
@@ -900,7 +897,7 @@ mod tests {
                     assert_eq!(p.len(), 1, "one program rail");
                     let text: String = p[0].text().collect();
                     assert!(text.contains("P: program rail"), "{text}");
-                    assert!(text.contains("11.4 V to 12.6 V"), "{text}");
+                    assert!(text.contains("11.4 V to 12.6 V from R"), "{text}");
                     // The rail sits above R_ref in a sink, below it in a source: the
                     // rail's y against the resistor's label.
                     let y_of = |needle: &str| -> f64 {

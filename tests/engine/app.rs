@@ -340,13 +340,12 @@ fn a_programmed_simple_mirror_drifts_as_the_v_be_over_the_r_ref_drop() {
     assert!((t15 / t5 / proportion - 1.0).abs() < 0.05, "{t15} / {t5}");
 }
 
-/// `--iin`, `--rail`, `--rref` and what the refusal says.
-type InputCase = (Option<f64>, Option<f64>, Option<f64>, &'static str);
-
 #[test]
 fn the_input_is_forced_or_programmed_never_both_or_neither() {
     let c = catalog();
-    let cases: [InputCase; 5] = [
+    // (--iin, --rail, --rref, what the message says)
+    type Case = (Option<f64>, Option<f64>, Option<f64>, &'static str);
+    let cases: [Case; 5] = [
         (Some(1e-3), Some(12.0), Some(11e3), "not both"),
         (None, None, None, "give the input"),
         (None, Some(12.0), None, "--rail needs --rref"),

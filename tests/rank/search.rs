@@ -2,7 +2,10 @@
 //! per design family by default and every resistor value with `every_value`.
 
 use mirrorpick::check::MonteCarlo;
-use mirrorpick::rank::{family, first_per, rank, CandidateRow, Prefer, RankOptions, Silent};
+use mirrorpick::rank::{
+    bare_family, family, first_per, listed_families, rank, worth_listing, CandidateRow, Prefer,
+    RankOptions, Silent,
+};
 
 use super::*;
 
@@ -131,13 +134,14 @@ fn family_rows_are_each_familys_best_and_every_value_lists_every_row() {
                 r.re2_ohm,
             )
         };
-        // Default: the first row of each family in the full ranking, in its order.
-        let bests: Vec<_> = first_per(&run.ranked, |(s, _)| family(s))
+        // Default: the first row of each listed family in the full ranking, in its order.
+        let firsts = first_per(&run.ranked, |(s, _)| family(s));
+        assert_eq!(run.report.families, firsts.len());
+        let bests: Vec<_> = listed_families(&run.ranked, &firsts)
             .into_iter()
             .map(|i| key(&run.ranked[i].0))
             .collect();
         assert!(bests.len() >= 2, "{prefer:?}: {} families", bests.len());
-        assert_eq!(run.report.families, bests.len());
         let shown: Vec<_> = run.report.candidates.iter().map(row_key).collect();
         assert_eq!(shown, bests[..shown.len().min(20)].to_vec(), "{prefer:?}");
         assert_eq!(shown.len(), bests.len().min(20));
@@ -180,4 +184,84 @@ fn default_equals_exhaustive_top_20_on_every_shipped_example() {
         same_top(&req, &cat, 20, Prefer::Cost, false);
         same_top(&req, &cat, 20, Prefer::Cost, true);
     }
+}
+
+/// Issue 17: a degenerated row is listed only when it beats its bare design on cost or by
+/// a tenth of the error, and the rule never changes which design is first.
+#[test]
+fn degenerated_rows_are_listed_only_when_worth_it_and_the_first_row_stays() {
+    let (cat, tail) = narrowed();
+    // The expo converter's Wilson and cascode with a sloppy and a precise resistor class:
+    // token resistors that change the error by less than a tenth.
+    let mut expo = load_example(
+        &root().join("requirements-examples/expo-converter-sink.yaml"),
+        &cat,
+    );
+    expo.classes.allow = vec![
+        "npn-pair-monolithic".into(),
+        "thick-film-5pct".into(),
+        "thin-film-0p1pct".into(),
+    ];
+    expo.topologies.allow = vec!["wilson4".into(), "cascode".into()];
+    let mut hidden = 0;
+    for (req, prefer) in [
+        (&tail, Prefer::Cost),
+        (&tail, Prefer::Accuracy),
+        (&expo, Prefer::Cost),
+        (&expo, Prefer::Accuracy),
+        (&expo, Prefer::Balanced),
+    ] {
+        let opts = RankOptions {
+            top: 50,
+            exhaustive: true,
+            prefer,
+            mc: MonteCarlo {
+                seed: 1,
+                samples: 100,
+            },
+            ..Default::default()
+        };
+        let run = rank(req, &cat, &opts, &Silent).unwrap();
+        let firsts = first_per(&run.ranked, |(s, _)| family(s));
+        // The first row is the ranking's first design, with or without the rule.
+        let first = &run.report.candidates[0];
+        let (s0, _) = &run.ranked[0];
+        assert_eq!(
+            (first.topology, &first.part, first.re1_ohm, first.re2_ohm),
+            (s0.topology.name(), &s0.pair, s0.re1_ohm, s0.re2_ohm),
+            "{prefer:?}"
+        );
+        for &i in &firsts[1..] {
+            let (s, e) = &run.ranked[i];
+            let bare = bare_family(s).and_then(|k| {
+                firsts
+                    .iter()
+                    .map(|&j| &run.ranked[j])
+                    .find(|(b, _)| family(b) == k)
+            });
+            let shown = run.report.candidates.iter().any(|r| {
+                r.topology == s.topology.name()
+                    && r.part == s.pair
+                    && r.resistor == s.resistor
+                    && r.re1_ohm == s.re1_ohm
+            });
+            match bare {
+                Some((_, b)) => {
+                    let worth = worth_listing(
+                        (e.cost, e.figures.error_total),
+                        (b.cost, b.figures.error_total),
+                    );
+                    assert_eq!(shown, worth, "{prefer:?}: {s:?}");
+                    hidden += usize::from(!worth);
+                    if worth {
+                        assert!(
+                            e.cost < b.cost || e.figures.error_total <= 0.9 * b.figures.error_total
+                        );
+                    }
+                }
+                None => assert!(shown, "{prefer:?}: {s:?} has no feasible bare design"),
+            }
+        }
+    }
+    assert!(hidden > 0, "the examples hide no row, so test nothing");
 }
