@@ -280,6 +280,14 @@ pub struct DesignCli {
     /// Resistor class of R_ref (default: the --resistor class).
     #[arg(long, value_name = "CLASS")]
     pub rref_resistor: Option<String>,
+    /// Outputs fed by the one input side, each with its own output transistor and RE2
+    /// (1 to 8; default: the requirement's `outputs`). Not for wilson or wilson4.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=8))]
+    pub outputs: Option<u8>,
+    /// Area ratio from devices in parallel in one array: `n` devices on each output
+    /// (ratio n) or `1/n` on the input side (ratio 1/n), n from 2 to 4; default 1.
+    #[arg(long, value_name = "n|1/n")]
+    pub area: Option<String>,
 }
 
 #[derive(Debug, Args)]
@@ -352,6 +360,8 @@ impl From<MonteCarloArgs> for MonteCarlo {
 impl DesignCli {
     fn into_args(self, helper: Option<String>) -> DesignArgs {
         DesignArgs {
+            outputs: self.outputs,
+            area: self.area,
             part: self.part,
             topology: self.topology,
             helper,
@@ -419,6 +429,10 @@ pub struct SolveCli {
     /// Relative beta deviation of Q2 against Q1 (e.g. 0.02 or 2 %).
     #[arg(long, value_parser = fraction, default_value = "0", allow_hyphen_values = true)]
     pub dbeta: f64,
+    /// Outputs fed by the one input side, each with its own output transistor and RE2
+    /// (1 to 8). Not for wilson or wilson4.
+    #[arg(long, value_name = "N", default_value_t = 1, value_parser = clap::value_parser!(u8).range(1..=8))]
+    pub outputs: u8,
     /// Output format.
     #[arg(long, value_enum, default_value_t = TableOrJson::Table)]
     pub format: TableOrJson,
@@ -658,6 +672,7 @@ impl Cli {
                     TableOrJson::Json => Format::Json,
                 },
                 args: SolveArgs {
+                    shape: mirrorpick::model::Shape::outputs(a.outputs),
                     topology: a.topology,
                     part: a.part,
                     helper: a.helper,

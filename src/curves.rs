@@ -47,6 +47,9 @@ impl Default for CurveOptions {
 /// I_out against V_out at one programming current and ambient.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OutputCurve {
+    /// Which output (1-based) the curve is of; a design with several outputs has one
+    /// family per output where the outputs differ (see `for_design`).
+    pub output: u8,
     pub i_in_a: f64,
     pub t_amb_k: f64,
     pub v_out_v: Vec<f64>,
@@ -286,6 +289,7 @@ where
             let i_out: Vec<Option<f64>> = volts.iter().map(|&v| solve(i_in, v, t)).collect();
             failed += i_out.iter().filter(|x| x.is_none()).count();
             output.push(OutputCurve {
+                output: 1,
                 i_in_a: i_in,
                 t_amb_k: t,
                 v_out_v: volts.clone(),
@@ -397,11 +401,15 @@ pub fn for_design(
         &mm,
         solve_opts,
     );
-    let mut set = sweep(req, opts, balance, |i, v, t| {
-        net.solve(&point(i, v, t), solve_opts)
-            .ok()
-            .map(|s| s.i_out_a)
-    });
+    let mut set = if design.shape.outputs == 1 {
+        sweep(req, opts, balance, |i, v, t| {
+            net.solve(&point(i, v, t), solve_opts)
+                .ok()
+                .map(|s| s.i_out_a)
+        })
+    } else {
+        multi_output_set(&net, design, req, opts, balance, &point, solve_opts)
+    };
     set.noise_vs_re = noise_against_re(design, req, solve_opts);
     if programmed {
         let with_ref = Netlist::compile(
@@ -421,6 +429,72 @@ pub fn for_design(
         });
     }
     Ok(set)
+}
+
+/// The curves of a design with several outputs: every point solved once for all of them.
+/// The error curves are the worst output's; the output curves one family per output,
+/// where outputs differ (with nominal devices only heating sets them apart, e.g. a second
+/// array).
+fn multi_output_set(
+    net: &Netlist,
+    design: &Design,
+    req: &Requirement,
+    opts: &CurveOptions,
+    balance: Option<f64>,
+    point: &dyn Fn(f64, f64, f64) -> OperatingPoint,
+    solve_opts: &SolveOptions,
+) -> CurveSet {
+    let memo: std::cell::RefCell<std::collections::HashMap<[u64; 3], Option<Vec<f64>>>> =
+        Default::default();
+    let all = |i: f64, v: f64, t: f64| -> Option<Vec<f64>> {
+        let key = [i.to_bits(), v.to_bits(), t.to_bits()];
+        if let Some(x) = memo.borrow().get(&key) {
+            return x.clone();
+        }
+        let x = net
+            .solve(&point(i, v, t), solve_opts)
+            .ok()
+            .map(|s| s.outputs().to_vec());
+        memo.borrow_mut().insert(key, x.clone());
+        x
+    };
+    let n = req.ratio;
+    let mut set = sweep(req, opts, balance, |i, v, t| {
+        let outs = all(i, v, t)?;
+        outs.iter().copied().max_by(|a, b| {
+            (a / (n * i) - 1.0)
+                .abs()
+                .total_cmp(&(b / (n * i) - 1.0).abs())
+        })
+    });
+    let mut families: Vec<OutputCurve> = Vec::new();
+    for base in &set.output {
+        let mut kept: Vec<OutputCurve> = Vec::new();
+        for k in 0..design.shape.outputs {
+            let i_out: Vec<Option<f64>> = base
+                .v_out_v
+                .iter()
+                .map(|&v| all(base.i_in_a, v, base.t_amb_k).map(|o| o[usize::from(k)]))
+                .collect();
+            let same = |c: &OutputCurve| {
+                c.i_out_a.iter().zip(&i_out).all(|(a, b)| match (a, b) {
+                    (Some(a), Some(b)) => (a - b).abs() <= 1e-6 * a.abs().max(b.abs()),
+                    (None, None) => true,
+                    _ => false,
+                })
+            };
+            if !kept.iter().any(same) {
+                kept.push(OutputCurve {
+                    output: k + 1,
+                    i_out_a: i_out,
+                    ..base.clone()
+                });
+            }
+        }
+        families.extend(kept);
+    }
+    set.output = families;
+    set
 }
 
 /// Voltages where a curve's error changes sign, interpolated linearly between the two

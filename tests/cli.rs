@@ -95,6 +95,7 @@ mod formats {
         assert_eq!(r.min_yield, Some(0.99));
         assert_eq!(r.min_output_resistance_ohm, Some(1e6));
         assert_eq!(r.quantity, 4);
+        assert_eq!(r.outputs, 3);
         assert_eq!(r.load, LoadKind::Sensor);
         // allow/deny names are sorted into topologies and classes.
         assert_eq!(r.topologies.allow, vec!["simple", "wilson"]);
@@ -285,6 +286,16 @@ mod bad_input {
         );
         let e = requirement_error("malformed.yaml");
         assert!(located(&e).starts_with("malformed.yaml:9:9: did not find expected"));
+    }
+
+    #[test]
+    fn outputs_out_of_range() {
+        let e = requirement_error("outputs-out-of-range.yaml");
+        let text = located(&e);
+        assert!(
+            text.starts_with("outputs-out-of-range.yaml:9:") && text.contains("1 to 8 outputs"),
+            "{text}"
+        );
     }
 
     #[test]

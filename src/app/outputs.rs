@@ -28,6 +28,8 @@ pub struct Resolved<'a> {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<&'a ResistorClass>,
+    /// Outputs on the input side and the area ratio.
+    pub shape: crate::model::Shape,
     /// The class the helper transistors actually sit in, per the package layout, when it
     /// is not the pair's class.
     pub helper_placed: Option<&'a TransistorClass>,
@@ -40,6 +42,7 @@ pub struct Resolved<'a> {
 impl<'a> Resolved<'a> {
     pub fn design(&self) -> Design<'a> {
         Design {
+            shape: self.shape,
             r_ref: (self.r_ref_ohm > 0.0).then(|| crate::circuit::RefResistor {
                 ohm: self.r_ref_ohm,
                 tcr_per_k: self.r_ref_class.map_or(0.0, |r| r.tcr_per_k),
@@ -82,6 +85,7 @@ impl<'a> Resolved<'a> {
             re1_ohm: self.re1_ohm,
             re2_ohm: self.re2_ohm,
             resistor: self.resistor,
+            shape: self.shape,
             r_ref: self
                 .r_ref_class
                 .filter(|_| self.r_ref_ohm > 0.0)
@@ -139,6 +143,7 @@ pub fn resolve<'a>(
         re1_ohm: spec.re1_ohm,
         re2_ohm: spec.re2_ohm,
         resistor: d.resistor,
+        shape: spec.shape,
         r_ref_ohm: spec.r_ref_ohm,
         r_ref_class: d.r_ref,
     })

@@ -37,6 +37,10 @@ pub struct DesignArgs {
     pub rref: Option<String>,
     /// R_ref's resistor class (`--rref-resistor`); default the `--resistor` class.
     pub rref_resistor: Option<String>,
+    /// Outputs on the one input side (`--outputs`); default the requirement's `outputs`.
+    pub outputs: Option<u8>,
+    /// The area ratio as typed (`--area 4`, `--area 1/4`); default 1.
+    pub area: Option<String>,
 }
 
 /// Arguments of `rank`.
@@ -284,7 +288,51 @@ pub fn design_spec(
         (re1, re2)
     };
     let (r_ref_ohm, r_ref_resistor, r_ref_pick) = ref_resistor(req, catalog, a)?;
+    let outputs = a.outputs.unwrap_or(req.outputs);
+    if outputs > 1 && !topology.desc().fans_out {
+        return Err(AppError::Usage(format!(
+            "the {} topology has one output only (its output transistor sits in the feedback loop); with {outputs} outputs choose simple, beta-helper, cascode or widlar",
+            topology.name()
+        )));
+    }
+    let area = match a.area.as_deref().map(str::trim) {
+        None | Some("1") => crate::model::Area::Unit,
+        Some(text) => {
+            let (inverse, digits) = match text.strip_prefix("1/") {
+                Some(d) => (true, d.trim()),
+                None => (false, text),
+            };
+            let n: u8 = digits
+                .parse()
+                .ok()
+                .filter(|n| (2..=crate::model::MAX_PARALLEL).contains(n))
+                .ok_or_else(|| {
+                    AppError::Usage(format!(
+                        "--area `{text}` is not an area ratio; expected n or 1/n with n from 2 to {}",
+                        crate::model::MAX_PARALLEL
+                    ))
+                })?;
+            if inverse {
+                crate::model::Area::Input(n)
+            } else {
+                crate::model::Area::Output(n)
+            }
+        }
+    };
+    let shape = crate::model::Shape { outputs, area };
+    crate::model::fanout::form(topology, shape)
+        .map_err(|e| AppError::Usage(format!("--outputs/--area: {e}")))?;
+    // With an area ratio the devices set the ratio; RE2 then takes the equal-drop value
+    // (RE1/n for n output devices), unless named.
+    let re2 = match (area, re2_named) {
+        (crate::model::Area::Unit, _) | (_, Some(_)) => re2,
+        _ if re1 > 0.0 => resistor
+            .and_then(|r| r.series.nearest(re1 / shape.area_ratio()))
+            .unwrap_or(re1 / shape.area_ratio()),
+        _ => re2,
+    };
     Ok(DesignSpec {
+        shape,
         topology,
         pair: a.part.clone(),
         helper: a.helper.clone(),

@@ -47,6 +47,7 @@ pub struct ReportArgs {
 /// The nominal design of a ranked row, for the curves.
 fn design_of<'a>(catalog: &'a Catalog, row: &CandidateRow) -> Option<Design<'a>> {
     Some(Design {
+        shape: row.shape,
         // A programmed row's R_ref, so the curves add the output against the rail.
         r_ref: row.r_ref_ohm.map(|ohm| crate::circuit::RefResistor {
             ohm,

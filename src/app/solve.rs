@@ -41,7 +41,7 @@ use crate::check;
 use crate::circuit::{
     balance_voltage, Design, Mismatch, Netlist, OperatingPoint, SolveFailure, SolveOptions,
 };
-use crate::model::{Catalog, Role, Topology, ZERO_CELSIUS_K};
+use crate::model::{Catalog, Role, Shape, Topology, ZERO_CELSIUS_K};
 use crate::units::format_prefixed as eng;
 
 /// Everything the command needs, resolved to SI numbers.
@@ -74,6 +74,8 @@ pub struct SolveArgs {
     pub dvbe_v: f64,
     /// Relative beta deviation of Q2 against Q1.
     pub dbeta: f64,
+    /// Outputs on the input side (`--outputs`), each with its own RE2.
+    pub shape: Shape,
 }
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -173,8 +175,13 @@ pub struct TransistorReport {
 pub struct SolveReport {
     /// The input current: forced, or solved through R_ref.
     pub i_in: f64,
+    /// The worst output's current (the only output's on a single-output design).
     pub i_out: f64,
     pub error: f64,
+    /// Which output (1-based) `i_out` and `error` are of: the one with the largest error.
+    pub worst_output: usize,
+    /// Every output's current and error, output 1 first.
+    pub outputs: Vec<OutputReport>,
     pub r_out: Option<f64>,
     pub v_in: f64,
     pub balance_voltage: Option<f64>,
@@ -197,6 +204,14 @@ pub struct SolveReport {
     /// The output current's temperature coefficient at this point, ppm/K (null when a
     /// neighbouring ambient does not solve).
     pub tempco_ppm_per_k: Option<f64>,
+}
+
+/// One output of the solved point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OutputReport {
+    pub output: usize,
+    pub i_out: f64,
+    pub error: f64,
 }
 
 /// One noise source of the solved point and what it puts on the output current.
@@ -345,6 +360,7 @@ pub fn solve_command(
     )?;
 
     let design = Design {
+        shape: args.shape,
         r_ref: match program {
             Program::Forced(_) => None,
             Program::Resistor { r_ref_ohm, .. } => Some(crate::circuit::RefResistor {
@@ -400,15 +416,21 @@ pub fn solve_command(
         .map(|nv| (nv.name.to_string(), nv.volts))
         .collect();
     nodes.insert("R".to_string(), 0.0);
-    let placed_helper = if crate::check::helpers_fit_in_spares(args.topology, pair) {
+    let placed_helper = if crate::check::helpers_fit_in_spares_for(args.topology, args.shape, pair)
+    {
         None
     } else {
         helper
     };
     let r_ref_ohm = design.r_ref.map(|r| r.ohm);
-    let parts = crate::check::refdes::elements(
+    let packages = match crate::model::fanout::form(args.topology, args.shape) {
+        Ok(form) if !args.shape.is_single() => check::place_form(form, pair, placed_helper),
+        _ => check::place(args.topology, pair, placed_helper),
+    };
+    let parts = crate::check::refdes::elements_of_shape(
         args.topology,
-        &crate::check::place(args.topology, pair, placed_helper),
+        args.shape,
+        &packages,
         re1_ohm,
         re2_ohm,
         None,
@@ -421,10 +443,23 @@ pub fn solve_command(
     if let Some(c) = r_ref_caution(&parts, r_ref_class, &sol, args.ambient_k) {
         cautions.push(c);
     }
+    let err = |i: f64| i / (n * sol.i_in_a) - 1.0;
+    let (worst, worst_error) = sol.worst_output(err);
     Ok(SolveReport {
         i_in: sol.i_in_a,
-        i_out: sol.i_out_a,
-        error: sol.error(n, sol.i_in_a),
+        i_out: sol.outputs()[worst],
+        error: worst_error,
+        worst_output: worst + 1,
+        outputs: sol
+            .outputs()
+            .iter()
+            .enumerate()
+            .map(|(k, &i)| OutputReport {
+                output: k + 1,
+                i_out: i,
+                error: err(i),
+            })
+            .collect(),
         r_out,
         v_in: sol.v_in_v,
         balance_voltage: balance_voltage(&design, n, &op, &mm, &opts),
@@ -572,7 +607,7 @@ fn r_ref_caution(
 
 fn helper_needed(design: &Design) -> bool {
     check::helper_count(design.topology) > 0
-        && !check::helpers_fit_in_spares(design.topology, design.pair)
+        && !check::helpers_fit_in_spares_for(design.topology, design.shape, design.pair)
 }
 
 /// RE1 and RE2 from what was given; a lopsided pair is refused rather than assumed.
@@ -625,9 +660,13 @@ fn rating_cautions(
     sol: &crate::circuit::Solution,
     op: &OperatingPoint,
 ) -> Vec<String> {
-    let packages = check::place(design.topology, design.pair, helper);
+    let packages = match crate::model::fanout::form(design.topology, design.shape) {
+        Ok(form) if !design.shape.is_single() => check::place_form(form, design.pair, helper),
+        _ => check::place(design.topology, design.pair, helper),
+    };
     let resolved = check::ResolvedDesign {
         spec: check::DesignSpec {
+            shape: design.shape,
             topology: design.topology,
             pair: design.pair.id.clone(),
             helper: helper.map(|h| h.id.clone()),
@@ -658,6 +697,8 @@ fn rating_cautions(
         r_ref_power_w: sol.r_ref_power_w,
         v_in_v: sol.v_in_v,
         error: f64::NAN,
+        output_errors: vec![f64::NAN],
+        worst_output: 1,
         devices: sol
             .transistors()
             .iter()
@@ -746,11 +787,33 @@ pub fn write_solve_table(report: &SolveReport, out: &mut dyn io::Write) -> io::R
         .to_string(),
         eng(report.i_in, "A"),
     ]);
-    figures.add_row(vec!["output current".to_string(), eng(report.i_out, "A")]);
-    figures.add_row(vec![
-        "error".to_string(),
-        format!("{:+.4} %", report.error * 100.0),
-    ]);
+    if report.outputs.len() > 1 {
+        for o in &report.outputs {
+            let worst = if o.output == report.worst_output {
+                " (worst)"
+            } else {
+                ""
+            };
+            figures.add_row(vec![
+                format!("output {} current", o.output),
+                format!(
+                    "{}, error {:+.4} %{worst}",
+                    eng(o.i_out, "A"),
+                    o.error * 100.0
+                ),
+            ]);
+        }
+        figures.add_row(vec![
+            format!("error (output {}, the worst)", report.worst_output),
+            format!("{:+.4} %", report.error * 100.0),
+        ]);
+    } else {
+        figures.add_row(vec!["output current".to_string(), eng(report.i_out, "A")]);
+        figures.add_row(vec![
+            "error".to_string(),
+            format!("{:+.4} %", report.error * 100.0),
+        ]);
+    }
     figures.add_row(vec![
         "output resistance".to_string(),
         report

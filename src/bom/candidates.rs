@@ -94,8 +94,10 @@ use std::collections::BTreeMap;
 use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
-use crate::check::{choose_r_ref, CheckName, MonteCarlo};
-use crate::check::{helper_count, helpers_fit_in_spares, resolve, DesignSpec, Evaluation};
+use crate::check::{
+    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, DesignSpec,
+    Evaluation, MonteCarlo,
+};
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
 use crate::rank::{enumerate, screen_only, search, verify_each, Goal, Progress};
 use crate::units::{format_quantity, Dimension};
@@ -256,10 +258,9 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
     let pair = d.pair;
     let per_device =
         |c: &crate::model::TransistorClass| c.unit_cost / f64::from(c.devices_per_package.max(1));
-    let pairs = u32::from(spec.topology.desc().matched_pairs);
     let helpers = helper_count(spec.topology) as u32;
-    let in_spares = helpers > 0 && helpers_fit_in_spares(spec.topology, pair);
-    let mut share = f64::from(2 * pairs) * per_device(pair);
+    let in_spares = helpers > 0 && helpers_fit_in_spares_for(spec.topology, spec.shape, pair);
+    let mut share = f64::from(matched_devices(&spec)) * per_device(pair);
     let mut items = vec![Item::Transistor(pair.id.clone())];
     if helpers > 0 {
         if in_spares {
@@ -596,13 +597,24 @@ fn candidates_from(
     }
 }
 
+/// Devices of the pair class in one copy: every matched device of the design's form.
+fn matched_devices(spec: &DesignSpec) -> u32 {
+    let pairs = u32::from(spec.topology.desc().matched_pairs);
+    crate::model::fanout::form(spec.topology, spec.shape).map_or(2 * pairs, |f| {
+        f.transistors
+            .iter()
+            .filter(|l| l.role != crate::model::Role::Helper)
+            .count() as u32
+    })
+}
+
 /// What one copy of a verified design consumes. `None` only when a helper that sits in a
 /// spare device has no single class to name (a catalog without singles of its polarity),
 /// which the program's input cannot express.
 pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Option<DesignUsage> {
     let pair = catalog.transistor(&spec.pair)?;
     let helpers = helper_count(spec.topology) as u32;
-    let in_spares = helpers > 0 && helpers_fit_in_spares(spec.topology, pair);
+    let in_spares = helpers > 0 && helpers_fit_in_spares_for(spec.topology, spec.shape, pair);
     let (helper_single_class, helper_spare_classes) = if helpers == 0 {
         (None, None)
     } else if in_spares {
@@ -614,13 +626,15 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
         (spec.helper.clone(), Some(Vec::new()))
     };
     let mut resistors: Vec<ResistorUse> = Vec::new();
-    // Emitter resistors, then R_ref (its own class): one entry per (class, value).
+    // Emitter resistors (RE1 once, RE2 once per output), then R_ref (its own class): one
+    // entry per (class, value).
+    let outputs = u32::from(spec.shape.outputs);
     let re = spec
         .resistor
         .iter()
-        .flat_map(|c| [(c, spec.re1_ohm), (c, spec.re2_ohm)]);
-    let r_ref = spec.r_ref_resistor.iter().map(|c| (c, spec.r_ref_ohm));
-    for (class, value) in re.chain(r_ref) {
+        .flat_map(|c| [(c, spec.re1_ohm, 1), (c, spec.re2_ohm, outputs)]);
+    let r_ref = spec.r_ref_resistor.iter().map(|c| (c, spec.r_ref_ohm, 1));
+    for (class, value, count) in re.chain(r_ref) {
         if value <= 0.0 {
             continue;
         }
@@ -628,11 +642,11 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
             .iter_mut()
             .find(|r| r.value_ohm == value && r.class == *class)
         {
-            Some(r) => r.count += 1,
+            Some(r) => r.count += count,
             None => resistors.push(ResistorUse {
                 class: class.clone(),
                 value_ohm: value,
-                count: 1,
+                count,
             }),
         }
     }
@@ -646,6 +660,7 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
         topology: spec.topology.name().to_string(),
         pair_class: spec.pair.clone(),
         pairs: u32::from(spec.topology.desc().matched_pairs),
+        matched_devices: matched_devices(spec),
         helpers,
         helper_single_class,
         helper_spare_classes,
@@ -659,6 +674,12 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
 /// `wilson npn-dual-general + npn-single-general, RE 1.00 kΩ/1.00 kΩ thick-film-1pct`.
 pub fn label(spec: &DesignSpec) -> String {
     let mut s = format!("{} {}", spec.topology.name(), spec.pair);
+    if spec.shape.outputs > 1 {
+        s.push_str(&format!(" ×{} outputs", spec.shape.outputs));
+    }
+    if !matches!(spec.shape.area, crate::model::Area::Unit) {
+        s.push_str(&format!(" area {}", spec.shape.area_text()));
+    }
     if let Some(h) = &spec.helper {
         s.push_str(&format!(" + {h}"));
     }
@@ -1135,9 +1156,10 @@ pub fn undominated_options(channels: &[ChannelOptions]) -> Vec<Vec<bool>> {
     };
     let transistors = |o: &DesignUsage| {
         format!(
-            "{}|{}|{}|{:?}|{:?}|{}",
+            "{}|{}|{}|{}|{:?}|{:?}|{}",
             o.pair_class,
             o.pairs,
+            o.matched_devices,
             o.helpers,
             o.helper_single_class,
             o.helper_spare_classes,

@@ -32,16 +32,25 @@ pub(crate) struct Needs {
 /// and it fits; else the pairs together when asked and they fit; else pair by pair.
 pub(crate) fn blocks_for(devices_per_package: u32, o: &DesignUsage) -> (Vec<u32>, u32, u32) {
     let d = devices_per_package;
+    let m = o.matched_devices.max(2 * o.pairs);
     if d == 1 {
-        return (Vec::new(), 2 * o.pairs, o.helpers);
+        return (Vec::new(), m, o.helpers);
     }
-    let whole = 2 * o.pairs + o.helpers;
+    let whole = m + o.helpers;
     if o.keep_together && whole <= d {
         (vec![whole], 0, 0)
-    } else if o.keep_together && 2 * o.pairs <= d {
-        (vec![2 * o.pairs], 0, o.helpers)
-    } else {
+    } else if o.keep_together && m <= d {
+        (vec![m], 0, o.helpers)
+    } else if m == 2 * o.pairs {
         (vec![2; o.pairs as usize], 0, o.helpers)
+    } else {
+        // Several outputs over several arrays: full packages, then the rest, as the
+        // placement fills them (`model::fanout::place`).
+        let mut blocks = vec![d; (m / d) as usize];
+        if !m.is_multiple_of(d) {
+            blocks.push(m % d);
+        }
+        (blocks, 0, o.helpers)
     }
 }
 
@@ -340,6 +349,7 @@ mod tests {
             topology: String::new(),
             pair_class: String::new(),
             pairs,
+            matched_devices: 2 * pairs,
             helpers,
             helper_single_class: None,
             helper_spare_classes: None,
@@ -363,6 +373,17 @@ mod tests {
         assert_eq!(blocks_for(5, &usage(2, 1, false)), (vec![2, 2], 0, 1));
         // Singles: a "pair" is two packages.
         assert_eq!(blocks_for(1, &usage(1, 1, true)), (vec![], 2, 1));
+        // One input and four outputs fill a five-device array; a beta helper with four
+        // outputs has its helper loose; eight outputs take two arrays.
+        let outputs = |n: u32, helpers: u32| DesignUsage {
+            matched_devices: 1 + n,
+            ..usage(1, helpers, true)
+        };
+        assert_eq!(blocks_for(5, &outputs(4, 0)), (vec![5], 0, 0));
+        assert_eq!(blocks_for(5, &outputs(3, 1)), (vec![5], 0, 0));
+        assert_eq!(blocks_for(5, &outputs(4, 1)), (vec![5], 0, 1));
+        assert_eq!(blocks_for(5, &outputs(8, 0)), (vec![5, 4], 0, 0));
+        assert_eq!(blocks_for(1, &outputs(4, 0)), (vec![], 5, 0));
     }
 
     #[test]

@@ -234,7 +234,7 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
             for _ in 0..n.pair_singles {
                 devs.push((new_single(&mut pkgs, n.pair_class), 0));
             }
-            let matched_count = 2 * o.pairs as usize;
+            let matched_count = o.matched_devices.max(2 * o.pairs) as usize;
             let mut helper_devs: Vec<(usize, u32)> = devs.split_off(matched_count);
             for _ in 0..n.loose_helpers {
                 let h = n.helper_class.expect("loose helpers have a class");

@@ -75,6 +75,9 @@ pub struct DesignUsage {
     /// of a pair sit in one package of `pair_class` (a pair split across two packages is
     /// not matched); a single-device class makes a "pair" of two separate singles.
     pub pairs: u32,
+    /// Devices of the pair class per copy: `2 * pairs` for one output; the input side
+    /// and every output's devices for a multi-output or area-ratio form (`model::fanout`).
+    pub matched_devices: u32,
     /// Unmatched extra transistors per copy (the beta helper's or the Wilson's Q3).
     pub helpers: u32,
     /// The single-device class a helper is bought as when no spare device of its
@@ -263,6 +266,16 @@ impl BoardProblem {
             return invalid(format!(
                 "{} pairs and {} helpers per copy is more than any mirror topology uses (at most 4 of each)",
                 o.pairs, o.helpers
+            ));
+        }
+        if o.matched_devices < 2 * o.pairs
+            || o.matched_devices > crate::model::fanout::MAX_FORM_TRANSISTORS as u32
+        {
+            return invalid(format!(
+                "{} matched devices for {} pairs per copy; expected 2 per pair up to {}",
+                o.matched_devices,
+                o.pairs,
+                crate::model::fanout::MAX_FORM_TRANSISTORS
             ));
         }
         match (&o.helper_single_class, o.helpers) {

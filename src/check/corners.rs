@@ -173,6 +173,7 @@ pub(crate) mod tests {
             max_cost: None,
             max_noise: None,
             quantity: 1,
+            outputs: 1,
             load: LoadKind::General,
             topologies: Filters::default(),
             classes: Filters::default(),

@@ -8,7 +8,7 @@
 
 use thiserror::Error;
 
-use crate::model::{Catalog, ResistorClass, Role, Topology, TransistorClass};
+use crate::model::{fanout, Catalog, ResistorClass, Role, Shape, Topology, TransistorClass};
 
 /// A candidate as a designer names it. `re1_ohm`/`re2_ohm` are 0 when absent.
 #[derive(Debug, Clone, PartialEq)]
@@ -31,6 +31,8 @@ pub struct DesignSpec {
     /// Which standard value around the exact R_ref a candidate takes, while
     /// `r_ref_ohm` is still to be chosen (see `check::program`).
     pub r_ref_pick: Option<RefPick>,
+    /// Outputs on the one input side and the area ratio (`Shape::SINGLE` for one).
+    pub shape: Shape,
 }
 
 /// The standard value just below or just above the exact programming resistor.
@@ -43,8 +45,10 @@ pub enum RefPick {
 }
 
 impl DesignSpec {
+    /// RE1 and one RE2 per output, where they exist.
     pub fn resistor_count(&self) -> u32 {
-        u32::from(self.re1_ohm > 0.0) + u32::from(self.re2_ohm > 0.0)
+        u32::from(self.re1_ohm > 0.0)
+            + u32::from(self.re2_ohm > 0.0) * u32::from(self.shape.outputs)
     }
 }
 
@@ -81,8 +85,9 @@ impl ResolvedDesign<'_> {
 
     /// Every part with its reference designator (`Q1A`, `R1`).
     pub fn elements(&self) -> Vec<super::refdes::Element> {
-        super::refdes::elements(
+        super::refdes::elements_of_shape(
             self.spec.topology,
+            self.spec.shape,
             &self.packages,
             self.spec.re1_ohm,
             self.spec.re2_ohm,
@@ -117,6 +122,8 @@ pub enum DesignError {
     HelperNotSingle(String),
     #[error("{0}")]
     Resistors(String),
+    #[error("{0}")]
+    Shape(#[from] fanout::FormError),
 }
 
 /// How many helper (unmatched) transistors the topology has.
@@ -133,6 +140,19 @@ pub fn helper_count(topology: Topology) -> usize {
 pub fn helpers_fit_in_spares(topology: Topology, pair: &TransistorClass) -> bool {
     let (_, spares) = pair_packages(topology, pair);
     spares >= helper_count(topology)
+}
+
+/// `helpers_fit_in_spares` for any shape (several outputs fill arrays first; see
+/// `fanout::place`). False when the shape has no form.
+pub fn helpers_fit_in_spares_for(topology: Topology, shape: Shape, pair: &TransistorClass) -> bool {
+    if shape.is_single() {
+        return helpers_fit_in_spares(topology, pair);
+    }
+    fanout::form(topology, shape).is_ok_and(|f| {
+        fanout::place(f, pair.devices_per_package)
+            .iter()
+            .all(|s| !s.helper_class)
+    })
 }
 
 /// Number of pair-class packages and spare devices left in them.
@@ -209,7 +229,9 @@ pub fn resolve<'a>(
             "a Widlar mirror needs RE2 greater than zero".into(),
         ));
     }
-    let needs_helper = helper_count(topology) > 0 && !helpers_fit_in_spares(topology, pair);
+    let form = fanout::form(topology, spec.shape)?;
+    let needs_helper =
+        helper_count(topology) > 0 && !helpers_fit_in_spares_for(topology, spec.shape, pair);
     let helper = match (&spec.helper, needs_helper || spec.helper.is_some()) {
         (_, false) => None,
         (Some(id), true) => {
@@ -240,7 +262,11 @@ pub fn resolve<'a>(
             },
         )?),
     };
-    let packages = place(topology, pair, helper);
+    let packages = if spec.shape.is_single() {
+        place(topology, pair, helper)
+    } else {
+        place_form(form, pair, helper)
+    };
     let cost = packages.iter().map(|p| p.class.unit_cost).sum::<f64>()
         + resistor.map_or(0.0, |r| r.unit_cost * f64::from(spec.resistor_count()))
         + r_ref.map_or(0.0, |r| r.unit_cost);
@@ -255,6 +281,31 @@ pub fn resolve<'a>(
         packages,
         cost,
     })
+}
+
+/// Place every transistor of a multi-output or area-ratio form (`fanout::place`); helpers
+/// without a spare device are singles of `helper` (of the pair class without one).
+pub fn place_form<'a>(
+    form: &fanout::Form,
+    pair: &'a TransistorClass,
+    helper: Option<&'a TransistorClass>,
+) -> Vec<Package<'a>> {
+    let seats = fanout::place(form, pair.devices_per_package);
+    let mut packages: Vec<Package<'a>> = Vec::new();
+    for (line, seat) in form.transistors.iter().zip(&seats) {
+        let k = usize::from(seat.package);
+        while packages.len() <= k {
+            packages.push(Package {
+                class: pair,
+                members: Vec::new(),
+            });
+        }
+        if seat.helper_class {
+            packages[k].class = helper.unwrap_or(pair);
+        }
+        packages[k].members.push(line.name);
+    }
+    packages
 }
 
 /// Place every transistor of the topology in a package (MODEL.md): each matched pair in
@@ -361,6 +412,7 @@ pub(crate) mod tests {
 
     fn spec(t: Topology, pair: &str, re: f64) -> DesignSpec {
         DesignSpec {
+            shape: crate::model::Shape::SINGLE,
             topology: t,
             pair: pair.into(),
             helper: None,

@@ -14,13 +14,14 @@ use serde::Serialize;
 use super::budget::{self, ErrorBudget, ProgramToggles, Sensitivities, Toggled};
 use super::corners::{self, OperatingCorner, ROOM_K};
 use super::design::ResolvedDesign;
-use super::montecarlo::{self, linear_yield};
+use super::montecarlo::linear_yield;
 use super::noise::{self, NoiseFigure};
+use super::outputs;
 use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{
-    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, RefResistor, SolveFailure,
-    SolveOptions,
+    Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, OutputDeviation, RefResistor,
+    SolveFailure, SolveOptions,
 };
 use crate::model::{AccuracyOf, Requirement, TransistorClass};
 
@@ -94,6 +95,9 @@ pub struct Figures {
     pub tempco_per_k: f64,
     /// The steepest slope between neighbouring ambient points (min, 25 °C, max), signed.
     pub tempco_worst_per_k: f64,
+    /// The output (1-based) with the largest total error, which the error figures are
+    /// of (1 on a single-output design; 0 when not known).
+    pub worst_output: u8,
 }
 
 impl Default for Figures {
@@ -113,6 +117,7 @@ impl Default for Figures {
             r_ref_power_w: f64::NAN,
             tempco_per_k: f64::NAN,
             tempco_worst_per_k: f64::NAN,
+            worst_output: 0,
         }
     }
 }
@@ -221,6 +226,7 @@ impl<'a> Evaluator<'a> {
     ) -> Design<'d> {
         let d = self.design;
         Design {
+            shape: d.spec.shape,
             topology: d.spec.topology,
             pair,
             helper,
@@ -312,13 +318,20 @@ impl<'a> Evaluator<'a> {
                     .any(|l| l.name == t.name && l.collector == "S"),
             })
             .collect();
+        let (worst, error) = sol.worst_output(|i| self.error_of(i, sol.i_in_a));
         CornerState {
             corner: *corner,
-            i_out_a: sol.i_out_a,
+            i_out_a: sol.outputs()[worst],
             i_in_a: sol.i_in_a,
             r_ref_power_w: sol.r_ref_power_w,
             v_in_v: sol.v_in_v,
-            error: self.error_of(sol.i_out_a, sol.i_in_a),
+            error,
+            output_errors: sol
+                .outputs()
+                .iter()
+                .map(|&i| self.error_of(i, sol.i_in_a))
+                .collect(),
+            worst_output: worst as u8 + 1,
             devices,
         }
     }
@@ -387,7 +400,8 @@ impl<'a> Evaluator<'a> {
         let mut mm = Mismatch::default();
         mm.dvbe_v[0] = sigma;
         let s1 = self.solve(&c, &mm).ok()?;
-        Some(self.req.confidence_sigma * (s1.error - s0.error).abs())
+        // Output 1's devices moved: output 1's error.
+        Some(self.req.confidence_sigma * (s1.output_errors[0] - s0.output_errors[0]).abs())
     }
 
     /// `|e| + k*sigma` at the probe corner: a lower bound of the total error (one solve
@@ -498,16 +512,32 @@ impl<'a> Evaluator<'a> {
             return (f64::NAN, None);
         }
         let sigmas = self.sigmas();
+        let scales = self.output_scales();
         let mut good = 0u32;
         let mut first_failure: Option<SampleFailure> = None;
-        for (k, z) in montecarlo::builds(mc.seed, mc.samples).enumerate() {
-            let mm = Mismatch {
+        let builds = outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs);
+        for (k, zs) in builds.enumerate() {
+            let z = zs[0];
+            let mut mm = Mismatch {
                 dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
                 dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
                 dre1: z[4] * sigmas[4],
                 dre2: z[5] * sigmas[5],
                 dref: z[6] * sigmas[6],
+                more: Default::default(),
             };
+            // Every further output draws its own devices' and RE2's deviations.
+            for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
+                let s = |i: usize| zk[i] * sigmas[i] * sk[i];
+                mm.set_output(
+                    o as u8 + 1,
+                    OutputDeviation {
+                        dvbe_v: [s(0), s(1)],
+                        dbeta: [s(2), s(3)],
+                        dre2: s(5),
+                    },
+                );
+            }
             let mut fail = |corner: Option<OperatingCorner>, failure: SolveFailure| {
                 first_failure.get_or_insert(SampleFailure {
                     sample: k as u32 + 1,
@@ -550,6 +580,12 @@ impl<'a> Evaluator<'a> {
     /// 1-sigma size of each mismatch input (zero where the input does not exist).
     fn sigmas(&self) -> [f64; budget::RANDOM_INPUTS] {
         let m = self.design.pair.matching_or_default();
+        // Devices in parallel on one side average their deviations.
+        let pf = outputs::parallel_factor(self.design.spec.shape);
+        let m = crate::model::Matching {
+            vbe_offset_sigma_v: m.vbe_offset_sigma_v * pf,
+            beta_mismatch_sigma: m.beta_mismatch_sigma * pf,
+        };
         let two_pairs = self.design.spec.topology.desc().matched_pairs > 1;
         let r_sigma = self.design.resistor.map_or(0.0, |r| r.tolerance / 3.0);
         let ref_sigma = if self.programmed() {
@@ -578,6 +614,12 @@ impl<'a> Evaluator<'a> {
             },
             ref_sigma,
         ]
+    }
+
+    /// Per output, the factor of each budget input's sigma against output 1's.
+    fn output_scales(&self) -> Vec<[f64; budget::RANDOM_INPUTS]> {
+        let d = self.design;
+        outputs::output_scales(d.spec.topology, d.spec.shape, d.pair)
     }
 
     /// One compiled netlist per mismatch input that exists, moved by +1 sigma.
@@ -612,7 +654,8 @@ impl<'a> Evaluator<'a> {
         for (i, net) in nets {
             self.solves.fetch_add(1, Ordering::Relaxed);
             let sol = net.solve(&op, &opts).map_err(|f| (*i, f))?;
-            s[*i] = self.error_of(sol.i_out_a, sol.i_in_a) - nominal.error;
+            // Output 1's devices (or a common part) moved: output 1's error.
+            s[*i] = self.error_of(sol.outputs()[0], sol.i_in_a) - nominal.output_errors[0];
         }
         Ok(s)
     }
@@ -753,22 +796,40 @@ impl<'a> Evaluator<'a> {
             states[i].as_ref()
         };
 
-        // Accuracy: every corner, nominal and error-budget builds.
+        // Accuracy: every corner, nominal and error-budget builds. With several outputs
+        // each output has its own systematic and random error; the worst output's total
+        // governs and is named.
         let mut worst = None;
+        let scales = self.output_scales();
         if all_builds {
-            let (mut sys, mut rnd, mut w) = (0.0f64, 0.0f64, 0usize);
+            let outs = scales.len();
+            let (mut sys, mut rnd) = (vec![0.0f64; outs], vec![0.0f64; outs]);
+            let mut corner_of = vec![0usize; outs];
             for (i, (s, d)) in states.iter().zip(&sens).enumerate() {
                 let (Some(s), Some(d)) = (s, d) else { continue };
-                if s.error.abs() > sys {
-                    sys = s.error.abs();
-                    w = i;
+                for kk in 0..outs {
+                    let e = s.output_errors.get(kk).copied().unwrap_or(s.error).abs();
+                    if e > sys[kk] {
+                        sys[kk] = e;
+                        corner_of[kk] = i;
+                    }
+                    let r = budget::random_sigma(&outputs::scaled(d, &scales[kk]));
+                    rnd[kk] = rnd[kk].max(r);
                 }
-                rnd = rnd.max(budget::random_sigma(d));
             }
-            worst = Some(w);
-            figures.error_systematic = sys;
-            figures.error_random_sigma = rnd;
-            figures.error_total = sys + k * rnd;
+            // The largest total; outputs equal but for rounding keep the lower number.
+            let total = |o: usize| sys[o] + k * rnd[o];
+            let mut w_out = 0;
+            for o in 1..outs {
+                if total(o) > total(w_out) * (1.0 + 1e-9) {
+                    w_out = o;
+                }
+            }
+            worst = Some(corner_of[w_out]);
+            figures.worst_output = w_out as u8 + 1;
+            figures.error_systematic = sys[w_out];
+            figures.error_random_sigma = rnd[w_out];
+            figures.error_total = sys[w_out] + k * rnd[w_out];
         }
 
         // Compliance: every transistor keeps V_CE >= min_vce at I_in max, V_out min,
@@ -853,11 +914,20 @@ impl<'a> Evaluator<'a> {
         }
 
         if all_builds {
+            let of_output = if scales.len() > 1 {
+                format!(
+                    "; output {} (the worst of {})",
+                    figures.worst_output,
+                    scales.len()
+                )
+            } else {
+                String::new()
+            };
             checks.push(Check::at_most(
                 CheckName::Accuracy,
                 figures.error_total,
                 req.accuracy,
-                format!("systematic + {k} x random sigma"),
+                format!("systematic + {k} x random sigma{of_output}"),
             ));
         } else {
             checks.push(Check::not_available(
@@ -869,10 +939,22 @@ impl<'a> Evaluator<'a> {
 
         if req.min_yield.is_some() || depth == Depth::Full {
             if all_builds {
-                let nominal: Vec<f64> = solved.iter().map(|s| s.error).collect();
                 let sens: Vec<Sensitivities> = sens.iter().flatten().copied().collect();
-                figures.yield_fraction =
-                    linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples);
+                figures.yield_fraction = if scales.len() > 1 {
+                    let nominal: Vec<Vec<f64>> =
+                        solved.iter().map(|s| s.output_errors.clone()).collect();
+                    outputs::linear_yield(
+                        &nominal,
+                        &sens,
+                        &scales,
+                        req.accuracy,
+                        mc.seed,
+                        mc.samples,
+                    )
+                } else {
+                    let nominal: Vec<f64> = solved.iter().map(|s| s.error).collect();
+                    linear_yield(&nominal, &sens, req.accuracy, mc.seed, mc.samples)
+                };
                 figures.yield_samples = mc.samples;
             }
             if let Some(min) = req.min_yield {
@@ -1082,7 +1164,9 @@ impl<'a> Evaluator<'a> {
                 .collect();
             if let (Some(w), true) = (worst, all_builds) {
                 if let (Some(s), Some(d)) = (&states[w], &sens[w]) {
-                    ev.budget = self.budget(s, d);
+                    let wk = usize::from(ev.figures.worst_output.max(1)) - 1;
+                    let d = scales.get(wk).map_or(*d, |sc| outputs::scaled(d, sc));
+                    ev.budget = self.budget(s, &d);
                 }
             }
             if all_nominal {

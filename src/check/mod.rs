@@ -14,6 +14,7 @@ mod design;
 mod evaluate;
 mod montecarlo;
 mod noise;
+pub mod outputs;
 mod program;
 mod ratings;
 pub mod refdes;
@@ -27,8 +28,8 @@ pub use budget::{
 pub use confidence::{wilson_interval, MIN_SAMPLES};
 pub use corners::{corners, design_current, probe_corner, temperatures, OperatingCorner, ROOM_K};
 pub use design::{
-    helper_count, helpers_fit_in_spares, place, resolve, DesignError, DesignSpec, Package, RefPick,
-    ResolvedDesign,
+    helper_count, helpers_fit_in_spares, helpers_fit_in_spares_for, place, place_form, resolve,
+    DesignError, DesignSpec, Package, RefPick, ResolvedDesign,
 };
 pub use evaluate::{
     compliance_rule, tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,

@@ -36,6 +36,7 @@ pub fn exact_r_ref(
     let d = resolve(catalog, &forced).ok()?;
     let net = Netlist::compile(
         &Design {
+            shape: d.spec.shape,
             topology: d.spec.topology,
             pair: d.pair,
             helper: d.helper,

@@ -54,8 +54,13 @@ pub struct CornerState {
     pub r_ref_power_w: f64,
     pub v_in_v: f64,
     /// MODEL.md error `I_out / (n I_in) - 1`, or `I_out / I_wanted - 1` when the
-    /// requirement's accuracy is of the output.
+    /// requirement's accuracy is of the output; with several outputs, the worst output's
+    /// (and `i_out_a` is its current).
     pub error: f64,
+    /// Every output's error, output 1 first (one entry on a single-output design).
+    pub output_errors: Vec<f64>,
+    /// The output (1-based) `error` is of.
+    pub worst_output: u8,
     pub devices: Vec<DeviceState>,
 }
 
@@ -238,6 +243,8 @@ mod tests {
             r_ref_power_w: 0.0,
             v_in_v: 0.65,
             error: 0.0,
+            output_errors: vec![0.0],
+            worst_output: 1,
             devices,
         }
     }
@@ -255,6 +262,7 @@ mod tests {
     fn ratings_on_a_hand_made_point() {
         let cat = catalog();
         let spec = DesignSpec {
+            shape: crate::model::Shape::SINGLE,
             topology: Topology::Simple,
             pair: "dual".into(),
             helper: None,

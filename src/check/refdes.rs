@@ -13,7 +13,7 @@
 //! rail `P` to the input); an emitter resistor of 0 ohm is a wire, not a part, and gets
 //! none.
 
-use crate::model::{Polarity, Role, Topology};
+use crate::model::{fanout, Polarity, Role, Shape, Topology};
 
 use super::design::Package;
 
@@ -103,9 +103,34 @@ pub fn elements(
     resistor: Option<&str>,
     r_ref: Option<RefPart>,
 ) -> Vec<Element> {
-    let desc = topology.desc();
+    elements_of_shape(
+        topology,
+        Shape::SINGLE,
+        packages,
+        re1_ohm,
+        re2_ohm,
+        resistor,
+        r_ref,
+    )
+}
+
+/// `elements` of a multi-output or area-ratio form: every output's devices and its own
+/// RE2 (`RE2_1`, `RE2_2`, ...), numbered in the form's netlist order. Empty when the
+/// shape has no form.
+pub fn elements_of_shape(
+    topology: Topology,
+    shape: Shape,
+    packages: &[Package],
+    re1_ohm: f64,
+    re2_ohm: f64,
+    resistor: Option<&str>,
+    r_ref: Option<RefPart>,
+) -> Vec<Element> {
+    let Ok(form) = fanout::form(topology, shape) else {
+        return Vec::new();
+    };
     let mut out = Vec::new();
-    for line in desc.transistors {
+    for line in form.transistors {
         let Some((k, pkg)) = packages
             .iter()
             .enumerate()
@@ -131,12 +156,10 @@ pub fn elements(
         });
     }
     let mut n = 0;
-    let resistors = [
-        ("RE1", "e1", re1_ohm, desc.has_re1),
-        ("RE2", "e2", re2_ohm, true),
-    ];
-    for (name, node, ohm, exists) in resistors {
-        if exists && ohm > 0.0 {
+    for r in form.resistors {
+        let (name, node) = (r.name, r.node);
+        let ohm = if r.output == 0 { re1_ohm } else { re2_ohm };
+        if ohm > 0.0 {
             n += 1;
             out.push(Element {
                 designator: format!("R{n}"),

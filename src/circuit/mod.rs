@@ -24,7 +24,8 @@ mod noise;
 mod system;
 
 use crate::device::Region;
-use crate::model::{Role, Topology, TransistorClass};
+pub use crate::model::fanout::MAX_FORM_UNKNOWNS;
+use crate::model::{Role, Shape, Topology, TransistorClass, MAX_OUTPUTS};
 pub use netlist::{Netlist, MAX_JUNCTION_K, MAX_NODES, MAX_TRANSISTORS};
 pub use noise::{ElementNoise, NoiseAnalysis, NoiseKind, NoiseSource};
 
@@ -45,6 +46,9 @@ pub struct Design<'a> {
     /// The programming resistor from the rail (`OperatingPoint::rail_v`) to the input
     /// node; `None` = the input current is forced (`OperatingPoint::i_in_a`).
     pub r_ref: Option<RefResistor>,
+    /// Outputs on the input side and the area ratio (`Shape::SINGLE`: the description as
+    /// written). RE2 is each output's own resistor, all of one nominal value.
+    pub shape: Shape,
 }
 
 /// A programming resistor: nominal value at 25 °C and its temperature coefficient.
@@ -55,8 +59,8 @@ pub struct RefResistor {
 }
 
 impl Design<'_> {
-    /// The intended ratio n: RE1/RE2 on degenerated designs, the closed-form Widlar ratio at
-    /// `i_in_a` for a design without RE1, otherwise 1.
+    /// The intended ratio n of each output: RE1/RE2 on degenerated designs, the closed-form
+    /// Widlar ratio at `i_in_a` for a design without RE1, otherwise the area ratio.
     pub fn intended_ratio(&self, i_in_a: f64) -> f64 {
         let desc = self.topology.desc();
         if !desc.has_re1 && self.re2_ohm > 0.0 {
@@ -70,12 +74,14 @@ impl Design<'_> {
                 vbe_v: vt * (i_in_a / p.saturation_current_a).ln(),
                 re1_ohm: 0.0,
                 re2_ohm: self.re2_ohm,
+                outputs: 1.0,
+                area_ratio: 1.0,
             };
             (desc.estimates.ratio)(&inputs)
         } else if desc.has_re1 && self.re1_ohm > 0.0 && self.re2_ohm > 0.0 {
             self.re1_ohm / self.re2_ohm
         } else {
-            1.0
+            self.shape.area_ratio()
         }
     }
 }
@@ -95,7 +101,10 @@ pub struct OperatingPoint {
 
 /// Deviations from nominal. Index 0 is the pair Q1,Q2 and index 1 the pair Q3,Q4; the
 /// offset applies to the pair's second device (MODEL.md). `dre*` are relative resistor
-/// deviations (0.01 = +1 %).
+/// deviations (0.01 = +1 %). With several outputs the fields above are output 1's (its
+/// devices against the input device, and its RE2) and `more[k - 2]` output k's: each
+/// output is matched against the input side on its own. Devices in parallel on one side
+/// share their side's deviation.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct Mismatch {
     pub dvbe_v: [f64; 2],
@@ -104,6 +113,42 @@ pub struct Mismatch {
     pub dre2: f64,
     /// Relative deviation of the programming resistor.
     pub dref: f64,
+    /// Outputs 2 and up.
+    pub more: [OutputDeviation; MAX_OUTPUTS as usize - 1],
+}
+
+/// One output's own deviations (see `Mismatch`).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct OutputDeviation {
+    pub dvbe_v: [f64; 2],
+    pub dbeta: [f64; 2],
+    pub dre2: f64,
+}
+
+impl Mismatch {
+    /// Output `k`'s deviations (1-based).
+    pub fn output(&self, k: u8) -> OutputDeviation {
+        if k <= 1 {
+            OutputDeviation {
+                dvbe_v: self.dvbe_v,
+                dbeta: self.dbeta,
+                dre2: self.dre2,
+            }
+        } else {
+            self.more[usize::from(k) - 2]
+        }
+    }
+
+    /// Sets output `k`'s deviations (1-based).
+    pub fn set_output(&mut self, k: u8, d: OutputDeviation) {
+        if k <= 1 {
+            self.dvbe_v = d.dvbe_v;
+            self.dbeta = d.dbeta;
+            self.dre2 = d.dre2;
+        } else {
+            self.more[usize::from(k) - 2] = d;
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
@@ -128,6 +173,8 @@ pub struct TransistorState {
     pub package: u8,
     /// The device is a single of the helper class (its ratings apply), not the pair class.
     pub helper_class: bool,
+    /// 0 for the input side and shared helpers, k for output k.
+    pub output: u8,
 }
 
 /// A node voltage of a solved circuit.
@@ -140,7 +187,11 @@ pub struct NodeVoltage {
 /// A converged, residual-checked operating point.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Solution {
+    /// Output 1's current (the only output's, on a single-output design).
     pub i_out_a: f64,
+    /// Every output's current, output 1 first. See `outputs()`.
+    pub output_currents: [f64; MAX_OUTPUTS as usize],
+    pub output_count: usize,
     /// The input current: forced, or through R_ref `(V_rail - V_in) / R_ref(T)`.
     pub i_in_a: f64,
     /// Power in R_ref, watts (0 without one).
@@ -148,8 +199,9 @@ pub struct Solution {
     pub v_in_v: f64,
     /// Current drawn from the opposite rail (helper collectors), amperes.
     pub supply_current_a: f64,
-    /// Unknown nodes, then `out`, then `S` when the netlist uses it. See `nodes()`.
-    pub nodes: [NodeVoltage; MAX_NODES + 2],
+    /// Unknown nodes, then the output nodes (`out`, or `out1`...), then `S` when the
+    /// netlist uses it. See `nodes()`.
+    pub nodes: [NodeVoltage; MAX_NODES + MAX_OUTPUTS as usize + 1],
     pub node_count: usize,
     /// In the topology description's order. See `transistors()`.
     pub transistors: [TransistorState; MAX_TRANSISTORS],
@@ -167,10 +219,30 @@ impl Solution {
         &self.transistors[..self.transistor_count]
     }
 
+    /// Every output's current, output 1 first.
+    pub fn outputs(&self) -> &[f64] {
+        &self.output_currents[..self.output_count]
+    }
+
+    /// The output (0-based) whose error `error(I_out)` is largest in magnitude, and that
+    /// error: the output that governs a figure.
+    pub fn worst_output(&self, error: impl Fn(f64) -> f64) -> (usize, f64) {
+        let mut worst = (0, error(self.outputs()[0]));
+        for (k, &i) in self.outputs().iter().enumerate().skip(1) {
+            let e = error(i);
+            // Outputs equal but for rounding keep the lower number.
+            if e.abs() > worst.1.abs() * (1.0 + 1e-9) + 1e-15 {
+                worst = (k, e);
+            }
+        }
+        worst
+    }
+
     /// MODEL.md error `e = I_out / (n I_in) - 1` (`i_in_a`: the input current to compare
     /// with; `self.i_in_a` for a programmed design).
+    /// With several outputs, the worst output's error.
     pub fn error(&self, ratio: f64, i_in_a: f64) -> f64 {
-        self.i_out_a / (ratio * i_in_a) - 1.0
+        self.worst_output(|i| i / (ratio * i_in_a) - 1.0).1
     }
 
     pub fn node(&self, name: &str) -> Option<f64> {

@@ -7,7 +7,8 @@ use super::{
     TransistorState,
 };
 use crate::device::{Bjt, BjtAtT, Region};
-use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass};
+use crate::model::fanout::{self, Form, MAX_FORM_NODES, MAX_FORM_TRANSISTORS};
+use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass, MAX_OUTPUTS};
 use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
 
 /// Absolute KCL floor as a fraction of the input current (see `solve_full`).
@@ -16,10 +17,12 @@ use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
 /// times a device's conductance is all that is left (about 1e-19 A at 50 µA and 40 V).
 pub(crate) const KCL_FLOOR_OF_INPUT: f64 = 1e-12;
 
-/// Most unknown node voltages of any topology.
-pub const MAX_NODES: usize = 6;
-/// Most transistors of any topology.
-pub const MAX_TRANSISTORS: usize = 5;
+/// Most unknown node voltages of any form (multi-output forms included).
+pub const MAX_NODES: usize = MAX_FORM_NODES;
+/// Most transistors of any form (multi-output forms included).
+pub const MAX_TRANSISTORS: usize = MAX_FORM_TRANSISTORS;
+/// Most emitter resistors: RE1 and one RE2 per output.
+pub(super) const MAX_RESISTORS: usize = 1 + MAX_OUTPUTS as usize;
 
 /// A fixed point hotter than this is reported as thermal runaway: it lies beyond every
 /// silicon junction rating and outside the device model's range (the die would fail long
@@ -48,6 +51,10 @@ pub(super) struct Tr {
     pub helper_class: bool,
     /// Flicker and base-resistance data of the device's class (noise analysis only).
     pub noise: DeviceNoise,
+    /// 0 for the input side and shared helpers, k for output k.
+    pub output: u8,
+    /// The device's share of its side's current (1/n with n devices in parallel).
+    pub share: f64,
 }
 
 /// SPICE KF, AF and RB of one device (see `BjtParams`); zero KF and RB mean none.
@@ -60,7 +67,7 @@ pub(super) struct DeviceNoise {
 
 #[derive(Debug, Clone, Copy)]
 pub(super) struct Res {
-    /// The resistor's name in reports (`RE1`, `RE2`).
+    /// The resistor's name in reports (`RE1`, `RE2`, `RE2_1`, ...).
     pub name: &'static str,
     /// The slot the resistor joins to R.
     pub slot: usize,
@@ -90,7 +97,7 @@ pub struct Netlist {
     pub(super) uses_supply: bool,
     pub(super) tr: [Tr; MAX_TRANSISTORS],
     pub(super) n_tr: usize,
-    pub(super) res: [Res; 2],
+    pub(super) res: [Res; MAX_RESISTORS],
     pub(super) n_res: usize,
     pub(super) tcr_per_k: f64,
     /// The programming resistor, from the rail slot `P` to the input node.
@@ -98,9 +105,13 @@ pub struct Netlist {
     pub(super) theta: [[f64; MAX_TRANSISTORS]; MAX_TRANSISTORS],
     /// A typical beta of the pair class at its nominal temperature, for the start point.
     beta_nom: f64,
+    /// The netlist lines this was compiled from.
+    pub(super) form: &'static Form,
+    /// Output 1's emitter node (`e2` or `e2_1`), for the closed-form estimates.
+    re2_node: &'static str,
 }
 
-fn layout(design: &Design) -> Result<[Placement; MAX_TRANSISTORS], SolveFailure> {
+fn layout(design: &Design, form: &Form) -> Result<[Placement; MAX_TRANSISTORS], SolveFailure> {
     let desc = design.topology.desc();
     let n = desc.transistors.len();
     let dpp = design.pair.devices_per_package.max(1) as usize;
@@ -108,6 +119,25 @@ fn layout(design: &Design) -> Result<[Placement; MAX_TRANSISTORS], SolveFailure>
         from_helper_class: false,
         package: 0,
     }; MAX_TRANSISTORS];
+    if !form.shape.is_single() {
+        // Several outputs or an area ratio: arrays filled as a designer fills them.
+        for (i, seat) in fanout::place(form, design.pair.devices_per_package)
+            .into_iter()
+            .enumerate()
+        {
+            if seat.helper_class && design.helper.is_none() {
+                return Err(SolveFailure::HelperMissing {
+                    topology: design.topology,
+                    part: design.pair.id.clone(),
+                });
+            }
+            out[i] = Placement {
+                from_helper_class: seat.helper_class,
+                package: seat.package,
+            };
+        }
+        return Ok(out);
+    }
     if dpp >= n {
         return Ok(out);
     }
@@ -175,16 +205,31 @@ impl Netlist {
                 return invalid(format!("{what} must be a finite resistance >= 0, got {v}"));
             }
         }
-        let placement = layout(design)?;
+        let form = match fanout::form(design.topology, design.shape) {
+            Ok(f) => f,
+            Err(e) => return invalid(e.to_string()),
+        };
+        let placement = layout(design, form)?;
         let mut node_names = [""; MAX_NODES];
         let mut n_nodes = 0usize;
+        // A resistor's node of a 0-ohm resistor is the mirror rail itself.
+        let shorted = |name: &str| {
+            form.resistors.iter().any(|r| {
+                r.node == name
+                    && if r.output == 0 {
+                        !(desc.has_re1 && design.re1_ohm > 0.0)
+                    } else {
+                        design.re2_ohm <= 0.0
+                    }
+            })
+        };
         let mut slot_of = |name: &'static str| -> usize {
             match name {
                 "R" => R_SLOT,
                 "S" => S_SLOT,
-                "out" => OUT_SLOT,
-                "e1" if !(desc.has_re1 && design.re1_ohm > 0.0) => R_SLOT,
-                "e2" if design.re2_ohm <= 0.0 => R_SLOT,
+                // Every output is held at V_out.
+                _ if form.output_index(name).is_some() => OUT_SLOT,
+                _ if shorted(name) => R_SLOT,
                 _ => {
                     if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
                         FIRST_NODE + k
@@ -207,11 +252,13 @@ impl Netlist {
             package: 0,
             helper_class: false,
             noise: DeviceNoise::default(),
+            output: 0,
+            share: 1.0,
         };
         let mut tr = [dummy; MAX_TRANSISTORS];
         let mut theta = [[0.0; MAX_TRANSISTORS]; MAX_TRANSISTORS];
         let mut classes: [&TransistorClass; MAX_TRANSISTORS] = [design.pair; MAX_TRANSISTORS];
-        for (i, line) in desc.transistors.iter().enumerate() {
+        for (i, line) in form.transistors.iter().enumerate() {
             let class = if placement[i].from_helper_class {
                 design.helper.unwrap_or(design.pair)
             } else {
@@ -220,7 +267,8 @@ impl Netlist {
             classes[i] = class;
             let (dvbe, dbeta) = match line.role {
                 Role::Matched { pair, member: 1 } => {
-                    (mm.dvbe_v[pair as usize], mm.dbeta[pair as usize])
+                    let d = mm.output(form.output_of[i]);
+                    (d.dvbe_v[pair as usize], d.dbeta[pair as usize])
                 }
                 _ => (0.0, 0.0),
             };
@@ -234,7 +282,7 @@ impl Netlist {
             tr[i] = Tr {
                 name: line.name,
                 role: line.role,
-                branch: desc.branches[i],
+                branch: form.branches[i],
                 c: slot_of(line.collector),
                 b: slot_of(line.base),
                 e: slot_of(line.emitter),
@@ -246,9 +294,11 @@ impl Netlist {
                     af: p.flicker_af,
                     rb_ohm: p.base_resistance_ohm,
                 },
+                output: form.output_of[i],
+                share: 1.0 / f64::from(form.parallel[i]),
             };
         }
-        let n_tr = desc.transistors.len();
+        let n_tr = form.transistors.len();
         for i in 0..n_tr {
             for j in 0..n_tr {
                 if placement[i].package == placement[j].package {
@@ -264,12 +314,15 @@ impl Netlist {
             name: "",
             slot: R_SLOT,
             ohm_25c: 0.0,
-        }; 2];
+        }; MAX_RESISTORS];
         let mut n_res = 0;
-        for (name, label, ohm, dev) in [
-            ("e1", "RE1", design.re1_ohm, mm.dre1),
-            ("e2", "RE2", design.re2_ohm, mm.dre2),
-        ] {
+        for r in form.resistors {
+            let (name, label) = (r.node, r.name);
+            let (ohm, dev) = if r.output == 0 {
+                (design.re1_ohm, mm.dre1)
+            } else {
+                (design.re2_ohm, mm.output(r.output).dre2)
+            };
             if let Some(k) = node_names[..n_nodes].iter().position(|&n| n == name) {
                 res[n_res] = Res {
                     name: label,
@@ -324,6 +377,12 @@ impl Netlist {
             r_ref,
             theta,
             beta_nom: design.pair.model.beta_forward,
+            form,
+            re2_node: form
+                .resistors
+                .iter()
+                .find(|r| r.output == 1)
+                .map_or("e2", |r| r.node),
         })
     }
 
@@ -359,7 +418,9 @@ impl Netlist {
             // The smallest plausible silicon V_BE: the estimate errs low.
             vbe_v: 0.4,
             re1_ohm: sys.res_ohm_for("e1", self),
-            re2_ohm: sys.res_ohm_for("e2", self),
+            re2_ohm: sys.res_ohm_for(self.re2_node, self),
+            outputs: f64::from(self.form.shape.outputs),
+            area_ratio: self.form.shape.area_ratio(),
         };
         let needed_v = (self.topology.desc().estimates.input_voltage_v)(&inputs);
         if needed_v.is_finite() && needed_v > op.supply_v {
@@ -399,7 +460,9 @@ impl Netlist {
             thermal_voltage_v: sys.at[0].vt,
             vbe_v: 0.0,
             re1_ohm: sys.res_ohm_for("e1", self),
-            re2_ohm: sys.res_ohm_for("e2", self),
+            re2_ohm: sys.res_ohm_for(self.re2_node, self),
+            outputs: f64::from(self.form.shape.outputs),
+            area_ratio: self.form.shape.area_ratio(),
         };
         let ratio = (desc.estimates.ratio)(&inputs);
         let mut v = [0.0; MAX_DIM + FIRST_NODE];
@@ -409,26 +472,33 @@ impl Netlist {
         known[R_SLOT] = true;
         known[S_SLOT] = true;
         known[OUT_SLOT] = true;
-        // The first pair's V_BE offset moves the output side by about IS2/IS1, shrunk by
+        // The first pair's V_BE offset moves each output by about IS2/IS1, shrunk by
         // degeneration to the power V_T / (V_T + I RE) (first-order small-signal result).
-        let member = |m: u8| {
-            (0..self.n_tr).find(|&i| self.tr[i].role == Role::Matched { pair: 0, member: m })
-        };
-        let offset = match (member(0), member(1)) {
-            (Some(a), Some(b)) => {
-                let vt = sys.at[a].vt;
-                let drop = op.i_in_a * inputs.re1_ohm.max(inputs.re2_ohm);
-                (sys.at[b].is / sys.at[a].is).powf(vt / (vt + drop))
+        let input_device =
+            (0..self.n_tr).find(|&i| self.tr[i].role == Role::Matched { pair: 0, member: 0 });
+        let offset_of = |k: u8| -> f64 {
+            let out_device = (0..self.n_tr).find(|&i| {
+                self.tr[i].output == k && self.tr[i].role == Role::Matched { pair: 0, member: 1 }
+            });
+            match (input_device, out_device) {
+                (Some(a), Some(b)) => {
+                    let vt = sys.at[a].vt;
+                    let drop = op.i_in_a * inputs.re1_ohm.max(inputs.re2_ohm);
+                    (sys.at[b].is / sys.at[a].is).powf(vt / (vt + drop))
+                }
+                _ => 1.0,
             }
-            _ => 1.0,
         };
+        let outputs = f64::from(self.form.shape.outputs);
         let mut cur = [0.0; MAX_TRANSISTORS];
         for i in 0..self.n_tr {
-            cur[i] = match self.tr[i].branch {
-                Branch::Input => op.i_in_a,
-                Branch::Output => op.i_in_a * ratio * offset,
-                Branch::BaseCurrents => op.i_in_a * (1.0 + ratio) / self.beta_nom,
-            };
+            let t = &self.tr[i];
+            cur[i] = t.share
+                * match t.branch {
+                    Branch::Input => op.i_in_a,
+                    Branch::Output => op.i_in_a * ratio * offset_of(t.output.max(1)),
+                    Branch::BaseCurrents => op.i_in_a * (1.0 + outputs * ratio) / self.beta_nom,
+                };
         }
         // Refine the nominal currents by KCL with base currents at BF: a transistor that is
         // the only collector at an unknown node carries what the node receives less the base
@@ -651,7 +721,9 @@ impl Netlist {
                 thermal_voltage_v: vt,
                 vbe_v: sys.at[0].vbe_for_current(i),
                 re1_ohm: sys.res_ohm_for("e1", self),
-                re2_ohm: sys.res_ohm_for("e2", self),
+                re2_ohm: sys.res_ohm_for(self.re2_node, self),
+                outputs: f64::from(self.form.shape.outputs),
+                area_ratio: self.form.shape.area_ratio(),
             };
             let v_in = (self.topology.desc().estimates.input_voltage_v)(&inputs);
             i = ((rail - v_in) / r).max(1e-3 * rail / r);
@@ -796,8 +868,24 @@ impl Netlist {
         op: &OperatingPoint,
         opts: &SolveOptions,
     ) -> Result<f64, SolveFailure> {
-        let (_, sys, x) = self.solve_full(op, opts)?;
-        let r = sys.output_resistance(&x);
+        let (_, mut sys, x) = self.solve_full(op, opts)?;
+        // With several outputs, each output's own (the others held at V_out); the lowest.
+        let outputs = self.form.shape.outputs;
+        let r = if outputs == 1 {
+            sys.output_resistance(&x)
+        } else {
+            let mut lowest = f64::INFINITY;
+            for k in 1..=outputs {
+                sys.out_only = k;
+                let r = sys.output_resistance(&x);
+                if r.is_nan() {
+                    lowest = f64::NAN;
+                    break;
+                }
+                lowest = lowest.min(r);
+            }
+            lowest
+        };
         // Infinite is a true answer (no Early effect); NaN would be an untrusted number.
         if r.is_nan() {
             return Err(SolveFailure::Invalid {
@@ -817,7 +905,7 @@ impl CircuitSystem<'_> {
             name: "",
             volts: 0.0,
         };
-        let mut nodes = [blank_node; MAX_NODES + 2];
+        let mut nodes = [blank_node; MAX_NODES + MAX_OUTPUTS as usize + 1];
         let mut node_count = 0;
         for k in 0..net.n_nodes {
             nodes[node_count] = NodeVoltage {
@@ -826,11 +914,13 @@ impl CircuitSystem<'_> {
             };
             node_count += 1;
         }
-        nodes[node_count] = NodeVoltage {
-            name: "out",
-            volts: self.op.v_out_v,
-        };
-        node_count += 1;
+        for name in net.form.output_nodes {
+            nodes[node_count] = NodeVoltage {
+                name,
+                volts: self.op.v_out_v,
+            };
+            node_count += 1;
+        }
         if net.uses_supply {
             nodes[node_count] = NodeVoltage {
                 name: "S",
@@ -850,9 +940,10 @@ impl CircuitSystem<'_> {
             power_w: 0.0,
             package: 0,
             helper_class: false,
+            output: 0,
         };
         let mut transistors = [blank; MAX_TRANSISTORS];
-        let mut i_out = 0.0;
+        let mut outputs = [0.0; MAX_OUTPUTS as usize];
         let mut i_s = 0.0;
         for i in 0..net.n_tr {
             let t = &net.tr[i];
@@ -860,7 +951,7 @@ impl CircuitSystem<'_> {
             let (vbe, vbc, vce) = (v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
             let ev = d.eval_with_vce(vbe, vbc, vce);
             if t.c == OUT_SLOT {
-                i_out += ev.ic;
+                outputs[usize::from(t.output.max(1)) - 1] += ev.ic;
             }
             if t.c == S_SLOT {
                 i_s += ev.ic;
@@ -877,6 +968,7 @@ impl CircuitSystem<'_> {
                 power_w: vce * ev.ic + vbe * ev.ib,
                 package: t.package,
                 helper_class: t.helper_class,
+                output: t.output,
             };
         }
         let (i_in, r_ref_power) = match &net.r_ref {
@@ -887,7 +979,9 @@ impl CircuitSystem<'_> {
             None => (self.op.i_in_a, 0.0),
         };
         Solution {
-            i_out_a: i_out,
+            i_out_a: outputs[0],
+            output_currents: outputs,
+            output_count: net.form.output_nodes.len(),
             i_in_a: i_in,
             r_ref_power_w: r_ref_power,
             v_in_v: v[net.in_slot],

@@ -187,11 +187,28 @@ impl Netlist {
         op: &OperatingPoint,
         opts: &SolveOptions,
     ) -> Result<(Solution, NoiseAnalysis), SolveFailure> {
-        let (sol, sys, x) = self.solve_full(op, opts)?;
-        let noise = sys.noise(&x).ok_or_else(|| SolveFailure::Invalid {
+        let (sol, mut sys, x) = self.solve_full(op, opts)?;
+        let singular = || SolveFailure::Invalid {
             reason: format!("singular small-signal circuit at the solution, {op:?}"),
-        })?;
-        Ok((sol, noise))
+        };
+        let outputs = self.form.shape.outputs;
+        if outputs == 1 {
+            let noise = sys.noise(&x).ok_or_else(singular)?;
+            return Ok((sol, noise));
+        }
+        // Several outputs: each output's own current noise; the noisiest governs.
+        let mut worst: Option<NoiseAnalysis> = None;
+        for k in 1..=outputs {
+            sys.out_only = k;
+            let nz = sys.noise(&x).ok_or_else(singular)?;
+            if worst
+                .as_ref()
+                .is_none_or(|w| nz.white_a2_per_hz() > w.white_a2_per_hz())
+            {
+                worst = Some(nz);
+            }
+        }
+        Ok((sol, worst.ok_or_else(singular)?))
     }
 }
 
@@ -221,7 +238,12 @@ impl SmallSignal {
 impl CircuitSystem<'_> {
     /// The small-signal row of a netlist slot (`OUT` for the output, `NONE` for a rail).
     fn row_of(&self, slot: usize) -> usize {
-        let r = self.index(slot);
+        self.row_of_for(slot, 0)
+    }
+
+    /// `row_of` for a terminal of a transistor of output `output` (see `index_of`).
+    fn row_of_for(&self, slot: usize, output: u8) -> usize {
+        let r = self.index_of(slot, output);
         if r == self.dim() {
             OUT
         } else {
@@ -259,7 +281,7 @@ impl CircuitSystem<'_> {
                 self.device(i, x)
                     .eval_with_vce(v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
             currents[i] = (ev.ic, ev.ib);
-            base[i] = self.row_of(t.b);
+            base[i] = self.row_of_for(t.b, t.output);
             let rb = t.noise.rb_ohm;
             if rb <= 0.0 {
                 continue;
@@ -276,7 +298,11 @@ impl CircuitSystem<'_> {
             let dib = [-ev.dib_dvbc, ev.dib_dvbe + ev.dib_dvbc, -ev.dib_dvbe];
             let die = [-(dic[0] + dib[0]), -(dic[1] + dib[1]), -(dic[2] + dib[2])];
             let stamp = [dic, dib, die];
-            let old = [self.row_of(t.c), self.row_of(t.b), self.row_of(t.e)];
+            let old = [
+                self.row_of_for(t.c, t.output),
+                self.row_of_for(t.b, t.output),
+                self.row_of_for(t.e, t.output),
+            ];
             let new = [old[0], bi, old[2]];
             for k in 0..3 {
                 for c in 0..3 {
@@ -316,7 +342,11 @@ impl CircuitSystem<'_> {
         for i in 0..net.n_tr {
             let t = &net.tr[i];
             let (ic, ib) = currents[i];
-            let (c, b, e) = (self.row_of(t.c), self.row_of(t.b), self.row_of(t.e));
+            let (c, b, e) = (
+                self.row_of_for(t.c, t.output),
+                self.row_of_for(t.b, t.output),
+                self.row_of_for(t.e, t.output),
+            );
             let internal = base[i] != b;
             let h_c = transfer(c, e);
             sources.push(NoiseSource {
@@ -475,6 +505,7 @@ mod tests {
 
     fn design(topology: Topology, pair: &TransistorClass, re: f64) -> Design<'_> {
         Design {
+            shape: crate::model::Shape::SINGLE,
             topology,
             pair,
             helper: Some(pair),

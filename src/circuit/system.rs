@@ -29,14 +29,18 @@ pub(super) struct CircuitSystem<'n> {
     pub op: OperatingPoint,
     /// Devices at the ambient temperature (the isothermal solve).
     pub at: [BjtAtT; super::MAX_TRANSISTORS],
-    pub res_ohm: [f64; 2],
-    res_g: [f64; 2],
+    pub res_ohm: [f64; super::netlist::MAX_RESISTORS],
+    res_g: [f64; super::netlist::MAX_RESISTORS],
     /// Conductance of R_ref at the ambient temperature (0 without one).
     pub ref_g: f64,
     /// Junction temperatures are unknowns.
     pub thermal: bool,
     /// Scales every theta (continuation in the thermal coupling).
     pub theta_scale: f64,
+    /// Which output the row past the last unknown describes: 0 for every output together
+    /// (the solve), k for output k alone (its output resistance and noise; the other
+    /// outputs' collectors are then held like a rail).
+    pub out_only: u8,
 }
 
 impl<'n> CircuitSystem<'n> {
@@ -50,8 +54,8 @@ impl<'n> CircuitSystem<'n> {
                 None => net.tr[i].bjt.at(op.t_amb_k),
             };
         }
-        let mut res_ohm = [0.0; 2];
-        let mut res_g = [0.0; 2];
+        let mut res_ohm = [0.0; super::netlist::MAX_RESISTORS];
+        let mut res_g = [0.0; super::netlist::MAX_RESISTORS];
         for k in 0..net.n_res {
             res_ohm[k] =
                 net.res[k].ohm_25c * (1.0 + net.tcr_per_k * (op.t_amb_k - TCR_REFERENCE_K));
@@ -69,6 +73,7 @@ impl<'n> CircuitSystem<'n> {
             ref_g,
             thermal: false,
             theta_scale: 1.0,
+            out_only: 0,
         }
     }
 
@@ -116,6 +121,17 @@ impl<'n> CircuitSystem<'n> {
             self.dim()
         } else {
             NONE
+        }
+    }
+
+    /// The row of a terminal of a transistor of output `output` (0: input side): as
+    /// `index`, except that with `out_only` set another output's collector is held.
+    #[inline]
+    pub(super) fn index_of(&self, slot: usize, output: u8) -> usize {
+        if slot == OUT_SLOT && self.out_only != 0 && output != self.out_only {
+            NONE
+        } else {
+            self.index(slot)
         }
     }
 
@@ -205,7 +221,11 @@ impl<'n> CircuitSystem<'n> {
             let (vbe, vbc) = (v[t.b] - v[t.e], v[t.b] - v[t.c]);
             let ev = d.eval_with_vce(vbe, vbc, v[t.c] - v[t.e]);
             let ie = ev.ie;
-            let rows = [self.index(t.c), self.index(t.b), self.index(t.e)];
+            let rows = [
+                self.index_of(t.c, t.output),
+                self.index_of(t.b, t.output),
+                self.index_of(t.e, t.output),
+            ];
             let cur = [ev.ic, ev.ib, -ie];
             for k in 0..3 {
                 let r = rows[k];
@@ -275,7 +295,7 @@ impl<'n> CircuitSystem<'n> {
                         }
                         let t = &net.tr[jj];
                         for (m, slot) in [t.c, t.b, t.e].into_iter().enumerate() {
-                            let col = self.index(slot);
+                            let col = self.index_of(slot, t.output);
                             if col != NONE {
                                 j[row][col] -= coef * dp[jj][m];
                             }
@@ -385,12 +405,28 @@ mod tests {
             v_out in 0.3..30.0f64,
             jitter in prop::collection::vec(-0.02..0.02f64, MAX_DIM),
             thermal in any::<bool>(),
+            outputs in 1u8..=3,
+            area in 0u8..3,
         ) {
             let topology = ALL_TOPOLOGIES[t];
+            // Multi-output and area-ratio forms where the topology has them.
+            let shape = if topology.desc().fans_out {
+                crate::model::Shape {
+                    outputs,
+                    area: match (area, topology.desc().has_re1) {
+                        (1, true) => crate::model::Area::Output(2),
+                        (2, true) => crate::model::Area::Input(3),
+                        _ => crate::model::Area::Unit,
+                    },
+                }
+            } else {
+                crate::model::Shape::SINGLE
+            };
             let pair = class(10f64.powf(is), bf, vaf, knee);
             let helper = class(2.0 * 10f64.powf(is), bf * 0.7, vaf, None);
             let (re1, re2) = if topology.desc().has_re1 { (re, re) } else { (0.0, re.max(100.0)) };
             let design = Design {
+                shape,
                 r_ref: None,
                 topology,
                 pair: &pair,
@@ -399,7 +435,8 @@ mod tests {
                 re2_ohm: re2,
                 re_tcr_per_k: 1e-4,
             };
-            let mm = Mismatch { dref: 0.0, dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01 };
+            let mut mm = Mismatch { dref: 0.0, dvbe_v: [1e-3, -2e-3], dbeta: [0.03, -0.02], dre1: 0.01, dre2: -0.01, more: Default::default() };
+            mm.set_output(2, crate::circuit::OutputDeviation { dvbe_v: [-1.5e-3, 1e-3], dbeta: [-0.01, 0.02], dre2: 0.005 });
             let net = Netlist::compile(&design, &mm).unwrap();
             let op = OperatingPoint { rail_v: None, i_in_a: 10f64.powf(i_in), v_out_v: v_out, supply_v: v_out + 2.0, t_amb_k: 320.0 };
             let mut sys = CircuitSystem::new(&net, op);

@@ -335,6 +335,7 @@ pub fn model_currents(
 ) -> Result<Vec<f64>, (usize, String)> {
     let class = class_with(&setup.base, values);
     let design = Design {
+        shape: crate::model::Shape::SINGLE,
         topology: setup.topology,
         pair: &class,
         helper: Some(&class),

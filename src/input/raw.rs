@@ -261,6 +261,8 @@ pub struct RawRequirement {
     #[serde(default)]
     pub quantity: Option<u32>,
     #[serde(default)]
+    pub outputs: Option<i64>,
+    #[serde(default)]
     pub load: Option<RawLoad>,
     #[serde(default)]
     pub allow: Vec<String>,

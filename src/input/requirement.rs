@@ -23,6 +23,7 @@
 //! | `max_noise` (or `max_noise.density`) | 1e-18 A/√Hz to 1e-6 A/√Hz |
 //! | `max_noise.frequency`, `max_noise.band.min/max` | 1 mHz to 1 MHz, min < max |
 //! | `quantity` | 1 to 1000000 (default 1) |
+//! | `outputs` | 1 to 8 (default 1; `MAX_OUTPUTS`) |
 //!
 //! `allow`/`deny` name topologies (`simple`, `wilson`, ...) or catalog class ids; each
 //! name is sorted into `Requirement::topologies` or `Requirement::classes`. With a
@@ -36,7 +37,7 @@ use super::raw::{
 use super::{deserialize, unknown_value, Ctx, InputError};
 use crate::model::{
     AccuracyOf, Catalog, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Polarity, Program,
-    Range, Requirement, Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V,
+    Range, Requirement, Topology, ALL_TOPOLOGIES, DEFAULT_MIN_VCE_V, MAX_OUTPUTS,
 };
 use crate::units::{Dimension as D, Field};
 
@@ -297,6 +298,18 @@ pub(super) fn validate_requirement(
         ));
     }
 
+    let outputs = match raw.outputs {
+        None => 1,
+        Some(n) if (1..=i64::from(MAX_OUTPUTS)).contains(&n) => n as u8,
+        Some(n) => {
+            return Err(cx.invalid(
+                "outputs",
+                format!("{n} outputs"),
+                format!("1 to {MAX_OUTPUTS} outputs on one input side"),
+            ))
+        }
+    };
+
     let mut topologies = Filters::default();
     let mut classes = Filters::default();
     let kind = match raw.kind {
@@ -370,6 +383,7 @@ pub(super) fn validate_requirement(
         max_cost,
         max_noise,
         quantity,
+        outputs,
         load: match raw.load.unwrap_or(RawLoad::General) {
             RawLoad::General => LoadKind::General,
             RawLoad::Led => LoadKind::Led,
@@ -456,6 +470,9 @@ pub fn requirement_to_yaml(r: &Requirement) -> String {
         put("max_noise", Value::Mapping(mm));
     }
     put("quantity", Value::Number(r.quantity.into()));
+    if r.outputs != 1 {
+        put("outputs", Value::Number(r.outputs.into()));
+    }
     put("load", s(r.load.as_str()));
     let names =
         |a: &[String], b: &[String]| Value::Sequence(a.iter().chain(b).map(|n| s(n)).collect());

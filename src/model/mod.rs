@@ -7,6 +7,7 @@
 
 mod catalog;
 mod design;
+pub mod fanout;
 mod requirement;
 mod resistor;
 mod topology;
@@ -14,6 +15,7 @@ mod transistor;
 
 pub use catalog::Catalog;
 pub use design::{BoardDesign, DesignChannel, MAX_COPIES};
+pub use fanout::{Area, Form, FormError, Shape, MAX_OUTPUTS, MAX_PARALLEL};
 pub use requirement::{
     AccuracyOf, Filters, LoadKind, MirrorKind, NoiseBand, NoiseLimit, Program, Range, Requirement,
     DEFAULT_MIN_VCE_V,

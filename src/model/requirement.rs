@@ -143,6 +143,8 @@ pub struct Requirement {
     pub max_noise: Option<NoiseLimit>,
     /// How many identical mirrors are built (default 1).
     pub quantity: u32,
+    /// Outputs fed by one input side of each mirror, each at `ratio` (default 1).
+    pub outputs: u8,
     pub load: LoadKind,
     pub topologies: Filters,
     pub classes: Filters,

@@ -61,6 +61,10 @@ pub struct TopologyDesc {
     pub allows_degeneration: bool,
     /// Number of matched pairs (1 or 2).
     pub matched_pairs: u8,
+    /// The output side (every matched pair's second member) can be copied to feed several
+    /// outputs from one input side, and take an area ratio (see `fanout`). False for the
+    /// Wilson forms, whose output transistor sits inside the feedback loop.
+    pub fans_out: bool,
     /// Per transistor (same order as `transistors`): which current it nominally carries.
     /// The solver uses this only for its start point.
     pub branches: &'static [Branch],
@@ -91,16 +95,26 @@ pub struct EstimateInputs {
     pub vbe_v: f64,
     pub re1_ohm: f64,
     pub re2_ohm: f64,
+    /// Outputs fed by the input side (1 for the six descriptions as written).
+    pub outputs: f64,
+    /// The ratio set by devices in parallel (n, 1/n or 1; see `fanout::Shape`).
+    pub area_ratio: f64,
 }
 
 impl EstimateInputs {
-    /// The ratio the emitter resistors set (RE1/RE2), 1 when undegenerated.
+    /// The ratio of one output: RE1/RE2 when degenerated (the resistors then set it),
+    /// otherwise the area ratio.
     pub fn resistor_ratio(&self) -> f64 {
         if self.re1_ohm > 0.0 && self.re2_ohm > 0.0 {
             self.re1_ohm / self.re2_ohm
         } else {
-            1.0
+            self.area_ratio
         }
+    }
+
+    /// Every output's share of the input side's base-current load: N n.
+    fn load(&self) -> f64 {
+        self.outputs * self.resistor_ratio()
     }
 
     /// `r_o = VAF / I_C` of a device carrying `i_a`.
@@ -156,9 +170,10 @@ impl PartialEq for Estimates {
 // where the book gives n = 1.
 
 fn simple_ratio(e: &EstimateInputs) -> f64 {
-    // n BF / (BF + 1 + n): BF/(BF+2) at n = 1.
+    // n BF / (BF + 1 + N n): BF/(BF+2) at n = N = 1; every output's base current is
+    // drawn from the input node.
     let n = e.resistor_ratio();
-    n / (1.0 + (1.0 + n) / e.beta)
+    n / (1.0 + (1.0 + e.load()) / e.beta)
 }
 fn simple_r_out(e: &EstimateInputs) -> f64 {
     e.degenerated_r_o(e.i_in_a * simple_ratio(e), e.re2_ohm)
@@ -173,9 +188,10 @@ fn two_vbe(e: &EstimateInputs) -> f64 {
     2.0 * e.vbe_v + e.i_in_a * e.re1_ohm
 }
 fn helper_ratio(e: &EstimateInputs) -> f64 {
-    // 1 / (1 + 2/(BF(BF+1))) at n = 1.
+    // 1 / (1 + 2/(BF(BF+1))) at n = N = 1; the helper carries every output's base
+    // current.
     let n = e.resistor_ratio();
-    n / (1.0 + (1.0 + n) / (e.beta * (e.beta + 1.0)))
+    n / (1.0 + (1.0 + e.load()) / (e.beta * (e.beta + 1.0)))
 }
 fn wilson_ratio(e: &EstimateInputs) -> f64 {
     let b = e.beta;
@@ -186,10 +202,11 @@ fn half_beta_r_o(e: &EstimateInputs) -> f64 {
     e.beta * e.r_o(e.i_in_a * e.resistor_ratio()) / 2.0
 }
 fn cascode_ratio(e: &EstimateInputs) -> f64 {
-    // Q4 passes I_C2 BF/(BF+1); the input also feeds Q1's, Q2's and Q4's bases.
+    // Q4 passes I_C2 BF/(BF+1); the input also feeds Q1's, every Q2's and every Q4's
+    // bases.
     let b = e.beta;
     let n = e.resistor_ratio();
-    n * (b / (b + 1.0)) / (1.0 + (1.0 + n) / b + n / (b + 1.0))
+    n * (b / (b + 1.0)) / (1.0 + (1.0 + e.load()) / b + e.load() / (b + 1.0))
 }
 fn widlar_ratio(e: &EstimateInputs) -> f64 {
     // I_out RE2 = V_T ln(I_in / I_out), solved by Newton in u = I_out / I_in.
@@ -252,6 +269,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        fans_out: true,
         branches: &[IN, OUT],
         estimates: Estimates {
             ratio: simple_ratio,
@@ -272,6 +290,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        fans_out: true,
         branches: &[IN, OUT, BC],
         estimates: Estimates {
             ratio: helper_ratio,
@@ -292,6 +311,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 1,
+        fans_out: false,
         branches: &[IN, OUT, OUT],
         estimates: Estimates {
             ratio: wilson_ratio,
@@ -313,6 +333,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 2,
+        fans_out: false,
         branches: &[IN, IN, OUT, OUT],
         estimates: Estimates {
             ratio: wilson_ratio,
@@ -334,6 +355,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: true,
         allows_degeneration: true,
         matched_pairs: 2,
+        fans_out: true,
         branches: &[IN, IN, OUT, OUT],
         estimates: Estimates {
             ratio: cascode_ratio,
@@ -353,6 +375,7 @@ static DESCS: [TopologyDesc; 6] = [
         has_re1: false,
         allows_degeneration: false,
         matched_pairs: 1,
+        fans_out: true,
         branches: &[IN, OUT],
         estimates: Estimates {
             ratio: widlar_ratio,
@@ -395,6 +418,8 @@ mod tests {
             vbe_v: 0.65,
             re1_ohm: 0.0,
             re2_ohm: 0.0,
+            outputs: 1.0,
+            area_ratio: 1.0,
         }
     }
 

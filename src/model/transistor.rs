@@ -113,10 +113,15 @@ pub struct TransistorClass {
 impl TransistorClass {
     /// Matching statistics, or those of two unrelated singles when the class gives none.
     pub fn matching_or_default(&self) -> Matching {
-        self.matching.unwrap_or(Matching {
+        self.matching.unwrap_or(Self::unrelated_matching())
+    }
+
+    /// The matching of devices in two separate packages.
+    pub fn unrelated_matching() -> Matching {
+        Matching {
             // Two separate packages: common practice, no source (several mV apart).
             vbe_offset_sigma_v: 5e-3,
             beta_mismatch_sigma: 0.1,
-        })
+        }
     }
 }

@@ -55,6 +55,15 @@ pub struct CandidateRow {
     /// Position in the ranking (1-based); `None` outside a ranking.
     pub rank: Option<usize>,
     pub topology: &'static str,
+    /// Outputs fed by the one input side.
+    pub outputs: u8,
+    /// The area ratio of each output: `1`, `n` (n devices in parallel on each output) or
+    /// `1/n` (n on the input side).
+    pub area: String,
+    /// The output (1-based) that governs the error figures: the worst one.
+    pub worst_output: u8,
+    #[serde(skip)]
+    pub shape: crate::model::Shape,
     pub part: String,
     pub helper: Option<String>,
     pub re1_ohm: f64,
@@ -171,6 +180,10 @@ impl CandidateRow {
         CandidateRow {
             rank,
             topology: spec.topology.name(),
+            outputs: spec.shape.outputs,
+            area: spec.shape.area_text(),
+            worst_output: f.worst_output.max(1),
+            shape: spec.shape,
             part: spec.pair.clone(),
             helper: spec.helper.clone(),
             re1_ohm: spec.re1_ohm,
@@ -215,6 +228,12 @@ impl CandidateRow {
     /// A short human name: `wilson npn-dual-matched RE 1.00k/1.00k thick-1`.
     pub fn label(&self) -> String {
         let mut s = format!("{} {}", self.topology, self.part);
+        if self.outputs > 1 {
+            s.push_str(&format!(" ×{} outputs", self.outputs));
+        }
+        if self.area != "1" {
+            s.push_str(&format!(" area {}", self.area));
+        }
         if let Some(h) = &self.helper {
             s.push_str(&format!(" + {h}"));
         }

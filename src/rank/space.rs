@@ -29,10 +29,11 @@
 //!   does not forbid every resistor.
 
 use crate::check::{
-    design_current, helper_count, helpers_fit_in_spares, DesignSpec, RefPick, ROOM_K,
+    design_current, helper_count, helpers_fit_in_spares_for, DesignSpec, RefPick, ROOM_K,
 };
 use crate::model::{
-    Catalog, Filters, Requirement, ResistorClass, Topology, TransistorClass, ALL_TOPOLOGIES,
+    fanout, Area, Catalog, Filters, Requirement, ResistorClass, Shape, Topology, TransistorClass,
+    ALL_TOPOLOGIES, MAX_PARALLEL,
 };
 
 /// Smallest emitter resistor considered (ohms).
@@ -96,8 +97,13 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
         if topology == Topology::Widlar && n >= 1.0 {
             continue;
         }
+        if req.outputs > 1 && !fanout::fans_out(topology) {
+            continue;
+        }
+        let shape = Shape::outputs(req.outputs);
         for pair in &pairs {
-            let helper_id = if helper_count(topology) > 0 && !helpers_fit_in_spares(topology, pair)
+            let helper_id = if helper_count(topology) > 0
+                && !helpers_fit_in_spares_for(topology, shape, pair)
             {
                 match helper {
                     Some(h) => Some(h.id.clone()),
@@ -106,7 +112,11 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
             } else {
                 None
             };
+            if fanout::form(topology, shape).is_err() {
+                continue;
+            }
             let spec = |re1: f64, re2: f64, r: Option<&ResistorClass>| DesignSpec {
+                shape,
                 topology,
                 pair: pair.id.clone(),
                 helper: helper_id.clone(),
@@ -129,6 +139,17 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
                     }
                 }
                 continue;
+            }
+            if let Some(area) = area_for(req, topology, pair) {
+                groups.extend(area_groups(
+                    area,
+                    &spec,
+                    &resistors,
+                    re_max,
+                    topology,
+                    pair,
+                    helper.map(|h| h.id.clone()),
+                ));
             }
             if unity {
                 groups.push(Group {
@@ -192,6 +213,96 @@ pub fn enumerate(req: &Requirement, catalog: &Catalog) -> Vec<Group> {
     }
     if req.program.is_some() {
         groups = with_programming_resistor(groups, &resistors);
+    }
+    groups
+}
+
+/// The area ratio a requirement's ratio asks for, when it is an integer n or 1/n of
+/// 2..=`MAX_PARALLEL` and the pair class's package holds the input side and every output's
+/// parallel devices together (an area ratio across packages would match like unrelated
+/// parts, which is no reason to build it that way).
+fn area_for(req: &Requirement, topology: Topology, pair: &TransistorClass) -> Option<Shape> {
+    let n = req.ratio;
+    let whole = |x: f64| {
+        let r = x.round();
+        ((r - x).abs() < 1e-9 && (2.0..=f64::from(MAX_PARALLEL)).contains(&r)).then_some(r as u8)
+    };
+    let area = match (whole(n), whole(1.0 / n)) {
+        (Some(m), _) => Area::Output(m),
+        (_, Some(m)) => Area::Input(m),
+        _ => return None,
+    };
+    let shape = Shape {
+        outputs: req.outputs,
+        area,
+    };
+    let form = fanout::form(topology, shape).ok()?;
+    let seats = fanout::place(form, pair.devices_per_package);
+    let one_package = form
+        .transistors
+        .iter()
+        .zip(&seats)
+        .filter(|(l, _)| l.role != crate::model::Role::Helper)
+        .all(|(_, s)| s.package == 0);
+    (pair.devices_per_package > 1 && one_package).then_some(shape)
+}
+
+/// The area-ratio candidates of one pair class: undegenerated, and degenerated with RE2
+/// at the standard value nearest to the equal-drop value (RE1/n for n output devices,
+/// n RE1 for n input devices: equal current densities, so no V_T ln(n) term).
+fn area_groups(
+    shape: Shape,
+    spec: &dyn Fn(f64, f64, Option<&ResistorClass>) -> DesignSpec,
+    resistors: &[&ResistorClass],
+    re_max: f64,
+    topology: Topology,
+    pair: &TransistorClass,
+    helper: Option<String>,
+) -> Vec<Group> {
+    let with_shape = |mut s: DesignSpec| {
+        s.shape = shape;
+        // The area form may place helpers differently from the resistor-ratio form.
+        if helper_count(topology) > 0 {
+            s.helper = if helpers_fit_in_spares_for(topology, shape, pair) {
+                None
+            } else {
+                helper.clone()
+            };
+        }
+        s
+    };
+    if helper_count(topology) > 0
+        && helper.is_none()
+        && !helpers_fit_in_spares_for(topology, shape, pair)
+    {
+        return Vec::new();
+    }
+    let mut groups = vec![Group {
+        topology,
+        pair: pair.id.clone(),
+        resistor: None,
+        specs: vec![with_shape(spec(0.0, 0.0, None))],
+    }];
+    let k = shape.area_ratio();
+    for r in resistors {
+        let made = |v: &f64| (r.min_ohm..=r.max_ohm).contains(v);
+        let specs: Vec<DesignSpec> = r
+            .series
+            .values_between(RE_MIN_OHM.max(r.min_ohm), re_max.min(r.max_ohm))
+            .into_iter()
+            .filter_map(|re1| {
+                let re2 = r.series.nearest(re1 / k).filter(made)?;
+                Some(with_shape(spec(re1, re2, Some(r))))
+            })
+            .collect();
+        if !specs.is_empty() {
+            groups.push(Group {
+                topology,
+                pair: pair.id.clone(),
+                resistor: Some(r.id.clone()),
+                specs,
+            });
+        }
     }
     groups
 }

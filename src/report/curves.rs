@@ -3,7 +3,8 @@
 //! null).
 //!
 //! JSON wire format: `ratio`, `supply_v`, `v_out_window_v` {`min`, `max`}, `accuracy`,
-//! `output` (list of {`i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
+//! `output` (list of {`output` (1-based; one family per output where a multi-output
+//! design's outputs differ), `i_in_a`, `t_amb_k`, `v_out_v`: [..], `i_out_a`: [.. or null]}),
 //! `error` (list of {`v_out_v`, `t_amb_k`, `i_in_a`: [..], `error`: [.. or null]}),
 //! `balance_voltage_v` (null when none), `failed_points`, `noise_vs_re` (list of
 //! {`i_in_a`, `re1_ohm`, `re2_ohm`, `noise_a_per_rthz` (null when unsolved), `dominant`,

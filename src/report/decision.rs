@@ -357,6 +357,7 @@ pub fn shortfall(catalog: &Catalog, name: CheckName, value: f64, limit: f64) -> 
 /// is missing, which a ranked row never has).
 pub fn elements_of(catalog: &Catalog, c: &CandidateRow) -> Option<Vec<Element>> {
     let spec = DesignSpec {
+        shape: c.shape,
         topology: crate::model::Topology::from_name(c.topology)?,
         pair: c.part.clone(),
         helper: c.helper.clone(),

@@ -87,6 +87,7 @@ pub fn requirement() -> Requirement {
         max_cost: None,
         max_noise: None,
         quantity: 1,
+        outputs: 1,
         load: LoadKind::General,
         topologies: Filters::default(),
         classes: Filters::default(),

@@ -110,7 +110,7 @@ const COLUMNS: &[Column] = &[
         title: "total error",
         programmed_only: false,
         csv_value: |r| num(r.error_total),
-        table_value: |r| pct(r.error_total),
+        table_value: total_error_cell,
     },
     Column {
         csv: "yield",
@@ -329,7 +329,22 @@ fn design_cell(r: &CandidateRow) -> String {
     if let (Some(v), Some(class)) = (r.r_ref_ohm, &r.r_ref_resistor) {
         s = format!("{}, R_ref {} {class}", s.trim_end(), ohms(v));
     }
+    if r.outputs > 1 {
+        s = format!("{}, {} outputs", s.trim_end(), r.outputs);
+    }
+    if r.area != "1" {
+        s = format!("{}, area {}", s.trim_end(), r.area);
+    }
     s.trim_end().to_string()
+}
+
+/// The total error, naming the worst output of a multi-output design (`4.1 % (output 3)`).
+fn total_error_cell(r: &CandidateRow) -> String {
+    if r.outputs > 1 {
+        format!("{} (output {})", pct(r.error_total), r.worst_output)
+    } else {
+        pct(r.error_total)
+    }
 }
 
 /// Rank with the Pareto mark beside it (`3 *`), for the narrow table.
@@ -358,7 +373,7 @@ const NARROW: &[TableColumn] = &[
     ("#", rank_cell),
     ("design", design_cell),
     ("cost", |r| format!("{:.3}", r.cost)),
-    ("total error", |r| pct(r.error_total)),
+    ("total error", total_error_cell),
     ("yield", |r| pct(r.yield_fraction)),
     ("governing", governing_cell),
 ];
@@ -879,6 +894,10 @@ mod tests {
 
     fn row() -> CandidateRow {
         CandidateRow {
+            outputs: 1,
+            area: "1".into(),
+            worst_output: 1,
+            shape: crate::model::Shape::SINGLE,
             rank: Some(1),
             topology: "simple",
             part: "npn-dual-x".into(),
@@ -955,6 +974,10 @@ mod tests {
 
     fn long_row(k: usize) -> CandidateRow {
         CandidateRow {
+            outputs: 1,
+            area: "1".into(),
+            worst_output: 1,
+            shape: crate::model::Shape::SINGLE,
             rank: Some(k),
             topology: "beta-helper",
             part: "npn-dual-highvoltage".into(),

@@ -14,8 +14,8 @@ use super::eng::{celsius, eng, percent, Charset};
 use super::Provenance;
 use crate::check::refdes::{Element, ElementKind};
 use crate::model::{
-    BjtParams, Polarity, Requirement, ResistorClass, Role, Topology, TransistorClass,
-    ZERO_CELSIUS_K,
+    fanout, BjtParams, Polarity, Requirement, ResistorClass, Role, Shape, Topology,
+    TransistorClass, ZERO_CELSIUS_K,
 };
 
 /// The design to export, in the terms of MODEL.md.
@@ -30,6 +30,8 @@ pub struct SpiceDesign<'a> {
     pub re1_ohm: f64,
     pub re2_ohm: f64,
     pub resistor: Option<&'a ResistorClass>,
+    /// Outputs on the input side and the area ratio (`Shape::SINGLE` for one output).
+    pub shape: Shape,
     /// The programming resistor, when the requirement programs the mirror by one; the
     /// deck's bench then drives the input through it from the program rail source.
     pub r_ref: Option<SpiceRef<'a>>,
@@ -130,9 +132,15 @@ fn model_card(class: &TransistorClass, name: &str) -> String {
 /// The design's parts with their reference designators (the same list the report's
 /// schematic and parts table draw).
 pub fn elements(design: &SpiceDesign) -> Vec<Element> {
-    let packages = crate::check::place(design.topology, design.pair, design.helper);
-    crate::check::refdes::elements(
+    let packages = match fanout::form(design.topology, design.shape) {
+        Ok(form) if !design.shape.is_single() => {
+            crate::check::place_form(form, design.pair, design.helper)
+        }
+        _ => crate::check::place(design.topology, design.pair, design.helper),
+    };
+    crate::check::refdes::elements_of_shape(
         design.topology,
+        design.shape,
         &packages,
         if design.topology.desc().has_re1 {
             design.re1_ohm
@@ -151,15 +159,23 @@ pub fn elements(design: &SpiceDesign) -> Vec<Element> {
 /// The nodes of a topology's netlist for this design, in order of first appearance,
 /// including `e1`/`e2` (kept as separate nodes even for 0 ohm, joined by a 0 V source).
 pub fn netlist_nodes(topology: Topology) -> Vec<&'static str> {
+    netlist_nodes_of(topology, Shape::SINGLE)
+}
+
+/// `netlist_nodes` of a multi-output or area-ratio form (every output's nodes).
+pub fn netlist_nodes_of(topology: Topology, shape: Shape) -> Vec<&'static str> {
+    let Ok(form) = fanout::form(topology, shape) else {
+        return Vec::new();
+    };
     let mut seen = Vec::new();
-    for line in topology.desc().transistors {
+    for line in form.transistors {
         for n in [line.collector, line.base, line.emitter] {
             if !seen.contains(&n) {
                 seen.push(n);
             }
         }
     }
-    for n in SUBCKT_PINS {
+    for n in ["in", "R", "S"] {
         if !seen.contains(&n) {
             seen.push(n);
         }
@@ -306,7 +322,15 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         "* S = opposite rail. Netlist per topology '{}'.",
         desc.name
     );
-    let _ = writeln!(o, ".subckt {subckt} {}", SUBCKT_PINS.join(" "));
+    // One output pin per output: `out`, or `out1`..`outN` (each output held by the bench).
+    let form = fanout::form(design.topology, design.shape)
+        .unwrap_or_else(|_| fanout::form(design.topology, Shape::SINGLE).expect("single form"));
+    let outs: Vec<&str> = form.output_nodes.to_vec();
+    let pins: Vec<&str> = std::iter::once("in")
+        .chain(outs.iter().copied())
+        .chain(["R", "S"])
+        .collect();
+    let _ = writeln!(o, ".subckt {subckt} {}", pins.join(" "));
     // The programming resistor joins the program rail, which is the bench's: it is
     // placed there, under the same designator.
     let is_ref = |e: &Element| e.netlist_name == crate::check::refdes::R_REF_NAME;
@@ -355,12 +379,14 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
     }
     // An emitter resistor of 0 ohm is a wire, not a part: a 0 V source keeps the node
     // and reads the emitter current.
-    let shorts = [
-        ("RE1", "e1", design.re1_ohm, desc.has_re1),
-        ("RE2", "e2", design.re2_ohm, true),
-    ];
-    for (name, node, ohm, exists) in shorts {
-        if exists && ohm <= 0.0 {
+    for r in form.resistors {
+        let (name, node) = (r.name, r.node);
+        let ohm = if r.output == 0 {
+            design.re1_ohm
+        } else {
+            design.re2_ohm
+        };
+        if ohm <= 0.0 {
             let _ = writeln!(
                 o,
                 "V{} {node} R DC 0  ; {name} = 0 ohm: a short (no part) that also reads the emitter current",
@@ -433,6 +459,18 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
             }
         }
     };
+    let several = outs.len() > 1;
+    if several {
+        o.push_str("* Every output is held at V_out; a 0 V source per output reads its current,\n");
+        o.push_str("* I_out of output k = I(VOk).\n");
+    }
+    let out_pins = |_: ()| -> String {
+        if several {
+            outs.join(" ")
+        } else {
+            "out".to_string()
+        }
+    };
     match design.pair.polarity {
         Polarity::Npn => {
             o.push_str("* Sink: mirror rail at ground, opposite rail at +V_S.\n");
@@ -447,7 +485,12 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
                 }
             }
             let _ = writeln!(o, "VOUT out 0 DC {}", bench(req.output_voltage_v.max));
-            let _ = writeln!(o, "X1 in out 0 vs {subckt}");
+            if several {
+                for (k, n) in outs.iter().enumerate() {
+                    let _ = writeln!(o, "VO{} out {n} DC 0", k + 1);
+                }
+            }
+            let _ = writeln!(o, "X1 in {} 0 vs {subckt}", out_pins(()));
         }
         Polarity::Pnp => {
             o.push_str("* Source: mirror rail at +V_S, opposite rail at ground; the input\n");
@@ -475,7 +518,12 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
                 }
             }
             let _ = writeln!(o, "VOUT rail out DC {}", bench(req.output_voltage_v.max));
-            let _ = writeln!(o, "X1 in out rail 0 {subckt}");
+            if several {
+                for (k, n) in outs.iter().enumerate() {
+                    let _ = writeln!(o, "VO{} {n} out DC 0", k + 1);
+                }
+            }
+            let _ = writeln!(o, "X1 in {} rail 0 {subckt}", out_pins(()));
         }
     }
     let _ = writeln!(o, ".temp 25");
@@ -502,10 +550,15 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
         comment_text(&celsius(req.ambient_k.min, a).replace(" degC", "")),
         comment_text(&celsius(req.ambient_k.max, a).replace(" degC", ""))
     );
-    let _ = writeln!(o, ".print dc I(VOUT)");
+    if several {
+        let reads: Vec<String> = (1..=outs.len()).map(|k| format!("I(VO{k})")).collect();
+        let _ = writeln!(o, ".print dc I(VOUT) {}", reads.join(" "));
+    } else {
+        let _ = writeln!(o, ".print dc I(VOUT)");
+    }
     let _ = writeln!(o, ".end");
     // Keep the node list honest: every netlist node is in the deck.
-    debug_assert!(netlist_nodes(design.topology)
+    debug_assert!(netlist_nodes_of(design.topology, design.shape)
         .iter()
         .all(|n| o.contains(&format!(" {n} "))));
     o
@@ -546,6 +599,7 @@ mod tests {
         let req = fixtures::requirement();
         for t in ALL_TOPOLOGIES {
             let d = SpiceDesign {
+                shape: Shape::SINGLE,
                 topology: t,
                 pair: &pair,
                 helper: Some(&helper),
@@ -584,12 +638,45 @@ mod tests {
     }
 
     #[test]
+    fn several_outputs_get_a_pin_a_resistor_and_an_ammeter_each() {
+        let pair = fixtures::npn_dual();
+        let req = fixtures::requirement();
+        let d = SpiceDesign {
+            shape: Shape::outputs(3),
+            topology: Topology::Simple,
+            pair: &pair,
+            helper: None,
+            re1_ohm: 100.0,
+            re2_ohm: 100.0,
+            resistor: None,
+            r_ref: None,
+        };
+        let deck = render(&d, &req, &fixtures::provenance());
+        assert!(
+            deck.contains(".subckt mirror_simple in out1 out2 out3 R S"),
+            "{deck}"
+        );
+        for k in 1..=3 {
+            assert!(deck.contains(&format!("VO{k} out out{k} DC 0")), "{deck}");
+            assert!(deck.contains(&format!("; netlist RE2_{k}")), "{deck}");
+            assert!(deck.contains(&format!("; netlist Q2_{k},")), "{deck}");
+        }
+        assert!(deck.contains("X1 in out1 out2 out3 0 vs mirror_simple"));
+        assert!(deck.contains(".print dc I(VOUT) I(VO1) I(VO2) I(VO3)"));
+        // Every node of every output is wired.
+        for node in netlist_nodes_of(Topology::Simple, Shape::outputs(3)) {
+            assert!(deck.contains(&format!(" {node} ")), "{node}");
+        }
+    }
+
+    #[test]
     fn every_netlist_node_appears_in_the_subcircuit() {
         let pair = fixtures::npn_dual();
         let req = fixtures::requirement();
         for t in ALL_TOPOLOGIES {
             for re in [0.0, 220.0] {
                 let d = SpiceDesign {
+                    shape: Shape::SINGLE,
                     topology: t,
                     pair: &pair,
                     helper: None,
@@ -647,6 +734,7 @@ mod tests {
         let pair = fixtures::npn_dual();
         let req = fixtures::requirement();
         let mk = |topology, re1_ohm, re2_ohm| SpiceDesign {
+            shape: Shape::SINGLE,
             topology,
             pair: &pair,
             helper: None,
@@ -677,6 +765,7 @@ mod tests {
         let mut req = fixtures::requirement();
         req.kind = crate::model::MirrorKind::Source;
         let d = SpiceDesign {
+            shape: Shape::SINGLE,
             topology: Topology::Simple,
             pair: &pair,
             helper: None,
@@ -703,6 +792,7 @@ mod tests {
         let mut req = fixtures::requirement();
         req.name = "tail sink\n.model evil NPN(IS=1)".to_string();
         let d = SpiceDesign {
+            shape: Shape::SINGLE,
             topology: Topology::Wilson,
             pair: &pair,
             helper: None,
@@ -747,6 +837,7 @@ mod tests {
         for t in ALL_TOPOLOGIES {
             let helper = (!crate::check::helpers_fit_in_spares(t, &pair)).then_some(&single);
             let d = SpiceDesign {
+                shape: Shape::SINGLE,
                 topology: t,
                 pair: &pair,
                 helper,

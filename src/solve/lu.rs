@@ -4,7 +4,7 @@
 //! sparse structure; only the leading `n x n` block is used.
 
 /// Largest system the solver handles (electrical nodes plus junction temperatures).
-pub const MAX_DIM: usize = 12;
+pub const MAX_DIM: usize = 24;
 
 pub type Vector = [f64; MAX_DIM];
 pub type Matrix = [[f64; MAX_DIM]; MAX_DIM];

@@ -94,6 +94,7 @@ pub fn board(channels: usize, options: usize, seed: u64) -> BoardProblem {
                         topology: topology.into(),
                         pair_class: class.id.clone(),
                         pairs,
+                        matched_devices: 2 * pairs,
                         helpers,
                         helper_single_class: (helpers > 0).then(|| single.to_string()),
                         helper_spare_classes: None,

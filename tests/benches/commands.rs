@@ -94,6 +94,7 @@ fn bench(c: &mut Criterion) {
 
     let ltp = load(&examples().join("ltp-tail-sink.yaml"), &catalog);
     let reference = DesignSpec {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology: Topology::Wilson,
         pair: "npn-pair-monolithic".into(),
         helper: None,

@@ -52,6 +52,7 @@ fn bench(c: &mut Criterion) {
         t_amb_k: 300.15,
     };
     let mm = Mismatch {
+        more: Default::default(),
         dref: 0.0,
         dvbe_v: [0.5e-3, -0.3e-3],
         dbeta: [0.01, -0.01],
@@ -68,6 +69,7 @@ fn bench(c: &mut Criterion) {
         for t in ALL_TOPOLOGIES {
             let re2 = if t == Topology::Widlar { 1000.0 } else { 0.0 };
             let design = Design {
+                shape: mirrorpick::model::Shape::SINGLE,
                 r_ref: None,
                 topology: t,
                 pair: &class,
@@ -89,6 +91,7 @@ fn bench(c: &mut Criterion) {
     let opts = SolveOptions { self_heating: true };
     for t in ALL_TOPOLOGIES {
         let design = Design {
+            shape: mirrorpick::model::Shape::SINGLE,
             topology: t,
             pair: &class,
             helper: None,

@@ -280,3 +280,38 @@ fn a_board_wide_deny_applies_on_top_of_the_channel_allow_list() {
         ))
         .stdout(predicate::str::contains("1 candidate judged"));
 }
+
+#[test]
+fn a_multi_output_channel_fills_one_array_per_copy_with_an_re2_per_output() {
+    // outputs.yaml: two copies of one reference with four outputs on a six-device array.
+    let doc = json("outputs.yaml");
+    let ch = &doc["channels"][0];
+    assert!(ch["label"].as_str().unwrap().contains("×4 outputs"), "{ch}");
+    for copy in ch["copies"].as_array().unwrap() {
+        let matched: Vec<&str> = copy["matched"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|d| d.as_str().unwrap())
+            .collect();
+        // One input device and four outputs, all in one package (Q1A..Q1E).
+        assert_eq!(matched.len(), 5, "{copy}");
+        let package = &matched[0][..matched[0].len() - 1];
+        assert!(
+            matched.iter().all(|d| d.starts_with(package)),
+            "{matched:?}"
+        );
+    }
+    let transistors: f64 = doc["bom"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|l| l["kind"] == "transistor")
+        .map(|l| l["qty_per_board"].as_f64().unwrap())
+        .sum();
+    assert_eq!(transistors, 2.0, "one array per copy");
+    // RE1 and four RE2 per copy, where the design is degenerated.
+    for r in ch["resistors"].as_array().unwrap() {
+        assert_eq!(r["count"].as_u64().unwrap() % 5, 0, "{r}");
+    }
+}

@@ -63,6 +63,7 @@ pub fn design(pair_class: &str, pairs: u32, helpers: u32) -> DesignUsage {
         topology: topology.into(),
         pair_class: pair_class.into(),
         pairs,
+        matched_devices: 2 * pairs,
         helpers,
         helper_single_class,
         helper_spare_classes: None,

@@ -42,6 +42,7 @@ fn catalog() -> Catalog {
 
 fn args(topology: Topology) -> SolveArgs {
     SolveArgs {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology,
         part: "npn-dual-test".into(),
         helper: None,
@@ -79,6 +80,7 @@ fn json_has_exactly_the_documented_keys() {
             "nodes",
             "noise_a_per_rthz",
             "noise_sources",
+            "outputs",
             "r_out",
             "r_ref_ohm",
             "r_ref_power_w",
@@ -87,7 +89,8 @@ fn json_has_exactly_the_documented_keys() {
             "ratio",
             "tempco_ppm_per_k",
             "transistors",
-            "v_in"
+            "v_in",
+            "worst_output"
         ]
     );
     assert!(v["rail_v"].is_null() && v["r_ref_ohm"].is_null() && v["r_ref_power_w"].is_null());

@@ -43,6 +43,7 @@ pub fn npn(bf: f64, vaf: Option<f64>) -> TransistorClass {
 
 pub fn design(topology: Topology, pair: &TransistorClass, re1: f64, re2: f64) -> Design<'_> {
     Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         r_ref: None,
         topology,
         pair,

@@ -2,6 +2,7 @@
 //! properties. One integration binary (fast links); modules by subject.
 
 mod app;
+mod fanout;
 mod fixtures;
 mod properties;
 mod reference;

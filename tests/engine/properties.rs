@@ -65,6 +65,7 @@ fn cases() -> impl Strategy<Value = Case> {
                 re: re.min(2.0 / i_in),
                 per_package,
                 mismatch: Mismatch {
+                    more: Default::default(),
                     dref: 0.0,
                     dvbe_v: [v1, v2],
                     dbeta: [b1, b2],

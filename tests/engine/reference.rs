@@ -70,6 +70,8 @@ fn closed_form_estimates_agree_with_solved_ratios() {
             vbe_v: 0.65,
             re1_ohm: 0.0,
             re2_ohm: 0.0,
+            outputs: 1.0,
+            area_ratio: 1.0,
         };
         let est = (t.desc().estimates.ratio)(&e);
         let tol = match t {

@@ -74,6 +74,7 @@ fn random_point<'c>(catalog: &'c Catalog, rng: &mut ChaCha8Rng) -> Point<'c> {
     let t_c = rng.gen_range(-60.0..200.0);
     let self_heating = rng.gen_bool(0.5);
     let mismatch = Mismatch {
+        more: Default::default(),
         dvbe_v: [rng.gen_range(-5e-3..5e-3), rng.gen_range(-5e-3..5e-3)],
         dbeta: [rng.gen_range(-0.1..0.1), rng.gen_range(-0.1..0.1)],
         dre1: rng.gen_range(-0.01..0.01),
@@ -124,6 +125,7 @@ fn run(catalog: &Catalog, pt: &Point) -> Outcome {
         _ => (re, re),
     };
     let design = Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology,
         pair,
         helper,
@@ -254,6 +256,7 @@ fn sweep_of_the_valid_operating_space_large() {
 fn points_the_sweep_once_failed() {
     let catalog = load_default_catalog().unwrap();
     let mm = |dvbe: [f64; 2], dbeta: [f64; 2], dre1: f64, dre2: f64| Mismatch {
+        more: Default::default(),
         dvbe_v: dvbe,
         dbeta,
         dre1,

@@ -183,6 +183,7 @@ fn simple_mirror_curves_meet_the_voltage_axis_at_minus_vaf() {
     assert_eq!(r.curves.len(), 3);
     let class = true_class(&truth);
     let design = Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         r_ref: None,
         topology: Topology::Simple,
         pair: &class,

@@ -77,6 +77,7 @@ pub fn measure_with(
 ) -> MeasurementSet {
     let class = true_class(t);
     let design = Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         r_ref: None,
         topology,
         pair: &class,

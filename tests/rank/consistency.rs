@@ -190,6 +190,7 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
         assert!(a.saving > 0.0);
         assert!((a.saving - (r.reference.cost - a.candidate.cost)).abs() < 1e-12);
         let s = DesignSpec {
+            shape: mirrorpick::model::Shape::SINGLE,
             topology: mirrorpick::model::Topology::from_name(a.candidate.topology).unwrap(),
             pair: a.candidate.part.clone(),
             helper: a.candidate.helper.clone(),
@@ -224,6 +225,7 @@ fn cheaper_alternatives_pass_check_and_cost_less() {
     if let Some(m) = &r.nearest_failing {
         assert!(m.cost < r.reference.cost);
         let s = DesignSpec {
+            shape: mirrorpick::model::Shape::SINGLE,
             topology: mirrorpick::model::Topology::from_name(m.topology).unwrap(),
             pair: m.part.clone(),
             helper: m.helper.clone(),

@@ -3,6 +3,7 @@
 mod cli;
 mod consistency;
 mod facts;
+mod outputs;
 mod program;
 mod search;
 mod yield_verdict;
@@ -101,6 +102,7 @@ pub fn catalog(transistors: Vec<TransistorClass>, resistors: Vec<ResistorClass>)
 pub fn requirement(accuracy: f64) -> Requirement {
     let room = ZERO_CELSIUS_K + 25.0;
     Requirement {
+        outputs: 1,
         program: None,
         accuracy_of: mirrorpick::model::AccuracyOf::Ratio,
         max_tempco_per_k: None,
@@ -137,6 +139,7 @@ pub fn requirement(accuracy: f64) -> Requirement {
 
 pub fn spec(t: Topology, part: &str, re: f64, resistor: Option<&str>) -> DesignSpec {
     DesignSpec {
+        shape: mirrorpick::model::Shape::SINGLE,
         topology: t,
         pair: part.into(),
         helper: None,

@@ -44,6 +44,7 @@ fn requirement() -> Requirement {
         max_cost: None,
         max_noise: None,
         quantity: 1,
+        outputs: 1,
         load: LoadKind::General,
         topologies: Filters::default(),
         classes: Filters::default(),
@@ -54,6 +55,7 @@ fn design<'a>(c: &'a Catalog, t: Topology) -> Design<'a> {
     let pair = c.transistor("npn-dual-general").unwrap();
     let widlar = t == Topology::Widlar;
     Design {
+        shape: mirrorpick::model::Shape::SINGLE,
         r_ref: None,
         topology: t,
         pair,
