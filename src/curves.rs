@@ -44,6 +44,11 @@ impl Default for CurveOptions {
     }
 }
 
+/// JSON carries ambients in °C (`t_amb_c`), as the CSV and every other report do.
+fn celsius<S: serde::Serializer>(t_k: &f64, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_f64(t_k - crate::model::ZERO_CELSIUS_K)
+}
+
 /// I_out against V_out at one programming current and ambient.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OutputCurve {
@@ -51,6 +56,7 @@ pub struct OutputCurve {
     /// family per output where the outputs differ (see `for_design`).
     pub output: u8,
     pub i_in_a: f64,
+    #[serde(rename = "t_amb_c", serialize_with = "celsius")]
     pub t_amb_k: f64,
     pub v_out_v: Vec<f64>,
     /// `None` where the solver did not converge.
@@ -61,6 +67,7 @@ pub struct OutputCurve {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ErrorCurve {
     pub v_out_v: f64,
+    #[serde(rename = "t_amb_c", serialize_with = "celsius")]
     pub t_amb_k: f64,
     pub i_in_a: Vec<f64>,
     pub error: Vec<Option<f64>>,
@@ -71,6 +78,7 @@ pub struct ErrorCurve {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RailCurve {
     pub v_out_v: f64,
+    #[serde(rename = "t_amb_c", serialize_with = "celsius")]
     pub t_amb_k: f64,
     pub rail_v: Vec<f64>,
     /// `None` where the solver did not converge.

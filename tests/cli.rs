@@ -693,28 +693,28 @@ mod solve_command {
         assert!(out.status.success());
         let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
         for key in [
-            "i_in",
-            "i_out",
+            "i_in_a",
+            "i_out_a",
             "error",
-            "r_out",
-            "v_in",
-            "balance_voltage",
-            "nodes",
+            "r_out_ohm",
+            "v_in_v",
+            "balance_voltage_v",
+            "nodes_v",
             "transistors",
             "iterations",
         ] {
             assert!(v.get(key).is_some(), "missing key {key}");
         }
-        assert_eq!(v["i_in"].as_f64(), Some(1e-3));
-        assert_eq!(v["nodes"]["out"].as_f64(), Some(10.0));
+        assert_eq!(v["i_in_a"].as_f64(), Some(1e-3));
+        assert_eq!(v["nodes_v"]["out"].as_f64(), Some(10.0));
         let q2 = &v["transistors"][1];
         for key in [
             "name",
             "role",
-            "v_be",
-            "v_ce",
-            "i_c",
-            "i_b",
+            "v_be_v",
+            "v_ce_v",
+            "i_c_a",
+            "i_b_a",
             "t_junction_c",
             "region",
         ] {
@@ -801,7 +801,7 @@ mod programmed {
             .stdout
             .clone();
         let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
-        let (i_in, v_in) = (v["i_in"].as_f64().unwrap(), v["v_in"].as_f64().unwrap());
+        let (i_in, v_in) = (v["i_in_a"].as_f64().unwrap(), v["v_in_v"].as_f64().unwrap());
         // Sedra & Smith: I_in = (V_prog - V_BE) / R_ref with the solved V_BE (TCR is
         // zero effect at 25 °C).
         assert!((i_in / ((5.0 - v_in) / 4.3e3) - 1.0).abs() < 1e-6, "{v}");

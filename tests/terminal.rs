@@ -396,7 +396,7 @@ fn rank_json_keys_carry_their_units() {
         .output()
         .unwrap();
     let v = json(&o);
-    assert_eq!(v["schema_version"], 2);
+    assert_eq!(v["schema_version"], 3);
     assert_eq!(v["relax"], serde_json::json!([]));
     let row = &v["candidates"][0];
     for key in [

@@ -162,9 +162,13 @@ pub struct TransistorReport {
     pub name: String,
     /// `pair1-ref`, `pair1-mirror`, `pair2-ref`, `pair2-mirror` or `helper`.
     pub role: String,
+    #[serde(rename = "v_be_v")]
     pub v_be: f64,
+    #[serde(rename = "v_ce_v")]
     pub v_ce: f64,
+    #[serde(rename = "i_c_a")]
     pub i_c: f64,
+    #[serde(rename = "i_b_a")]
     pub i_b: f64,
     pub t_junction_c: f64,
     pub region: String,
@@ -174,17 +178,23 @@ pub struct TransistorReport {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SolveReport {
     /// The input current: forced, or solved through R_ref.
+    #[serde(rename = "i_in_a")]
     pub i_in: f64,
     /// The worst output's current (the only output's on a single-output design).
+    #[serde(rename = "i_out_a")]
     pub i_out: f64,
     pub error: f64,
     /// Which output (1-based) `i_out` and `error` are of: the one with the largest error.
     pub worst_output: usize,
     /// Every output's current and error, output 1 first.
     pub outputs: Vec<OutputReport>,
+    #[serde(rename = "r_out_ohm")]
     pub r_out: Option<f64>,
+    #[serde(rename = "v_in_v")]
     pub v_in: f64,
+    #[serde(rename = "balance_voltage_v")]
     pub balance_voltage: Option<f64>,
+    #[serde(rename = "nodes_v")]
     pub nodes: BTreeMap<String, f64>,
     pub transistors: Vec<TransistorReport>,
     pub iterations: u32,
@@ -210,6 +220,7 @@ pub struct SolveReport {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OutputReport {
     pub output: usize,
+    #[serde(rename = "i_out_a")]
     pub i_out: f64,
     pub error: f64,
 }

@@ -28,7 +28,7 @@ use crate::model::{Topology, TransistorClass};
 use crate::units::{format_quantity, Dimension};
 
 /// The version of the report's JSON layout; bumped on any incompatible change.
-pub const FIT_SCHEMA_VERSION: u32 = 1;
+pub const FIT_SCHEMA_VERSION: u32 = 2;
 
 /// Residuals above this RMS (relative) mean the model does not describe the data well.
 pub const RMS_RESIDUAL_WARN: f64 = 0.01;

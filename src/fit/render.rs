@@ -2,10 +2,11 @@
 //! `io::Write`. Pure functions: no file access, no exit codes. The table rounds every
 //! fitted figure by its standard error ([`figures`]); JSON keeps full precision.
 //!
-//! JSON layout (schema_version 1), plain SI numbers, temperatures in kelvin with `_k`:
-//! `source`, `date`, `topology`, `re1_ohm`, `re2_ohm`, `supply_v`, `ambient_k`,
+//! JSON layout (schema_version 2), plain SI numbers, temperatures in °C with `_c` as in
+//! every other report: `source`, `date`, `topology`, `re1_ohm`, `re2_ohm`, `supply_v`,
+//! `ambient_c`,
 //! `self_heating`, `base_class`, `points_total`; `curves`: one object per programming
-//! current with `i_in_a`, `t_ambient_k` (null when not logged), `points`, `active_points`,
+//! current with `i_in_a`, `t_ambient_c` (null when not logged), `points`, `active_points`,
 //! `outcome` (`line`, `too_few_points`, `no_voltage_spread`, `slope_not_resolved`) and,
 //! for a line, `slope_a_per_v`, `output_resistance_ohm`, `early_voltage_v` and
 //! `early_voltage_std_error_v` (null with two points); `model`: null when no fit could be
@@ -23,6 +24,7 @@ use serde::Serialize;
 use super::emit::class_yaml;
 use super::figures;
 use super::{CurveOutcome, FitReport, ParamKind};
+use crate::model::ZERO_CELSIUS_K;
 use crate::report::{new_table, Style};
 use crate::units::{format_prefixed, format_quantity, Dimension as D};
 
@@ -200,7 +202,7 @@ struct JsonReport<'a> {
     re1_ohm: f64,
     re2_ohm: f64,
     supply_v: f64,
-    ambient_k: f64,
+    ambient_c: f64,
     self_heating: bool,
     base_class: &'a str,
     points_total: usize,
@@ -214,7 +216,7 @@ struct JsonReport<'a> {
 #[derive(Serialize)]
 struct JsonCurve {
     i_in_a: f64,
-    t_ambient_k: Option<f64>,
+    t_ambient_c: Option<f64>,
     points: usize,
     active_points: usize,
     outcome: &'static str,
@@ -257,7 +259,7 @@ pub fn write_json(report: &FitReport, out: &mut dyn Write) -> io::Result<()> {
             };
             JsonCurve {
                 i_in_a: c.i_in_a,
-                t_ambient_k: c.t_amb_k,
+                t_ambient_c: c.t_amb_k.map(|t| t - ZERO_CELSIUS_K),
                 points: c.points,
                 active_points: c.active_points,
                 outcome: outcome_key(&c.outcome),
@@ -296,7 +298,7 @@ pub fn write_json(report: &FitReport, out: &mut dyn Write) -> io::Result<()> {
         re1_ohm: report.re1_ohm,
         re2_ohm: report.re2_ohm,
         supply_v: report.supply_v,
-        ambient_k: report.ambient_k,
+        ambient_c: report.ambient_k - ZERO_CELSIUS_K,
         self_heating: report.self_heating,
         base_class: &report.base_class_id,
         points_total: report.points_total,

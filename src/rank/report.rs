@@ -22,8 +22,10 @@ use super::order::Prefer;
 /// corners did not solve are reported with a null value ("not available"); every key of a
 /// dimensioned SI number ends in its unit (`_a`, `_v`, `_ohm`, `_w`, `_c` for °C), as in
 /// the CSV (`v_in_max` became `v_in_max_v`; corner, budget and junction keys likewise);
-/// `relax` added.
-pub const SCHEMA_VERSION: u32 = 2;
+/// `relax` added. 3: the noise report's `i_in` and `v_out` became `i_in_a` and `v_out_v`
+/// (and `solve`'s and `curves`' JSON follow the same rule: `i_out_a`, `v_be_v`, `nodes_v`,
+/// ambients as `t_amb_c`).
+pub const SCHEMA_VERSION: u32 = 3;
 
 /// One judged check as reported.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -123,7 +125,9 @@ pub struct NoiseItem {
 /// The output current noise at the worst corner and its breakdown by source.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct NoiseReport {
+    #[serde(rename = "i_in_a")]
     pub i_in: f64,
+    #[serde(rename = "v_out_v")]
     pub v_out: f64,
     pub t_amb_c: f64,
     /// What was judged: `white density`, `density at F Hz` or the band's average density.

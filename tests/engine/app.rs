@@ -71,17 +71,17 @@ fn json_has_exactly_the_documented_keys() {
     assert_eq!(
         keys,
         [
-            "balance_voltage",
+            "balance_voltage_v",
             "cautions",
             "error",
-            "i_in",
-            "i_out",
+            "i_in_a",
+            "i_out_a",
             "iterations",
-            "nodes",
+            "nodes_v",
             "noise_a_per_rthz",
             "noise_sources",
             "outputs",
-            "r_out",
+            "r_out_ohm",
             "r_ref_ohm",
             "r_ref_power_w",
             "r_ref_resistor",
@@ -89,7 +89,7 @@ fn json_has_exactly_the_documented_keys() {
             "ratio",
             "tempco_ppm_per_k",
             "transistors",
-            "v_in",
+            "v_in_v",
             "worst_output"
         ]
     );
@@ -105,14 +105,14 @@ fn json_has_exactly_the_documented_keys() {
         tk,
         [
             "designator",
-            "i_b",
-            "i_c",
+            "i_b_a",
+            "i_c_a",
             "name",
             "region",
             "role",
             "t_junction_c",
-            "v_be",
-            "v_ce"
+            "v_be_v",
+            "v_ce_v"
         ]
     );
     // The Wilson needs a helper: the dual has no spare device, so the cheapest single is used.
@@ -126,7 +126,7 @@ fn json_has_exactly_the_documented_keys() {
         .map(|t| t["designator"].as_str().unwrap())
         .collect();
     assert_eq!(refs, ["Q1A", "Q1B", "Q2"]);
-    assert!(v["nodes"]["in"].as_f64().unwrap() > 1.0);
+    assert!(v["nodes_v"]["in"].as_f64().unwrap() > 1.0);
     // Early effect (V_CE1 - V_CE2 ~ V_BE) and the dice's temperature difference dominate;
     // both are a few percent at most here.
     assert!(r.error.abs() < 0.05, "{}", r.error);
@@ -257,7 +257,7 @@ fn ratings_cautions_and_infinite_output_resistance() {
     let r = solve_command(&c, &a).unwrap();
     assert!(r.r_out.is_none());
     let v = serde_json::to_value(&r).unwrap();
-    assert!(v["r_out"].is_null());
+    assert!(v["r_out_ohm"].is_null());
     let mut buf = Vec::new();
     write_solve_table(&r, &mut buf).unwrap();
     assert!(String::from_utf8(buf).unwrap().contains("infinite"));

@@ -36,7 +36,7 @@ fn fits_the_demo_file_as_json() {
         .stdout
         .clone();
     let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
-    assert_eq!(v["schema_version"], 1);
+    assert_eq!(v["schema_version"], 2);
     assert_eq!(v["topology"], "simple");
     let params = v["model"]["parameters"].as_array().unwrap();
     let bf = params.iter().find(|p| p["name"] == "bf").unwrap();

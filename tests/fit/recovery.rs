@@ -589,13 +589,13 @@ fn demo_table_snapshot_and_json_layout() {
     };
     assert_eq!(
         keys(&v),
-        "ambient_k,base_class,curves,date,emitted_class,model,model_failure,points_total,\
+        "ambient_c,base_class,curves,date,emitted_class,model,model_failure,points_total,\
          re1_ohm,re2_ohm,schema_version,self_heating,source,supply_v,topology,warnings"
     );
     assert_eq!(
         keys(&v["curves"][0]),
         "active_points,early_voltage_std_error_v,early_voltage_v,i_in_a,outcome,\
-         output_resistance_ohm,points,slope_a_per_v,t_ambient_k"
+         output_resistance_ohm,points,slope_a_per_v,t_ambient_c"
     );
     assert_eq!(
         keys(&v["model"]),
