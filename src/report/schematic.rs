@@ -280,7 +280,15 @@ pub fn schematic_svg(
     let level_y = |l: i32| y_port + 90.0 + f64::from(max_level - l) * LEVEL_H;
     let y_r = level_y(1) + 40.0 + RES_BAND;
     let height = y_r + 50.0;
-    let col_x = |c: usize| MARGIN_X + c as f64 * COL_W;
+    // Columns wide enough that a transistor's label (designator over class, beside the
+    // device) clears the neighbouring device: long class ids in a row of five outputs
+    // otherwise run into each other.
+    let label_w = tr
+        .iter()
+        .map(|&i| value_text(&parts[i]).chars().count() as f64 * TEXT_PX * 0.6)
+        .fold(0.0, f64::max);
+    let col_w = COL_W.max(label_w + 34.0 + 27.0 + 24.0);
+    let col_x = |c: usize| MARGIN_X + c as f64 * col_w;
     let centre = (n_cols as f64 - 1.0) / 2.0;
 
     let mut placed: BTreeMap<usize, Placed> = BTreeMap::new();
