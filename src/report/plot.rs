@@ -7,6 +7,8 @@
 //! impossible geometry) come back as `PlotError`, never a panic.
 
 use plotters::coord::ranged1d::SegmentValue;
+use plotters::coord::ranged1d::SegmentedCoord;
+use plotters::coord::types::{RangedCoordf64, RangedCoordusize};
 use plotters::prelude::*;
 
 use super::eng::{celsius, eng, Charset};
@@ -185,6 +187,32 @@ fn err<E: std::fmt::Debug>(what: &'static str) -> impl Fn(E) -> PlotError {
         what,
         reason: format!("{e:?}"),
     }
+}
+
+/// The axes of a horizontal bar chart (the error budget, the noise breakdown): one
+/// named slot per bar, grid lines along the value axis only.
+fn bar_axes<'a, 'b>(
+    chart: &mut ChartContext<
+        'a,
+        SVGBackend<'b>,
+        Cartesian2d<RangedCoordf64, SegmentedCoord<RangedCoordusize>>,
+    >,
+    x_desc: &str,
+    names: &[String],
+) -> Result<(), DrawingAreaErrorKind<<SVGBackend<'b> as DrawingBackend>::ErrorType>> {
+    chart
+        .configure_mesh()
+        .disable_y_mesh()
+        .x_desc(x_desc)
+        .y_labels(names.len().max(1))
+        .y_label_formatter(&|v| match v {
+            SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
+            _ => String::new(),
+        })
+        .label_style((FONT, TICK))
+        .axis_desc_style((FONT, TICK))
+        .light_line_style(RGBColor(235, 235, 235))
+        .draw()
 }
 
 /// Splits a polyline at gaps and at points outside `[lo, hi]`, so nothing is drawn
@@ -756,20 +784,12 @@ pub fn error_budget_svg(bars: &[BudgetBar], accuracy: f64) -> Result<String, Plo
             // A segmented 0..k range has k + 1 slots; one slot needs 0..1 (one left blank).
             .build_cartesian_2d(least..most, (0..(n - 1).max(1)).into_segmented())
             .map_err(&e)?;
-        chart
-            .configure_mesh()
-            .disable_y_mesh()
-            .x_desc("contribution to the error (%; random causes at 1 sigma)")
-            .y_labels(n)
-            .y_label_formatter(&|v| match v {
-                SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
-                _ => String::new(),
-            })
-            .label_style((FONT, TICK))
-            .axis_desc_style((FONT, TICK))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(&e)?;
+        bar_axes(
+            &mut chart,
+            "contribution to the error (%; random causes at 1 sigma)",
+            &names,
+        )
+        .map_err(&e)?;
         for (k, b) in bars.iter().enumerate() {
             let color = if b.random { rnd } else { sys };
             chart
@@ -842,20 +862,12 @@ pub fn noise_breakdown_svg(bars: &[NoiseBar], limit: Option<f64>) -> Result<Stri
             .y_label_area_size(120)
             .build_cartesian_2d(0.0..most, (0..(n - 1).max(1)).into_segmented())
             .map_err(&e)?;
-        chart
-            .configure_mesh()
-            .disable_y_mesh()
-            .x_desc("output current noise density (pA/√Hz; sources add in power)")
-            .y_labels(n)
-            .y_label_formatter(&|v| match v {
-                SegmentValue::CenterOf(i) => names.get(*i).cloned().unwrap_or_default(),
-                _ => String::new(),
-            })
-            .label_style((FONT, TICK))
-            .axis_desc_style((FONT, TICK))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(&e)?;
+        bar_axes(
+            &mut chart,
+            "output current noise density (pA/√Hz; sources add in power)",
+            &names,
+        )
+        .map_err(&e)?;
         for (k, b) in bars.iter().enumerate() {
             let color = if b.source == "total" {
                 PALETTE[1]
