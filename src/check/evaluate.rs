@@ -21,7 +21,7 @@ use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{
     Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, OutputDeviation, RefResistor,
-    SolveFailure, SolveOptions,
+    SolveFailure, SolveOptions, Start,
 };
 use crate::model::{AccuracyOf, Requirement, TransistorClass};
 
@@ -294,10 +294,22 @@ impl<'a> Evaluator<'a> {
         corner: &OperatingCorner,
         self_heating: bool,
     ) -> Result<CornerState, SolveFailure> {
+        self.solve_net_start(net, corner, self_heating)
+            .map(|(s, _)| s)
+    }
+
+    /// `solve_net`, with where the solve converged (to start the error-budget builds of
+    /// the corner from).
+    fn solve_net_start(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+        self_heating: bool,
+    ) -> Result<(CornerState, Start), SolveFailure> {
         let op = self.op(corner);
         self.solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating })?;
-        Ok(self.state(&sol, corner))
+        Ok((self.state(&sol, corner), *sol.start()))
     }
 
     fn state(&self, sol: &crate::circuit::Solution, corner: &OperatingCorner) -> CornerState {
@@ -341,7 +353,7 @@ impl<'a> Evaluator<'a> {
         &self,
         net: &Netlist,
         corner: &OperatingCorner,
-    ) -> Result<(CornerState, NoiseAnalysis), SolveFailure> {
+    ) -> Result<(CornerState, NoiseAnalysis, Start), SolveFailure> {
         let op = OperatingPoint {
             i_in_a: corner.i_in_a,
             v_out_v: corner.v_out_v,
@@ -352,7 +364,7 @@ impl<'a> Evaluator<'a> {
         self.solves.fetch_add(1, Ordering::Relaxed);
         // The same solve as `solve_net` (bit for bit), plus the small-signal analysis.
         let (sol, noise) = net.solve_with_noise(&op, &SolveOptions { self_heating: true })?;
-        Ok((self.state(&sol, corner), noise))
+        Ok((self.state(&sol, corner), noise, *sol.start()))
     }
 
     fn solve_with(
@@ -410,8 +422,8 @@ impl<'a> Evaluator<'a> {
         let c = corners::probe_corner(self.req);
         let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
         let nets = self.sensitivity_nets().ok()?;
-        let s0 = self.solve_net(&net, &c, true).ok()?;
-        let d = self.sensitivities(&nets, &c, &s0).ok()?;
+        let (s0, start) = self.solve_net_start(&net, &c, true).ok()?;
+        let d = self.sensitivities(&nets, &c, &s0, &start).ok()?;
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
@@ -425,8 +437,8 @@ impl<'a> Evaluator<'a> {
         corners
             .iter()
             .map(|c| {
-                let s0 = self.solve_net(&net, c, true).ok()?;
-                let d = self.sensitivities(&nets, c, &s0).ok()?;
+                let (s0, start) = self.solve_net_start(&net, c, true).ok()?;
+                let d = self.sensitivities(&nets, c, &s0, &start).ok()?;
                 Some((s0.error, budget::random_sigma(&d)))
             })
             .collect()
@@ -473,7 +485,7 @@ impl<'a> Evaluator<'a> {
             if sys + k * rnd > limit {
                 break;
             }
-            let s0 = self.solve_net(&net, c, true).map_err(failed)?;
+            let (s0, start) = self.solve_net_start(&net, c, true).map_err(failed)?;
             let one = std::slice::from_ref(&s0);
             let broken = !ratings::vceo(self.design, one).pass
                 || !ratings::ic_max(self.design, one).pass
@@ -482,7 +494,7 @@ impl<'a> Evaluator<'a> {
                 return Ok((f64::NEG_INFINITY, (sys, rnd)));
             }
             let d = self
-                .sensitivities(&nets, c, &s0)
+                .sensitivities(&nets, c, &s0, &start)
                 .map_err(|(_, f)| failed(f))?;
             sys = sys.max(s0.error.abs());
             rnd = rnd.max(budget::random_sigma(&d));
@@ -647,13 +659,16 @@ impl<'a> Evaluator<'a> {
         nets: &[(usize, Netlist)],
         corner: &OperatingCorner,
         nominal: &CornerState,
+        start: &Start,
     ) -> Result<Sensitivities, (usize, SolveFailure)> {
         let op = self.op(corner);
         let opts = SolveOptions { self_heating: true };
         let mut s = [0.0; budget::RANDOM_INPUTS];
         for (i, net) in nets {
             self.solves.fetch_add(1, Ordering::Relaxed);
-            let sol = net.solve(&op, &opts).map_err(|f| (*i, f))?;
+            // A +1 sigma build is the nominal circuit but for one small deviation: its
+            // solve starts where the nominal one converged.
+            let sol = net.solve_near(&op, &opts, start).map_err(|f| (*i, f))?;
             // Output 1's devices (or a common part) moved: output 1's error.
             s[*i] = self.error_of(sol.outputs()[0], sol.i_in_a) - nominal.output_errors[0];
         }
@@ -726,14 +741,16 @@ impl<'a> Evaluator<'a> {
         for &i in &order {
             let c = self.corners[i];
             let nominal = if want_noise {
-                self.solve_net_noise(&net, &c).map(|(s, nz)| (s, Some(nz)))
+                self.solve_net_noise(&net, &c)
+                    .map(|(s, nz, st)| (s, Some(nz), st))
             } else {
-                self.solve_net(&net, &c, true).map(|s| (s, None))
+                self.solve_net_start(&net, &c, true)
+                    .map(|(s, st)| (s, None, st))
             };
-            let state = match nominal {
-                Ok((s, nz)) => {
+            let (state, start) = match nominal {
+                Ok((s, nz, st)) => {
                     noises[i] = nz;
-                    s
+                    (s, st)
                 }
                 Err(f) => {
                     // A screen stops here; a verification goes on so every check that
@@ -745,7 +762,7 @@ impl<'a> Evaluator<'a> {
                     continue;
                 }
             };
-            let d = match self.sensitivities(&sens_nets, &c, &state) {
+            let d = match self.sensitivities(&sens_nets, &c, &state, &start) {
                 Ok(d) => d,
                 Err((input, f)) => {
                     push_failure(&mut checks, failure_check(&f, budget_build(input)));

@@ -208,9 +208,24 @@ pub struct Solution {
     pub transistor_count: usize,
     /// Newton iterations, continuation and electrothermal solve included.
     pub iterations: u32,
+    /// The converged unknowns, to start a nearby solve from (`Netlist::solve_near`).
+    start: Start,
+}
+
+/// A converged unknown vector (node voltages, and junction temperatures when solved with
+/// self-heating): the start point of a solve of a nearby circuit or operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Start {
+    x: crate::solve::Vector,
+    self_heating: bool,
 }
 
 impl Solution {
+    /// Where this solve converged, to start a nearby one from.
+    pub fn start(&self) -> &Start {
+        &self.start
+    }
+
     pub fn nodes(&self) -> &[NodeVoltage] {
         &self.nodes[..self.node_count]
     }

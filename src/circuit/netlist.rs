@@ -745,6 +745,40 @@ impl Netlist {
         self.solve_full(op, opts).map(|(sol, _, _)| sol)
     }
 
+    /// Solves at `op` starting from `start`, the solution of a nearby circuit (the same
+    /// netlist but for a small deviation of a part) or operating point: plain Newton on
+    /// the full system from there, which takes a few iterations where `solve` walks from
+    /// the closed-form start through the isothermal circuit first. Both stop on the same
+    /// residual test, so they agree to the KCL tolerance. Should that Newton not converge,
+    /// or land past the electrothermal fold, this is `solve` (which then also decides
+    /// how the point fails), so the outcome never depends on the start but within the
+    /// tolerance.
+    pub fn solve_near(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+    ) -> Result<Solution, SolveFailure> {
+        if start.self_heating == opts.self_heating && self.check_point(op).is_ok() {
+            let mut newton = NewtonOptions::default();
+            newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
+            let mut sys = CircuitSystem::new(self, *op);
+            sys.thermal = opts.self_heating;
+            let mut x = start.x;
+            let c = solve::solve(&sys, &mut x, &newton);
+            if c.is_converged() {
+                let nn = self.n_nodes;
+                let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+                let cool =
+                    !opts.self_heating || (t_max <= MAX_JUNCTION_K && sys.thermally_stable(&x));
+                if cool {
+                    return Ok(sys.solution(&x, c.iterations()));
+                }
+            }
+        }
+        self.solve(op, opts)
+    }
+
     /// The solution, the system it was solved with and the unknown vector.
     pub(super) fn solve_full<'n>(
         &'n self,
@@ -991,6 +1025,10 @@ impl CircuitSystem<'_> {
             transistors,
             transistor_count: net.n_tr,
             iterations,
+            start: super::Start {
+                x: *x,
+                self_heating: self.thermal,
+            },
         }
     }
 
