@@ -462,7 +462,11 @@ impl<'a> Evaluator<'a> {
 
     /// `max |e| + k * max sigma` over `corners` taken in order, stopping as soon as it
     /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
-    /// maxima over every corner, from the same solves). `from` carries on from the
+    /// maxima over every corner, from the same solves). Within a corner it stops once
+    /// the builds solved so far take it over both `limit` and the accuracy requirement
+    /// (with `limit` infinite: over the accuracy requirement), where its exact value no
+    /// longer matters: the design fails accuracy, and a finite walk would stop there
+    /// anyway. `from` carries on from the
     /// `(max |e|, max sigma)` of corners already taken. Returns the bound reached and
     /// both maxima, or the check a failed solve fails (`thermal-runaway`, `no-solution`:
     /// the design fails it, as its verification would). A rating (VCEO, Ic max, dissipation)
@@ -481,23 +485,53 @@ impl<'a> Evaluator<'a> {
         let nets = self.sensitivity_nets().map_err(failed)?;
         let k = self.req.confidence_sigma;
         let (mut sys, mut rnd) = from;
-        for c in corners {
-            if sys + k * rnd > limit {
-                break;
+        // Past `settled` the bound has done its work: over the accuracy requirement the
+        // design fails whatever the rest, and over a finite `limit` the walk stops after
+        // this corner anyway. So the walk stops there, between the error-budget builds of
+        // a corner too, once the nominal errors and the sensitivities solved so far
+        // already take the bound over it.
+        let settled = if limit.is_finite() {
+            limit.max(self.req.accuracy)
+        } else {
+            self.req.accuracy
+        };
+        let mut i = 0;
+        while i < corners.len() && sys + k * rnd <= limit {
+            // The nominal solves of a run of corners first, so a rating broken at any of
+            // them is found before the bound settles the design (MODEL.md: each rating on
+            // its worst corner).
+            let end = if limit.is_finite() {
+                i + 1
+            } else {
+                corners.len()
+            };
+            let mut nominal = Vec::with_capacity(end - i);
+            for c in &corners[i..end] {
+                let (s0, start) = self.solve_net_start(&net, c, true).map_err(failed)?;
+                let one = std::slice::from_ref(&s0);
+                let broken = !ratings::vceo(self.design, one).pass
+                    || !ratings::ic_max(self.design, one).pass
+                    || !ratings::dissipation(self.design, one).pass;
+                if broken {
+                    return Ok((f64::NEG_INFINITY, (sys, rnd)));
+                }
+                nominal.push((c, s0, start));
             }
-            let (s0, start) = self.solve_net_start(&net, c, true).map_err(failed)?;
-            let one = std::slice::from_ref(&s0);
-            let broken = !ratings::vceo(self.design, one).pass
-                || !ratings::ic_max(self.design, one).pass
-                || !ratings::dissipation(self.design, one).pass;
-            if broken {
-                return Ok((f64::NEG_INFINITY, (sys, rnd)));
+            for (c, s0, start) in &nominal {
+                sys = sys.max(s0.error.abs());
+                if sys + k * rnd > settled {
+                    return Ok((sys + k * rnd, (sys, rnd)));
+                }
+                let stop = |partial: f64| sys + k * rnd.max(partial) > settled;
+                let (d, complete) = self
+                    .sensitivities_until(&nets, c, s0, start, stop)
+                    .map_err(|(_, f)| failed(f))?;
+                rnd = rnd.max(budget::random_sigma(&d));
+                if !complete {
+                    return Ok((sys + k * rnd, (sys, rnd)));
+                }
             }
-            let d = self
-                .sensitivities(&nets, c, &s0, &start)
-                .map_err(|(_, f)| failed(f))?;
-            sys = sys.max(s0.error.abs());
-            rnd = rnd.max(budget::random_sigma(&d));
+            i = end;
         }
         Ok((sys + k * rnd, (sys, rnd)))
     }
@@ -661,6 +695,21 @@ impl<'a> Evaluator<'a> {
         nominal: &CornerState,
         start: &Start,
     ) -> Result<Sensitivities, (usize, SolveFailure)> {
+        self.sensitivities_until(nets, corner, nominal, start, |_| false)
+            .map(|(s, _)| s)
+    }
+
+    /// `sensitivities`, stopping once `stop` holds for the random sigma of the inputs
+    /// solved so far (which only grows with more of them); says whether every input was
+    /// solved.
+    fn sensitivities_until(
+        &self,
+        nets: &[(usize, Netlist)],
+        corner: &OperatingCorner,
+        nominal: &CornerState,
+        start: &Start,
+        stop: impl Fn(f64) -> bool,
+    ) -> Result<(Sensitivities, bool), (usize, SolveFailure)> {
         let op = self.op(corner);
         let opts = SolveOptions { self_heating: true };
         let mut s = [0.0; budget::RANDOM_INPUTS];
@@ -671,8 +720,11 @@ impl<'a> Evaluator<'a> {
             let sol = net.solve_near(&op, &opts, start).map_err(|f| (*i, f))?;
             // Output 1's devices (or a common part) moved: output 1's error.
             s[*i] = self.error_of(sol.outputs()[0], sol.i_in_a) - nominal.output_errors[0];
+            if stop(budget::random_sigma(&s)) {
+                return Ok((s, false));
+            }
         }
-        Ok(s)
+        Ok((s, true))
     }
 
     /// Judge the candidate. `mc` drives the yield figure.
