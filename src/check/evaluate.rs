@@ -9,6 +9,7 @@
 
 use std::sync::atomic::{AtomicU64, Ordering};
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 use super::budget::{self, ErrorBudget, ProgramToggles, Sensitivities, Toggled};
@@ -298,6 +299,22 @@ impl<'a> Evaluator<'a> {
             .map(|(s, _)| s)
     }
 
+    /// `solve_net` started from `start` (a nearby solution) when given.
+    fn solve_net_from(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+        start: Option<&Start>,
+    ) -> Result<CornerState, SolveFailure> {
+        let Some(start) = start else {
+            return self.solve_net(net, corner, true);
+        };
+        let op = self.op(corner);
+        self.solves.fetch_add(1, Ordering::Relaxed);
+        let sol = net.solve_near(&op, &SolveOptions { self_heating: true }, start)?;
+        Ok(self.state(&sol, corner))
+    }
+
     /// `solve_net`, with where the solve converged (to start the error-budget builds of
     /// the corner from).
     fn solve_net_start(
@@ -559,63 +576,75 @@ impl<'a> Evaluator<'a> {
         }
         let sigmas = self.sigmas();
         let scales = self.output_scales();
-        let mut good = 0u32;
-        let mut first_failure: Option<SampleFailure> = None;
-        let builds = outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs);
-        for (k, zs) in builds.enumerate() {
-            let z = zs[0];
-            let mut mm = Mismatch {
-                dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
-                dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
-                dre1: z[4] * sigmas[4],
-                dre2: z[5] * sigmas[5],
-                dref: z[6] * sigmas[6],
-                more: Default::default(),
-            };
-            // Every further output draws its own devices' and RE2's deviations.
-            for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
-                let s = |i: usize| zk[i] * sigmas[i] * sk[i];
-                mm.set_output(
-                    o as u8 + 1,
-                    OutputDeviation {
-                        dvbe_v: [s(0), s(1)],
-                        dbeta: [s(2), s(3)],
-                        dre2: s(5),
-                    },
-                );
-            }
-            let mut fail = |corner: Option<OperatingCorner>, failure: SolveFailure| {
-                first_failure.get_or_insert(SampleFailure {
-                    sample: k as u32 + 1,
-                    samples: mc.samples,
-                    seed: mc.seed,
-                    corner,
-                    failure,
-                });
-            };
-            let net = match self.compile(&mm, NOMINAL) {
-                Ok(net) => net,
-                Err(f) => {
-                    fail(None, f);
-                    continue;
-                }
-            };
-            let mut within = true;
-            for c in &self.corners {
-                match self.solve_net(&net, c, true) {
-                    Ok(s) if s.error.abs() <= self.req.accuracy => {}
-                    Ok(_) => within = false,
-                    Err(f) => {
-                        fail(Some(*c), f);
-                        within = false;
+        // Each build's solve at a corner starts where the nominal design's converged
+        // there (a build is the nominal circuit moved by a few sigma); a corner whose
+        // nominal solve fails starts every build from scratch, as before.
+        let starts: Vec<Option<Start>> = match self.compile(&Mismatch::default(), NOMINAL) {
+            Ok(net) => self
+                .corners
+                .iter()
+                .map(|c| self.solve_net_start(&net, c, true).ok().map(|(_, st)| st))
+                .collect(),
+            Err(_) => vec![None; self.corners.len()],
+        };
+        let builds: Vec<Mismatch> =
+            outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs)
+                .map(|zs| {
+                    let z = zs[0];
+                    let mut mm = Mismatch {
+                        dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
+                        dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
+                        dre1: z[4] * sigmas[4],
+                        dre2: z[5] * sigmas[5],
+                        dref: z[6] * sigmas[6],
+                        more: Default::default(),
+                    };
+                    // Every further output draws its own devices' and RE2's deviations.
+                    for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
+                        let s = |i: usize| zk[i] * sigmas[i] * sk[i];
+                        mm.set_output(
+                            o as u8 + 1,
+                            OutputDeviation {
+                                dvbe_v: [s(0), s(1)],
+                                dbeta: [s(2), s(3)],
+                                dre2: s(5),
+                            },
+                        );
+                    }
+                    mm
+                })
+                .collect();
+        // The builds are independent: solved in parallel, counted in draw order.
+        type Build = (bool, Option<(Option<OperatingCorner>, SolveFailure)>);
+        let outcomes: Vec<Build> = builds
+            .par_iter()
+            .map(|mm| {
+                let net = match self.compile(mm, NOMINAL) {
+                    Ok(net) => net,
+                    Err(f) => return (false, Some((None, f))),
+                };
+                for (c, start) in self.corners.iter().zip(&starts) {
+                    match self.solve_net_from(&net, c, start.as_ref()) {
+                        Ok(s) if s.error.abs() <= self.req.accuracy => {}
+                        Ok(_) => return (false, None),
+                        Err(f) => return (false, Some((Some(*c), f))),
                     }
                 }
-                if !within {
-                    break;
-                }
-            }
-            good += u32::from(within);
-        }
+                (true, None)
+            })
+            .collect();
+        let good = outcomes.iter().filter(|(within, _)| *within).count() as u32;
+        let first_failure = outcomes
+            .into_iter()
+            .enumerate()
+            .find_map(|(k, (_, f))| f.map(|f| (k, f)))
+            .map(|(k, (corner, failure))| SampleFailure {
+                sample: k as u32 + 1,
+                samples: mc.samples,
+                seed: mc.seed,
+                corner,
+                failure,
+            });
         (f64::from(good) / f64::from(mc.samples), first_failure)
     }
 
