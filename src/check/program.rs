@@ -8,12 +8,14 @@
 //! netlist gives). Each allowed resistor class offers the standard values just below and
 //! just above that exact value. Must not: print, or judge a design (that is `evaluate`).
 
+use std::collections::HashMap;
 use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::{Arc, Mutex, OnceLock};
 
 use super::corners::ROOM_K;
 use super::design::{resolve, DesignSpec, RefPick};
 use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveOptions};
-use crate::model::{Catalog, Requirement, ResistorClass};
+use crate::model::{Catalog, Requirement, ResistorClass, Shape, Topology};
 
 /// Output-current corrections of the forced input current (each removes most of the
 /// remaining error: the mirror's ratio barely depends on its current).
@@ -92,6 +94,16 @@ pub fn choose_r_ref(
     spec: &DesignSpec,
     solves: &AtomicU64,
 ) -> DesignSpec {
+    pick_r_ref(catalog, spec, || exact_r_ref(req, catalog, spec, solves))
+}
+
+/// `choose_r_ref` with the exact value from `exact`, asked only when R_ref is still to
+/// be chosen.
+fn pick_r_ref(
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    exact: impl FnOnce() -> Option<f64>,
+) -> DesignSpec {
     let mut out = spec.clone();
     let (Some(pick), Some(id)) = (spec.r_ref_pick, spec.r_ref_resistor.as_deref()) else {
         return out;
@@ -102,7 +114,7 @@ pub fn choose_r_ref(
     let Some(class) = catalog.resistor(id) else {
         return out;
     };
-    let Some(exact) = exact_r_ref(req, catalog, spec, solves) else {
+    let Some(exact) = exact() else {
         return out;
     };
     let Some((below, above)) = standard_around(exact, class) else {
@@ -121,6 +133,59 @@ pub fn choose_r_ref(
     };
     out.r_ref_pick = None;
     out
+}
+
+/// What the exact R_ref depends on: the design without its programming resistor.
+type SizeKey = (
+    Topology,
+    Shape,
+    String,
+    Option<String>,
+    Option<String>,
+    u64,
+    u64,
+);
+
+/// The exact R_ref of each design, solved once and shared: a search meets one design
+/// many times (under both picks, under every R_ref class, in a screen's probe and again
+/// in its verification), and the exact value depends on none of those. Each value is
+/// solved by exactly one thread (the others wait for it), so the solve count does not
+/// depend on scheduling.
+#[derive(Default)]
+pub struct RefSizes {
+    memo: Mutex<HashMap<SizeKey, Arc<OnceLock<Option<f64>>>>>,
+}
+
+impl RefSizes {
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// `choose_r_ref`, the exact value solved at most once per design.
+    pub fn choose(
+        &self,
+        req: &Requirement,
+        catalog: &Catalog,
+        spec: &DesignSpec,
+        solves: &AtomicU64,
+    ) -> DesignSpec {
+        pick_r_ref(catalog, spec, || {
+            let key = (
+                spec.topology,
+                spec.shape,
+                spec.pair.clone(),
+                spec.helper.clone(),
+                spec.resistor.clone(),
+                spec.re1_ohm.to_bits(),
+                spec.re2_ohm.to_bits(),
+            );
+            let cell = {
+                let mut memo = self.memo.lock().unwrap_or_else(|e| e.into_inner());
+                Arc::clone(memo.entry(key).or_default())
+            };
+            *cell.get_or_init(|| exact_r_ref(req, catalog, spec, solves))
+        })
+    }
 }
 
 #[cfg(test)]
