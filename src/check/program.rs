@@ -193,6 +193,86 @@ mod tests {
     use super::*;
     use crate::model::Series;
 
+    /// A shared size is the size `choose_r_ref` gives, for either pick, and a design met
+    /// again (other pick, other R_ref class) costs no solve.
+    #[test]
+    fn shared_sizes_equal_fresh_ones_and_are_solved_once() {
+        let catalog = crate::input::load_default_catalog().unwrap();
+        let mut req = crate::check::corners::tests::requirement();
+        req.program = Some(crate::model::Program {
+            rail_v: crate::model::Range {
+                min: 11.4,
+                max: 12.6,
+            },
+            output_current_a: 1e-3,
+        });
+        let spec = |pick, class: &str| DesignSpec {
+            shape: Shape::SINGLE,
+            topology: Topology::Simple,
+            pair: "npn-dual-general".into(),
+            helper: None,
+            re1_ohm: 100.0,
+            re2_ohm: 100.0,
+            resistor: Some("thick-film-1pct".into()),
+            r_ref_ohm: 0.0,
+            r_ref_resistor: Some(class.into()),
+            r_ref_pick: Some(pick),
+        };
+        let sizes = RefSizes::new();
+        let shared = AtomicU64::new(0);
+        let fresh = AtomicU64::new(0);
+        let first = sizes.choose(
+            &req,
+            &catalog,
+            &spec(RefPick::Below, "thick-film-1pct"),
+            &shared,
+        );
+        let once = shared.load(Ordering::Relaxed);
+        assert!(once > 0);
+        for (pick, class) in [
+            (RefPick::Below, "thick-film-1pct"),
+            (RefPick::Above, "thick-film-1pct"),
+            (RefPick::Nearest, "thin-film-0p1pct"),
+        ] {
+            let s = spec(pick, class);
+            let a = sizes.choose(&req, &catalog, &s, &shared);
+            let b = choose_r_ref(&req, &catalog, &s, &fresh);
+            assert!(a.r_ref_ohm > 0.0 && a.r_ref_pick.is_none());
+            assert_eq!(a.r_ref_ohm, b.r_ref_ohm, "{pick:?} {class}");
+        }
+        assert_eq!(first.r_ref_ohm, spec_below_value(&req, &catalog, &fresh));
+        assert_eq!(shared.load(Ordering::Relaxed), once, "solved once");
+        // Another emitter resistor is another design.
+        let mut other = spec(RefPick::Below, "thick-film-1pct");
+        other.re1_ohm = 200.0;
+        other.re2_ohm = 200.0;
+        sizes.choose(&req, &catalog, &other, &shared);
+        assert_eq!(shared.load(Ordering::Relaxed), 2 * once);
+    }
+
+    fn spec_below_value(req: &Requirement, catalog: &Catalog, solves: &AtomicU64) -> f64 {
+        let exact = exact_r_ref(
+            req,
+            catalog,
+            &DesignSpec {
+                shape: Shape::SINGLE,
+                topology: Topology::Simple,
+                pair: "npn-dual-general".into(),
+                helper: None,
+                re1_ohm: 100.0,
+                re2_ohm: 100.0,
+                resistor: Some("thick-film-1pct".into()),
+                r_ref_ohm: 0.0,
+                r_ref_resistor: None,
+                r_ref_pick: None,
+            },
+            solves,
+        )
+        .unwrap();
+        let class = catalog.resistor("thick-film-1pct").unwrap();
+        standard_around(exact, class).unwrap().0
+    }
+
     #[test]
     fn standard_values_bracket_the_exact_one() {
         let class = ResistorClass {
