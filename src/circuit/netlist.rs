@@ -817,6 +817,19 @@ impl Netlist {
         for i in 0..self.n_tr {
             t_start[i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
         }
+        let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
+            topology: self.topology,
+            part: self.part.clone(),
+            point: *op,
+            t_max_k,
+        };
+        // The start temperatures are the first step of the bounding iteration
+        // (`thermal_bound`), and the powers at the predictor give the second: either
+        // over the limit proves every fixed point is, for no more than the predictor.
+        let hottest = |t: &[f64]| t[..self.n_tr].iter().copied().fold(op.t_amb_k, f64::max);
+        if hottest(&t_start) > MAX_JUNCTION_K {
+            return Err(runaway(hottest(&t_start)));
+        }
         let ambient_devices = sys.at;
         let mut predictor_iterations = 0;
         if t_start[..self.n_tr].iter().all(|&t| t < MAX_JUNCTION_K) {
@@ -825,28 +838,23 @@ impl Netlist {
             }
             let c = solve::solve(&*sys, x, newton);
             predictor_iterations = c.iterations();
-            if !c.is_converged() {
+            if c.is_converged() {
+                let p = sys.powers(x);
+                let mut t_second = [0.0; MAX_TRANSISTORS];
+                for i in 0..self.n_tr {
+                    t_second[i] =
+                        op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+                }
+                if hottest(&t_second) > MAX_JUNCTION_K {
+                    return Err(runaway(hottest(&t_second)));
+                }
+            } else {
                 *x = iso;
             }
             sys.at = ambient_devices;
         }
         sys.thermal = true;
         x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
-        let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
-            topology: self.topology,
-            part: self.part.clone(),
-            point: *op,
-            t_max_k,
-        };
-        // The first step of the bounding iteration (`thermal_bound`): over the limit
-        // already, every fixed point is.
-        let t_first = t_start[..self.n_tr]
-            .iter()
-            .copied()
-            .fold(op.t_amb_k, f64::max);
-        if t_first > MAX_JUNCTION_K {
-            return Err(runaway(t_first));
-        }
         let coupled_start = *x;
         let first = solve::solve(&*sys, x, newton);
         let mut iterations = predictor_iterations + first.iterations();
