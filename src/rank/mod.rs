@@ -141,6 +141,19 @@ fn rank_with_goal(
         opts.mc,
         progress,
     );
+    rank_verdicts(req, catalog, opts, verdicts)
+}
+
+/// Order verdicts already reached and build the report the options ask for: what `rank`
+/// does after its search. An exhaustive search's verdicts serve every view of the same
+/// requirement (cost or accuracy order, families or every value), so a caller comparing
+/// views verifies the candidates once.
+pub fn rank_verdicts(
+    req: &Requirement,
+    catalog: &Catalog,
+    opts: &RankOptions,
+    verdicts: Verdicts,
+) -> Result<RankRun, RankError> {
     let mut ranked = verdicts.feasible;
     sort(&mut ranked, opts.prefer, req.accuracy);
     let points: Vec<(f64, f64)> = ranked

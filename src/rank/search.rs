@@ -79,6 +79,7 @@ pub enum Goal {
 }
 
 /// The verdict on every candidate.
+#[derive(Clone)]
 pub struct Verdicts {
     /// Feasible candidates with their verdict-depth evaluation, in enumeration order.
     pub feasible: Vec<(DesignSpec, Evaluation)>,

@@ -3,11 +3,31 @@
 
 use mirrorpick::check::MonteCarlo;
 use mirrorpick::rank::{
-    bare_family, family, first_per, listed_families, rank, worth_listing, CandidateRow, Prefer,
-    RankOptions, Silent,
+    bare_family, enumerate, family, first_per, listed_families, rank, rank_verdicts, search,
+    worth_listing, CandidateRow, Goal, Prefer, RankOptions, RankRun, Silent,
 };
 
 use super::*;
+
+fn options(exhaustive: bool, n: usize, prefer: Prefer, every_value: bool) -> RankOptions {
+    RankOptions {
+        top: n,
+        exhaustive,
+        prefer,
+        every_value,
+        mc: MC,
+        ..Default::default()
+    }
+}
+
+const MC: MonteCarlo = MonteCarlo {
+    seed: 1,
+    samples: 100,
+};
+
+fn rows(run: RankRun) -> (Vec<CandidateRow>, u64) {
+    (run.report.candidates, run.report.solves)
+}
 
 fn top(
     req: &Requirement,
@@ -17,19 +37,8 @@ fn top(
     prefer: Prefer,
     every_value: bool,
 ) -> (Vec<CandidateRow>, u64) {
-    let opts = RankOptions {
-        top: n,
-        exhaustive,
-        prefer,
-        every_value,
-        mc: MonteCarlo {
-            seed: 1,
-            samples: 100,
-        },
-        ..Default::default()
-    };
-    let r = rank(req, cat, &opts, &Silent).unwrap().report;
-    (r.candidates, r.solves)
+    let opts = options(exhaustive, n, prefer, every_value);
+    rows(rank(req, cat, &opts, &Silent).unwrap())
 }
 
 fn row_family(r: &CandidateRow) -> (&str, &str, Option<&str>, Option<&str>) {
@@ -42,8 +51,22 @@ fn row_family(r: &CandidateRow) -> (&str, &str, Option<&str>, Option<&str>) {
 }
 
 fn same_top(req: &Requirement, cat: &Catalog, n: usize, prefer: Prefer, every_value: bool) {
+    let exhaustive = top(req, cat, true, n, prefer, every_value);
+    same_as(req, cat, n, prefer, every_value, exhaustive);
+}
+
+/// The default search's top `n` rows against the exhaustive search's (`exhaustive`: its
+/// rows and solver calls).
+fn same_as(
+    req: &Requirement,
+    cat: &Catalog,
+    n: usize,
+    prefer: Prefer,
+    every_value: bool,
+    exhaustive: (Vec<CandidateRow>, u64),
+) {
     let (d, d_solves) = top(req, cat, false, n, prefer, every_value);
-    let (e, e_solves) = top(req, cat, true, n, prefer, every_value);
+    let (e, e_solves) = exhaustive;
     assert!(!d.is_empty(), "{}: no feasible design to compare", req.name);
     if !every_value {
         for (i, a) in d.iter().enumerate() {
@@ -106,10 +129,7 @@ fn family_rows_are_each_familys_best_and_every_value_lists_every_row() {
             top: 20,
             exhaustive: true,
             prefer,
-            mc: MonteCarlo {
-                seed: 1,
-                samples: 100,
-            },
+            mc: MC,
             explain: Some(2),
             ..Default::default()
         };
@@ -176,13 +196,27 @@ fn family_rows_are_each_familys_best_and_every_value_lists_every_row() {
 }
 
 #[test]
-#[ignore = "slow: solves every candidate of every shipped example (about three minutes in release)"]
+#[ignore = "slow: solves every candidate of every shipped example (verified once per example for both views; minutes in release)"]
 fn default_equals_exhaustive_top_20_on_every_shipped_example() {
     let cat = default_catalog();
     for path in examples() {
         let req = load_example(&path, &cat);
-        same_top(&req, &cat, 20, Prefer::Cost, false);
-        same_top(&req, &cat, 20, Prefer::Cost, true);
+        // One exhaustive verification serves both views: the search is the same, only
+        // the rows listed differ.
+        let all = search(
+            &req,
+            &cat,
+            &enumerate(&req, &cat),
+            true,
+            Goal::All,
+            MC,
+            &Silent,
+        );
+        for every_value in [false, true] {
+            let opts = options(true, 20, Prefer::Cost, every_value);
+            let exhaustive = rows(rank_verdicts(&req, &cat, &opts, all.clone()).unwrap());
+            same_as(&req, &cat, 20, Prefer::Cost, every_value, exhaustive);
+        }
     }
 }
 
@@ -215,10 +249,7 @@ fn degenerated_rows_are_listed_only_when_worth_it_and_the_first_row_stays() {
             top: 50,
             exhaustive: true,
             prefer,
-            mc: MonteCarlo {
-                seed: 1,
-                samples: 100,
-            },
+            mc: MC,
             ..Default::default()
         };
         let run = rank(req, &cat, &opts, &Silent).unwrap();
