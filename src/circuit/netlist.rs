@@ -812,11 +812,7 @@ impl Netlist {
         // Start the temperatures where the isothermal powers put them, and the node
         // voltages where the circuit settles with the devices frozen at those temperatures
         // (a cheap electrical solve that leaves the coupled Newton little to do).
-        let p = sys.powers(x);
-        let mut t_start = [0.0; MAX_TRANSISTORS];
-        for i in 0..self.n_tr {
-            t_start[i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
-        }
+        let t_start = self.heated(op.t_amb_k, &sys.powers(x));
         let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
             topology: self.topology,
             part: self.part.clone(),
@@ -839,12 +835,7 @@ impl Netlist {
             let c = solve::solve(&*sys, x, newton);
             predictor_iterations = c.iterations();
             if c.is_converged() {
-                let p = sys.powers(x);
-                let mut t_second = [0.0; MAX_TRANSISTORS];
-                for i in 0..self.n_tr {
-                    t_second[i] =
-                        op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
-                }
+                let t_second = self.heated(op.t_amb_k, &sys.powers(x));
                 if hottest(&t_second) > MAX_JUNCTION_K {
                     return Err(runaway(hottest(&t_second)));
                 }
@@ -926,6 +917,15 @@ impl Netlist {
         Ok(iterations)
     }
 
+    /// `T_amb + theta P`: the junction temperatures the powers `p` give (MODEL.md).
+    fn heated(&self, t_amb_k: f64, p: &[f64; MAX_TRANSISTORS]) -> [f64; MAX_TRANSISTORS] {
+        let mut t = [0.0; MAX_TRANSISTORS];
+        for i in 0..self.n_tr {
+            t[i] = t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+        }
+        t
+    }
+
     /// The bounding iteration of the electrothermal loop, for points the coupled Newton
     /// cannot reach: `T_{k+1} = min(F(T_k), T_k + MAX_DT_STEP_K)` from the ambient, where
     /// `F(T) = T_amb + theta P(T)` and `P(T)` are the device powers of the electrical
@@ -964,12 +964,12 @@ impl Netlist {
                     return (ThermalBound::Unknown, iterations);
                 }
             }
-            let p = sys.powers(&x);
+            let f_t = self.heated(op.t_amb_k, &sys.powers(&x));
             let mut change = 0.0f64;
             let mut hottest = op.t_amb_k;
             let mut next = t;
             for i in 0..self.n_tr {
-                let f = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+                let f = f_t[i];
                 hottest = hottest.max(f);
                 change = change.max((f - t[i]).abs());
                 next[i] = f.min(t[i] + MAX_DT_STEP_K);
