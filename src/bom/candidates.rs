@@ -666,6 +666,15 @@ pub fn design_usage(spec: &DesignSpec, ev: &Evaluation, catalog: &Catalog) -> Op
         helper_spare_classes,
         keep_together: true,
         resistors,
+        r_ref: spec
+            .r_ref_resistor
+            .as_ref()
+            .filter(|_| spec.r_ref_ohm > 0.0)
+            .map(|c| ResistorUse {
+                class: c.clone(),
+                value_ohm: spec.r_ref_ohm,
+                count: 1,
+            }),
         governing_check,
         governing_margin,
     })

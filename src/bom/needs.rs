@@ -355,6 +355,7 @@ mod tests {
             helper_spare_classes: None,
             keep_together,
             resistors: vec![],
+            r_ref: None,
             governing_check: String::new(),
             governing_margin: 0.0,
         }

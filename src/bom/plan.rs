@@ -99,6 +99,8 @@ pub struct ChannelAssignment {
     pub pair_class: String,
     pub helper_class: Option<String>,
     pub resistors: Vec<ResistorUse>,
+    /// The programming resistor, also counted in `resistors` (see `DesignUsage::r_ref`).
+    pub r_ref: Option<ResistorUse>,
     pub governing_check: String,
     pub governing_margin: f64,
     pub copies: Vec<CopyPlacement>,
@@ -319,6 +321,7 @@ pub(crate) fn build(problem: &BoardProblem, prep: &Prepared, solved: &Solved) ->
                     None
                 },
                 resistors: o.resistors.clone(),
+                r_ref: o.r_ref.clone(),
                 governing_check: o.governing_check.clone(),
                 governing_margin: o.governing_margin,
                 copies: copies

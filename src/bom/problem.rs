@@ -93,6 +93,10 @@ pub struct DesignUsage {
     /// copy may sit in different packages and its helpers anywhere.
     pub keep_together: bool,
     pub resistors: Vec<ResistorUse>,
+    /// The programming resistor (class, value, count 1), which `resistors` also counts
+    /// (merged with an emitter resistor of the same class and value): for display, so
+    /// the assignment can name it apart from the emitter resistors.
+    pub r_ref: Option<ResistorUse>,
     /// The check with the smallest margin, and that margin, from the ranking.
     pub governing_check: String,
     pub governing_margin: f64,

@@ -29,7 +29,8 @@ use std::io::{self, Write};
 use comfy_table::{presets::UTF8_FULL_CONDENSED, Cell, CellAlignment, Table};
 use serde::Serialize;
 
-use super::plan::{BoardPlan, BomItem, BomLine, DeviceSlot};
+use super::plan::{BoardPlan, BomItem, BomLine, ChannelAssignment, DeviceSlot};
+use super::problem::ResistorUse;
 use crate::report::{fit_width, Style};
 
 /// Resistance in engineering notation (`4.70 kΩ`); three significant figures show every
@@ -158,6 +159,7 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             "pair class",
             "helper single",
             "R_E",
+            "R_ref",
             "devices (designators)",
             "governing check",
             "margin",
@@ -175,8 +177,8 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
     asg.load_preset(UTF8_FULL_CONDENSED).set_header(header);
     let res_refs = resistor_designators(plan);
     for (k, a) in plan.channels.iter().enumerate() {
-        let re = a
-            .resistors
+        let (emitter, r_ref) = emitter_and_ref(a);
+        let re = emitter
             .iter()
             .map(|r| {
                 let n = if r.count > 1 {
@@ -214,6 +216,7 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             } else {
                 re.clone()
             }),
+            Cell::new(r_ref.as_deref().unwrap_or("-")),
         ];
         if !style.wide {
             let mut d = format!("{} {}", a.topology, a.pair_class);
@@ -225,6 +228,9 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
             } else {
                 format!(", RE {re}")
             });
+            if let Some(r) = &r_ref {
+                d.push_str(&format!(", R_ref {r}"));
+            }
             design = vec![Cell::new(d)];
         }
         let mut row = vec![
@@ -273,6 +279,29 @@ pub fn write_table_styled(plan: &BoardPlan, style: Style, out: &mut dyn Write) -
         plan.saving()
     )?;
     Ok(())
+}
+
+/// A channel's emitter resistors (its `resistors` without the programming resistor, which
+/// may share an entry with an emitter resistor of the same class and value) and the
+/// programming resistor as a cell text (`2.74 kΩ thin-film-0p1pct`).
+fn emitter_and_ref(a: &ChannelAssignment) -> (Vec<ResistorUse>, Option<String>) {
+    let mut emitter = a.resistors.clone();
+    if let Some(r) = &a.r_ref {
+        if let Some(i) = emitter
+            .iter()
+            .position(|e| e.class == r.class && e.value_ohm == r.value_ohm)
+        {
+            emitter[i].count = emitter[i].count.saturating_sub(r.count);
+            if emitter[i].count == 0 {
+                emitter.remove(i);
+            }
+        }
+    }
+    let r_ref = a
+        .r_ref
+        .as_ref()
+        .map(|r| format!("{} {}", ohms(r.value_ohm), r.class));
+    (emitter, r_ref)
 }
 
 /// Cautions about a plan, one per line (for stderr, beside whichever format goes to

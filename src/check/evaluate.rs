@@ -1410,6 +1410,24 @@ impl<'a> Evaluator<'a> {
     /// ambient range and the steepest slope between neighbouring ambient points. Reuses
     /// the corner solves when the nominal point is a corner.
     fn tempco(&self, net: &Netlist, states: &[CornerState]) -> Result<(f64, f64), SolveFailure> {
+        Ok(tempco_of(&self.tempco_points(net, states)?))
+    }
+
+    /// The output's slopes between neighbouring ambient points at the tempco's nominal
+    /// input (`tempco_slopes_of`; the steepest is the figure the tempco check judges),
+    /// from the same solves as `evaluate`'s, bit for bit. `None` when one fails.
+    pub fn tempco_slopes(&self) -> Option<Vec<f64>> {
+        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let points = self.tempco_points(&net, &[]).ok()?;
+        Some(tempco_slopes_of(&points))
+    }
+
+    /// `(T, I_out)` at each ambient point of the tempco.
+    fn tempco_points(
+        &self,
+        net: &Netlist,
+        states: &[CornerState],
+    ) -> Result<Vec<(f64, f64)>, SolveFailure> {
         let req = self.req;
         let temps = corners::temperatures(req);
         let nominal = OperatingCorner {
@@ -1430,7 +1448,7 @@ impl<'a> Evaluator<'a> {
             };
             points.push((t, i));
         }
-        Ok(tempco_of(&points))
+        Ok(points)
     }
 }
 
@@ -1461,11 +1479,24 @@ pub fn tempco_of(points: &[(f64, f64)]) -> (f64, f64) {
         .map_or(f64::NAN, |p| p.1);
     let (first, last) = (points[0], points[points.len() - 1]);
     let avg = (last.1 - first.1) / (i_ref * (last.0 - first.0));
-    let worst = points
+    let worst =
+        tempco_slopes_of(points)
+            .into_iter()
+            .fold(0.0f64, |a, b| if b.abs() > a.abs() { b } else { a });
+    (avg, worst)
+}
+
+/// The relative slope between each two neighbouring `(T, I)` points, per kelvin, against
+/// the current nearest 25 °C (empty for fewer than two points).
+pub fn tempco_slopes_of(points: &[(f64, f64)]) -> Vec<f64> {
+    let i_ref = points
+        .iter()
+        .min_by(|a, b| (a.0 - ROOM_K).abs().total_cmp(&(b.0 - ROOM_K).abs()))
+        .map_or(f64::NAN, |p| p.1);
+    points
         .windows(2)
         .map(|w| (w[1].1 - w[0].1) / (i_ref * (w[1].0 - w[0].0)))
-        .fold(0.0f64, |a, b| if b.abs() > a.abs() { b } else { a });
-    (avg, worst)
+        .collect()
 }
 
 fn modified(class: &TransistorClass, v: Variant) -> TransistorClass {

@@ -37,7 +37,7 @@ pub use evaluate::{
 };
 pub use montecarlo::linear_yield;
 pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};
-pub use program::{choose_r_ref, exact_r_ref, standard_around};
+pub use program::{choose_r_ref, exact_r_ref, standard_around, RefSizes};
 pub use ratings::{
     derated_power, dissipation, forward_biased_collectors, ic_max, keeps_min_vce, vceo,
     CornerState, DeviceState, POWER_FULL_K, POWER_ZERO_K, VCEO_DERATING,

@@ -8,12 +8,14 @@
 //! netlist gives). Each allowed resistor class offers the standard values just below and
 //! just above that exact value. Must not: print, or judge a design (that is `evaluate`).
 
+use std::collections::HashMap;
 use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::{Arc, Mutex, OnceLock};
 
 use super::corners::ROOM_K;
 use super::design::{resolve, DesignSpec, RefPick};
 use crate::circuit::{Design, Mismatch, Netlist, OperatingPoint, SolveOptions};
-use crate::model::{Catalog, Requirement, ResistorClass};
+use crate::model::{Catalog, Requirement, ResistorClass, Shape, Topology};
 
 /// Output-current corrections of the forced input current (each removes most of the
 /// remaining error: the mirror's ratio barely depends on its current).
@@ -92,6 +94,16 @@ pub fn choose_r_ref(
     spec: &DesignSpec,
     solves: &AtomicU64,
 ) -> DesignSpec {
+    pick_r_ref(catalog, spec, || exact_r_ref(req, catalog, spec, solves))
+}
+
+/// `choose_r_ref` with the exact value from `exact`, asked only when R_ref is still to
+/// be chosen.
+fn pick_r_ref(
+    catalog: &Catalog,
+    spec: &DesignSpec,
+    exact: impl FnOnce() -> Option<f64>,
+) -> DesignSpec {
     let mut out = spec.clone();
     let (Some(pick), Some(id)) = (spec.r_ref_pick, spec.r_ref_resistor.as_deref()) else {
         return out;
@@ -102,7 +114,7 @@ pub fn choose_r_ref(
     let Some(class) = catalog.resistor(id) else {
         return out;
     };
-    let Some(exact) = exact_r_ref(req, catalog, spec, solves) else {
+    let Some(exact) = exact() else {
         return out;
     };
     let Some((below, above)) = standard_around(exact, class) else {
@@ -123,10 +135,143 @@ pub fn choose_r_ref(
     out
 }
 
+/// What the exact R_ref depends on: the design without its programming resistor.
+type SizeKey = (
+    Topology,
+    Shape,
+    String,
+    Option<String>,
+    Option<String>,
+    u64,
+    u64,
+);
+
+/// The exact R_ref of each design, solved once and shared: a search meets one design
+/// many times (under both picks, under every R_ref class, in a screen's probe and again
+/// in its verification), and the exact value depends on none of those. Each value is
+/// solved by exactly one thread (the others wait for it), so the solve count does not
+/// depend on scheduling.
+#[derive(Default)]
+pub struct RefSizes {
+    memo: Mutex<HashMap<SizeKey, Arc<OnceLock<Option<f64>>>>>,
+}
+
+impl RefSizes {
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// `choose_r_ref`, the exact value solved at most once per design.
+    pub fn choose(
+        &self,
+        req: &Requirement,
+        catalog: &Catalog,
+        spec: &DesignSpec,
+        solves: &AtomicU64,
+    ) -> DesignSpec {
+        pick_r_ref(catalog, spec, || {
+            let key = (
+                spec.topology,
+                spec.shape,
+                spec.pair.clone(),
+                spec.helper.clone(),
+                spec.resistor.clone(),
+                spec.re1_ohm.to_bits(),
+                spec.re2_ohm.to_bits(),
+            );
+            let cell = {
+                let mut memo = self.memo.lock().unwrap_or_else(|e| e.into_inner());
+                Arc::clone(memo.entry(key).or_default())
+            };
+            *cell.get_or_init(|| exact_r_ref(req, catalog, spec, solves))
+        })
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::model::Series;
+
+    /// A shared size is the size `choose_r_ref` gives, for either pick, and a design met
+    /// again (other pick, other R_ref class) costs no solve.
+    #[test]
+    fn shared_sizes_equal_fresh_ones_and_are_solved_once() {
+        let catalog = crate::input::load_default_catalog().unwrap();
+        let mut req = crate::check::corners::tests::requirement();
+        req.program = Some(crate::model::Program {
+            rail_v: crate::model::Range {
+                min: 11.4,
+                max: 12.6,
+            },
+            output_current_a: 1e-3,
+        });
+        let spec = |pick, class: &str| DesignSpec {
+            shape: Shape::SINGLE,
+            topology: Topology::Simple,
+            pair: "npn-dual-general".into(),
+            helper: None,
+            re1_ohm: 100.0,
+            re2_ohm: 100.0,
+            resistor: Some("thick-film-1pct".into()),
+            r_ref_ohm: 0.0,
+            r_ref_resistor: Some(class.into()),
+            r_ref_pick: Some(pick),
+        };
+        let sizes = RefSizes::new();
+        let shared = AtomicU64::new(0);
+        let fresh = AtomicU64::new(0);
+        let first = sizes.choose(
+            &req,
+            &catalog,
+            &spec(RefPick::Below, "thick-film-1pct"),
+            &shared,
+        );
+        let once = shared.load(Ordering::Relaxed);
+        assert!(once > 0);
+        for (pick, class) in [
+            (RefPick::Below, "thick-film-1pct"),
+            (RefPick::Above, "thick-film-1pct"),
+            (RefPick::Nearest, "thin-film-0p1pct"),
+        ] {
+            let s = spec(pick, class);
+            let a = sizes.choose(&req, &catalog, &s, &shared);
+            let b = choose_r_ref(&req, &catalog, &s, &fresh);
+            assert!(a.r_ref_ohm > 0.0 && a.r_ref_pick.is_none());
+            assert_eq!(a.r_ref_ohm, b.r_ref_ohm, "{pick:?} {class}");
+        }
+        assert_eq!(first.r_ref_ohm, spec_below_value(&req, &catalog, &fresh));
+        assert_eq!(shared.load(Ordering::Relaxed), once, "solved once");
+        // Another emitter resistor is another design.
+        let mut other = spec(RefPick::Below, "thick-film-1pct");
+        other.re1_ohm = 200.0;
+        other.re2_ohm = 200.0;
+        sizes.choose(&req, &catalog, &other, &shared);
+        assert_eq!(shared.load(Ordering::Relaxed), 2 * once);
+    }
+
+    fn spec_below_value(req: &Requirement, catalog: &Catalog, solves: &AtomicU64) -> f64 {
+        let exact = exact_r_ref(
+            req,
+            catalog,
+            &DesignSpec {
+                shape: Shape::SINGLE,
+                topology: Topology::Simple,
+                pair: "npn-dual-general".into(),
+                helper: None,
+                re1_ohm: 100.0,
+                re2_ohm: 100.0,
+                resistor: Some("thick-film-1pct".into()),
+                r_ref_ohm: 0.0,
+                r_ref_resistor: None,
+                r_ref_pick: None,
+            },
+            solves,
+        )
+        .unwrap();
+        let class = catalog.resistor("thick-film-1pct").unwrap();
+        standard_around(exact, class).unwrap().0
+    }
 
     #[test]
     fn standard_values_bracket_the_exact_one() {

@@ -1,7 +1,7 @@
 //! Compilation of a topology description into an index-based netlist, and the solve
 //! driver (isothermal first, then the coupled electrothermal system).
 
-use super::system::{CircuitSystem, FIRST_NODE, OUT_SLOT, P_SLOT, R_SLOT, S_SLOT};
+use super::system::{CircuitSystem, FIRST_NODE, MAX_DT_STEP_K, OUT_SLOT, P_SLOT, R_SLOT, S_SLOT};
 use super::{
     Design, Mismatch, NodeVoltage, OperatingPoint, Solution, SolveFailure, SolveOptions,
     TransistorState,
@@ -31,6 +31,23 @@ pub(super) const MAX_RESISTORS: usize = 1 + MAX_OUTPUTS as usize;
 /// silicon junction rating and outside the device model's range (the die would fail long
 /// before; common practice, no source).
 pub const MAX_JUNCTION_K: f64 = 573.15;
+
+/// Most steps of the bounding iteration (`Netlist::thermal_bound`): enough to climb from
+/// any ambient to `MAX_JUNCTION_K` in `MAX_DT_STEP_K` steps and settle.
+const THERMAL_BOUND_STEPS: usize = 60;
+/// The bounding iteration has settled when no junction moves by more than this, kelvin;
+/// the coupled Newton finishes from there.
+const THERMAL_BOUND_SETTLED_K: f64 = 0.5;
+
+/// What the bounding iteration proved.
+enum ThermalBound {
+    /// Every fixed point has a junction at least this hot, over `MAX_JUNCTION_K`.
+    Runaway(f64),
+    /// Settled: node voltages and temperatures next to the fixed point.
+    Near(Vector),
+    /// Neither (an electrical solve failed, or no settling within the budget).
+    Unknown,
+}
 
 /// Where one transistor sits.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -835,10 +852,19 @@ impl Netlist {
         // Start the temperatures where the isothermal powers put them, and the node
         // voltages where the circuit settles with the devices frozen at those temperatures
         // (a cheap electrical solve that leaves the coupled Newton little to do).
-        let p = sys.powers(x);
-        let mut t_start = [0.0; MAX_TRANSISTORS];
-        for i in 0..self.n_tr {
-            t_start[i] = op.t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+        let t_start = self.heated(op.t_amb_k, &sys.powers(x));
+        let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
+            topology: self.topology,
+            part: self.part.clone(),
+            point: *op,
+            t_max_k,
+        };
+        // The start temperatures are the first step of the bounding iteration
+        // (`thermal_bound`), and the powers at the predictor give the second: either
+        // over the limit proves every fixed point is, for no more than the predictor.
+        let hottest = |t: &[f64]| t[..self.n_tr].iter().copied().fold(op.t_amb_k, f64::max);
+        if hottest(&t_start) > MAX_JUNCTION_K {
+            return Err(runaway(hottest(&t_start)));
         }
         let ambient_devices = sys.at;
         let mut predictor_iterations = 0;
@@ -848,22 +874,51 @@ impl Netlist {
             }
             let c = solve::solve(&*sys, x, newton);
             predictor_iterations = c.iterations();
-            if !c.is_converged() {
+            if c.is_converged() {
+                let t_second = self.heated(op.t_amb_k, &sys.powers(x));
+                if hottest(&t_second) > MAX_JUNCTION_K {
+                    return Err(runaway(hottest(&t_second)));
+                }
+            } else {
                 *x = iso;
             }
             sys.at = ambient_devices;
         }
         sys.thermal = true;
         x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
-        let runaway = |t_max_k: f64| SolveFailure::ThermalRunaway {
-            topology: self.topology,
-            part: self.part.clone(),
-            point: *op,
-            t_max_k,
-        };
-        let out = solve::solve_with_continuation(&*sys, x, newton, 1e-3);
-        let mut iterations = predictor_iterations + out.iterations;
-        if !out.convergence.is_converged() {
+        let coupled_start = *x;
+        let first = solve::solve(&*sys, x, newton);
+        let mut iterations = predictor_iterations + first.iterations();
+        let mut converged = first.is_converged();
+        if !converged {
+            // Before the costly fallbacks: the bounding iteration proves most runaways
+            // and brings the rest next to their fixed point (the least one, which the
+            // circuit reaches warming up from the ambient; damped Newton and gmin
+            // stepping from here can land on a hotter or an unstable one).
+            sys.thermal = false;
+            let (bound, its) = self.thermal_bound(sys, &iso, op, newton);
+            sys.at = ambient_devices;
+            sys.thermal = true;
+            iterations += its;
+            match bound {
+                ThermalBound::Runaway(t) => return Err(runaway(t)),
+                ThermalBound::Near(xb) => {
+                    *x = xb;
+                    let c = solve::solve(&*sys, x, newton);
+                    iterations += c.iterations();
+                    let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+                    if c.is_converged() && t_max <= MAX_JUNCTION_K && sys.thermally_stable(x) {
+                        return Ok(iterations);
+                    }
+                }
+                ThermalBound::Unknown => {}
+            }
+            *x = coupled_start;
+            let out = solve::solve_fallbacks(&*sys, x, newton, 1e-3);
+            iterations += out.iterations;
+            converged = out.convergence.is_converged();
+        }
+        if !converged {
             // Walk the thermal coupling up from zero: if the isothermal circuit solves but
             // the coupled one cannot be reached, the thermal loop has no fixed point.
             *x = iso;
@@ -900,6 +955,75 @@ impl Netlist {
             return Err(runaway(t_max));
         }
         Ok(iterations)
+    }
+
+    /// `T_amb + theta P`: the junction temperatures the powers `p` give (MODEL.md).
+    fn heated(&self, t_amb_k: f64, p: &[f64; MAX_TRANSISTORS]) -> [f64; MAX_TRANSISTORS] {
+        let mut t = [0.0; MAX_TRANSISTORS];
+        for i in 0..self.n_tr {
+            t[i] = t_amb_k + (0..self.n_tr).map(|j| self.theta[i][j] * p[j]).sum::<f64>();
+        }
+        t
+    }
+
+    /// The bounding iteration of the electrothermal loop, for points the coupled Newton
+    /// cannot reach: `T_{k+1} = min(F(T_k), T_k + MAX_DT_STEP_K)` from the ambient, where
+    /// `F(T) = T_amb + theta P(T)` and `P(T)` are the device powers of the electrical
+    /// solution with the junctions frozen at `T` (each solve started from the last).
+    ///
+    /// `F` is order-preserving: a warmer junction passes more current at a given drive
+    /// (I_S rises far faster than V_T), which can only raise the powers of the devices
+    /// that dissipate. So every iterate is below every fixed point `T*`: `T_0 = T_amb <=
+    /// T*`, and `T_k <= T*` gives `T_{k+1} <= F(T_k) <= F(T*) = T*` (the cap only lowers
+    /// it). An `F(T_k)` over `MAX_JUNCTION_K` therefore proves that every fixed point is
+    /// hotter than that: thermal runaway, decided in a dozen cheap electrical solves
+    /// instead of a continuation walk up to a fold. (The one power that falls as its
+    /// junction warms, V_BE I of a device at a forced current, moves by about 0.3 %/K of
+    /// a milliwatt-scale power, millikelvins here.) Iterates that settle give the
+    /// coupled Newton a start next to the fixed point. The cap keeps each electrical
+    /// solve a small step from the last one.
+    fn thermal_bound(
+        &self,
+        sys: &mut CircuitSystem,
+        iso: &Vector,
+        op: &OperatingPoint,
+        newton: &NewtonOptions,
+    ) -> (ThermalBound, u32) {
+        let nn = self.n_nodes;
+        let mut t = [op.t_amb_k; MAX_TRANSISTORS];
+        let mut x = *iso;
+        let mut iterations = 0;
+        for k in 0..THERMAL_BOUND_STEPS {
+            if k > 0 {
+                for i in 0..self.n_tr {
+                    sys.at[i] = self.tr[i].bjt.at(t[i]);
+                }
+                let c = solve::solve(&*sys, &mut x, newton);
+                iterations += c.iterations();
+                if !c.is_converged() {
+                    return (ThermalBound::Unknown, iterations);
+                }
+            }
+            let f_t = self.heated(op.t_amb_k, &sys.powers(&x));
+            let mut change = 0.0f64;
+            let mut hottest = op.t_amb_k;
+            let mut next = t;
+            for i in 0..self.n_tr {
+                let f = f_t[i];
+                hottest = hottest.max(f);
+                change = change.max((f - t[i]).abs());
+                next[i] = f.min(t[i] + MAX_DT_STEP_K);
+            }
+            if hottest > MAX_JUNCTION_K {
+                return (ThermalBound::Runaway(hottest), iterations);
+            }
+            if change < THERMAL_BOUND_SETTLED_K {
+                x[nn..nn + self.n_tr].copy_from_slice(&next[..self.n_tr]);
+                return (ThermalBound::Near(x), iterations);
+            }
+            t = next;
+        }
+        (ThermalBound::Unknown, iterations)
     }
 
     /// `dV_out / dI_out` of the solved circuit at `op` (see `super::output_resistance`).

@@ -22,7 +22,7 @@ pub(super) const NONE: usize = usize::MAX;
 /// Reference temperature of resistor TCRs (25 °C).
 const TCR_REFERENCE_K: f64 = 298.15;
 /// Largest junction-temperature change in one Newton step, kelvin.
-const MAX_DT_STEP_K: f64 = 25.0;
+pub(super) const MAX_DT_STEP_K: f64 = 25.0;
 
 pub(super) struct CircuitSystem<'n> {
     pub net: &'n Netlist,

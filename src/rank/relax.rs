@@ -18,7 +18,7 @@ use crate::check::{self, CheckName, Depth, DesignSpec, MonteCarlo, VCEO_DERATING
 use crate::model::{Catalog, Requirement};
 use crate::units::{format_prefixed, format_quantity, Dimension};
 
-use super::search::{screen_group, Outcome};
+use super::search::{screen_group, Outcome, Tally};
 use super::space::Group;
 
 /// How many candidates are bisected per field: the nearest to feasible (by their worst
@@ -306,7 +306,7 @@ fn show(x: f64, d: Dimension) -> String {
 /// a design that can be made feasible by one field usually sits in that window: at 250 V
 /// the window is where a simple mirror's 32 V version passes, which the even picks miss).
 fn pool(req: &Requirement, catalog: &Catalog, groups: &[Group]) -> Vec<DesignSpec> {
-    let solves = AtomicU64::new(0);
+    let solves = Tally::new();
     groups
         .par_iter()
         .flat_map_iter(|g| {

@@ -10,6 +10,20 @@
 //! * the V_BE-offset term `dvbe / (V_T + I*R_E)` only shrinks with RE, and `k` times it at
 //!   one corner is a lower bound of the total error: binary search for the smallest value
 //!   whose bound is within the accuracy requirement, two solves per step.
+//! * with a programming resistor and a `max_tempco`, each slope of the output's tempco
+//!   (between neighbouring ambient points) is monotone in RE: R_ref is sized so that
+//!   `I_in (R_ref + RE1) = V_rail - n V_BE` at every RE (n = 1 for a simple mirror, 2 for
+//!   a Wilson or cascode), so the V_BE drift's share, `-n dV_BE/dT / (V_rail - n V_BE)`,
+//!   does not depend on RE, and the resistors' TCRs enter weighted by R_ref's and RE1's
+//!   shares of that sum, which move one way as RE grows. A slope over the limit on the
+//!   same side at the smallest and the largest surviving value is over it for every
+//!   value between: the whole range fails `tempco` (two probes, four solves each with
+//!   R_ref's sizing). A Wilson from a 5 V rail (about 1000 ppm/K) is rejected so, family
+//!   by family, instead of candidate by candidate.
+//!
+//! R_ref is sized per design from its solved input voltage (`check::choose_r_ref`) only
+//! when the design is first solved, and once: both standard values around the exact one
+//! and every R_ref class share the design's exact value (`check::RefSizes`).
 //!
 //! Candidates over `max_cost` are rejected before any solve (cost needs none). The rest
 //! are verified with an early stop at the first corner that already breaks accuracy,
@@ -28,8 +42,8 @@ use rayon::prelude::*;
 use super::order::{bare_family, family, worth_listing, FamilyKey, NOTICEABLE_ERROR};
 use super::space::Group;
 use crate::check::{
-    choose_r_ref, probe_corner, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation,
-    Evaluator, MonteCarlo, OperatingCorner, ResolvedDesign,
+    probe_corner, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
+    MonteCarlo, OperatingCorner, RefSizes, ResolvedDesign,
 };
 use crate::model::{Catalog, Requirement};
 
@@ -110,7 +124,7 @@ pub fn search(
     mc: MonteCarlo,
     progress: &dyn Progress,
 ) -> Verdicts {
-    let solves = AtomicU64::new(0);
+    let solves = Tally::new();
     progress.start(groups.iter().map(|g| g.specs.len() as u64).sum());
     let per_group: Vec<Vec<(DesignSpec, Outcome)>> = groups
         .par_iter()
@@ -161,10 +175,12 @@ pub fn screen_only(
     groups: &[Group],
     solves: &AtomicU64,
 ) -> ScreenOutcome {
+    let tally = Tally::new();
     let per_group: Vec<Vec<(DesignSpec, Outcome)>> = groups
         .par_iter()
-        .map(|g| screen_group(req, catalog, g, solves))
+        .map(|g| screen_group(req, catalog, g, &tally))
         .collect();
+    solves.fetch_add(tally.load(Ordering::Relaxed), Ordering::Relaxed);
     let mut rejected = Vec::new();
     let mut survivors = Vec::new();
     for (spec, o) in per_group.into_iter().flatten() {
@@ -212,7 +228,7 @@ fn verify_survivors(
     mut survivors: Vec<Survivor>,
     goal: Goal,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
     progress: &dyn Progress,
     v: &mut Verdicts,
 ) {
@@ -342,7 +358,7 @@ fn cheapest_families(
     survivors: Vec<Survivor>,
     n: usize,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
     progress: &dyn Progress,
     v: &mut Verdicts,
 ) {
@@ -450,7 +466,7 @@ fn family_best(
     hint: &[OperatingCorner],
     target: f64,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
     progress: &dyn Progress,
 ) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
     // Each member's bound from the hint corners and the maxima behind it; a member whose
@@ -507,12 +523,15 @@ fn family_best(
                     return (*k, spec.clone(), None);
                 };
                 let e = Evaluator::new(req, &d, solves);
-                let rest: Vec<OperatingCorner> = e
-                    .corners()
-                    .iter()
-                    .filter(|c| !hint.contains(c))
-                    .copied()
-                    .collect();
+                let rest = if req.program.is_some() {
+                    far_first(e.corners(), hint)
+                } else {
+                    e.corners()
+                        .iter()
+                        .filter(|c| !hint.contains(c))
+                        .copied()
+                        .collect()
+                };
                 // Over the limit at some corner: not the best (and infeasible when over
                 // the accuracy requirement); else verified. A rating broken at a hint
                 // corner goes straight to its (short) verification.
@@ -568,7 +587,7 @@ fn verify_by_bound(
     n: usize,
     unit: Unit,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
     progress: &dyn Progress,
     v: &mut Verdicts,
 ) {
@@ -576,6 +595,35 @@ fn verify_by_bound(
         req, catalog, survivors, goal, n, unit, mc, solves, progress, BATCH,
     );
     merge(results, v);
+}
+
+/// The corners not in `hint`, those differing from every hint corner in the most
+/// coordinates (input current or rail, output voltage, ambient) first, otherwise in
+/// their order. With a programming resistor the rail and the V_BE drift move the output
+/// current one way at one end of the operating range and the other way at the other end,
+/// and which end is worse depends on which way R_ref was rounded: a bound walk that
+/// starts at the probe corner (one end) meets the other end next instead of last. Any
+/// order gives the same maxima once every corner is taken, so the order only decides how
+/// soon a walk stops. (A forced input has no such two-sided error; its walks keep the
+/// corners' order, which measured no slower.)
+fn far_first(corners: &[OperatingCorner], hint: &[OperatingCorner]) -> Vec<OperatingCorner> {
+    let apart = |c: &OperatingCorner| {
+        hint.iter()
+            .map(|h| {
+                usize::from(c.i_in_a != h.i_in_a || c.rail_v != h.rail_v)
+                    + usize::from(c.v_out_v != h.v_out_v)
+                    + usize::from(c.t_amb_k != h.t_amb_k)
+            })
+            .min()
+            .unwrap_or(0)
+    };
+    let mut rest: Vec<OperatingCorner> = corners
+        .iter()
+        .filter(|c| !hint.contains(c))
+        .copied()
+        .collect();
+    rest.sort_by_key(|c| std::cmp::Reverse(apart(c)));
+    rest
 }
 
 /// Survivors verified at once by the best-first search: enough to keep two threads busy
@@ -595,7 +643,7 @@ fn best_first(
     n: usize,
     unit: Unit,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
     progress: &dyn Progress,
     batch_size: usize,
 ) -> Vec<(usize, DesignSpec, Option<Outcome>)> {
@@ -738,7 +786,7 @@ fn judge_all(
     specs: &[DesignSpec],
     depth: Depth,
     mc: MonteCarlo,
-    solves: &AtomicU64,
+    solves: &Tally,
 ) -> Vec<(DesignSpec, Outcome)> {
     specs
         .par_iter()
@@ -755,7 +803,7 @@ pub(super) fn screen_group(
     req: &Requirement,
     catalog: &Catalog,
     g: &Group,
-    solves: &AtomicU64,
+    solves: &Tally,
 ) -> Vec<(DesignSpec, Outcome)> {
     let n = g.specs.len();
     let Some(first) = g.specs.first().and_then(|s| resolve(catalog, s).ok()) else {
@@ -798,7 +846,16 @@ pub(super) fn screen_group(
         })
     });
     let mut out = reject(&g.specs, 0..acc_start, CheckName::Accuracy, catalog);
-    out.extend(survivors(acc_start..input_end));
+    if tempco_fails_throughout(req, catalog, g, acc_start..input_end, solves) {
+        out.extend(reject(
+            &g.specs,
+            acc_start..input_end,
+            CheckName::Tempco,
+            catalog,
+        ));
+    } else {
+        out.extend(survivors(acc_start..input_end));
+    }
     out.extend(reject(
         &g.specs,
         input_end..comp_end,
@@ -812,6 +869,45 @@ pub(super) fn screen_group(
         catalog,
     ));
     out
+}
+
+/// Whether every member of `range` of a programmed group fails `max_tempco`: some slope
+/// of the tempco (between two neighbouring ambient points) is over the limit on the same
+/// side at both ends of the range (four sizing-and-tempco solves in all). The slopes are
+/// monotone in RE within the group (module docs), so every member between the ends has
+/// that slope over the limit too.
+fn tempco_fails_throughout(
+    req: &Requirement,
+    catalog: &Catalog,
+    g: &Group,
+    range: std::ops::Range<usize>,
+    solves: &Tally,
+) -> bool {
+    let (Some(max), Some(_)) = (req.max_tempco_per_k, req.program) else {
+        return false;
+    };
+    if range.is_empty() {
+        return false;
+    }
+    let slopes = |i: usize| {
+        resolve_sized(req, catalog, &g.specs[i], solves)
+            .ok()
+            .and_then(|d| Evaluator::new(req, &d, solves).tempco_slopes())
+    };
+    let Some(first) = slopes(range.start) else {
+        return false;
+    };
+    let last = if range.len() == 1 {
+        Some(first.clone())
+    } else {
+        slopes(range.end - 1)
+    };
+    last.is_some_and(|last| {
+        first
+            .iter()
+            .zip(&last)
+            .any(|(a, b)| (*a > max && *b > max) || (*a < -max && *b < -max))
+    })
 }
 
 fn reject(
@@ -836,12 +932,33 @@ fn resolve_sized<'c>(
     req: &Requirement,
     catalog: &'c Catalog,
     spec: &DesignSpec,
-    solves: &AtomicU64,
+    solves: &Tally,
 ) -> Result<ResolvedDesign<'c>, DesignError> {
     if spec.r_ref_pick.is_some() {
-        resolve(catalog, &choose_r_ref(req, catalog, spec, solves))
+        resolve(catalog, &solves.sizes.choose(req, catalog, spec, solves))
     } else {
         resolve(catalog, spec)
+    }
+}
+
+/// The solver-call count of a search, and the exact R_ref of each design it met (sized
+/// once however many times the design is met; `check::RefSizes`).
+#[derive(Default)]
+pub(super) struct Tally {
+    count: AtomicU64,
+    sizes: RefSizes,
+}
+
+impl Tally {
+    pub(super) fn new() -> Self {
+        Self::default()
+    }
+}
+
+impl std::ops::Deref for Tally {
+    type Target = AtomicU64;
+    fn deref(&self) -> &AtomicU64 {
+        &self.count
     }
 }
 

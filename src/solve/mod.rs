@@ -16,6 +16,6 @@ pub use lu::{
     lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, Lu, Matrix, Pivots, Vector, MAX_DIM,
 };
 pub use newton::{
-    newton_step, solve, solve_damped, solve_with_continuation, Convergence, NewtonOptions,
-    NonlinearSystem, Outcome, StepReport, Tolerance,
+    newton_step, solve, solve_damped, solve_fallbacks, solve_with_continuation, Convergence,
+    NewtonOptions, NonlinearSystem, Outcome, StepReport, Tolerance,
 };

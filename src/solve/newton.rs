@@ -351,16 +351,35 @@ pub fn solve_with_continuation<S: NonlinearSystem + ?Sized>(
 ) -> Outcome {
     let x0 = *x;
     let first = solve(sys, x, opts);
-    let mut total = first.iterations();
     if first.is_converged() {
         return Outcome {
             convergence: first,
-            iterations: total,
+            iterations: first.iterations(),
         };
     }
     *x = x0;
+    let mut rest = solve_fallbacks(sys, x, opts, g_start);
+    rest.iterations += first.iterations();
+    if rest.convergence.is_converged() {
+        rest.convergence = Convergence::Converged {
+            iterations: rest.iterations,
+        };
+    }
+    rest
+}
+
+/// The stages of `solve_with_continuation` after plain Newton (backtracking, then gmin
+/// stepping), from `x`: for a caller that tried plain Newton and something of its own
+/// first.
+pub fn solve_fallbacks<S: NonlinearSystem + ?Sized>(
+    sys: &S,
+    x: &mut Vector,
+    opts: &NewtonOptions,
+    g_start: f64,
+) -> Outcome {
+    let x0 = *x;
     let damped = solve_damped(sys, x, opts);
-    total += damped.iterations();
+    let mut total = damped.iterations();
     if damped.is_converged() {
         return Outcome {
             convergence: Convergence::Converged { iterations: total },

@@ -100,6 +100,7 @@ pub fn board(channels: usize, options: usize, seed: u64) -> BoardProblem {
                         helper_spare_classes: None,
                         keep_together: true,
                         resistors,
+                        r_ref: None,
                         governing_check: "accuracy".into(),
                         governing_margin: rng.gen_range(0.0..0.5),
                     }

@@ -69,6 +69,7 @@ pub fn design(pair_class: &str, pairs: u32, helpers: u32) -> DesignUsage {
         helper_spare_classes: None,
         keep_together: true,
         resistors: vec![],
+        r_ref: None,
         governing_check: "accuracy".into(),
         governing_margin: 0.25,
     }

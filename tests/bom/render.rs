@@ -1,6 +1,8 @@
 //! The three renderers on one small fixed plan.
 
-use mirrorpick::bom::render::{write_cautions, write_csv, write_json, write_table};
+use mirrorpick::bom::render::{
+    write_cautions, write_csv, write_json, write_table, write_table_styled,
+};
 use mirrorpick::bom::{optimise, BoardPlan, BomOutcome};
 
 use crate::fixtures::*;
@@ -90,4 +92,47 @@ fn table_snapshot() {
         String::from_utf8(out).unwrap(),
         include_str!("snapshots/plan-table.txt")
     );
+}
+
+/// A channel whose programming resistor has the class and value of its emitter
+/// resistors: the BOM buys them on one line, and the assignment still names R_ref apart
+/// (narrow design cell and the wide table's own column), not as a third emitter resistor.
+#[test]
+fn r_ref_sharing_the_emitter_resistors_class_is_named_apart() {
+    let mut d = with_resistors(design("npn-quad", 1, 0), "res-1pc", 4700.0, 3);
+    d.r_ref = Some(mirrorpick::bom::ResistorUse {
+        class: "res-1pc".into(),
+        value_ohm: 4700.0,
+        count: 1,
+    });
+    let mut p = problem(vec![channel("programmed", 1, vec![d])]);
+    p.line_item_cost = 1.0;
+    let plan = match optimise(&p).unwrap() {
+        BomOutcome::Optimal(plan) => *plan,
+        BomOutcome::Infeasible(why) => panic!("{why}"),
+    };
+    let table = |wide: bool| {
+        let mut out = Vec::new();
+        let style = mirrorpick::report::Style {
+            wide,
+            ..Default::default()
+        };
+        write_table_styled(&plan, style, &mut out).unwrap();
+        String::from_utf8(out).unwrap()
+    };
+    let narrow = table(false);
+    assert!(
+        narrow.contains("simple npn-quad, RE 2 x 4.70 kΩ res-1pc, R_ref 4.70 kΩ res-1pc"),
+        "{narrow}"
+    );
+    assert!(!narrow.contains("3 x 4.70 kΩ"), "{narrow}");
+    // One line item of three resistors per board.
+    assert!(narrow.contains("4.70 kΩ, 1 %"), "{narrow}");
+    assert_eq!(plan.bom.len(), 2);
+    let wide = table(true);
+    let row = wide.lines().find(|l| l.contains("programmed")).unwrap();
+    let cells: Vec<&str> = row.split('┆').map(str::trim).collect();
+    assert!(wide.contains("R_ref"), "{wide}");
+    assert_eq!(cells[5], "2 x 4.70 kΩ res-1pc", "{wide}");
+    assert_eq!(cells[6], "4.70 kΩ res-1pc", "{wide}");
 }

@@ -387,3 +387,56 @@ fn ratio_mirror_resistors_follow_the_vbe_difference() {
     // The ratio needs RE1 to carry V_T ln(n): below that no positive RE2 exists.
     assert!(mirrorpick::rank::ratio_re2(0.5 * vt * 10f64.ln() / i_in, 10.0, i_in, t).is_none());
 }
+
+/// MODEL.md: thermal runaway is a corner with no fixed point; where one exists it is the
+/// answer. A beta-helper mirror on the catalog's general-purpose dual at 100 V, 2 mA and
+/// 0 °C has a stable fixed point with the output die near 150 °C: the temperatures the
+/// circuit settles at warming up from the ambient. Damped Newton from a hot start finds a
+/// second, hotter one beyond the model's range (the output device saturated near
+/// 0.3 A through RE), which the engine once took for runaway. Checks: the solve succeeds,
+/// its junction temperatures satisfy `T_i = T_amb + sum_j theta_ij P_j` (the contract's
+/// thermal equation, evaluated here from the reported powers and the class's thetas),
+/// and the output current is the electrical one of a mirror near its programmed current
+/// (within 30 %), not a collapsed output stage.
+#[test]
+fn self_heating_takes_the_fixed_point_reached_from_the_ambient() {
+    let catalog = mirrorpick::input::load_default_catalog().unwrap();
+    let pair = catalog.transistor("npn-dual-general").unwrap();
+    let helper = catalog.transistor("npn-single-general").unwrap();
+    let mut d = design(Topology::BetaHelper, pair, 340.0, 340.0);
+    d.helper = Some(helper);
+    let p = OperatingPoint {
+        rail_v: None,
+        i_in_a: 2e-3,
+        v_out_v: 100.0,
+        supply_v: 110.0,
+        t_amb_k: 273.15,
+    };
+    let s = solve_point(&d, &p, &nominal(), &heated()).unwrap();
+    let q = s.transistors();
+    for a in q {
+        let class = if a.helper_class { helper } else { pair };
+        let rise: f64 = q
+            .iter()
+            .filter(|b| b.package == a.package)
+            .map(|b| {
+                let theta = if b.name == a.name {
+                    class.thermal.theta_self_k_per_w
+                } else {
+                    class.thermal.theta_mutual_k_per_w
+                };
+                theta * b.power_w
+            })
+            .sum();
+        assert!(
+            (a.t_junction_k - (p.t_amb_k + rise)).abs() < 1e-6,
+            "{}: {} K against {} K",
+            a.name,
+            a.t_junction_k,
+            p.t_amb_k + rise
+        );
+    }
+    let hottest = q.iter().map(|t| t.t_junction_k).fold(0.0, f64::max);
+    assert!(hottest < 473.15, "{hottest} K");
+    assert!(rel(s.i_out_a, 2e-3) < 0.3, "{}", s.i_out_a);
+}

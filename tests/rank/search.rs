@@ -296,3 +296,70 @@ fn degenerated_rows_are_listed_only_when_worth_it_and_the_first_row_stays() {
     }
     assert!(hidden > 0, "the examples hide no row, so test nothing");
 }
+
+/// The 5 V logic-rail sink (programmed by R_ref) narrowed to two pair classes: the simple
+/// mirror is feasible; a Wilson's two V_BE drift, about -2 x dV_BE/dT / (5 V - 2 V_BE)
+/// (near 1000 ppm/K), breaks `max_tempco` at every resistor value. The default search
+/// rejects those groups whole from their two ends (`search`'s tempco screen): every
+/// candidate it counts under tempco does fail tempco when verified, and the rows equal
+/// the exhaustive search's.
+#[test]
+fn a_programmed_wilson_fails_tempco_whole_and_the_rows_stay_exact() {
+    let cat = default_catalog();
+    let mut req = load_example(
+        &root().join("requirements-examples/logic-rail-programmed-sink.yaml"),
+        &cat,
+    );
+    // The single class is the Wilson's helper.
+    req.classes.allow = vec![
+        "npn-dual-general".into(),
+        "npn-single-general".into(),
+        "thin-film-0p1pct".into(),
+    ];
+    same_top(&req, &cat, 20, Prefer::Cost, false);
+    let v = search(
+        &req,
+        &cat,
+        &enumerate(&req, &cat),
+        false,
+        Goal::Cheapest(20, mirrorpick::rank::Unit::Families),
+        MC,
+        &Silent,
+    );
+    let by_tempco: Vec<_> = v
+        .rejected
+        .iter()
+        .filter(|(_, c)| *c == mirrorpick::check::CheckName::Tempco)
+        .map(|(s, _)| s)
+        .collect();
+    assert!(
+        by_tempco
+            .iter()
+            .filter(|s| s.topology.name() == "wilson" && s.resistor.is_some())
+            .count()
+            > 100,
+        "{} rejected under tempco",
+        by_tempco.len()
+    );
+    let solves = std::sync::atomic::AtomicU64::new(0);
+    for s in by_tempco.iter().step_by(7) {
+        let (_, ev) = mirrorpick::check::verify(
+            &req,
+            &cat,
+            s,
+            mirrorpick::check::Depth::Verdict,
+            MC,
+            &solves,
+        )
+        .unwrap();
+        let t = ev.check(mirrorpick::check::CheckName::Tempco).unwrap();
+        assert!(!t.pass, "{s:?}: tempco {}", t.value);
+    }
+    // The Wilson groups cost a few probes each, not a verification per candidate.
+    assert!(
+        !v.feasible
+            .iter()
+            .any(|(s, _)| s.topology.name() == "wilson"),
+        "a Wilson from 5 V meets 600 ppm/K"
+    );
+}
