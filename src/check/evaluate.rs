@@ -9,6 +9,7 @@
 
 use std::sync::atomic::{AtomicU64, Ordering};
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 use super::budget::{self, ErrorBudget, ProgramToggles, Sensitivities, Toggled};
@@ -21,7 +22,7 @@ use super::ratings::{self, CornerState, DeviceState};
 use super::verdict::{first_failure, governing, Check, CheckName};
 use crate::circuit::{
     Design, Mismatch, Netlist, NoiseAnalysis, OperatingPoint, OutputDeviation, RefResistor,
-    SolveFailure, SolveOptions,
+    SolveFailure, SolveOptions, Start,
 };
 use crate::model::{AccuracyOf, Requirement, TransistorClass};
 
@@ -294,10 +295,38 @@ impl<'a> Evaluator<'a> {
         corner: &OperatingCorner,
         self_heating: bool,
     ) -> Result<CornerState, SolveFailure> {
+        self.solve_net_start(net, corner, self_heating)
+            .map(|(s, _)| s)
+    }
+
+    /// `solve_net` started from `start` (a nearby solution) when given.
+    fn solve_net_from(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+        start: Option<&Start>,
+    ) -> Result<CornerState, SolveFailure> {
+        let Some(start) = start else {
+            return self.solve_net(net, corner, true);
+        };
+        let op = self.op(corner);
+        self.solves.fetch_add(1, Ordering::Relaxed);
+        let sol = net.solve_near(&op, &SolveOptions { self_heating: true }, start)?;
+        Ok(self.state(&sol, corner))
+    }
+
+    /// `solve_net`, with where the solve converged (to start the error-budget builds of
+    /// the corner from).
+    fn solve_net_start(
+        &self,
+        net: &Netlist,
+        corner: &OperatingCorner,
+        self_heating: bool,
+    ) -> Result<(CornerState, Start), SolveFailure> {
         let op = self.op(corner);
         self.solves.fetch_add(1, Ordering::Relaxed);
         let sol = net.solve(&op, &SolveOptions { self_heating })?;
-        Ok(self.state(&sol, corner))
+        Ok((self.state(&sol, corner), *sol.start()))
     }
 
     fn state(&self, sol: &crate::circuit::Solution, corner: &OperatingCorner) -> CornerState {
@@ -341,7 +370,7 @@ impl<'a> Evaluator<'a> {
         &self,
         net: &Netlist,
         corner: &OperatingCorner,
-    ) -> Result<(CornerState, NoiseAnalysis), SolveFailure> {
+    ) -> Result<(CornerState, NoiseAnalysis, Start), SolveFailure> {
         let op = OperatingPoint {
             i_in_a: corner.i_in_a,
             v_out_v: corner.v_out_v,
@@ -352,7 +381,7 @@ impl<'a> Evaluator<'a> {
         self.solves.fetch_add(1, Ordering::Relaxed);
         // The same solve as `solve_net` (bit for bit), plus the small-signal analysis.
         let (sol, noise) = net.solve_with_noise(&op, &SolveOptions { self_heating: true })?;
-        Ok((self.state(&sol, corner), noise))
+        Ok((self.state(&sol, corner), noise, *sol.start()))
     }
 
     fn solve_with(
@@ -410,8 +439,8 @@ impl<'a> Evaluator<'a> {
         let c = corners::probe_corner(self.req);
         let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
         let nets = self.sensitivity_nets().ok()?;
-        let s0 = self.solve_net(&net, &c, true).ok()?;
-        let d = self.sensitivities(&nets, &c, &s0).ok()?;
+        let (s0, start) = self.solve_net_start(&net, &c, true).ok()?;
+        let d = self.sensitivities(&nets, &c, &s0, &start).ok()?;
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
@@ -425,8 +454,8 @@ impl<'a> Evaluator<'a> {
         corners
             .iter()
             .map(|c| {
-                let s0 = self.solve_net(&net, c, true).ok()?;
-                let d = self.sensitivities(&nets, c, &s0).ok()?;
+                let (s0, start) = self.solve_net_start(&net, c, true).ok()?;
+                let d = self.sensitivities(&nets, c, &s0, &start).ok()?;
                 Some((s0.error, budget::random_sigma(&d)))
             })
             .collect()
@@ -450,7 +479,11 @@ impl<'a> Evaluator<'a> {
 
     /// `max |e| + k * max sigma` over `corners` taken in order, stopping as soon as it
     /// exceeds `limit`: a lower bound of the total error (the accuracy check takes both
-    /// maxima over every corner, from the same solves). `from` carries on from the
+    /// maxima over every corner, from the same solves). Within a corner it stops once
+    /// the builds solved so far take it over both `limit` and the accuracy requirement
+    /// (with `limit` infinite: over the accuracy requirement), where its exact value no
+    /// longer matters: the design fails accuracy, and a finite walk would stop there
+    /// anyway. `from` carries on from the
     /// `(max |e|, max sigma)` of corners already taken. Returns the bound reached and
     /// both maxima, or the check a failed solve fails (`thermal-runaway`, `no-solution`:
     /// the design fails it, as its verification would). A rating (VCEO, Ic max, dissipation)
@@ -469,23 +502,53 @@ impl<'a> Evaluator<'a> {
         let nets = self.sensitivity_nets().map_err(failed)?;
         let k = self.req.confidence_sigma;
         let (mut sys, mut rnd) = from;
-        for c in corners {
-            if sys + k * rnd > limit {
-                break;
+        // Past `settled` the bound has done its work: over the accuracy requirement the
+        // design fails whatever the rest, and over a finite `limit` the walk stops after
+        // this corner anyway. So the walk stops there, between the error-budget builds of
+        // a corner too, once the nominal errors and the sensitivities solved so far
+        // already take the bound over it.
+        let settled = if limit.is_finite() {
+            limit.max(self.req.accuracy)
+        } else {
+            self.req.accuracy
+        };
+        let mut i = 0;
+        while i < corners.len() && sys + k * rnd <= limit {
+            // The nominal solves of a run of corners first, so a rating broken at any of
+            // them is found before the bound settles the design (MODEL.md: each rating on
+            // its worst corner).
+            let end = if limit.is_finite() {
+                i + 1
+            } else {
+                corners.len()
+            };
+            let mut nominal = Vec::with_capacity(end - i);
+            for c in &corners[i..end] {
+                let (s0, start) = self.solve_net_start(&net, c, true).map_err(failed)?;
+                let one = std::slice::from_ref(&s0);
+                let broken = !ratings::vceo(self.design, one).pass
+                    || !ratings::ic_max(self.design, one).pass
+                    || !ratings::dissipation(self.design, one).pass;
+                if broken {
+                    return Ok((f64::NEG_INFINITY, (sys, rnd)));
+                }
+                nominal.push((c, s0, start));
             }
-            let s0 = self.solve_net(&net, c, true).map_err(failed)?;
-            let one = std::slice::from_ref(&s0);
-            let broken = !ratings::vceo(self.design, one).pass
-                || !ratings::ic_max(self.design, one).pass
-                || !ratings::dissipation(self.design, one).pass;
-            if broken {
-                return Ok((f64::NEG_INFINITY, (sys, rnd)));
+            for (c, s0, start) in &nominal {
+                sys = sys.max(s0.error.abs());
+                if sys + k * rnd > settled {
+                    return Ok((sys + k * rnd, (sys, rnd)));
+                }
+                let stop = |partial: f64| sys + k * rnd.max(partial) > settled;
+                let (d, complete) = self
+                    .sensitivities_until(&nets, c, s0, start, stop)
+                    .map_err(|(_, f)| failed(f))?;
+                rnd = rnd.max(budget::random_sigma(&d));
+                if !complete {
+                    return Ok((sys + k * rnd, (sys, rnd)));
+                }
             }
-            let d = self
-                .sensitivities(&nets, c, &s0)
-                .map_err(|(_, f)| failed(f))?;
-            sys = sys.max(s0.error.abs());
-            rnd = rnd.max(budget::random_sigma(&d));
+            i = end;
         }
         Ok((sys + k * rnd, (sys, rnd)))
     }
@@ -513,63 +576,75 @@ impl<'a> Evaluator<'a> {
         }
         let sigmas = self.sigmas();
         let scales = self.output_scales();
-        let mut good = 0u32;
-        let mut first_failure: Option<SampleFailure> = None;
-        let builds = outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs);
-        for (k, zs) in builds.enumerate() {
-            let z = zs[0];
-            let mut mm = Mismatch {
-                dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
-                dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
-                dre1: z[4] * sigmas[4],
-                dre2: z[5] * sigmas[5],
-                dref: z[6] * sigmas[6],
-                more: Default::default(),
-            };
-            // Every further output draws its own devices' and RE2's deviations.
-            for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
-                let s = |i: usize| zk[i] * sigmas[i] * sk[i];
-                mm.set_output(
-                    o as u8 + 1,
-                    OutputDeviation {
-                        dvbe_v: [s(0), s(1)],
-                        dbeta: [s(2), s(3)],
-                        dre2: s(5),
-                    },
-                );
-            }
-            let mut fail = |corner: Option<OperatingCorner>, failure: SolveFailure| {
-                first_failure.get_or_insert(SampleFailure {
-                    sample: k as u32 + 1,
-                    samples: mc.samples,
-                    seed: mc.seed,
-                    corner,
-                    failure,
-                });
-            };
-            let net = match self.compile(&mm, NOMINAL) {
-                Ok(net) => net,
-                Err(f) => {
-                    fail(None, f);
-                    continue;
-                }
-            };
-            let mut within = true;
-            for c in &self.corners {
-                match self.solve_net(&net, c, true) {
-                    Ok(s) if s.error.abs() <= self.req.accuracy => {}
-                    Ok(_) => within = false,
-                    Err(f) => {
-                        fail(Some(*c), f);
-                        within = false;
+        // Each build's solve at a corner starts where the nominal design's converged
+        // there (a build is the nominal circuit moved by a few sigma); a corner whose
+        // nominal solve fails starts every build from scratch, as before.
+        let starts: Vec<Option<Start>> = match self.compile(&Mismatch::default(), NOMINAL) {
+            Ok(net) => self
+                .corners
+                .iter()
+                .map(|c| self.solve_net_start(&net, c, true).ok().map(|(_, st)| st))
+                .collect(),
+            Err(_) => vec![None; self.corners.len()],
+        };
+        let builds: Vec<Mismatch> =
+            outputs::builds(mc.seed, mc.samples, self.design.spec.shape.outputs)
+                .map(|zs| {
+                    let z = zs[0];
+                    let mut mm = Mismatch {
+                        dvbe_v: [z[0] * sigmas[0], z[1] * sigmas[1]],
+                        dbeta: [z[2] * sigmas[2], z[3] * sigmas[3]],
+                        dre1: z[4] * sigmas[4],
+                        dre2: z[5] * sigmas[5],
+                        dref: z[6] * sigmas[6],
+                        more: Default::default(),
+                    };
+                    // Every further output draws its own devices' and RE2's deviations.
+                    for (o, (zk, sk)) in zs.iter().zip(&scales).enumerate().skip(1) {
+                        let s = |i: usize| zk[i] * sigmas[i] * sk[i];
+                        mm.set_output(
+                            o as u8 + 1,
+                            OutputDeviation {
+                                dvbe_v: [s(0), s(1)],
+                                dbeta: [s(2), s(3)],
+                                dre2: s(5),
+                            },
+                        );
+                    }
+                    mm
+                })
+                .collect();
+        // The builds are independent: solved in parallel, counted in draw order.
+        type Build = (bool, Option<(Option<OperatingCorner>, SolveFailure)>);
+        let outcomes: Vec<Build> = builds
+            .par_iter()
+            .map(|mm| {
+                let net = match self.compile(mm, NOMINAL) {
+                    Ok(net) => net,
+                    Err(f) => return (false, Some((None, f))),
+                };
+                for (c, start) in self.corners.iter().zip(&starts) {
+                    match self.solve_net_from(&net, c, start.as_ref()) {
+                        Ok(s) if s.error.abs() <= self.req.accuracy => {}
+                        Ok(_) => return (false, None),
+                        Err(f) => return (false, Some((Some(*c), f))),
                     }
                 }
-                if !within {
-                    break;
-                }
-            }
-            good += u32::from(within);
-        }
+                (true, None)
+            })
+            .collect();
+        let good = outcomes.iter().filter(|(within, _)| *within).count() as u32;
+        let first_failure = outcomes
+            .into_iter()
+            .enumerate()
+            .find_map(|(k, (_, f))| f.map(|f| (k, f)))
+            .map(|(k, (corner, failure))| SampleFailure {
+                sample: k as u32 + 1,
+                samples: mc.samples,
+                seed: mc.seed,
+                corner,
+                failure,
+            });
         (f64::from(good) / f64::from(mc.samples), first_failure)
     }
 
@@ -647,17 +722,38 @@ impl<'a> Evaluator<'a> {
         nets: &[(usize, Netlist)],
         corner: &OperatingCorner,
         nominal: &CornerState,
+        start: &Start,
     ) -> Result<Sensitivities, (usize, SolveFailure)> {
+        self.sensitivities_until(nets, corner, nominal, start, |_| false)
+            .map(|(s, _)| s)
+    }
+
+    /// `sensitivities`, stopping once `stop` holds for the random sigma of the inputs
+    /// solved so far (which only grows with more of them); says whether every input was
+    /// solved.
+    fn sensitivities_until(
+        &self,
+        nets: &[(usize, Netlist)],
+        corner: &OperatingCorner,
+        nominal: &CornerState,
+        start: &Start,
+        stop: impl Fn(f64) -> bool,
+    ) -> Result<(Sensitivities, bool), (usize, SolveFailure)> {
         let op = self.op(corner);
         let opts = SolveOptions { self_heating: true };
         let mut s = [0.0; budget::RANDOM_INPUTS];
         for (i, net) in nets {
             self.solves.fetch_add(1, Ordering::Relaxed);
-            let sol = net.solve(&op, &opts).map_err(|f| (*i, f))?;
+            // A +1 sigma build is the nominal circuit but for one small deviation: its
+            // solve starts where the nominal one converged.
+            let sol = net.solve_near(&op, &opts, start).map_err(|f| (*i, f))?;
             // Output 1's devices (or a common part) moved: output 1's error.
             s[*i] = self.error_of(sol.outputs()[0], sol.i_in_a) - nominal.output_errors[0];
+            if stop(budget::random_sigma(&s)) {
+                return Ok((s, false));
+            }
         }
-        Ok(s)
+        Ok((s, true))
     }
 
     /// Judge the candidate. `mc` drives the yield figure.
@@ -726,14 +822,16 @@ impl<'a> Evaluator<'a> {
         for &i in &order {
             let c = self.corners[i];
             let nominal = if want_noise {
-                self.solve_net_noise(&net, &c).map(|(s, nz)| (s, Some(nz)))
+                self.solve_net_noise(&net, &c)
+                    .map(|(s, nz, st)| (s, Some(nz), st))
             } else {
-                self.solve_net(&net, &c, true).map(|s| (s, None))
+                self.solve_net_start(&net, &c, true)
+                    .map(|(s, st)| (s, None, st))
             };
-            let state = match nominal {
-                Ok((s, nz)) => {
+            let (state, start) = match nominal {
+                Ok((s, nz, st)) => {
                     noises[i] = nz;
-                    s
+                    (s, st)
                 }
                 Err(f) => {
                     // A screen stops here; a verification goes on so every check that
@@ -745,7 +843,7 @@ impl<'a> Evaluator<'a> {
                     continue;
                 }
             };
-            let d = match self.sensitivities(&sens_nets, &c, &state) {
+            let d = match self.sensitivities(&sens_nets, &c, &state, &start) {
                 Ok(d) => d,
                 Err((input, f)) => {
                     push_failure(&mut checks, failure_check(&f, budget_build(input)));

@@ -208,9 +208,24 @@ pub struct Solution {
     pub transistor_count: usize,
     /// Newton iterations, continuation and electrothermal solve included.
     pub iterations: u32,
+    /// The converged unknowns, to start a nearby solve from (`Netlist::solve_near`).
+    start: Start,
+}
+
+/// A converged unknown vector (node voltages, and junction temperatures when solved with
+/// self-heating): the start point of a solve of a nearby circuit or operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Start {
+    x: crate::solve::Vector,
+    self_heating: bool,
 }
 
 impl Solution {
+    /// Where this solve converged, to start a nearby one from.
+    pub fn start(&self) -> &Start {
+        &self.start
+    }
+
     pub fn nodes(&self) -> &[NodeVoltage] {
         &self.nodes[..self.node_count]
     }
@@ -415,5 +430,102 @@ pub(crate) fn test_pair(id: &str, model: crate::model::BjtParams) -> crate::mode
         },
         unit_cost: 0.0,
         provenance: String::new(),
+    }
+}
+
+#[cfg(test)]
+mod solve_near_tests {
+    use super::*;
+    use crate::model::{BjtParams, ALL_TOPOLOGIES};
+
+    fn op(i_in_a: f64, t_amb_k: f64) -> OperatingPoint {
+        OperatingPoint {
+            i_in_a,
+            rail_v: None,
+            v_out_v: 3.0,
+            supply_v: 15.0,
+            t_amb_k,
+        }
+    }
+
+    fn design<'a>(t: Topology, pair: &'a TransistorClass, re: f64) -> Design<'a> {
+        Design {
+            shape: Shape::SINGLE,
+            topology: t,
+            pair,
+            helper: Some(pair),
+            re1_ohm: if t.desc().has_re1 { re } else { 0.0 },
+            re2_ohm: re,
+            re_tcr_per_k: 0.0,
+            r_ref: None,
+        }
+    }
+
+    /// A +1 sigma build solved from the nominal solution lands on the solution the
+    /// closed-form start reaches, to the KCL tolerance (1e-9 of the branch currents), in
+    /// fewer Newton iterations: the error-budget builds of `check` rest on this.
+    #[test]
+    fn a_build_started_from_the_nominal_solution_agrees_with_a_cold_solve() {
+        let pair = test_pair("near", BjtParams::new(1e-14, 150.0, Some(80.0)));
+        let opts = SolveOptions { self_heating: true };
+        let builds = [
+            Mismatch {
+                dvbe_v: [1e-3, 0.0],
+                ..Mismatch::default()
+            },
+            Mismatch {
+                dbeta: [0.02, 0.02],
+                ..Mismatch::default()
+            },
+            Mismatch {
+                dre2: 0.003,
+                ..Mismatch::default()
+            },
+        ];
+        let mut checked = 0;
+        for &t in ALL_TOPOLOGIES.iter() {
+            for re in [0.0, 1e3] {
+                for p in [op(1e-6, 293.15), op(1e-3, 313.15)] {
+                    let d = design(t, &pair, re);
+                    let nominal = Netlist::compile(&d, &Mismatch::default())
+                        .unwrap()
+                        .solve(&p, &opts)
+                        .unwrap();
+                    for mm in &builds {
+                        let net = Netlist::compile(&d, mm).unwrap();
+                        let cold = net.solve(&p, &opts).unwrap();
+                        let warm = net.solve_near(&p, &opts, nominal.start()).unwrap();
+                        for (a, b) in cold.outputs().iter().zip(warm.outputs()) {
+                            assert!((a / b - 1.0).abs() < 1e-8, "{t:?} {re} {p:?}: {a} {b}");
+                        }
+                        assert!((cold.i_in_a / warm.i_in_a - 1.0).abs() < 1e-12);
+                        assert!(
+                            warm.iterations < cold.iterations,
+                            "{t:?}: {} >= {}",
+                            warm.iterations,
+                            cold.iterations
+                        );
+                        checked += 1;
+                    }
+                }
+            }
+        }
+        assert!(checked >= 3 * ALL_TOPOLOGIES.len());
+    }
+
+    /// A start that does not fit (solved without self-heating) is no start: the solve is
+    /// the cold one, bit for bit.
+    #[test]
+    fn a_start_of_another_kind_falls_back_to_the_cold_solve() {
+        let pair = test_pair("near", BjtParams::new(1e-14, 150.0, Some(80.0)));
+        let d = design(Topology::Wilson, &pair, 0.0);
+        let p = op(1e-4, 300.0);
+        let net = Netlist::compile(&d, &Mismatch::default()).unwrap();
+        let iso = net.solve(&p, &SolveOptions::default()).unwrap();
+        let opts = SolveOptions { self_heating: true };
+        assert_eq!(
+            net.solve_near(&p, &opts, iso.start()).unwrap(),
+            net.solve(&p, &opts).unwrap()
+        );
     }
 }

@@ -16,6 +16,9 @@ use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
 /// It covers nodes whose own currents are tiny, where the last bit of a node voltage
 /// times a device's conductance is all that is left (about 1e-19 A at 50 µA and 40 V).
 pub(crate) const KCL_FLOOR_OF_INPUT: f64 = 1e-12;
+/// Newton iterations a solve started from a nearby solution gets before it falls back to
+/// the solve from scratch (it converges in three to five where it converges at all).
+const NEAR_MAX_ITERATIONS: u32 = 10;
 
 /// Most unknown node voltages of any form (multi-output forms included).
 pub const MAX_NODES: usize = MAX_FORM_NODES;
@@ -762,6 +765,43 @@ impl Netlist {
         self.solve_full(op, opts).map(|(sol, _, _)| sol)
     }
 
+    /// Solves at `op` starting from `start`, the solution of a nearby circuit (the same
+    /// netlist but for a small deviation of a part) or operating point: plain Newton on
+    /// the full system from there, which takes a few iterations where `solve` walks from
+    /// the closed-form start through the isothermal circuit first. Both stop on the same
+    /// residual test, so they agree to the KCL tolerance. Should that Newton not converge,
+    /// or land past the electrothermal fold, this is `solve` (which then also decides
+    /// how the point fails), so the outcome never depends on the start but within the
+    /// tolerance.
+    pub fn solve_near(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+    ) -> Result<Solution, SolveFailure> {
+        if start.self_heating == opts.self_heating && self.check_point(op).is_ok() {
+            let mut newton = NewtonOptions::default();
+            newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
+            // From a nearby solution Newton converges in a few steps or not at all (a
+            // build past the electrothermal fold): give up early and solve from scratch.
+            newton.max_iterations = NEAR_MAX_ITERATIONS;
+            let mut sys = CircuitSystem::new(self, *op);
+            sys.thermal = opts.self_heating;
+            let mut x = start.x;
+            let c = solve::solve(&sys, &mut x, &newton);
+            if c.is_converged() {
+                let nn = self.n_nodes;
+                let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+                let cool =
+                    !opts.self_heating || (t_max <= MAX_JUNCTION_K && sys.thermally_stable(&x));
+                if cool {
+                    return Ok(sys.solution(&x, c.iterations()));
+                }
+            }
+        }
+        self.solve(op, opts)
+    }
+
     /// The solution, the system it was solved with and the unknown vector.
     pub(super) fn solve_full<'n>(
         &'n self,
@@ -1115,6 +1155,10 @@ impl CircuitSystem<'_> {
             transistors,
             transistor_count: net.n_tr,
             iterations,
+            start: super::Start {
+                x: *x,
+                self_heating: self.thermal,
+            },
         }
     }
 
