@@ -8,6 +8,7 @@
 //! bisection, output resistance at every corner, the error budget and the hottest corner.
 
 use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::Mutex;
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -199,6 +200,24 @@ pub struct Evaluator<'a> {
     design: &'a ResolvedDesign<'a>,
     corners: Vec<OperatingCorner>,
     solves: &'a AtomicU64,
+    memo: Mutex<CornerMemo>,
+}
+
+/// The nominal solve and the error-budget sensitivities a design already has at each of
+/// its corners, so a bound walk's corners are not solved again by a later walk or by the
+/// evaluation of the same design (`Evaluator::with_memo`, `Evaluator::into_memo`). Every
+/// entry is the result of the very solve the evaluation would make (same netlist, same
+/// operating point, same start), so reusing it changes no value. A failed solve is not
+/// kept: it is made again and fails again.
+#[derive(Default)]
+pub struct CornerMemo(Vec<Option<Solved>>);
+
+#[derive(Clone)]
+struct Solved {
+    state: CornerState,
+    start: Start,
+    /// Only when every budget build of the corner was solved.
+    sens: Option<Sensitivities>,
 }
 
 impl<'a> Evaluator<'a> {
@@ -207,11 +226,70 @@ impl<'a> Evaluator<'a> {
         design: &'a ResolvedDesign<'a>,
         solves: &'a AtomicU64,
     ) -> Self {
+        Self::with_memo(req, design, solves, CornerMemo::default())
+    }
+
+    /// An evaluator that starts from the solves of `memo`, made by an earlier evaluator
+    /// of the same design and requirement (`into_memo`).
+    pub fn with_memo(
+        req: &'a Requirement,
+        design: &'a ResolvedDesign<'a>,
+        solves: &'a AtomicU64,
+        memo: CornerMemo,
+    ) -> Self {
+        let corners = corners::corners(req);
+        let mut memo = memo;
+        memo.0.resize(corners.len(), None);
         Evaluator {
             req,
             design,
-            corners: corners::corners(req),
+            corners,
             solves,
+            memo: Mutex::new(memo),
+        }
+    }
+
+    /// The corner solves made so far, for a later evaluator of the same design.
+    pub fn into_memo(self) -> CornerMemo {
+        self.memo.into_inner().unwrap_or_else(|e| e.into_inner())
+    }
+
+    fn memo(&self) -> std::sync::MutexGuard<'_, CornerMemo> {
+        self.memo.lock().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// The nominal solve at `c` from the memo, or solved (and kept).
+    fn nominal_at(
+        &self,
+        net: &Netlist,
+        c: &OperatingCorner,
+    ) -> Result<(CornerState, Start), SolveFailure> {
+        let at = self.corners.iter().position(|x| x == c);
+        if let Some(s) = at.and_then(|i| self.memo().0[i].clone()) {
+            return Ok((s.state, s.start));
+        }
+        let (state, start) = self.solve_net_start(net, c, true)?;
+        if let Some(i) = at {
+            self.memo().0[i] = Some(Solved {
+                state: state.clone(),
+                start,
+                sens: None,
+            });
+        }
+        Ok((state, start))
+    }
+
+    /// The sensitivities at `c` kept in the memo, if every build there was solved.
+    fn memo_sens(&self, c: &OperatingCorner) -> Option<Sensitivities> {
+        let i = self.corners.iter().position(|x| x == c)?;
+        self.memo().0[i].as_ref().and_then(|s| s.sens)
+    }
+
+    fn keep_sens(&self, c: &OperatingCorner, d: Sensitivities) {
+        if let Some(i) = self.corners.iter().position(|x| x == c) {
+            if let Some(s) = self.memo().0[i].as_mut() {
+                s.sens = Some(d);
+            }
         }
     }
 
@@ -524,7 +602,7 @@ impl<'a> Evaluator<'a> {
             };
             let mut nominal = Vec::with_capacity(end - i);
             for c in &corners[i..end] {
-                let (s0, start) = self.solve_net_start(&net, c, true).map_err(failed)?;
+                let (s0, start) = self.nominal_at(&net, c).map_err(failed)?;
                 let one = std::slice::from_ref(&s0);
                 let broken = !ratings::vceo(self.design, one).pass
                     || !ratings::ic_max(self.design, one).pass
@@ -540,9 +618,15 @@ impl<'a> Evaluator<'a> {
                     return Ok((sys + k * rnd, (sys, rnd)));
                 }
                 let stop = |partial: f64| sys + k * rnd.max(partial) > settled;
-                let (d, complete) = self
-                    .sensitivities_until(&nets, c, s0, start, stop)
-                    .map_err(|(_, f)| failed(f))?;
+                let (d, complete) = match self.memo_sens(c) {
+                    Some(d) => (d, true),
+                    None => self
+                        .sensitivities_until(&nets, c, s0, start, stop)
+                        .map_err(|(_, f)| failed(f))?,
+                };
+                if complete {
+                    self.keep_sens(c, d);
+                }
                 rnd = rnd.max(budget::random_sigma(&d));
                 if !complete {
                     return Ok((sys + k * rnd, (sys, rnd)));
@@ -825,8 +909,7 @@ impl<'a> Evaluator<'a> {
                 self.solve_net_noise(&net, &c)
                     .map(|(s, nz, st)| (s, Some(nz), st))
             } else {
-                self.solve_net_start(&net, &c, true)
-                    .map(|(s, st)| (s, None, st))
+                self.nominal_at(&net, &c).map(|(s, st)| (s, None, st))
             };
             let (state, start) = match nominal {
                 Ok((s, nz, st)) => {
@@ -843,7 +926,10 @@ impl<'a> Evaluator<'a> {
                     continue;
                 }
             };
-            let d = match self.sensitivities(&sens_nets, &c, &state, &start) {
+            let d = match self
+                .memo_sens(&c)
+                .map_or_else(|| self.sensitivities(&sens_nets, &c, &state, &start), Ok)
+            {
                 Ok(d) => d,
                 Err((input, f)) => {
                     push_failure(&mut checks, failure_check(&f, budget_build(input)));

@@ -32,8 +32,8 @@ pub use design::{
     DesignError, DesignSpec, Package, RefPick, ResolvedDesign,
 };
 pub use evaluate::{
-    compliance_rule, tempco_of, CornerRow, Depth, Evaluation, Evaluator, Figures, MonteCarlo,
-    SampleFailure, YIELD_SCREEN_BAND,
+    compliance_rule, tempco_of, CornerMemo, CornerRow, Depth, Evaluation, Evaluator, Figures,
+    MonteCarlo, SampleFailure, YIELD_SCREEN_BAND,
 };
 pub use montecarlo::linear_yield;
 pub use noise::{describe as describe_noise_measure, NoiseFigure, NoiseShare};

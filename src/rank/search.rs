@@ -25,6 +25,13 @@
 //! when the design is first solved, and once: both standard values around the exact one
 //! and every R_ref class share the design's exact value (`check::RefSizes`).
 //!
+//! A family member's corner solves are made once: its starting bound, its bound walk
+//! and its verification share one memo of nominal solves and error-budget sensitivities
+//! per corner (`check::CornerMemo`). Each kept entry is the result of the very solve the
+//! verification makes there (same netlist, operating point and start), so every value,
+//! and hence every verdict, is the one a fresh verification gives; only the solve count
+//! falls.
+//!
 //! Candidates over `max_cost` are rejected before any solve (cost needs none). The rest
 //! are verified with an early stop at the first corner that already breaks accuracy,
 //! which only ever stops candidates that fail. Survivors get the same verdict as in the
@@ -41,9 +48,11 @@ use rayon::prelude::*;
 
 use super::order::{bare_family, family, worth_listing, FamilyKey, NOTICEABLE_ERROR};
 use super::space::Group;
+use std::sync::Mutex;
+
 use crate::check::{
-    probe_corner, resolve, CheckName, Depth, DesignError, DesignSpec, Evaluation, Evaluator,
-    MonteCarlo, OperatingCorner, RefSizes, ResolvedDesign,
+    probe_corner, resolve, CheckName, CornerMemo, Depth, DesignError, DesignSpec, Evaluation,
+    Evaluator, MonteCarlo, OperatingCorner, RefSizes, ResolvedDesign,
 };
 use crate::model::{Catalog, Requirement};
 
@@ -473,26 +482,31 @@ fn family_best(
     // bound does not solve fails under that solve's check (a corner is never dropped, so
     // its verification fails there too), and one that cannot be resolved is left
     // unverified.
-    type Start = Result<(f64, (f64, f64)), Option<Box<(DesignSpec, Outcome)>>>;
+    type Start = Result<(f64, (f64, f64), CornerMemo), Option<Box<(DesignSpec, Outcome)>>>;
     let starts: Vec<Start> = members
         .par_iter()
         .map(|(_, spec, _)| {
             let d = resolve_sized(req, catalog, spec, solves).map_err(|_| None)?;
             let e = Evaluator::new(req, &d, solves);
             // A failed solve fails the design under that solve's check.
-            e.error_bound_until(hint, f64::INFINITY, (0.0, 0.0))
-                .map_err(|c| Some(Box::new((d.spec.clone(), Outcome::Rejected(c)))))
+            let r = e
+                .error_bound_until(hint, f64::INFINITY, (0.0, 0.0))
+                .map_err(|c| Some(Box::new((d.spec.clone(), Outcome::Rejected(c)))));
+            r.map(|(b, m)| (b, m, e.into_memo()))
         })
         .collect();
     let mut results = Vec::new();
     let mut bounds = vec![f64::INFINITY; members.len()];
     let mut maxima = vec![(0.0, 0.0); members.len()];
+    let mut memos: Vec<Mutex<CornerMemo>> = Vec::with_capacity(members.len());
     let mut live = Vec::new();
     for (x, st) in starts.into_iter().enumerate() {
+        memos.push(Mutex::default());
         match st {
-            Ok((b, m)) => {
+            Ok((b, m, memo)) => {
                 bounds[x] = b;
                 maxima[x] = m;
+                memos[x] = Mutex::new(memo);
                 live.push(x);
             }
             Err(Some(b)) => {
@@ -522,7 +536,8 @@ fn family_best(
                 let Ok(d) = resolve_sized(req, catalog, spec, solves) else {
                     return (*k, spec.clone(), None);
                 };
-                let e = Evaluator::new(req, &d, solves);
+                let memo = std::mem::take(&mut *memos[x].lock().unwrap_or_else(|e| e.into_inner()));
+                let e = Evaluator::with_memo(req, &d, solves, memo);
                 let rest = if req.program.is_some() {
                     far_first(e.corners(), hint)
                 } else {
