@@ -637,6 +637,31 @@ impl<'a> Evaluator<'a> {
         Ok((sys + k * rnd, (sys, rnd)))
     }
 
+    /// The nominal solve at `corner` judged on the ratings alone (VCEO, IC max,
+    /// dissipation, in the evaluation's order): `Ok(Some(check))` for the first one
+    /// broken there, which fails the design (each rating is judged on its worst corner),
+    /// or the check a failed solve fails. The same solve as `evaluate`'s and
+    /// `error_bound_until`'s at that corner, so the finding is the verification's.
+    pub fn rating_broken_at(
+        &self,
+        corner: &OperatingCorner,
+    ) -> Result<Option<CheckName>, CheckName> {
+        let failed = |f: SolveFailure| failure_check(&f, "nominal design").name;
+        let net = self
+            .compile(&Mismatch::default(), NOMINAL)
+            .map_err(failed)?;
+        let (s0, _) = self.solve_net_start(&net, corner, true).map_err(failed)?;
+        let one = std::slice::from_ref(&s0);
+        Ok([
+            ratings::vceo(self.design, one),
+            ratings::ic_max(self.design, one),
+            ratings::dissipation(self.design, one),
+        ]
+        .into_iter()
+        .find(|r| !r.pass)
+        .map(|r| r.name))
+    }
+
     /// Every corner of the requirement, in the evaluation's order.
     pub fn corners(&self) -> &[OperatingCorner] {
         &self.corners

@@ -26,7 +26,9 @@ pub use budget::{
     BudgetLine, ErrorBudget, RandomCause, Sensitivities, SystematicCause, RANDOM_INPUTS,
 };
 pub use confidence::{wilson_interval, MIN_SAMPLES};
-pub use corners::{corners, design_current, probe_corner, temperatures, OperatingCorner, ROOM_K};
+pub use corners::{
+    corners, design_current, input_corner, probe_corner, temperatures, OperatingCorner, ROOM_K,
+};
 pub use design::{
     helper_count, helpers_fit_in_spares, helpers_fit_in_spares_for, place, place_form, resolve,
     DesignError, DesignSpec, Package, RefPick, ResolvedDesign,

@@ -8,7 +8,7 @@
 use super::netlist::Netlist;
 use super::OperatingPoint;
 use crate::device::{limit_junction, BjtAtT};
-use crate::solve::{lu_factor, Matrix, NonlinearSystem, Vector, MAX_DIM};
+use crate::solve::{schur_determinant_in_place, Matrix, NonlinearSystem, Vector, MAX_DIM};
 
 pub(super) const R_SLOT: usize = 0;
 pub(super) const S_SLOT: usize = 1;
@@ -149,8 +149,9 @@ impl<'n> CircuitSystem<'n> {
 
     /// The electrothermal loop is stable at `x` when `det(I - L) > 0`, L being the loop gain
     /// from junction temperatures back to themselves; by the Schur complement that is
-    /// `det(J) / det(J_electrical)`. A fixed point past the fold (or none at all) is thermal
-    /// runaway.
+    /// `det(J) / det(J_electrical)`, the determinant of the thermal rows' Schur complement,
+    /// found in one elimination of the Jacobian in place. A fixed point past the fold (or
+    /// none at all) is thermal runaway.
     pub fn thermally_stable(&self, x: &Vector) -> bool {
         if !self.thermal {
             return true;
@@ -160,11 +161,8 @@ impl<'n> CircuitSystem<'n> {
         let mut s = [0.0; MAX_DIM];
         let mut j = [[0.0; MAX_DIM]; MAX_DIM];
         self.jacobian(x, &mut f, &mut s, &mut j);
-        let (Some(full), Some(el)) = (lu_factor(&j, n), lu_factor(&j, self.net.n_nodes)) else {
-            return false;
-        };
-        let ratio = full.determinant() / el.determinant();
-        ratio.is_finite() && ratio > 0.0
+        schur_determinant_in_place(&mut j, self.net.n_nodes, n)
+            .is_some_and(|d| d.is_finite() && d > 0.0)
     }
 
     fn eval(&self, x: &Vector, f: &mut Vector, scale: &mut Vector, mut jac: Option<&mut Matrix>) {

@@ -302,7 +302,8 @@ fn show(x: f64, d: Dimension) -> String {
 
 /// A few candidates per family to judge nearness from: the smallest, middle and largest
 /// resistor value of each group, and the same three among the values that pass the
-/// search's screens (the screens bound accuracy from below and compliance from above, so
+/// search's bounds (without its rating screen: the bounds bound accuracy from below and
+/// compliance from above, so
 /// a design that can be made feasible by one field usually sits in that window: at 250 V
 /// the window is where a simple mirror's 32 V version passes, which the even picks miss).
 fn pool(req: &Requirement, catalog: &Catalog, groups: &[Group]) -> Vec<DesignSpec> {
@@ -314,7 +315,7 @@ fn pool(req: &Requirement, catalog: &Catalog, groups: &[Group]) -> Vec<DesignSpe
             let mut picks: Vec<usize> = Vec::new();
             if n > 0 {
                 picks.extend([0, n / 2, n - 1]);
-                let passed: Vec<usize> = screen_group(req, catalog, g, &solves)
+                let passed: Vec<usize> = screen_group(req, catalog, g, false, &solves)
                     .iter()
                     .enumerate()
                     .filter(|(_, (_, o))| matches!(o, Outcome::Survivor(_)))

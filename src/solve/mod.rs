@@ -13,7 +13,8 @@ mod lu;
 mod newton;
 
 pub use lu::{
-    lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, Lu, Matrix, Pivots, Vector, MAX_DIM,
+    lu_factor, lu_factor_in_place, lu_solve, lu_solve_in_place, schur_determinant_in_place, Lu,
+    Matrix, Pivots, Vector, MAX_DIM,
 };
 pub use newton::{
     newton_step, solve, solve_damped, solve_fallbacks, solve_with_continuation, Convergence,

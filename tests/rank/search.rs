@@ -112,6 +112,50 @@ fn narrowed() -> (Catalog, Requirement) {
     (cat, req)
 }
 
+/// A 100 V, 2 mA sink on a general-purpose class (VCEO 45 V, 36 V derated), the
+/// high-voltage one (160 V) and a general-purpose helper: the rating screen's ground.
+fn high_voltage() -> (Catalog, Requirement) {
+    let cat = default_catalog();
+    let text = "name: 100 V sink, narrowed
+kind: sink
+supply: 110 V
+input_current: {min: 2 mA, max: 2 mA}
+output_voltage: {min: 5 V, max: 100 V}
+ambient: {min: 0 °C, max: 50 °C}
+accuracy: 5 %
+load: general
+allow: [simple, beta-helper, npn-dual-general, npn-dual-highvoltage, npn-single-general,
+  thick-film-1pct]
+";
+    let req = mirrorpick::input::load_requirement("hv.yaml", text, Some(&cat)).unwrap();
+    (cat, req)
+}
+
+/// The rating screen rejects only designs the exhaustive search finds infeasible, rejects
+/// some (the general-purpose class cannot stand 100 V), and leaves the rows exact.
+#[test]
+fn the_rating_screen_rejects_only_infeasible_designs_and_the_rows_stay_exact() {
+    use mirrorpick::check::CheckName;
+    let (cat, req) = high_voltage();
+    let groups = enumerate(&req, &cat);
+    let all = search(&req, &cat, &groups, true, Goal::All, MC, &Silent);
+    let solves = std::sync::atomic::AtomicU64::new(0);
+    let (rejected, _) = mirrorpick::rank::screen_only(&req, &cat, &groups, &solves);
+    let mut by_rating = 0;
+    for (spec, check) in &rejected {
+        assert!(
+            !all.feasible.iter().any(|(f, _)| f == spec),
+            "{spec:?} screened out under {check:?} but feasible"
+        );
+        by_rating += usize::from(matches!(
+            check,
+            CheckName::Vceo | CheckName::IcMax | CheckName::Dissipation | CheckName::ThermalRunaway
+        ));
+    }
+    assert!(by_rating > 0, "no design rejected by the rating screen");
+    same_top(&req, &cat, 20, Prefer::Cost, false);
+}
+
 #[test]
 fn default_equals_exhaustive_on_a_narrowed_example() {
     let (cat, req) = narrowed();
