@@ -240,7 +240,14 @@ mod tests {
             assert!(a.r_ref_ohm > 0.0 && a.r_ref_pick.is_none());
             assert_eq!(a.r_ref_ohm, b.r_ref_ohm, "{pick:?} {class}");
         }
-        assert_eq!(first.r_ref_ohm, spec_below_value(&req, &catalog, &fresh));
+        let bare = DesignSpec {
+            r_ref_resistor: None,
+            r_ref_pick: None,
+            ..spec(RefPick::Below, "thick-film-1pct")
+        };
+        let exact = exact_r_ref(&req, &catalog, &bare, &fresh).unwrap();
+        let class = catalog.resistor("thick-film-1pct").unwrap();
+        assert_eq!(first.r_ref_ohm, standard_around(exact, class).unwrap().0);
         assert_eq!(shared.load(Ordering::Relaxed), once, "solved once");
         // Another emitter resistor is another design.
         let mut other = spec(RefPick::Below, "thick-film-1pct");
@@ -248,29 +255,6 @@ mod tests {
         other.re2_ohm = 200.0;
         sizes.choose(&req, &catalog, &other, &shared);
         assert_eq!(shared.load(Ordering::Relaxed), 2 * once);
-    }
-
-    fn spec_below_value(req: &Requirement, catalog: &Catalog, solves: &AtomicU64) -> f64 {
-        let exact = exact_r_ref(
-            req,
-            catalog,
-            &DesignSpec {
-                shape: Shape::SINGLE,
-                topology: Topology::Simple,
-                pair: "npn-dual-general".into(),
-                helper: None,
-                re1_ohm: 100.0,
-                re2_ohm: 100.0,
-                resistor: Some("thick-film-1pct".into()),
-                r_ref_ohm: 0.0,
-                r_ref_resistor: None,
-                r_ref_pick: None,
-            },
-            solves,
-        )
-        .unwrap();
-        let class = catalog.resistor("thick-film-1pct").unwrap();
-        standard_around(exact, class).unwrap().0
     }
 
     #[test]
