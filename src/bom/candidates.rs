@@ -95,7 +95,7 @@ use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{
-    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, DesignSpec,
+    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, Depth, DesignSpec,
     Evaluation, MonteCarlo,
 };
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
@@ -296,11 +296,13 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
 }
 
 /// Verify the candidates `idx` of one channel (those not yet verified), in parallel.
+#[allow(clippy::too_many_arguments)]
 fn verify_some(
     req: &Requirement,
     catalog: &Catalog,
     cands: &mut [Cand],
     idx: &[usize],
+    depth: Depth,
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
@@ -314,7 +316,7 @@ fn verify_some(
         return;
     }
     let specs: Vec<&DesignSpec> = todo.iter().map(|&i| &cands[i].spec).collect();
-    let out = verify_each(req, catalog, &specs, mc, solves);
+    let out = verify_each(req, catalog, &specs, depth, mc, solves);
     progress.advance(todo.len() as u64);
     for (i, v) in todo.into_iter().zip(out) {
         cands[i].verdict = Some(v);
@@ -334,6 +336,12 @@ fn fast_feed(
     progress: &dyn Progress,
 ) -> Vec<Feed> {
     let solves = AtomicU64::new(0);
+    let t0 = std::time::Instant::now();
+    let tr = |w: &str| {
+        if std::env::var_os("MP_TRACE").is_some() {
+            eprintln!("TRACE {w} t={:.3}", t0.elapsed().as_secs_f64());
+        }
+    };
     let groups: Vec<_> = reqs.iter().map(|r| enumerate(r, catalog)).collect();
     progress.start(
         groups
@@ -356,6 +364,7 @@ fn fast_feed(
         })
         .collect();
 
+    tr(&format!("screened solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
     // Stage 1: each channel's smallest share among feasible designs, verifying whole
     // levels of equal share in ascending order until one is feasible.
     let mut least: Vec<Option<f64>> = vec![None; reqs.len()];
@@ -369,13 +378,23 @@ fn fast_feed(
                 .iter()
                 .position(|&j| cands[j].share != share)
                 .map_or(order.len(), |p| i + p);
-            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            verify_some(
+                req,
+                catalog,
+                cands,
+                &order[i..end],
+                Depth::Screen,
+                mc,
+                &solves,
+                progress,
+            );
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 least[c] = Some(share);
                 break;
             }
             i = end;
         }
+        tr(&format!("  stage1 ch{c} share-part solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
         // And the cheapest cost level with a feasible design, whole, so the baseline
         // (every channel's cheapest design on its own) is the one the full feed gives.
         let cost = |c: &Cand| resolve(catalog, &c.spec).map_or(f64::INFINITY, |d| d.cost);
@@ -388,7 +407,16 @@ fn fast_feed(
                 .iter()
                 .position(|&j| costs[j] != level)
                 .map_or(order.len(), |p| i + p);
-            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            verify_some(
+                req,
+                catalog,
+                cands,
+                &order[i..end],
+                Depth::Screen,
+                mc,
+                &solves,
+                progress,
+            );
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 break;
             }
@@ -396,6 +424,7 @@ fn fast_feed(
         }
     }
 
+    tr(&format!("stage1 solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
     // A channel without a feasible design makes the board infeasible whatever the
     // others offer: nothing more to verify.
     if least.iter().all(Option::is_some) {
@@ -442,17 +471,19 @@ fn fast_feed(
                 p
             })
             .collect();
+        tr(&format!("upper={upper} solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
         // Stage 2: keep a candidate only if a board using it can cost no more than
         // `upper`; a tolerance covers the rounding of sums.
         let slack = 1e-9 * upper.abs().max(1.0);
         let mut kept: Vec<Vec<usize>> = Vec::new();
+        let mut by_bound: Vec<Vec<usize>> = Vec::new();
         for (c, (_, cands)) in screened.iter().enumerate() {
             let count = f64::from(design.channels[c].count);
-            let keep: Vec<usize> = (0..cands.len())
-                .filter(|&i| {
+            let bounds: Vec<(usize, f64)> = (0..cands.len())
+                .filter_map(|i| {
                     let o = &cands[i];
                     if matches!(o.verdict, Some(Err(_))) {
-                        return false;
+                        return None;
                     }
                     let other_polarity = polarities
                         .iter()
@@ -460,22 +491,28 @@ fn fast_feed(
                     let lines = o.items.len() + usize::from(other_polarity);
                     let bound = boards * (base + count * (o.share - least[c]))
                         + design.line_item_cost * lines as f64;
-                    bound <= upper + slack
+                    (bound <= upper + slack).then_some((i, bound))
                 })
                 .collect();
-            kept.push(keep);
+            kept.push(bounds.iter().map(|&(i, _)| i).collect());
+            let mut b = bounds;
+            b.sort_by(|x, y| x.1.total_cmp(&y.1).then(x.0.cmp(&y.0)));
+            by_bound.push(b.into_iter().map(|(i, _)| i).collect());
         }
+        tr(&format!("stage2 kept={:?}", kept.iter().map(|k| k.len()).collect::<Vec<_>>()));
         lazy_verify(
             design,
             reqs,
             catalog,
             &mut screened,
             &kept,
+            &by_bound,
             mc,
             &solves,
             progress,
         );
     }
+    tr(&format!("lazy solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
     let total: u64 = groups
         .iter()
         .flat_map(|g| g.iter().map(|g| g.specs.len() as u64))
@@ -731,10 +768,12 @@ fn lazy_verify(
     catalog: &Catalog,
     screened: &mut [Screened],
     kept: &[Vec<usize>],
+    by_bound: &[Vec<usize>],
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
 ) {
+    let extra: usize = std::env::var("MP_EXTRA").ok().and_then(|v| v.parse().ok()).unwrap_or(0);
     // Each kept candidate's usage, and the candidates grouped by the parts they put on
     // the board, with those parts as small integers (computed once: the loop only picks
     // a representative per group).
@@ -743,6 +782,7 @@ fn lazy_verify(
     let mut shape: Vec<Vec<Shape>> = Vec::new();
     let mut tkeys: BTreeMap<String, u32> = BTreeMap::new();
     let mut rclass: BTreeMap<String, u32> = BTreeMap::new();
+    let mut vids: BTreeMap<(u32, u64), u32> = BTreeMap::new();
     for (c, (_, cands)) in screened.iter().enumerate() {
         let mut u: Vec<Option<DesignUsage>> = (0..cands.len()).map(|_| None).collect();
         let mut at: BTreeMap<String, usize> = BTreeMap::new();
@@ -760,13 +800,16 @@ fn lazy_verify(
                     g.push(vec![i]);
                     let n = tkeys.len() as u32;
                     let t = *tkeys.entry(transistors_key(&usage)).or_insert(n);
-                    let mut rs: Vec<(u32, u64, u32)> = usage
+                    let mut rs: Vec<(u32, u64, u32, u32)> = usage
                         .resistors
                         .iter()
                         .map(|r| {
                             let n = rclass.len() as u32;
                             let k = *rclass.entry(r.class.clone()).or_insert(n);
-                            (k, r.value_ohm.to_bits(), r.count)
+                            let bits = r.value_ohm.to_bits();
+                            let n = vids.len() as u32;
+                            let v = *vids.entry((k, bits)).or_insert(n);
+                            (k, bits, r.count, v)
                         })
                         .collect();
                     rs.sort_unstable();
@@ -779,7 +822,16 @@ fn lazy_verify(
         groups.push(g);
         shape.push(sh);
     }
+    let trace = std::env::var_os("MP_TRACE").is_some();
+    let (mut t_build, mut t_opt, mut t_ver, mut rounds, mut nver) = (0.0, 0.0, 0.0, 0, 0usize);
+    let mut t = std::time::Instant::now();
+    let mut report = |t_build: f64, t_opt: f64, t_ver: f64, rounds: usize, nver: usize| {
+        if trace {
+            eprintln!("TRACE lazy rounds={rounds} build={t_build:.3} opt={t_opt:.3} verify={t_ver:.3} verified={nver} solves={}", solves.load(std::sync::atomic::Ordering::Relaxed));
+        }
+    };
     loop {
+        rounds += 1;
         let state = |c: usize, i: usize| &screened[c].1[i].verdict;
         // Per group: the verified design with the largest governing margin, else the
         // first not yet verified; `None` once every member failed.
@@ -821,13 +873,15 @@ fn lazy_verify(
                     .collect()
             })
             .collect();
-        let keep = reduce_optimistic(&shape, &live);
+        if trace { eprintln!("TRACE  reps {:.4} groups {}", t.elapsed().as_secs_f64(), live.iter().map(|l| l.len()).sum::<usize>()); }
+        let keep = reduce_optimistic(&shape, vids.len(), &live);
+        if trace { eprintln!("TRACE  reduce {:.4}", t.elapsed().as_secs_f64()); }
         let mut channels = Vec::new();
         for (c, (rej, cands)) in screened.iter().enumerate() {
             let mut options = Vec::new();
             let mut designs = Vec::new();
             for &(k, (i, margin)) in &live[c] {
-                if !keep[c].contains(&k) {
+                if !keep[c][k] {
                     continue;
                 }
                 let ev = match &cands[i].verdict {
@@ -861,10 +915,18 @@ fn lazy_verify(
                 evaluated: 0,
             });
         }
+        if trace { eprintln!("TRACE  options {:.4}", t.elapsed().as_secs_f64()); }
         let dp = assemble(design, catalog, channels);
+        t_build += t.elapsed().as_secs_f64();
+        t = std::time::Instant::now();
         let Ok(crate::bom::BomOutcome::Optimal(plan)) = crate::bom::optimise(&dp.problem) else {
             return;
         };
+        t_opt += t.elapsed().as_secs_f64();
+        t = std::time::Instant::now();
+        if trace {
+            eprintln!("TRACE round {rounds} options={:?}", dp.problem.channels.iter().map(|c| c.options.len()).collect::<Vec<_>>());
+        }
         let mut todo: Vec<(usize, usize)> = Vec::new();
         for (c, a) in plan.channels.iter().enumerate() {
             let Some((spec, ev)) = dp.channels[c].designs.get(a.option) else {
@@ -878,6 +940,7 @@ fn lazy_verify(
             }
         }
         if todo.is_empty() {
+            report(t_build, t_opt, t_ver, rounds, nver);
             return;
         }
         for (c, i) in todo {
@@ -895,33 +958,65 @@ fn lazy_verify(
             if !near.contains(&i) {
                 near.push(i);
             }
-            verify_some(&reqs[c], catalog, cands, &near, mc, solves, progress);
+            let more: Vec<usize> = by_bound[c].iter().copied().filter(|&j| cands[j].verdict.is_none() && !near.contains(&j)).take(extra).collect();
+            near.extend(more);
+            let nn = near.iter().filter(|&&j| cands[j].verdict.is_none()).count();
+            nver += nn;
+            let s0 = solves.load(std::sync::atomic::Ordering::Relaxed);
+            verify_some(
+                &reqs[c],
+                catalog,
+                cands,
+                &near,
+                Depth::Feasibility,
+                mc,
+                solves,
+                progress,
+            );
+            if trace {
+                let why: Vec<String> = near.iter().filter_map(|&j| match &cands[j].verdict { Some(Err(e)) => Some(e.to_string()), _ => None }).collect();
+                eprintln!("TRACE   solves/verif {} fails {:?}", (solves.load(std::sync::atomic::Ordering::Relaxed) - s0) / nn.max(1) as u64, why);
+            }
+            if trace {
+                let ok = near.iter().filter(|&&j| is_feasible(&cands[j])).count();
+                eprintln!("TRACE   ch{c} {} -> {} ; near {nn} verified, {ok} feasible, cost {}", label(&cands[i].spec), is_feasible(&cands[i]), plan.total_cost);
+            }
         }
+        t_ver += t.elapsed().as_secs_f64();
+        t = std::time::Instant::now();
     }
 }
 
 /// A group's parts: its transistors (interned) and resistor items `(class, value bits,
-/// count)`, sorted.
-type Shape = (u32, Vec<(u32, u64, u32)>);
+/// count, value id)`, sorted; the value id interns `(class, value bits)` board-wide.
+type Shape = (u32, Vec<(u32, u64, u32, u32)>);
+
+/// A value no live group uses, and one that two channels or more use.
+const NO_USER: u32 = u32::MAX;
+const SHARED: u32 = u32::MAX - 1;
 
 /// The two exact reductions of the module docs (private values, dominated values) on the
-/// optimistic feed, on integers because that feed is large. `live[c]` lists channel `c`'s
-/// groups still standing, each with its representative and margin; returns, per channel,
-/// the groups to offer.
+/// optimistic feed, on integers because that feed is large (tens of thousands of groups,
+/// every round). `live[c]` lists channel `c`'s groups still standing, each with its
+/// representative and margin; `values` is the number of value ids. Returns, per channel
+/// and group, whether the group is offered.
 fn reduce_optimistic(
     shape: &[Vec<Shape>],
+    values: usize,
     live: &[Vec<(usize, (usize, f64))>],
-) -> Vec<std::collections::BTreeSet<usize>> {
-    use std::collections::{BTreeSet, HashMap};
-    // Channels that still use each resistor value.
-    let mut users: HashMap<(u32, u64), Vec<usize>> = HashMap::new();
+) -> Vec<Vec<bool>> {
+    use std::collections::HashMap;
+    // The one channel that still uses each value, or `SHARED`.
+    let mut owner = vec![NO_USER; values];
     for (c, l) in live.iter().enumerate() {
         for &(k, _) in l {
-            for &(cl, v, _) in &shape[c][k].1 {
-                let u = users.entry((cl, v)).or_default();
-                if !u.contains(&c) {
-                    u.push(c);
-                }
+            for &(_, _, _, v) in &shape[c][k].1 {
+                let o = &mut owner[v as usize];
+                *o = match *o {
+                    NO_USER => c as u32,
+                    x if x == c as u32 => x,
+                    _ => SHARED,
+                };
             }
         }
     }
@@ -929,25 +1024,26 @@ fn reduce_optimistic(
     // with the largest margin (ties: the first).
     let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
     for (c, l) in live.iter().enumerate() {
-        let mut at: HashMap<ShapeKey, usize> = HashMap::new();
+        let mut at: HashMap<(u32, Vec<(u32, u32, u32)>), usize, Fx> = HashMap::default();
         let mut out: Vec<(usize, f64)> = Vec::new();
         for &(k, (_, m)) in l {
             let (t, rs) = &shape[c][k];
-            let key: Vec<(u32, Option<u64>, u32)> = rs
+            let key: Vec<(u32, u32, u32)> = rs
                 .iter()
-                .map(|&(cl, v, n)| {
-                    let shared = users[&(cl, v)].iter().any(|&x| x != c);
-                    (cl, shared.then_some(v), n)
+                .map(|&(cl, _, n, v)| {
+                    let shared = owner[v as usize] == SHARED;
+                    (cl, if shared { v } else { NO_USER }, n)
                 })
                 .collect();
-            match at.get(&(*t, key.clone())) {
-                Some(&j) => {
+            match at.entry((*t, key)) {
+                std::collections::hash_map::Entry::Occupied(e) => {
+                    let j = *e.get();
                     if m > out[j].1 {
                         out[j] = (k, m);
                     }
                 }
-                None => {
-                    at.insert((*t, key), out.len());
+                std::collections::hash_map::Entry::Vacant(e) => {
+                    e.insert(out.len());
                     out.push((k, m));
                 }
             }
@@ -956,38 +1052,43 @@ fn reduce_optimistic(
     }
     // Dominated values: the signature of a value is every (channel, transistors, count)
     // of the options whose resistors all take that one value.
-    let single = |rs: &[(u32, u64, u32)]| -> Option<((u32, u64), u32)> {
+    let single = |rs: &[(u32, u64, u32, u32)]| -> Option<(u32, u32)> {
         let f = rs.first()?;
         rs.iter()
-            .all(|r| r.0 == f.0 && r.1 == f.1)
-            .then(|| ((f.0, f.1), rs.iter().map(|r| r.2).sum()))
+            .all(|r| r.3 == f.3)
+            .then(|| (f.3, rs.iter().map(|r| r.2).sum()))
     };
-    let mut sig: Signatures = HashMap::new();
-    let mut margin: HashMap<(u32, u64), f64> = HashMap::new();
-    let mut in_multi: BTreeSet<(u32, u64)> = BTreeSet::new();
+    let mut sig: Vec<Vec<(usize, u32, u32)>> = vec![Vec::new(); values];
+    let mut margin = vec![0.0f64; values];
+    let mut in_multi = vec![false; values];
+    // Each value's class and bits, for the class test and the order's last tie-break.
+    let mut value_of = vec![(0u32, 0u64); values];
     for (c, out) in merged.iter().enumerate() {
         for &(k, m) in out {
             let (t, rs) = &shape[c][k];
+            for r in rs {
+                value_of[r.3 as usize] = (r.0, r.1);
+            }
             match single(rs) {
                 Some((v, n)) => {
-                    sig.entry(v).or_default().push((c, *t, n));
-                    *margin.entry(v).or_default() += m;
+                    sig[v as usize].push((c, *t, n));
+                    margin[v as usize] += m;
                 }
-                None => in_multi.extend(rs.iter().map(|r| (r.0, r.1))),
+                None => rs.iter().for_each(|r| in_multi[r.3 as usize] = true),
             }
         }
     }
-    for s in sig.values_mut() {
+    for s in &mut sig {
         s.sort_unstable();
         s.dedup();
     }
-    let mut order: Vec<(u32, u64)> = sig.keys().copied().collect();
-    order.sort_by(|a, b| {
+    let mut order: Vec<usize> = (0..values).filter(|&v| !sig[v].is_empty()).collect();
+    order.sort_by(|&a, &b| {
         sig[b]
             .len()
             .cmp(&sig[a].len())
             .then(margin[b].total_cmp(&margin[a]))
-            .then(a.cmp(b))
+            .then(value_of[a].cmp(&value_of[b]))
     });
     let superset = |big: &[(usize, u32, u32)], small: &[(usize, u32, u32)]| {
         let mut j = 0;
@@ -1001,15 +1102,15 @@ fn reduce_optimistic(
         }
         true
     };
-    let mut kept: Vec<(u32, u64)> = Vec::new();
-    let mut dropped: BTreeSet<(u32, u64)> = BTreeSet::new();
+    let mut kept: Vec<usize> = Vec::new();
+    let mut dropped = vec![false; values];
     for w in order {
-        let covered = !in_multi.contains(&w)
+        let covered = !in_multi[w]
             && kept
                 .iter()
-                .any(|v| v.0 == w.0 && superset(&sig[v], &sig[&w]));
+                .any(|&v| value_of[v].0 == value_of[w].0 && superset(&sig[v], &sig[w]));
         if covered {
-            dropped.insert(w);
+            dropped[w] = true;
         } else {
             kept.push(w);
         }
@@ -1018,14 +1119,50 @@ fn reduce_optimistic(
         .iter()
         .enumerate()
         .map(|(c, out)| {
-            out.iter()
-                .filter(|&&(k, _)| {
-                    single(&shape[c][k].1).is_none_or(|(v, _)| !dropped.contains(&v))
-                })
-                .map(|&(k, _)| k)
-                .collect()
+            let mut offer = vec![false; shape[c].len()];
+            for &(k, _) in out {
+                offer[k] = single(&shape[c][k].1).is_none_or(|(v, _)| !dropped[v as usize]);
+            }
+            offer
         })
         .collect()
+}
+
+/// A small, fast hasher for the integer keys of [`reduce_optimistic`] (the multiply-rotate
+/// scheme of the Firefox hasher): the default one is built to resist adversarial keys,
+/// which these are not, and costs several times more.
+#[derive(Default, Clone, Copy)]
+struct Fx;
+
+impl std::hash::BuildHasher for Fx {
+    type Hasher = FxHasher;
+    fn build_hasher(&self) -> FxHasher {
+        FxHasher(0)
+    }
+}
+
+struct FxHasher(u64);
+
+impl std::hash::Hasher for FxHasher {
+    fn write(&mut self, bytes: &[u8]) {
+        for chunk in bytes.chunks(8) {
+            let mut b = [0u8; 8];
+            b[..chunk.len()].copy_from_slice(chunk);
+            self.write_u64(u64::from_le_bytes(b));
+        }
+    }
+    fn write_u32(&mut self, i: u32) {
+        self.write_u64(u64::from(i));
+    }
+    fn write_usize(&mut self, i: usize) {
+        self.write_u64(i as u64);
+    }
+    fn write_u64(&mut self, i: u64) {
+        self.0 = (self.0.rotate_left(5) ^ i).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+    }
+    fn finish(&self) -> u64 {
+        self.0
+    }
 }
 
 /// Margin given to a design not yet verified, so equal usages keep a verified design.
