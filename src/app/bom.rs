@@ -43,20 +43,15 @@ pub fn run_bom(cfg: &Config, a: &BomArgs, out: &mut dyn Write) -> Result<Outcome
     let design = draft.finish(&catalog)?;
 
     let bar = Bar::for_format(a.format);
-    let t0 = std::time::Instant::now();
     let dp = design_problem(&design, &catalog, a.mc, &bar);
     bar.finish();
-    let trace = std::env::var_os("MP_TRACE").is_some();
-    if trace { eprintln!("TRACE design_problem {:.3}", t0.elapsed().as_secs_f64()); }
     let outcome = bom::optimise(&dp.problem)?;
-    if trace { eprintln!("TRACE final optimise {:.3}", t0.elapsed().as_secs_f64()); }
 
     let mut notes = Vec::new();
     let result = match outcome {
         BomOutcome::Optimal(mut plan) => {
             notes.extend(render_cautions(&plan));
             notes.extend(verify_chosen(&mut plan, &dp, &design, a.mc));
-            if trace { eprintln!("TRACE verify_chosen {:.3}", t0.elapsed().as_secs_f64()); }
             write_plan(&plan, &dp, a, cfg.style, out)?;
             Outcome::Success
         }

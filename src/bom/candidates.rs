@@ -62,9 +62,24 @@
 //!    values, dominated values; verified designs are preferred within equal usages). That
 //!    optimum is at most the true one (more options). If it chooses only verified
 //!    designs, its board is feasible, so it *is* the true optimum; otherwise the chosen
-//!    unverified designs are verified (with up to 16 neighbours of the same family, so a
-//!    failure does not cost one round each) and the program solved again. Each round
-//!    disproves or confirms at least one chosen design, so it ends.
+//!    unverified designs are verified and the program solved again. Each round
+//!    disproves or confirms at least one chosen design, so it ends. Which *other*
+//!    designs are verified in a round changes nothing in this argument (verifying more
+//!    only replaces optimistic options by true ones), only the number of rounds: with
+//!    each chosen design go up to 64 unverified neighbours of its family (nearest in
+//!    enumeration order: should it fail, the next choice is often one of them) and the
+//!    16 unverified designs of its channel the program is offered with the smallest
+//!    step-3 bound. A round rebuilds and solves the program (tens of milliseconds), a
+//!    failing verification costs a few solves, so on the shipped board this takes 20
+//!    rounds where one design at a time took 56.
+//!
+//! Verifications in steps 1 and 4 need pass or fail only, so they run at
+//! `Depth::Feasibility`: a design that has already failed a check is not given the
+//! re-solved Monte Carlo yield (a thousand builds), which made a design that fails
+//! `max_noise` cost as much as a feasible one. The verdict is the screen's; only the
+//! check a failure is counted under may differ, and that count is shown only for a
+//! channel without a feasible design, whose candidates are then judged again at the
+//! ranking's depth so its reason reads as before.
 //!
 //! The board is then built from every verified feasible design only, so its optimum equals
 //! the full feed's (`tests/bom/fast_feed.rs` checks it on the shipped board and on random
@@ -150,10 +165,6 @@ fn channel_requirements(design: &BoardDesign, catalog: &Catalog) -> Vec<Requirem
 /// One channel's screen: the candidates proved infeasible (with the check that did it)
 /// and the survivors.
 type Screened = (Vec<(DesignSpec, CheckName)>, Vec<Cand>);
-/// A usage's shape: line-item count and its (class, value, count) entries.
-type ShapeKey = (u32, Vec<(u32, Option<u64>, u32)>);
-/// Candidates by (channel, cost signature): (index, usage, line items).
-type Signatures = std::collections::HashMap<(u32, u64), Vec<(usize, u32, u32)>>;
 /// A design's resistor values by (class, value, count) entries and pair class.
 type ValueKey = (Vec<(String, Option<u64>, u32)>, String);
 
@@ -244,6 +255,9 @@ struct Cand {
     polarity: Polarity,
     /// `None` until verified; then the evaluation, or the check it failed.
     verdict: Option<Result<Evaluation, CheckName>>,
+    /// Whether a failed verdict names the check a screen would (`Depth::Feasibility`
+    /// may name another).
+    named: bool,
 }
 
 /// One channel's screen and verifications.
@@ -292,6 +306,7 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
         items,
         spec,
         verdict: None,
+        named: false,
     })
 }
 
@@ -320,6 +335,7 @@ fn verify_some(
     progress.advance(todo.len() as u64);
     for (i, v) in todo.into_iter().zip(out) {
         cands[i].verdict = Some(v);
+        cands[i].named = depth != Depth::Feasibility;
     }
 }
 
@@ -336,12 +352,6 @@ fn fast_feed(
     progress: &dyn Progress,
 ) -> Vec<Feed> {
     let solves = AtomicU64::new(0);
-    let t0 = std::time::Instant::now();
-    let tr = |w: &str| {
-        if std::env::var_os("MP_TRACE").is_some() {
-            eprintln!("TRACE {w} t={:.3}", t0.elapsed().as_secs_f64());
-        }
-    };
     let groups: Vec<_> = reqs.iter().map(|r| enumerate(r, catalog)).collect();
     progress.start(
         groups
@@ -364,7 +374,6 @@ fn fast_feed(
         })
         .collect();
 
-    tr(&format!("screened solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
     // Stage 1: each channel's smallest share among feasible designs, verifying whole
     // levels of equal share in ascending order until one is feasible.
     let mut least: Vec<Option<f64>> = vec![None; reqs.len()];
@@ -383,7 +392,7 @@ fn fast_feed(
                 catalog,
                 cands,
                 &order[i..end],
-                Depth::Screen,
+                Depth::Feasibility,
                 mc,
                 &solves,
                 progress,
@@ -394,7 +403,6 @@ fn fast_feed(
             }
             i = end;
         }
-        tr(&format!("  stage1 ch{c} share-part solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
         // And the cheapest cost level with a feasible design, whole, so the baseline
         // (every channel's cheapest design on its own) is the one the full feed gives.
         let cost = |c: &Cand| resolve(catalog, &c.spec).map_or(f64::INFINITY, |d| d.cost);
@@ -412,7 +420,7 @@ fn fast_feed(
                 catalog,
                 cands,
                 &order[i..end],
-                Depth::Screen,
+                Depth::Feasibility,
                 mc,
                 &solves,
                 progress,
@@ -424,7 +432,6 @@ fn fast_feed(
         }
     }
 
-    tr(&format!("stage1 solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
     // A channel without a feasible design makes the board infeasible whatever the
     // others offer: nothing more to verify.
     if least.iter().all(Option::is_some) {
@@ -471,15 +478,14 @@ fn fast_feed(
                 p
             })
             .collect();
-        tr(&format!("upper={upper} solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
         // Stage 2: keep a candidate only if a board using it can cost no more than
         // `upper`; a tolerance covers the rounding of sums.
         let slack = 1e-9 * upper.abs().max(1.0);
         let mut kept: Vec<Vec<usize>> = Vec::new();
-        let mut by_bound: Vec<Vec<usize>> = Vec::new();
+        let mut bounds: Vec<Vec<f64>> = Vec::new();
         for (c, (_, cands)) in screened.iter().enumerate() {
             let count = f64::from(design.channels[c].count);
-            let bounds: Vec<(usize, f64)> = (0..cands.len())
+            let within: Vec<(usize, f64)> = (0..cands.len())
                 .filter_map(|i| {
                     let o = &cands[i];
                     if matches!(o.verdict, Some(Err(_))) {
@@ -494,25 +500,52 @@ fn fast_feed(
                     (bound <= upper + slack).then_some((i, bound))
                 })
                 .collect();
-            kept.push(bounds.iter().map(|&(i, _)| i).collect());
-            let mut b = bounds;
-            b.sort_by(|x, y| x.1.total_cmp(&y.1).then(x.0.cmp(&y.0)));
-            by_bound.push(b.into_iter().map(|(i, _)| i).collect());
+            kept.push(within.iter().map(|&(i, _)| i).collect());
+            let mut b = vec![f64::INFINITY; cands.len()];
+            for (i, x) in within {
+                b[i] = x;
+            }
+            bounds.push(b);
         }
-        tr(&format!("stage2 kept={:?}", kept.iter().map(|k| k.len()).collect::<Vec<_>>()));
         lazy_verify(
             design,
             reqs,
             catalog,
             &mut screened,
             &kept,
-            &by_bound,
+            &bounds,
             mc,
             &solves,
             progress,
         );
     }
-    tr(&format!("lazy solves={}", solves.load(std::sync::atomic::Ordering::Relaxed)));
+    // A channel without a feasible design is reported by the checks its candidates
+    // fail: those judged for pass or fail only are judged again as the ranking would.
+    for (req, (_, cands)) in reqs.iter().zip(screened.iter_mut()) {
+        let offered = |c: &Cand| match &c.verdict {
+            Some(Ok(ev)) => design_usage(&c.spec, ev, catalog).is_some(),
+            _ => false,
+        };
+        if cands.iter().any(offered) {
+            continue;
+        }
+        let unnamed: Vec<usize> = (0..cands.len())
+            .filter(|&i| cands[i].verdict.is_some() && !cands[i].named)
+            .collect();
+        for &i in &unnamed {
+            cands[i].verdict = None;
+        }
+        verify_some(
+            req,
+            catalog,
+            cands,
+            &unnamed,
+            Depth::Screen,
+            mc,
+            &solves,
+            progress,
+        );
+    }
     let total: u64 = groups
         .iter()
         .flat_map(|g| g.iter().map(|g| g.specs.len() as u64))
@@ -759,8 +792,9 @@ pub fn label(spec: &DesignSpec) -> String {
 
 /// Verify lazily against the board (module docs, "The fast feed"): solve the program with
 /// every kept candidate not yet disproved taken as feasible; verify the unverified designs
-/// it chooses (with a few neighbours of the same family); repeat until it chooses only
-/// verified ones.
+/// it chooses (with neighbours of the same family and the channel's next offered designs),
+/// for pass or fail only; repeat until it chooses only verified ones. `bounds[c][i]` is
+/// candidate `i`'s board bound (step 3), infinite when cut.
 #[allow(clippy::too_many_arguments)]
 fn lazy_verify(
     design: &BoardDesign,
@@ -768,12 +802,11 @@ fn lazy_verify(
     catalog: &Catalog,
     screened: &mut [Screened],
     kept: &[Vec<usize>],
-    by_bound: &[Vec<usize>],
+    bounds: &[Vec<f64>],
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
 ) {
-    let extra: usize = std::env::var("MP_EXTRA").ok().and_then(|v| v.parse().ok()).unwrap_or(0);
     // Each kept candidate's usage, and the candidates grouped by the parts they put on
     // the board, with those parts as small integers (computed once: the loop only picks
     // a representative per group).
@@ -788,11 +821,15 @@ fn lazy_verify(
         let mut at: BTreeMap<String, usize> = BTreeMap::new();
         let mut g: Vec<Vec<usize>> = Vec::new();
         let mut sh: Vec<Shape> = Vec::new();
-        for &i in &kept[c] {
-            let Some(usage) = design_usage(&cands[i].spec, &placeholder(&cands[i]), catalog) else {
-                continue;
-            };
-            let key = parts_key(&usage);
+        let described: Vec<(usize, DesignUsage, String)> = kept[c]
+            .par_iter()
+            .filter_map(|&i| {
+                let usage = design_usage(&cands[i].spec, &placeholder(&cands[i]), catalog)?;
+                let key = parts_key(&usage);
+                Some((i, usage, key))
+            })
+            .collect();
+        for (i, usage, key) in described {
             match at.get(&key) {
                 Some(&k) => g[k].push(i),
                 None => {
@@ -822,16 +859,7 @@ fn lazy_verify(
         groups.push(g);
         shape.push(sh);
     }
-    let trace = std::env::var_os("MP_TRACE").is_some();
-    let (mut t_build, mut t_opt, mut t_ver, mut rounds, mut nver) = (0.0, 0.0, 0.0, 0, 0usize);
-    let mut t = std::time::Instant::now();
-    let mut report = |t_build: f64, t_opt: f64, t_ver: f64, rounds: usize, nver: usize| {
-        if trace {
-            eprintln!("TRACE lazy rounds={rounds} build={t_build:.3} opt={t_opt:.3} verify={t_ver:.3} verified={nver} solves={}", solves.load(std::sync::atomic::Ordering::Relaxed));
-        }
-    };
     loop {
-        rounds += 1;
         let state = |c: usize, i: usize| &screened[c].1[i].verdict;
         // Per group: the verified design with the largest governing margin, else the
         // first not yet verified; `None` once every member failed.
@@ -873,9 +901,7 @@ fn lazy_verify(
                     .collect()
             })
             .collect();
-        if trace { eprintln!("TRACE  reps {:.4} groups {}", t.elapsed().as_secs_f64(), live.iter().map(|l| l.len()).sum::<usize>()); }
         let keep = reduce_optimistic(&shape, vids.len(), &live);
-        if trace { eprintln!("TRACE  reduce {:.4}", t.elapsed().as_secs_f64()); }
         let mut channels = Vec::new();
         for (c, (rej, cands)) in screened.iter().enumerate() {
             let mut options = Vec::new();
@@ -915,18 +941,10 @@ fn lazy_verify(
                 evaluated: 0,
             });
         }
-        if trace { eprintln!("TRACE  options {:.4}", t.elapsed().as_secs_f64()); }
         let dp = assemble(design, catalog, channels);
-        t_build += t.elapsed().as_secs_f64();
-        t = std::time::Instant::now();
         let Ok(crate::bom::BomOutcome::Optimal(plan)) = crate::bom::optimise(&dp.problem) else {
             return;
         };
-        t_opt += t.elapsed().as_secs_f64();
-        t = std::time::Instant::now();
-        if trace {
-            eprintln!("TRACE round {rounds} options={:?}", dp.problem.channels.iter().map(|c| c.options.len()).collect::<Vec<_>>());
-        }
         let mut todo: Vec<(usize, usize)> = Vec::new();
         for (c, a) in plan.channels.iter().enumerate() {
             let Some((spec, ev)) = dp.channels[c].designs.get(a.option) else {
@@ -940,7 +958,6 @@ fn lazy_verify(
             }
         }
         if todo.is_empty() {
-            report(t_build, t_opt, t_ver, rounds, nver);
             return;
         }
         for (c, i) in todo {
@@ -958,11 +975,18 @@ fn lazy_verify(
             if !near.contains(&i) {
                 near.push(i);
             }
-            let more: Vec<usize> = by_bound[c].iter().copied().filter(|&j| cands[j].verdict.is_none() && !near.contains(&j)).take(extra).collect();
-            near.extend(more);
-            let nn = near.iter().filter(|&&j| cands[j].verdict.is_none()).count();
-            nver += nn;
-            let s0 = solves.load(std::sync::atomic::Ordering::Relaxed);
+            // And the channel's other offered designs not yet verified with the smallest
+            // bound: what the program would likely try next.
+            let mut next: Vec<usize> = live[c]
+                .iter()
+                .filter(|&&(k, (j, _))| {
+                    keep[c][k] && cands[j].verdict.is_none() && !near.contains(&j)
+                })
+                .map(|&(_, (j, _))| j)
+                .collect();
+            next.sort_by(|&a, &b| bounds[c][a].total_cmp(&bounds[c][b]).then(a.cmp(&b)));
+            next.truncate(NEXT_OFFERED);
+            near.extend(next);
             verify_some(
                 &reqs[c],
                 catalog,
@@ -973,17 +997,7 @@ fn lazy_verify(
                 solves,
                 progress,
             );
-            if trace {
-                let why: Vec<String> = near.iter().filter_map(|&j| match &cands[j].verdict { Some(Err(e)) => Some(e.to_string()), _ => None }).collect();
-                eprintln!("TRACE   solves/verif {} fails {:?}", (solves.load(std::sync::atomic::Ordering::Relaxed) - s0) / nn.max(1) as u64, why);
-            }
-            if trace {
-                let ok = near.iter().filter(|&&j| is_feasible(&cands[j])).count();
-                eprintln!("TRACE   ch{c} {} -> {} ; near {nn} verified, {ok} feasible, cost {}", label(&cands[i].spec), is_feasible(&cands[i]), plan.total_cost);
-            }
         }
-        t_ver += t.elapsed().as_secs_f64();
-        t = std::time::Instant::now();
     }
 }
 
@@ -1167,8 +1181,10 @@ impl std::hash::Hasher for FxHasher {
 
 /// Margin given to a design not yet verified, so equal usages keep a verified design.
 const UNVERIFIED_MARGIN: f64 = -1e9;
-/// Designs verified together when the program chooses an unverified one.
-const NEIGHBOURS: usize = 16;
+/// Designs of the same family verified with one the program chooses unverified.
+const NEIGHBOURS: usize = 64;
+/// Further offered designs of the same channel verified with it, smallest bound first.
+const NEXT_OFFERED: usize = 16;
 
 fn family_key(
     s: &DesignSpec,
