@@ -853,6 +853,22 @@ pub fn write_cheaper(
                     "{}",
                     candidates_table(style, &rows, &[(label, saving), ("margin given up", given)])
                 )?;
+                // The margin is on the reference's governing check, which need not be
+                // the row's own governing check.
+                if let Some(g) = r
+                    .alternatives
+                    .first()
+                    .and_then(|a| a.reference_governing_check)
+                {
+                    writeln!(
+                        w,
+                        "{}",
+                        wrap(
+                            &format!("Margin given up: on {g}, the reference's governing check (negative: the design has more margin there than the reference)."),
+                            style.width
+                        )
+                    )?;
+                }
             }
             writeln!(
                 w,
