@@ -152,6 +152,9 @@ type SizeKey = (
     u64,
 );
 
+/// The standard values below and above an exact R_ref in one class (`standard_around`).
+type Around = Option<(f64, f64)>;
+
 /// The exact R_ref of each design, solved once and shared: a search meets one design
 /// many times (under both picks, under every R_ref class, in a screen's probe and again
 /// in its verification), and the exact value depends on none of those. Each value is
@@ -161,7 +164,7 @@ type SizeKey = (
 #[derive(Default)]
 pub struct RefSizes {
     memo: Mutex<HashMap<SizeKey, Arc<OnceLock<Option<f64>>>>>,
-    around: Mutex<HashMap<(u64, String), Option<(f64, f64)>>>,
+    around: Mutex<HashMap<(u64, String), Around>>,
 }
 
 impl RefSizes {
