@@ -94,15 +94,21 @@ pub fn choose_r_ref(
     spec: &DesignSpec,
     solves: &AtomicU64,
 ) -> DesignSpec {
-    pick_r_ref(catalog, spec, || exact_r_ref(req, catalog, spec, solves))
+    pick_r_ref(
+        catalog,
+        spec,
+        || exact_r_ref(req, catalog, spec, solves),
+        standard_around,
+    )
 }
 
-/// `choose_r_ref` with the exact value from `exact`, asked only when R_ref is still to
-/// be chosen.
+/// `choose_r_ref` with the exact value from `exact` and the standard values around it
+/// from `around`, both asked only when R_ref is still to be chosen.
 fn pick_r_ref(
     catalog: &Catalog,
     spec: &DesignSpec,
     exact: impl FnOnce() -> Option<f64>,
+    around: impl FnOnce(f64, &ResistorClass) -> Option<(f64, f64)>,
 ) -> DesignSpec {
     let mut out = spec.clone();
     let (Some(pick), Some(id)) = (spec.r_ref_pick, spec.r_ref_resistor.as_deref()) else {
@@ -117,7 +123,7 @@ fn pick_r_ref(
     let Some(exact) = exact() else {
         return out;
     };
-    let Some((below, above)) = standard_around(exact, class) else {
+    let Some((below, above)) = around(exact, class) else {
         return out;
     };
     out.r_ref_ohm = match pick {
@@ -146,14 +152,19 @@ type SizeKey = (
     u64,
 );
 
+/// The standard values below and above an exact R_ref in one class (`standard_around`).
+type Around = Option<(f64, f64)>;
+
 /// The exact R_ref of each design, solved once and shared: a search meets one design
 /// many times (under both picks, under every R_ref class, in a screen's probe and again
 /// in its verification), and the exact value depends on none of those. Each value is
 /// solved by exactly one thread (the others wait for it), so the solve count does not
-/// depend on scheduling.
+/// depend on scheduling. The standard values around each exact value are kept too, per
+/// R_ref class (a pure function of the two, looked up again at every meeting).
 #[derive(Default)]
 pub struct RefSizes {
     memo: Mutex<HashMap<SizeKey, Arc<OnceLock<Option<f64>>>>>,
+    around: Mutex<HashMap<(u64, String), Around>>,
 }
 
 impl RefSizes {
@@ -169,22 +180,33 @@ impl RefSizes {
         spec: &DesignSpec,
         solves: &AtomicU64,
     ) -> DesignSpec {
-        pick_r_ref(catalog, spec, || {
-            let key = (
-                spec.topology,
-                spec.shape,
-                spec.pair.clone(),
-                spec.helper.clone(),
-                spec.resistor.clone(),
-                spec.re1_ohm.to_bits(),
-                spec.re2_ohm.to_bits(),
-            );
-            let cell = {
-                let mut memo = self.memo.lock().unwrap_or_else(|e| e.into_inner());
-                Arc::clone(memo.entry(key).or_default())
-            };
-            *cell.get_or_init(|| exact_r_ref(req, catalog, spec, solves))
-        })
+        pick_r_ref(
+            catalog,
+            spec,
+            || {
+                let key = (
+                    spec.topology,
+                    spec.shape,
+                    spec.pair.clone(),
+                    spec.helper.clone(),
+                    spec.resistor.clone(),
+                    spec.re1_ohm.to_bits(),
+                    spec.re2_ohm.to_bits(),
+                );
+                let cell = {
+                    let mut memo = self.memo.lock().unwrap_or_else(|e| e.into_inner());
+                    Arc::clone(memo.entry(key).or_default())
+                };
+                *cell.get_or_init(|| exact_r_ref(req, catalog, spec, solves))
+            },
+            |exact, class| {
+                let key = (exact.to_bits(), class.id.clone());
+                let mut around = self.around.lock().unwrap_or_else(|e| e.into_inner());
+                *around
+                    .entry(key)
+                    .or_insert_with(|| standard_around(exact, class))
+            },
+        )
     }
 }
 
