@@ -1005,6 +1005,10 @@ fn lazy_verify(
 /// count, value id)`, sorted; the value id interns `(class, value bits)` board-wide.
 type Shape = (u32, Vec<(u32, u64, u32, u32)>);
 
+/// A group's transistors and its resistor items `(class, value id or NO_USER when the
+/// value is private, count)`: groups with equal keys cost a board the same.
+type MergeKey = (u32, Vec<(u32, u32, u32)>);
+
 /// A value no live group uses, and one that two channels or more use.
 const NO_USER: u32 = u32::MAX;
 const SHARED: u32 = u32::MAX - 1;
@@ -1038,7 +1042,7 @@ fn reduce_optimistic(
     // with the largest margin (ties: the first).
     let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
     for (c, l) in live.iter().enumerate() {
-        let mut at: HashMap<(u32, Vec<(u32, u32, u32)>), usize, Fx> = HashMap::default();
+        let mut at: HashMap<MergeKey, usize, Fx> = HashMap::default();
         let mut out: Vec<(usize, f64)> = Vec::new();
         for &(k, (_, m)) in l {
             let (t, rs) = &shape[c][k];
