@@ -62,9 +62,24 @@
 //!    values, dominated values; verified designs are preferred within equal usages). That
 //!    optimum is at most the true one (more options). If it chooses only verified
 //!    designs, its board is feasible, so it *is* the true optimum; otherwise the chosen
-//!    unverified designs are verified (with up to 16 neighbours of the same family, so a
-//!    failure does not cost one round each) and the program solved again. Each round
-//!    disproves or confirms at least one chosen design, so it ends.
+//!    unverified designs are verified and the program solved again. Each round
+//!    disproves or confirms at least one chosen design, so it ends. Which *other*
+//!    designs are verified in a round changes nothing in this argument (verifying more
+//!    only replaces optimistic options by true ones), only the number of rounds: with
+//!    each chosen design go up to 64 unverified neighbours of its family (nearest in
+//!    enumeration order: should it fail, the next choice is often one of them) and the
+//!    16 unverified designs of its channel the program is offered with the smallest
+//!    step-3 bound. A round rebuilds and solves the program (tens of milliseconds), a
+//!    failing verification costs a few solves, so on the shipped board this takes 20
+//!    rounds where one design at a time took 56.
+//!
+//! Verifications in steps 1 and 4 need pass or fail only, so they run at
+//! `Depth::Feasibility`: a design that has already failed a check is not given the
+//! re-solved Monte Carlo yield (a thousand builds), which made a design that fails
+//! `max_noise` cost as much as a feasible one. The verdict is the screen's; only the
+//! check a failure is counted under may differ, and that count is shown only for a
+//! channel without a feasible design, whose candidates are then judged again at the
+//! ranking's depth so its reason reads as before.
 //!
 //! The board is then built from every verified feasible design only, so its optimum equals
 //! the full feed's (`tests/bom/fast_feed.rs` checks it on the shipped board and on random
@@ -95,7 +110,7 @@ use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{
-    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, DesignSpec,
+    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, Depth, DesignSpec,
     Evaluation, MonteCarlo,
 };
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
@@ -150,10 +165,6 @@ fn channel_requirements(design: &BoardDesign, catalog: &Catalog) -> Vec<Requirem
 /// One channel's screen: the candidates proved infeasible (with the check that did it)
 /// and the survivors.
 type Screened = (Vec<(DesignSpec, CheckName)>, Vec<Cand>);
-/// A usage's shape: line-item count and its (class, value, count) entries.
-type ShapeKey = (u32, Vec<(u32, Option<u64>, u32)>);
-/// Candidates by (channel, cost signature): (index, usage, line items).
-type Signatures = std::collections::HashMap<(u32, u64), Vec<(usize, u32, u32)>>;
 /// A design's resistor values by (class, value, count) entries and pair class.
 type ValueKey = (Vec<(String, Option<u64>, u32)>, String);
 
@@ -244,6 +255,9 @@ struct Cand {
     polarity: Polarity,
     /// `None` until verified; then the evaluation, or the check it failed.
     verdict: Option<Result<Evaluation, CheckName>>,
+    /// Whether a failed verdict names the check a screen would (`Depth::Feasibility`
+    /// may name another).
+    named: bool,
 }
 
 /// One channel's screen and verifications.
@@ -292,15 +306,18 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
         items,
         spec,
         verdict: None,
+        named: false,
     })
 }
 
 /// Verify the candidates `idx` of one channel (those not yet verified), in parallel.
+#[allow(clippy::too_many_arguments)]
 fn verify_some(
     req: &Requirement,
     catalog: &Catalog,
     cands: &mut [Cand],
     idx: &[usize],
+    depth: Depth,
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
@@ -314,10 +331,11 @@ fn verify_some(
         return;
     }
     let specs: Vec<&DesignSpec> = todo.iter().map(|&i| &cands[i].spec).collect();
-    let out = verify_each(req, catalog, &specs, mc, solves);
+    let out = verify_each(req, catalog, &specs, depth, mc, solves);
     progress.advance(todo.len() as u64);
     for (i, v) in todo.into_iter().zip(out) {
         cands[i].verdict = Some(v);
+        cands[i].named = depth != Depth::Feasibility;
     }
 }
 
@@ -369,7 +387,16 @@ fn fast_feed(
                 .iter()
                 .position(|&j| cands[j].share != share)
                 .map_or(order.len(), |p| i + p);
-            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            verify_some(
+                req,
+                catalog,
+                cands,
+                &order[i..end],
+                Depth::Feasibility,
+                mc,
+                &solves,
+                progress,
+            );
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 least[c] = Some(share);
                 break;
@@ -388,7 +415,16 @@ fn fast_feed(
                 .iter()
                 .position(|&j| costs[j] != level)
                 .map_or(order.len(), |p| i + p);
-            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
+            verify_some(
+                req,
+                catalog,
+                cands,
+                &order[i..end],
+                Depth::Feasibility,
+                mc,
+                &solves,
+                progress,
+            );
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 break;
             }
@@ -446,13 +482,14 @@ fn fast_feed(
         // `upper`; a tolerance covers the rounding of sums.
         let slack = 1e-9 * upper.abs().max(1.0);
         let mut kept: Vec<Vec<usize>> = Vec::new();
+        let mut bounds: Vec<Vec<f64>> = Vec::new();
         for (c, (_, cands)) in screened.iter().enumerate() {
             let count = f64::from(design.channels[c].count);
-            let keep: Vec<usize> = (0..cands.len())
-                .filter(|&i| {
+            let within: Vec<(usize, f64)> = (0..cands.len())
+                .filter_map(|i| {
                     let o = &cands[i];
                     if matches!(o.verdict, Some(Err(_))) {
-                        return false;
+                        return None;
                     }
                     let other_polarity = polarities
                         .iter()
@@ -460,10 +497,15 @@ fn fast_feed(
                     let lines = o.items.len() + usize::from(other_polarity);
                     let bound = boards * (base + count * (o.share - least[c]))
                         + design.line_item_cost * lines as f64;
-                    bound <= upper + slack
+                    (bound <= upper + slack).then_some((i, bound))
                 })
                 .collect();
-            kept.push(keep);
+            kept.push(within.iter().map(|&(i, _)| i).collect());
+            let mut b = vec![f64::INFINITY; cands.len()];
+            for (i, x) in within {
+                b[i] = x;
+            }
+            bounds.push(b);
         }
         lazy_verify(
             design,
@@ -471,6 +513,34 @@ fn fast_feed(
             catalog,
             &mut screened,
             &kept,
+            &bounds,
+            mc,
+            &solves,
+            progress,
+        );
+    }
+    // A channel without a feasible design is reported by the checks its candidates
+    // fail: those judged for pass or fail only are judged again as the ranking would.
+    for (req, (_, cands)) in reqs.iter().zip(screened.iter_mut()) {
+        let offered = |c: &Cand| match &c.verdict {
+            Some(Ok(ev)) => design_usage(&c.spec, ev, catalog).is_some(),
+            _ => false,
+        };
+        if cands.iter().any(offered) {
+            continue;
+        }
+        let unnamed: Vec<usize> = (0..cands.len())
+            .filter(|&i| cands[i].verdict.is_some() && !cands[i].named)
+            .collect();
+        for &i in &unnamed {
+            cands[i].verdict = None;
+        }
+        verify_some(
+            req,
+            catalog,
+            cands,
+            &unnamed,
+            Depth::Screen,
             mc,
             &solves,
             progress,
@@ -722,8 +792,9 @@ pub fn label(spec: &DesignSpec) -> String {
 
 /// Verify lazily against the board (module docs, "The fast feed"): solve the program with
 /// every kept candidate not yet disproved taken as feasible; verify the unverified designs
-/// it chooses (with a few neighbours of the same family); repeat until it chooses only
-/// verified ones.
+/// it chooses (with neighbours of the same family and the channel's next offered designs),
+/// for pass or fail only; repeat until it chooses only verified ones. `bounds[c][i]` is
+/// candidate `i`'s board bound (step 3), infinite when cut.
 #[allow(clippy::too_many_arguments)]
 fn lazy_verify(
     design: &BoardDesign,
@@ -731,6 +802,7 @@ fn lazy_verify(
     catalog: &Catalog,
     screened: &mut [Screened],
     kept: &[Vec<usize>],
+    bounds: &[Vec<f64>],
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
@@ -743,16 +815,21 @@ fn lazy_verify(
     let mut shape: Vec<Vec<Shape>> = Vec::new();
     let mut tkeys: BTreeMap<String, u32> = BTreeMap::new();
     let mut rclass: BTreeMap<String, u32> = BTreeMap::new();
+    let mut vids: BTreeMap<(u32, u64), u32> = BTreeMap::new();
     for (c, (_, cands)) in screened.iter().enumerate() {
         let mut u: Vec<Option<DesignUsage>> = (0..cands.len()).map(|_| None).collect();
         let mut at: BTreeMap<String, usize> = BTreeMap::new();
         let mut g: Vec<Vec<usize>> = Vec::new();
         let mut sh: Vec<Shape> = Vec::new();
-        for &i in &kept[c] {
-            let Some(usage) = design_usage(&cands[i].spec, &placeholder(&cands[i]), catalog) else {
-                continue;
-            };
-            let key = parts_key(&usage);
+        let described: Vec<(usize, DesignUsage, String)> = kept[c]
+            .par_iter()
+            .filter_map(|&i| {
+                let usage = design_usage(&cands[i].spec, &placeholder(&cands[i]), catalog)?;
+                let key = parts_key(&usage);
+                Some((i, usage, key))
+            })
+            .collect();
+        for (i, usage, key) in described {
             match at.get(&key) {
                 Some(&k) => g[k].push(i),
                 None => {
@@ -760,13 +837,16 @@ fn lazy_verify(
                     g.push(vec![i]);
                     let n = tkeys.len() as u32;
                     let t = *tkeys.entry(transistors_key(&usage)).or_insert(n);
-                    let mut rs: Vec<(u32, u64, u32)> = usage
+                    let mut rs: Vec<(u32, u64, u32, u32)> = usage
                         .resistors
                         .iter()
                         .map(|r| {
                             let n = rclass.len() as u32;
                             let k = *rclass.entry(r.class.clone()).or_insert(n);
-                            (k, r.value_ohm.to_bits(), r.count)
+                            let bits = r.value_ohm.to_bits();
+                            let n = vids.len() as u32;
+                            let v = *vids.entry((k, bits)).or_insert(n);
+                            (k, bits, r.count, v)
                         })
                         .collect();
                     rs.sort_unstable();
@@ -821,13 +901,13 @@ fn lazy_verify(
                     .collect()
             })
             .collect();
-        let keep = reduce_optimistic(&shape, &live);
+        let keep = reduce_optimistic(&shape, vids.len(), &live);
         let mut channels = Vec::new();
         for (c, (rej, cands)) in screened.iter().enumerate() {
             let mut options = Vec::new();
             let mut designs = Vec::new();
             for &(k, (i, margin)) in &live[c] {
-                if !keep[c].contains(&k) {
+                if !keep[c][k] {
                     continue;
                 }
                 let ev = match &cands[i].verdict {
@@ -895,33 +975,66 @@ fn lazy_verify(
             if !near.contains(&i) {
                 near.push(i);
             }
-            verify_some(&reqs[c], catalog, cands, &near, mc, solves, progress);
+            // And the channel's other offered designs not yet verified with the smallest
+            // bound: what the program would likely try next.
+            let mut next: Vec<usize> = live[c]
+                .iter()
+                .filter(|&&(k, (j, _))| {
+                    keep[c][k] && cands[j].verdict.is_none() && !near.contains(&j)
+                })
+                .map(|&(_, (j, _))| j)
+                .collect();
+            next.sort_by(|&a, &b| bounds[c][a].total_cmp(&bounds[c][b]).then(a.cmp(&b)));
+            next.truncate(NEXT_OFFERED);
+            near.extend(next);
+            verify_some(
+                &reqs[c],
+                catalog,
+                cands,
+                &near,
+                Depth::Feasibility,
+                mc,
+                solves,
+                progress,
+            );
         }
     }
 }
 
 /// A group's parts: its transistors (interned) and resistor items `(class, value bits,
-/// count)`, sorted.
-type Shape = (u32, Vec<(u32, u64, u32)>);
+/// count, value id)`, sorted; the value id interns `(class, value bits)` board-wide.
+type Shape = (u32, Vec<(u32, u64, u32, u32)>);
+
+/// A group's transistors and its resistor items `(class, value id or NO_USER when the
+/// value is private, count)`: groups with equal keys cost a board the same.
+type MergeKey = (u32, Vec<(u32, u32, u32)>);
+
+/// A value no live group uses, and one that two channels or more use.
+const NO_USER: u32 = u32::MAX;
+const SHARED: u32 = u32::MAX - 1;
 
 /// The two exact reductions of the module docs (private values, dominated values) on the
-/// optimistic feed, on integers because that feed is large. `live[c]` lists channel `c`'s
-/// groups still standing, each with its representative and margin; returns, per channel,
-/// the groups to offer.
+/// optimistic feed, on integers because that feed is large (tens of thousands of groups,
+/// every round). `live[c]` lists channel `c`'s groups still standing, each with its
+/// representative and margin; `values` is the number of value ids. Returns, per channel
+/// and group, whether the group is offered.
 fn reduce_optimistic(
     shape: &[Vec<Shape>],
+    values: usize,
     live: &[Vec<(usize, (usize, f64))>],
-) -> Vec<std::collections::BTreeSet<usize>> {
-    use std::collections::{BTreeSet, HashMap};
-    // Channels that still use each resistor value.
-    let mut users: HashMap<(u32, u64), Vec<usize>> = HashMap::new();
+) -> Vec<Vec<bool>> {
+    use std::collections::HashMap;
+    // The one channel that still uses each value, or `SHARED`.
+    let mut owner = vec![NO_USER; values];
     for (c, l) in live.iter().enumerate() {
         for &(k, _) in l {
-            for &(cl, v, _) in &shape[c][k].1 {
-                let u = users.entry((cl, v)).or_default();
-                if !u.contains(&c) {
-                    u.push(c);
-                }
+            for &(_, _, _, v) in &shape[c][k].1 {
+                let o = &mut owner[v as usize];
+                *o = match *o {
+                    NO_USER => c as u32,
+                    x if x == c as u32 => x,
+                    _ => SHARED,
+                };
             }
         }
     }
@@ -929,25 +1042,26 @@ fn reduce_optimistic(
     // with the largest margin (ties: the first).
     let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
     for (c, l) in live.iter().enumerate() {
-        let mut at: HashMap<ShapeKey, usize> = HashMap::new();
+        let mut at: HashMap<MergeKey, usize, Fx> = HashMap::default();
         let mut out: Vec<(usize, f64)> = Vec::new();
         for &(k, (_, m)) in l {
             let (t, rs) = &shape[c][k];
-            let key: Vec<(u32, Option<u64>, u32)> = rs
+            let key: Vec<(u32, u32, u32)> = rs
                 .iter()
-                .map(|&(cl, v, n)| {
-                    let shared = users[&(cl, v)].iter().any(|&x| x != c);
-                    (cl, shared.then_some(v), n)
+                .map(|&(cl, _, n, v)| {
+                    let shared = owner[v as usize] == SHARED;
+                    (cl, if shared { v } else { NO_USER }, n)
                 })
                 .collect();
-            match at.get(&(*t, key.clone())) {
-                Some(&j) => {
+            match at.entry((*t, key)) {
+                std::collections::hash_map::Entry::Occupied(e) => {
+                    let j = *e.get();
                     if m > out[j].1 {
                         out[j] = (k, m);
                     }
                 }
-                None => {
-                    at.insert((*t, key), out.len());
+                std::collections::hash_map::Entry::Vacant(e) => {
+                    e.insert(out.len());
                     out.push((k, m));
                 }
             }
@@ -956,38 +1070,43 @@ fn reduce_optimistic(
     }
     // Dominated values: the signature of a value is every (channel, transistors, count)
     // of the options whose resistors all take that one value.
-    let single = |rs: &[(u32, u64, u32)]| -> Option<((u32, u64), u32)> {
+    let single = |rs: &[(u32, u64, u32, u32)]| -> Option<(u32, u32)> {
         let f = rs.first()?;
         rs.iter()
-            .all(|r| r.0 == f.0 && r.1 == f.1)
-            .then(|| ((f.0, f.1), rs.iter().map(|r| r.2).sum()))
+            .all(|r| r.3 == f.3)
+            .then(|| (f.3, rs.iter().map(|r| r.2).sum()))
     };
-    let mut sig: Signatures = HashMap::new();
-    let mut margin: HashMap<(u32, u64), f64> = HashMap::new();
-    let mut in_multi: BTreeSet<(u32, u64)> = BTreeSet::new();
+    let mut sig: Vec<Vec<(usize, u32, u32)>> = vec![Vec::new(); values];
+    let mut margin = vec![0.0f64; values];
+    let mut in_multi = vec![false; values];
+    // Each value's class and bits, for the class test and the order's last tie-break.
+    let mut value_of = vec![(0u32, 0u64); values];
     for (c, out) in merged.iter().enumerate() {
         for &(k, m) in out {
             let (t, rs) = &shape[c][k];
+            for r in rs {
+                value_of[r.3 as usize] = (r.0, r.1);
+            }
             match single(rs) {
                 Some((v, n)) => {
-                    sig.entry(v).or_default().push((c, *t, n));
-                    *margin.entry(v).or_default() += m;
+                    sig[v as usize].push((c, *t, n));
+                    margin[v as usize] += m;
                 }
-                None => in_multi.extend(rs.iter().map(|r| (r.0, r.1))),
+                None => rs.iter().for_each(|r| in_multi[r.3 as usize] = true),
             }
         }
     }
-    for s in sig.values_mut() {
+    for s in &mut sig {
         s.sort_unstable();
         s.dedup();
     }
-    let mut order: Vec<(u32, u64)> = sig.keys().copied().collect();
-    order.sort_by(|a, b| {
+    let mut order: Vec<usize> = (0..values).filter(|&v| !sig[v].is_empty()).collect();
+    order.sort_by(|&a, &b| {
         sig[b]
             .len()
             .cmp(&sig[a].len())
             .then(margin[b].total_cmp(&margin[a]))
-            .then(a.cmp(b))
+            .then(value_of[a].cmp(&value_of[b]))
     });
     let superset = |big: &[(usize, u32, u32)], small: &[(usize, u32, u32)]| {
         let mut j = 0;
@@ -1001,15 +1120,15 @@ fn reduce_optimistic(
         }
         true
     };
-    let mut kept: Vec<(u32, u64)> = Vec::new();
-    let mut dropped: BTreeSet<(u32, u64)> = BTreeSet::new();
+    let mut kept: Vec<usize> = Vec::new();
+    let mut dropped = vec![false; values];
     for w in order {
-        let covered = !in_multi.contains(&w)
+        let covered = !in_multi[w]
             && kept
                 .iter()
-                .any(|v| v.0 == w.0 && superset(&sig[v], &sig[&w]));
+                .any(|&v| value_of[v].0 == value_of[w].0 && superset(&sig[v], &sig[w]));
         if covered {
-            dropped.insert(w);
+            dropped[w] = true;
         } else {
             kept.push(w);
         }
@@ -1018,20 +1137,58 @@ fn reduce_optimistic(
         .iter()
         .enumerate()
         .map(|(c, out)| {
-            out.iter()
-                .filter(|&&(k, _)| {
-                    single(&shape[c][k].1).is_none_or(|(v, _)| !dropped.contains(&v))
-                })
-                .map(|&(k, _)| k)
-                .collect()
+            let mut offer = vec![false; shape[c].len()];
+            for &(k, _) in out {
+                offer[k] = single(&shape[c][k].1).is_none_or(|(v, _)| !dropped[v as usize]);
+            }
+            offer
         })
         .collect()
 }
 
+/// A small, fast hasher for the integer keys of [`reduce_optimistic`] (the multiply-rotate
+/// scheme of the Firefox hasher): the default one is built to resist adversarial keys,
+/// which these are not, and costs several times more.
+#[derive(Default, Clone, Copy)]
+struct Fx;
+
+impl std::hash::BuildHasher for Fx {
+    type Hasher = FxHasher;
+    fn build_hasher(&self) -> FxHasher {
+        FxHasher(0)
+    }
+}
+
+struct FxHasher(u64);
+
+impl std::hash::Hasher for FxHasher {
+    fn write(&mut self, bytes: &[u8]) {
+        for chunk in bytes.chunks(8) {
+            let mut b = [0u8; 8];
+            b[..chunk.len()].copy_from_slice(chunk);
+            self.write_u64(u64::from_le_bytes(b));
+        }
+    }
+    fn write_u32(&mut self, i: u32) {
+        self.write_u64(u64::from(i));
+    }
+    fn write_usize(&mut self, i: usize) {
+        self.write_u64(i as u64);
+    }
+    fn write_u64(&mut self, i: u64) {
+        self.0 = (self.0.rotate_left(5) ^ i).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+    }
+    fn finish(&self) -> u64 {
+        self.0
+    }
+}
+
 /// Margin given to a design not yet verified, so equal usages keep a verified design.
 const UNVERIFIED_MARGIN: f64 = -1e9;
-/// Designs verified together when the program chooses an unverified one.
-const NEIGHBOURS: usize = 16;
+/// Designs of the same family verified with one the program chooses unverified.
+const NEIGHBOURS: usize = 64;
+/// Further offered designs of the same channel verified with it, smallest bound first.
+const NEXT_OFFERED: usize = 16;
 
 fn family_key(
     s: &DesignSpec,

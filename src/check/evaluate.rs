@@ -1,11 +1,16 @@
 //! Verify one candidate: solve it at every corner with self-heating, derive the figures
 //! and judge every check. The only file of `check` that calls the circuit solver.
 //!
-//! Three depths share one code path so a screened verdict and a full one can never
+//! Four depths share one code path so a screened verdict and a full one can never
 //! disagree: `Screen` stops at the first corner whose error already breaks the accuracy
 //! requirement (a valid lower bound: the total error is at least any one corner's
 //! `|e| + k*sigma`), `Verdict` judges every check, `Full` adds the compliance voltage by
 //! bisection, output resistance at every corner, the error budget and the hottest corner.
+//! `Feasibility` is `Screen` for a caller that needs pass or fail only (the board's lazy
+//! verification): a design that has already failed a check (compliance, input voltage,
+//! accuracy, noise) is not given the re-solved Monte Carlo yield, which costs a thousand
+//! builds. Its verdict is the same; the check it is counted under may differ (a failed
+//! yield would have been named before noise).
 
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::Mutex;
@@ -60,9 +65,18 @@ impl Default for MonteCarlo {
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
 pub enum Depth {
+    /// `Screen` without the costly checks once one has failed (module docs).
+    Feasibility,
     Screen,
     Verdict,
     Full,
+}
+
+impl Depth {
+    /// Whether the evaluation stops at the first failure it proves.
+    fn stops_early(self) -> bool {
+        matches!(self, Depth::Feasibility | Depth::Screen)
+    }
 }
 
 /// The figures a report shows for a candidate (SI units, errors as fractions).
@@ -945,7 +959,7 @@ impl<'a> Evaluator<'a> {
                     // A screen stops here; a verification goes on so every check that
                     // did not need this corner is still judged.
                     push_failure(&mut checks, failure_check(&f, "nominal design"));
-                    if depth == Depth::Screen {
+                    if depth.stops_early() {
                         return incomplete(cost, checks);
                     }
                     continue;
@@ -959,14 +973,14 @@ impl<'a> Evaluator<'a> {
                 Err((input, f)) => {
                     push_failure(&mut checks, failure_check(&f, budget_build(input)));
                     states[i] = Some(state);
-                    if depth == Depth::Screen {
+                    if depth.stops_early() {
                         return incomplete(cost, checks);
                     }
                     continue;
                 }
             };
             let bound = state.error.abs() + k * budget::random_sigma(&d);
-            if depth == Depth::Screen {
+            if depth.stops_early() {
                 // Each rating is judged on its worst corner, so one corner over a rating
                 // already fails it (and stops a screen before the costly corners).
                 let one = std::slice::from_ref(&state);
@@ -984,7 +998,7 @@ impl<'a> Evaluator<'a> {
             }
             states[i] = Some(state);
             sens[i] = Some(d);
-            if depth == Depth::Screen && bound > req.accuracy {
+            if depth.stops_early() && bound > req.accuracy {
                 checks.push(Check::at_most(
                     CheckName::Accuracy,
                     bound,
@@ -1146,6 +1160,34 @@ impl<'a> Evaluator<'a> {
             ));
         }
 
+        // Noise rides on the nominal solves already made: judged here, listed below.
+        let noise_fig = if want_noise {
+            let analysed: Vec<(OperatingCorner, &NoiseAnalysis)> = self
+                .corners
+                .iter()
+                .zip(&noises)
+                .filter_map(|(c, n)| n.as_ref().map(|n| (*c, n)))
+                .collect();
+            noise::figure(&analysed, req.max_noise.as_ref())
+        } else {
+            None
+        };
+        // Like every figure, the worst noise needs every corner.
+        let noise_fig = noise_fig.filter(|_| all_nominal);
+        let noise_check = req.max_noise.as_ref().map(|limit| {
+            if all_nominal {
+                noise::check(noise_fig.as_ref(), limit)
+            } else {
+                Check::not_available(CheckName::Noise, limit.density_a_per_rthz, NEEDS_ALL)
+            }
+        });
+        if depth == Depth::Feasibility
+            && (checks.iter().any(|c| !c.pass) || noise_check.as_ref().is_some_and(|c| !c.pass))
+        {
+            checks.extend(noise_check);
+            return incomplete(cost, checks);
+        }
+
         if req.min_yield.is_some() || depth == Depth::Full {
             if all_builds {
                 let sens: Vec<Sensitivities> = sens.iter().flatten().copied().collect();
@@ -1242,27 +1284,8 @@ impl<'a> Evaluator<'a> {
             }
         }
 
-        let noise_fig = if want_noise {
-            let analysed: Vec<(OperatingCorner, &NoiseAnalysis)> = self
-                .corners
-                .iter()
-                .zip(&noises)
-                .filter_map(|(c, n)| n.as_ref().map(|n| (*c, n)))
-                .collect();
-            noise::figure(&analysed, req.max_noise.as_ref())
-        } else {
-            None
-        };
-        // Like every figure, the worst noise needs every corner.
-        let noise_fig = noise_fig.filter(|_| all_nominal);
         figures.noise_a_per_rthz = noise_fig.as_ref().map_or(f64::NAN, |f| f.white_a_per_rthz);
-        if let Some(limit) = &req.max_noise {
-            checks.push(if all_nominal {
-                noise::check(noise_fig.as_ref(), limit)
-            } else {
-                Check::not_available(CheckName::Noise, limit.density_a_per_rthz, NEEDS_ALL)
-            });
-        }
+        checks.extend(noise_check);
 
         // Ratings: the stress at every corner, so none is available without all of them.
         if all_nominal {
