@@ -9,7 +9,7 @@ use super::{
 use crate::device::{Bjt, BjtAtT, Region};
 use crate::model::fanout::{self, Form, MAX_FORM_NODES, MAX_FORM_TRANSISTORS};
 use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass, MAX_OUTPUTS};
-use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
+use crate::solve::{self, lu_factor, lu_solve, Matrix, NewtonOptions, Vector, MAX_DIM};
 
 /// Absolute KCL floor as a fraction of the input current (see `solve_full`).
 /// 1e-12 of I_in: a thousandth of the relative tolerance applied to the input current.
@@ -762,7 +762,11 @@ impl Netlist {
         op: &OperatingPoint,
         opts: &SolveOptions,
     ) -> Result<Solution, SolveFailure> {
-        self.solve_full(op, opts).map(|(sol, _, _)| sol)
+        self.check_point(op)?;
+        let mut sys = CircuitSystem::new(self, *op);
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (x, iterations) = self.solve_system(op, opts, &mut sys, &mut jac)?;
+        Ok(sys.solution(&x, iterations))
     }
 
     /// Solves at `op` starting from `start`, the solution of a nearby circuit (the same
@@ -788,12 +792,14 @@ impl Netlist {
             let mut sys = CircuitSystem::new(self, *op);
             sys.thermal = opts.self_heating;
             let mut x = start.x;
-            let c = solve::solve(&sys, &mut x, &newton);
+            let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+            let (c, fresh) = solve::solve_in(&sys, &mut x, &newton, &mut jac);
             if c.is_converged() {
                 let nn = self.n_nodes;
                 let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-                let cool =
-                    !opts.self_heating || (t_max <= MAX_JUNCTION_K && sys.thermally_stable(&x));
+                let cool = !opts.self_heating
+                    || (t_max <= MAX_JUNCTION_K
+                        && sys.thermally_stable_with(&x, fresh.then_some(&mut jac)));
                 if cool {
                     return Ok(sys.solution(&x, c.iterations()));
                 }
@@ -809,34 +815,49 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<(Solution, CircuitSystem<'n>, Vector), SolveFailure> {
         self.check_point(op)?;
+        let mut sys = CircuitSystem::new(self, *op);
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (x, iterations) = self.solve_system(op, opts, &mut sys, &mut jac)?;
+        Ok((sys.solution(&x, iterations), sys, x))
+    }
+
+    /// The solve of a checked point in `sys` (`CircuitSystem::new(self, *op)`; left as
+    /// solved, thermal or not), with `jac` as the Newton runs' Jacobian storage: the
+    /// unknown vector and the iterations spent.
+    fn solve_system(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        sys: &mut CircuitSystem,
+        jac: &mut Matrix,
+    ) -> Result<(Vector, u32), SolveFailure> {
         let mut newton = NewtonOptions::default();
         // KCL is judged relative to the currents at each node; the absolute floor only
         // covers nodes where every current is tiny, so it scales with the input current
         // (1 pA on its own would be the whole current of a picoamp mirror).
         newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
-        let mut sys = CircuitSystem::new(self, *op);
         if self.r_ref.is_some() {
             // The start point needs a current: (V_rail - V_in) / R_ref with V_in from the
             // closed-form input voltage, iterated a few times.
-            sys.op.i_in_a = self.programmed_current_estimate(&sys);
+            sys.op.i_in_a = self.programmed_current_estimate(sys);
         }
-        let mut x = self.start_point(&sys);
+        let mut x = self.start_point(sys);
         let g_start = 100.0 * op.i_in_a / sys.at[0].vt;
-        let out = solve::solve_with_continuation(&sys, &mut x, &newton, g_start);
+        let out = solve::solve_with_continuation_in(&*sys, &mut x, &newton, g_start, jac);
         let mut iterations = out.iterations;
         if !out.convergence.is_converged() {
-            match self.solve_by_stepping(&mut sys, &newton) {
+            match self.solve_by_stepping(sys, &newton) {
                 Some((xs, its)) => {
                     x = xs;
                     iterations += its;
                 }
-                None => return Err(self.unsolved(&sys, out.convergence)),
+                None => return Err(self.unsolved(sys, out.convergence)),
             }
         }
         if opts.self_heating {
-            iterations += self.solve_thermal(&mut sys, &mut x, op, &newton)?;
+            iterations += self.solve_thermal(sys, &mut x, op, &newton, jac)?;
         }
-        Ok((sys.solution(&x, iterations), sys, x))
+        Ok((x, iterations))
     }
 
     /// Extends a converged isothermal solution to the electrothermal fixed point.
@@ -846,6 +867,7 @@ impl Netlist {
         x: &mut Vector,
         op: &OperatingPoint,
         newton: &NewtonOptions,
+        jac: &mut Matrix,
     ) -> Result<u32, SolveFailure> {
         let nn = self.n_nodes;
         let iso = *x;
@@ -872,7 +894,7 @@ impl Netlist {
             for i in 0..self.n_tr {
                 sys.at[i] = self.tr[i].bjt.at(t_start[i]);
             }
-            let c = solve::solve(&*sys, x, newton);
+            let c = solve::solve_in(&*sys, x, newton, jac).0;
             predictor_iterations = c.iterations();
             if c.is_converged() {
                 let t_second = self.heated(op.t_amb_k, &sys.powers(x));
@@ -887,10 +909,11 @@ impl Netlist {
         sys.thermal = true;
         x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
         let coupled_start = *x;
-        let first = solve::solve(&*sys, x, newton);
+        let (first, mut fresh) = solve::solve_in(&*sys, x, newton, jac);
         let mut iterations = predictor_iterations + first.iterations();
         let mut converged = first.is_converged();
         if !converged {
+            fresh = false;
             // Before the costly fallbacks: the bounding iteration proves most runaways
             // and brings the rest next to their fixed point (the least one, which the
             // circuit reaches warming up from the ambient; damped Newton and gmin
@@ -904,10 +927,13 @@ impl Netlist {
                 ThermalBound::Runaway(t) => return Err(runaway(t)),
                 ThermalBound::Near(xb) => {
                     *x = xb;
-                    let c = solve::solve(&*sys, x, newton);
+                    let (c, at_x) = solve::solve_in(&*sys, x, newton, jac);
                     iterations += c.iterations();
                     let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-                    if c.is_converged() && t_max <= MAX_JUNCTION_K && sys.thermally_stable(x) {
+                    if c.is_converged()
+                        && t_max <= MAX_JUNCTION_K
+                        && sys.thermally_stable_with(x, at_x.then_some(&mut *jac))
+                    {
                         return Ok(iterations);
                     }
                 }
@@ -951,7 +977,7 @@ impl Netlist {
             sys.theta_scale = 1.0;
         }
         let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-        if t_max > MAX_JUNCTION_K || !sys.thermally_stable(x) {
+        if t_max > MAX_JUNCTION_K || !sys.thermally_stable_with(x, fresh.then_some(jac)) {
             return Err(runaway(t_max));
         }
         Ok(iterations)

@@ -101,13 +101,16 @@ impl<'n> CircuitSystem<'n> {
         }
     }
 
+    /// Voltages by slot. The whole of `x` is copied, temperatures and unused entries
+    /// included: no slot reaches past the unknown nodes, and a fixed-size copy is a few
+    /// vector moves where a copy of `n_nodes` entries is a call to `memcpy`.
     #[inline]
     pub fn slot_voltages(&self, x: &Vector) -> [f64; MAX_DIM + FIRST_NODE] {
         let mut v = [0.0; MAX_DIM + FIRST_NODE];
         v[S_SLOT] = self.op.supply_v;
         v[OUT_SLOT] = self.op.v_out_v;
         v[P_SLOT] = self.op.rail_v.unwrap_or(0.0);
-        v[FIRST_NODE..FIRST_NODE + self.net.n_nodes].copy_from_slice(&x[..self.net.n_nodes]);
+        v[FIRST_NODE..].copy_from_slice(x);
         v
     }
 
@@ -153,15 +156,28 @@ impl<'n> CircuitSystem<'n> {
     /// found in one elimination of the Jacobian in place. A fixed point past the fold (or
     /// none at all) is thermal runaway.
     pub fn thermally_stable(&self, x: &Vector) -> bool {
+        self.thermally_stable_with(x, None)
+    }
+
+    /// `thermally_stable`, given the Jacobian at `x` where the caller has it (the one
+    /// Newton stopped on, `solve::solve_in`), which the test then overwrites.
+    pub fn thermally_stable_with(&self, x: &Vector, jac_at_x: Option<&mut Matrix>) -> bool {
         if !self.thermal {
             return true;
         }
         let n = self.dim();
-        let mut f = [0.0; MAX_DIM];
-        let mut s = [0.0; MAX_DIM];
-        let mut j = [[0.0; MAX_DIM]; MAX_DIM];
-        self.jacobian(x, &mut f, &mut s, &mut j);
-        schur_determinant_in_place(&mut j, self.net.n_nodes, n)
+        let mut own;
+        let j = match jac_at_x {
+            Some(j) => j,
+            None => {
+                let mut f = [0.0; MAX_DIM];
+                let mut s = [0.0; MAX_DIM];
+                own = [[0.0; MAX_DIM]; MAX_DIM];
+                self.jacobian(x, &mut f, &mut s, &mut own);
+                &mut own
+            }
+        };
+        schur_determinant_in_place(j, self.net.n_nodes, n)
             .is_some_and(|d| d.is_finite() && d > 0.0)
     }
 
