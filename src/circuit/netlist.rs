@@ -783,29 +783,58 @@ impl Netlist {
         opts: &SolveOptions,
         start: &super::Start,
     ) -> Result<Solution, SolveFailure> {
-        if start.self_heating == opts.self_heating && self.check_point(op).is_ok() {
-            let mut newton = NewtonOptions::default();
-            newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
-            // From a nearby solution Newton converges in a few steps or not at all (a
-            // build past the electrothermal fold): give up early and solve from scratch.
-            newton.max_iterations = NEAR_MAX_ITERATIONS;
-            let mut sys = CircuitSystem::new(self, *op);
-            sys.thermal = opts.self_heating;
-            let mut x = start.x;
-            let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
-            let (c, fresh) = solve::solve_in(&sys, &mut x, &newton, &mut jac);
-            if c.is_converged() {
-                let nn = self.n_nodes;
-                let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-                let cool = !opts.self_heating
-                    || (t_max <= MAX_JUNCTION_K
-                        && sys.thermally_stable_with(&x, fresh.then_some(&mut jac)));
-                if cool {
-                    return Ok(sys.solution(&x, c.iterations()));
-                }
-            }
+        match self.near(op, opts, start, |sys, x, its| sys.solution(x, its)) {
+            Some(sol) => Ok(sol),
+            None => self.solve(op, opts),
         }
-        self.solve(op, opts)
+    }
+
+    /// `solve_near` for a caller that needs output 1's current and the input current
+    /// alone (an error-budget build): the same solve, the same two numbers, without the
+    /// report of every node and transistor.
+    pub fn solve_near_output(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+    ) -> Result<(f64, f64), SolveFailure> {
+        match self.near(op, opts, start, |sys, x, _| sys.first_output_and_input(x)) {
+            Some(r) => Ok(r),
+            None => self.solve(op, opts).map(|s| (s.outputs()[0], s.i_in_a)),
+        }
+    }
+
+    /// The Newton run of `solve_near` from `start`: `done` applied to the converged,
+    /// accepted point, or `None` where `solve_near` falls back to `solve`.
+    fn near<R>(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+        done: impl FnOnce(&CircuitSystem, &Vector, u32) -> R,
+    ) -> Option<R> {
+        if start.self_heating != opts.self_heating || self.check_point(op).is_err() {
+            return None;
+        }
+        let mut newton = NewtonOptions::default();
+        newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
+        // From a nearby solution Newton converges in a few steps or not at all (a
+        // build past the electrothermal fold): give up early and solve from scratch.
+        newton.max_iterations = NEAR_MAX_ITERATIONS;
+        let mut sys = CircuitSystem::new(self, *op);
+        sys.thermal = opts.self_heating;
+        let mut x = start.x;
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (c, fresh) = solve::solve_in(&sys, &mut x, &newton, &mut jac);
+        if !c.is_converged() {
+            return None;
+        }
+        let nn = self.n_nodes;
+        let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+        let cool = !opts.self_heating
+            || (t_max <= MAX_JUNCTION_K
+                && sys.thermally_stable_with(&x, fresh.then_some(&mut jac)));
+        cool.then(|| done(&sys, &x, c.iterations()))
     }
 
     /// The solution, the system it was solved with and the unknown vector.
@@ -1186,6 +1215,26 @@ impl CircuitSystem<'_> {
                 self_heating: self.thermal,
             },
         }
+    }
+
+    /// Output 1's current and the input current at a converged `x`, exactly as
+    /// `solution` gives them (`Solution::outputs()[0]`, `Solution::i_in_a`).
+    pub(super) fn first_output_and_input(&self, x: &Vector) -> (f64, f64) {
+        let net = self.net;
+        let v = self.slot_voltages(x);
+        let mut out = 0.0;
+        for i in 0..net.n_tr {
+            let t = &net.tr[i];
+            if t.c == OUT_SLOT && t.output.max(1) == 1 {
+                let (vbe, vbc, vce) = (v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
+                out += self.device(i, x).eval_with_vce(vbe, vbc, vce).ic;
+            }
+        }
+        let i_in = match &net.r_ref {
+            Some(l) => (v[l.a] - v[l.b]) * self.ref_g,
+            None => self.op.i_in_a,
+        };
+        (out, i_in)
     }
 
     /// `1 / (dI_out/dV_out)` by implicit differentiation: the residual's entry past the last

@@ -177,8 +177,7 @@ impl<'n> CircuitSystem<'n> {
                 &mut own
             }
         };
-        schur_determinant_in_place(j, self.net.n_nodes, n)
-            .is_some_and(|d| d.is_finite() && d > 0.0)
+        schur_determinant_in_place(j, self.net.n_nodes, n).is_some_and(|d| d.is_finite() && d > 0.0)
     }
 
     fn eval(&self, x: &Vector, f: &mut Vector, scale: &mut Vector, mut jac: Option<&mut Matrix>) {

@@ -18,6 +18,6 @@ pub use lu::{
 };
 pub use newton::{
     newton_step, solve, solve_damped, solve_fallbacks, solve_in, solve_with_continuation,
-    solve_with_continuation_in, Convergence,
-    NewtonOptions, NonlinearSystem, Outcome, StepReport, Tolerance,
+    solve_with_continuation_in, Convergence, NewtonOptions, NonlinearSystem, Outcome, StepReport,
+    Tolerance,
 };
