@@ -8,7 +8,7 @@
 //! bisection, output resistance at every corner, the error budget and the hottest corner.
 
 use std::sync::atomic::{AtomicU64, Ordering};
-use std::sync::Mutex;
+use std::sync::{Mutex, OnceLock};
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -201,6 +201,13 @@ pub struct Evaluator<'a> {
     corners: Vec<OperatingCorner>,
     solves: &'a AtomicU64,
     memo: Mutex<CornerMemo>,
+    /// The nominal netlist and the error-budget builds' netlists, compiled once per
+    /// evaluator (a bound walk and the evaluation after it solve the same ones). Not
+    /// handed on with the memo: a family's members all wait in the search with their
+    /// memos, and seven netlists each would take megabytes where the solves take
+    /// kilobytes.
+    nominal_net: OnceLock<Result<Netlist, SolveFailure>>,
+    sens_nets: OnceLock<Result<Vec<(usize, Netlist)>, SolveFailure>>,
 }
 
 /// The nominal solve and the error-budget sensitivities a design already has at each of
@@ -246,12 +253,23 @@ impl<'a> Evaluator<'a> {
             corners,
             solves,
             memo: Mutex::new(memo),
+            nominal_net: OnceLock::new(),
+            sens_nets: OnceLock::new(),
         }
     }
 
     /// The corner solves made so far, for a later evaluator of the same design.
     pub fn into_memo(self) -> CornerMemo {
         self.memo.into_inner().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// The nominal design's netlist (`compile(&Mismatch::default(), NOMINAL)`), compiled
+    /// on first use.
+    fn nominal_net(&self) -> Result<&Netlist, SolveFailure> {
+        self.nominal_net
+            .get_or_init(|| self.compile(&Mismatch::default(), NOMINAL))
+            .as_ref()
+            .map_err(Clone::clone)
     }
 
     fn memo(&self) -> std::sync::MutexGuard<'_, CornerMemo> {
@@ -515,7 +533,7 @@ impl<'a> Evaluator<'a> {
     /// per mismatch input plus one). `None` when a solve fails.
     pub fn probe_bound(&self) -> Option<f64> {
         let c = corners::probe_corner(self.req);
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let net = self.nominal_net().ok()?;
         let nets = self.sensitivity_nets().ok()?;
         let (s0, start) = self.solve_net_start(&net, &c, true).ok()?;
         let d = self.sensitivities(&nets, &c, &s0, &start).ok()?;
@@ -527,7 +545,7 @@ impl<'a> Evaluator<'a> {
     /// are bit for bit the ones the accuracy check takes its maxima over). `None` when a
     /// solve fails.
     pub fn corner_errors(&self, corners: &[OperatingCorner]) -> Option<Vec<(f64, f64)>> {
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let net = self.nominal_net().ok()?;
         let nets = self.sensitivity_nets().ok()?;
         corners
             .iter()
@@ -574,9 +592,7 @@ impl<'a> Evaluator<'a> {
         from: (f64, f64),
     ) -> Result<(f64, (f64, f64)), CheckName> {
         let failed = |f: SolveFailure| failure_check(&f, "nominal design").name;
-        let net = self
-            .compile(&Mismatch::default(), NOMINAL)
-            .map_err(failed)?;
+        let net = self.nominal_net().map_err(failed)?;
         let nets = self.sensitivity_nets().map_err(failed)?;
         let k = self.req.confidence_sigma;
         let (mut sys, mut rnd) = from;
@@ -688,7 +704,7 @@ impl<'a> Evaluator<'a> {
         // Each build's solve at a corner starts where the nominal design's converged
         // there (a build is the nominal circuit moved by a few sigma); a corner whose
         // nominal solve fails starts every build from scratch, as before.
-        let starts: Vec<Option<Start>> = match self.compile(&Mismatch::default(), NOMINAL) {
+        let starts: Vec<Option<Start>> = match self.nominal_net() {
             Ok(net) => self
                 .corners
                 .iter()
@@ -806,9 +822,17 @@ impl<'a> Evaluator<'a> {
         outputs::output_scales(d.spec.topology, d.spec.shape, d.pair)
     }
 
-    /// One compiled netlist per mismatch input that exists, moved by +1 sigma.
-    fn sensitivity_nets(&self) -> Result<Vec<(usize, Netlist)>, SolveFailure> {
-        let mut nets = Vec::new();
+    /// One compiled netlist per mismatch input that exists, moved by +1 sigma (compiled
+    /// on first use).
+    fn sensitivity_nets(&self) -> Result<&[(usize, Netlist)], SolveFailure> {
+        self.sens_nets
+            .get_or_init(|| self.compile_sensitivity_nets())
+            .as_deref()
+            .map_err(Clone::clone)
+    }
+
+    fn compile_sensitivity_nets(&self) -> Result<Vec<(usize, Netlist)>, SolveFailure> {
+        let mut nets = Vec::with_capacity(budget::RANDOM_INPUTS);
         for (i, &sigma) in self.sigmas().iter().enumerate() {
             if sigma == 0.0 {
                 continue;
@@ -913,7 +937,7 @@ impl<'a> Evaluator<'a> {
             }
         }
         let nets = self
-            .compile(&Mismatch::default(), NOMINAL)
+            .nominal_net()
             .and_then(|n| self.sensitivity_nets().map(|s| (n, s)));
         let (net, sens_nets) = match nets {
             Ok(x) => x,
@@ -1530,7 +1554,7 @@ impl<'a> Evaluator<'a> {
     /// input (`tempco_slopes_of`; the steepest is the figure the tempco check judges),
     /// from the same solves as `evaluate`'s, bit for bit. `None` when one fails.
     pub fn tempco_slopes(&self) -> Option<Vec<f64>> {
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let net = self.nominal_net().ok()?;
         let points = self.tempco_points(&net, &[]).ok()?;
         Some(tempco_slopes_of(&points))
     }
