@@ -598,15 +598,22 @@ impl Netlist {
                 known[r.slot] = true;
             }
             for _ in 0..MAX_TRANSISTORS {
+                // A sweep that learns nothing leaves the next one nothing to learn.
+                let mut learned = false;
                 for i in 0..self.n_tr {
                     let t = &self.tr[i];
                     if known[t.e] && !known[t.b] {
                         v[t.b] = v[t.e] + vbe_at[i];
                         known[t.b] = true;
+                        learned = true;
                     } else if known[t.b] && !known[t.e] {
                         v[t.e] = v[t.b] - vbe_at[i];
                         known[t.e] = true;
+                        learned = true;
                     }
+                }
+                if !learned {
+                    break;
                 }
             }
             for i in 0..self.n_tr {

@@ -185,11 +185,13 @@ impl<'n> CircuitSystem<'n> {
         let nn = net.n_nodes;
         let n = self.dim();
         let v = self.slot_voltages(x);
-        f[..=n].fill(0.0);
-        scale[..=n].fill(0.0);
+        // Whole rows: a fixed-length fill is a few vector stores, one of `n + 1` entries
+        // a call to `memset` (entries past `n` are never read).
+        f.fill(0.0);
+        scale.fill(0.0);
         if let Some(j) = jac.as_deref_mut() {
             for row in j.iter_mut().take(n + 1) {
-                row[..=n].fill(0.0);
+                row.fill(0.0);
             }
         }
         if let Some(l) = &net.r_ref {
