@@ -735,11 +735,21 @@ pub fn build_page(inp: &DecisionInputs) -> Result<Page, PlotError> {
             title: "Error budget of the chosen design".into(),
             svg: plot::error_budget_svg(&budget, req.accuracy)?,
             caption: format!(
-                "At the worst corner: I_in {}, V_out {}, ambient {}. Systematic causes are signed and add up; random causes are 1 sigma and add in quadrature; the accuracy check uses systematic + {} sigma",
-                eng(b.i_in, "A", U),
+                "At the worst corner: {}, V_out {}, ambient {}. Systematic causes are signed and add up; random causes are 1 sigma and add in quadrature; the accuracy check uses systematic + {} sigma{}",
+                match b.rail {
+                    Some(v) => format!("rail {}", eng(v, "V", U)),
+                    None => format!("I_in {}", eng(b.i_in, "A", U)),
+                },
                 eng(b.v_out, "V", U),
                 celsius(b.t_amb_c + ZERO_CELSIUS_K, U),
-                req.confidence_sigma
+                req.confidence_sigma,
+                chosen_row
+                    .and_then(|c| super::rank::random_sigma_note(
+                        b.random_sigma,
+                        c.error_random_sigma,
+                        c.error_total
+                    ))
+                    .map_or(String::new(), |n| format!(". {}", n.trim_end_matches('.')))
             ),
         });
     }

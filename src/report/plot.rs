@@ -292,7 +292,16 @@ pub fn output_curves_svg(set: &CurveSet, title: Option<&str>) -> Result<String, 
     // Legends first: their strips take room below each chart.
     let mut top_legend = Legend::new();
     top_legend.add(Swatch::Fill(WINDOW_FILL), "required V_out window");
-    top_legend.add(Swatch::Fill(BAND_FILL), "required accuracy around n·I_in");
+    // A programmed design is drawn here with its input current forced at the wanted
+    // output over n; the rail family shows the current R_ref actually sets.
+    top_legend.add(
+        Swatch::Fill(BAND_FILL),
+        if set.output_wanted_a.is_some() {
+            "required accuracy around n·I_in (I_in forced; the rail plot has R_ref)"
+        } else {
+            "required accuracy around n·I_in"
+        },
+    );
     for &i in &currents {
         top_legend.add(
             Swatch::Line(color_of(i), 2),

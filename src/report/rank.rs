@@ -239,6 +239,22 @@ fn fixed(x: f64, decimals: usize) -> String {
     }
 }
 
+/// Why the budget's random total can differ from the accuracy check's: the check adds
+/// the largest random sigma over all corners (a bound, MODEL.md), which may belong to
+/// another corner than the worst systematic one the budget splits. `None` when the two
+/// agree to the printed precision.
+pub(crate) fn random_sigma_note(at_corner: f64, largest: f64, total: f64) -> Option<String> {
+    if !(at_corner.is_finite() && largest.is_finite()) || pct(at_corner) == pct(largest) {
+        return None;
+    }
+    Some(format!(
+        "The accuracy check adds the largest random sigma over all corners, {}, to the largest systematic error (total {}); at this corner the random sigma is {}.",
+        pct(largest),
+        pct(total),
+        pct(at_corner)
+    ))
+}
+
 fn pct(x: f64) -> String {
     if !x.is_finite() {
         return "—".into();
@@ -672,6 +688,9 @@ pub fn write_explanation(w: &mut dyn Write, e: &Explanation, style: Style) -> io
             pct(b.random_sigma),
         ]);
         writeln!(w, "{t}")?;
+        if let Some(note) = random_sigma_note(b.random_sigma, c.error_random_sigma, c.error_total) {
+            writeln!(w, "{}", wrap(&note, style.width))?;
+        }
     }
     if let Some(n) = &c.noise {
         write_noise(w, n, style)?;
@@ -834,6 +853,22 @@ pub fn write_cheaper(
                     "{}",
                     candidates_table(style, &rows, &[(label, saving), ("margin given up", given)])
                 )?;
+                // The margin is on the reference's governing check, which need not be
+                // the row's own governing check.
+                if let Some(g) = r
+                    .alternatives
+                    .first()
+                    .and_then(|a| a.reference_governing_check)
+                {
+                    writeln!(
+                        w,
+                        "{}",
+                        wrap(
+                            &format!("Margin given up: on {g}, the reference's governing check (negative: the design has more margin there than the reference)."),
+                            style.width
+                        )
+                    )?;
+                }
             }
             writeln!(
                 w,
@@ -891,6 +926,16 @@ fn csv(w: &mut dyn Write, rows: &[CandidateRow], extra: &[(&str, Vec<String>)]) 
 mod tests {
     use super::*;
     use crate::check::CheckName;
+
+    #[test]
+    fn the_budget_says_when_the_check_takes_another_corners_random_sigma() {
+        // Equal to the printed precision: nothing to explain.
+        assert_eq!(random_sigma_note(0.000777, 0.0007771, 0.0669), None);
+        let note = random_sigma_note(0.000771, 0.000935, 0.0696).unwrap();
+        assert!(note.contains("0.093 %"), "{note}");
+        assert!(note.contains("0.077 %"), "{note}");
+        assert!(note.contains("6.96 %"), "{note}");
+    }
 
     fn row() -> CandidateRow {
         CandidateRow {

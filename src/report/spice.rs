@@ -315,7 +315,7 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
     // The subcircuit.
     let _ = writeln!(
         o,
-        "* Pins: in = input (I_in forced into it, sink form), out = output, R = mirror rail,"
+        "* Pins: in = input (I_in flows into it, sink form), out = output, R = mirror rail,"
     );
     let _ = writeln!(
         o,
@@ -426,16 +426,17 @@ pub fn render(design: &SpiceDesign, req: &Requirement, prov: &Provenance) -> Str
             );
             let _ = writeln!(
                 o,
-                "* at the program rail's ends, {} and {}. VP is the program rail P, {} from the",
+                "* at the program rail's ends, {} and {} (nominal {}). VP is the program rail P,",
                 eng(p.rail_v.min, "V", a),
                 eng(p.rail_v.max, "V", a),
                 eng(p.rail_nominal_v(), "V", a)
             );
             let _ = writeln!(
                 o,
-                "* mirror rail; {} (R_ref) sets the input current from it. I_out = -I(VOUT).",
+                "* from the mirror rail, set to both ends by the .dc line; {} (R_ref) sets the",
                 e.designator
             );
+            o.push_str("* input current from it. I_out = -I(VOUT).\n");
         }
     }
     let ref_line = |o: &mut String, vp: &str| {

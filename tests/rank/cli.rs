@@ -191,7 +191,9 @@ fn cheaper_and_second_source() {
         ])
         .assert()
         .code(0)
-        .stdout(predicate::str::contains("cheaper design"));
+        .stdout(predicate::str::contains("cheaper design"))
+        // The margin column is on the reference's governing check; the table says which.
+        .stdout(predicate::str::contains("Margin given up: on "));
     let out = cmd()
         .args([
             "cheaper",
