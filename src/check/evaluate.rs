@@ -535,8 +535,8 @@ impl<'a> Evaluator<'a> {
         let c = corners::probe_corner(self.req);
         let net = self.nominal_net().ok()?;
         let nets = self.sensitivity_nets().ok()?;
-        let (s0, start) = self.solve_net_start(&net, &c, true).ok()?;
-        let d = self.sensitivities(&nets, &c, &s0, &start).ok()?;
+        let (s0, start) = self.solve_net_start(net, &c, true).ok()?;
+        let d = self.sensitivities(nets, &c, &s0, &start).ok()?;
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
@@ -550,8 +550,8 @@ impl<'a> Evaluator<'a> {
         corners
             .iter()
             .map(|c| {
-                let (s0, start) = self.solve_net_start(&net, c, true).ok()?;
-                let d = self.sensitivities(&nets, c, &s0, &start).ok()?;
+                let (s0, start) = self.solve_net_start(net, c, true).ok()?;
+                let d = self.sensitivities(nets, c, &s0, &start).ok()?;
                 Some((s0.error, budget::random_sigma(&d)))
             })
             .collect()
@@ -618,7 +618,7 @@ impl<'a> Evaluator<'a> {
             };
             let mut nominal = Vec::with_capacity(end - i);
             for c in &corners[i..end] {
-                let (s0, start) = self.nominal_at(&net, c).map_err(failed)?;
+                let (s0, start) = self.nominal_at(net, c).map_err(failed)?;
                 let one = std::slice::from_ref(&s0);
                 let broken = !ratings::vceo(self.design, one).pass
                     || !ratings::ic_max(self.design, one).pass
@@ -637,7 +637,7 @@ impl<'a> Evaluator<'a> {
                 let (d, complete) = match self.memo_sens(c) {
                     Some(d) => (d, true),
                     None => self
-                        .sensitivities_until(&nets, c, s0, start, stop)
+                        .sensitivities_until(nets, c, s0, start, stop)
                         .map_err(|(_, f)| failed(f))?,
                 };
                 if complete {
@@ -708,7 +708,7 @@ impl<'a> Evaluator<'a> {
             Ok(net) => self
                 .corners
                 .iter()
-                .map(|c| self.solve_net_start(&net, c, true).ok().map(|(_, st)| st))
+                .map(|c| self.solve_net_start(net, c, true).ok().map(|(_, st)| st))
                 .collect(),
             Err(_) => vec![None; self.corners.len()],
         };
@@ -957,10 +957,10 @@ impl<'a> Evaluator<'a> {
         for &i in &order {
             let c = self.corners[i];
             let nominal = if want_noise {
-                self.solve_net_noise(&net, &c)
+                self.solve_net_noise(net, &c)
                     .map(|(s, nz, st)| (s, Some(nz), st))
             } else {
-                self.nominal_at(&net, &c).map(|(s, st)| (s, None, st))
+                self.nominal_at(net, &c).map(|(s, st)| (s, None, st))
             };
             let (state, start) = match nominal {
                 Ok((s, nz, st)) => {
@@ -979,7 +979,7 @@ impl<'a> Evaluator<'a> {
             };
             let d = match self
                 .memo_sens(&c)
-                .map_or_else(|| self.sensitivities(&sens_nets, &c, &state, &start), Ok)
+                .map_or_else(|| self.sensitivities(sens_nets, &c, &state, &start), Ok)
             {
                 Ok(d) => d,
                 Err((input, f)) => {
@@ -1242,7 +1242,7 @@ impl<'a> Evaluator<'a> {
         if req.min_output_resistance_ohm.is_some() || depth == Depth::Full {
             for (i, s) in states.iter().enumerate() {
                 let Some(s) = s else { continue };
-                match self.output_resistance(&net, &s.corner) {
+                match self.output_resistance(net, &s.corner) {
                     Ok(r) => r_outs[i] = r,
                     Err(f) => push_failure(
                         &mut checks,
@@ -1330,7 +1330,7 @@ impl<'a> Evaluator<'a> {
         }
 
         // The output's temperature coefficient, for every design.
-        match self.tempco(&net, &solved) {
+        match self.tempco(net, &solved) {
             Ok((avg, worst)) => {
                 figures.tempco_per_k = avg;
                 figures.tempco_worst_per_k = worst;
@@ -1555,7 +1555,7 @@ impl<'a> Evaluator<'a> {
     /// from the same solves as `evaluate`'s, bit for bit. `None` when one fails.
     pub fn tempco_slopes(&self) -> Option<Vec<f64>> {
         let net = self.nominal_net().ok()?;
-        let points = self.tempco_points(&net, &[]).ok()?;
+        let points = self.tempco_points(net, &[]).ok()?;
         Some(tempco_slopes_of(&points))
     }
 
