@@ -206,29 +206,9 @@ pub fn resolve<'a>(
             "a programming resistor needs a resistor class (--rref-resistor)".into(),
         ));
     }
-    if spec.resistor_count() > 0 && resistor.is_none() {
-        return Err(DesignError::Resistors(
-            "emitter resistors need a resistor class (--resistor)".into(),
-        ));
-    }
+    emitter_resistors_valid(spec, resistor.is_some())?;
     let topology = spec.topology;
     let desc = topology.desc();
-    if spec.re1_ohm < 0.0 || spec.re2_ohm < 0.0 {
-        return Err(DesignError::Resistors(
-            "resistances must not be negative".into(),
-        ));
-    }
-    if !desc.has_re1 && spec.re1_ohm > 0.0 {
-        return Err(DesignError::Resistors(format!(
-            "the {} topology has no RE1",
-            desc.name
-        )));
-    }
-    if topology == Topology::Widlar && spec.re2_ohm <= 0.0 {
-        return Err(DesignError::Resistors(
-            "a Widlar mirror needs RE2 greater than zero".into(),
-        ));
-    }
     let form = fanout::form(topology, spec.shape)?;
     let needs_helper =
         helper_count(topology) > 0 && !helpers_fit_in_spares_for(topology, spec.shape, pair);
@@ -281,6 +261,78 @@ pub fn resolve<'a>(
         packages,
         cost,
     })
+}
+
+/// The checks of `resolve` that depend on the emitter resistors' values (the rest depend
+/// on the classes, the topology and the shape only).
+fn emitter_resistors_valid(spec: &DesignSpec, has_class: bool) -> Result<(), DesignError> {
+    if spec.resistor_count() > 0 && !has_class {
+        return Err(DesignError::Resistors(
+            "emitter resistors need a resistor class (--resistor)".into(),
+        ));
+    }
+    let desc = spec.topology.desc();
+    if spec.re1_ohm < 0.0 || spec.re2_ohm < 0.0 {
+        return Err(DesignError::Resistors(
+            "resistances must not be negative".into(),
+        ));
+    }
+    if !desc.has_re1 && spec.re1_ohm > 0.0 {
+        return Err(DesignError::Resistors(format!(
+            "the {} topology has no RE1",
+            desc.name
+        )));
+    }
+    if spec.topology == Topology::Widlar && spec.re2_ohm <= 0.0 {
+        return Err(DesignError::Resistors(
+            "a Widlar mirror needs RE2 greater than zero".into(),
+        ));
+    }
+    Ok(())
+}
+
+/// `resolve(catalog, spec).map_or_else(|_| spec.clone(), |d| d.spec)` for a `spec` that
+/// may differ from `raw`, resolved as `first`, in its emitter resistors' values only (the
+/// members of a search group): every other input of `resolve` is `raw`'s, so it succeeds
+/// exactly when `first` did and the value checks pass, and then fills in the same helper.
+/// A search rejects tens of thousands of candidates per requirement without solving
+/// them; this names each one without a catalog lookup, a package layout and their
+/// allocations. Any other `spec` is resolved.
+pub fn resolved_sibling(
+    catalog: &Catalog,
+    raw: &DesignSpec,
+    first: &ResolvedDesign,
+    spec: &DesignSpec,
+) -> DesignSpec {
+    // Destructured so that a new field cannot be left out of the comparison.
+    let DesignSpec {
+        topology,
+        pair,
+        helper,
+        re1_ohm: _,
+        re2_ohm: _,
+        resistor,
+        r_ref_ohm,
+        r_ref_resistor,
+        r_ref_pick,
+        shape,
+    } = spec;
+    let sibling = *topology == raw.topology
+        && *pair == raw.pair
+        && *helper == raw.helper
+        && *resistor == raw.resistor
+        && *r_ref_ohm == raw.r_ref_ohm
+        && *r_ref_resistor == raw.r_ref_resistor
+        && *r_ref_pick == raw.r_ref_pick
+        && *shape == raw.shape;
+    if !sibling {
+        return resolve(catalog, spec).map_or_else(|_| spec.clone(), |d| d.spec);
+    }
+    let mut out = spec.clone();
+    if emitter_resistors_valid(spec, first.resistor.is_some()).is_ok() {
+        out.helper.clone_from(&first.spec.helper);
+    }
+    out
 }
 
 /// Place every transistor of a multi-output or area-ratio form (`fanout::place`); helpers

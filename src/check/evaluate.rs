@@ -13,7 +13,7 @@
 //! yield would have been named before noise).
 
 use std::sync::atomic::{AtomicU64, Ordering};
-use std::sync::Mutex;
+use std::sync::{Mutex, OnceLock};
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -215,6 +215,13 @@ pub struct Evaluator<'a> {
     corners: Vec<OperatingCorner>,
     solves: &'a AtomicU64,
     memo: Mutex<CornerMemo>,
+    /// The nominal netlist and the error-budget builds' netlists, compiled once per
+    /// evaluator (a bound walk and the evaluation after it solve the same ones). Not
+    /// handed on with the memo: a family's members all wait in the search with their
+    /// memos, and seven netlists each would take megabytes where the solves take
+    /// kilobytes.
+    nominal_net: OnceLock<Result<Netlist, SolveFailure>>,
+    sens_nets: OnceLock<Result<Vec<(usize, Netlist)>, SolveFailure>>,
 }
 
 /// The nominal solve and the error-budget sensitivities a design already has at each of
@@ -260,12 +267,23 @@ impl<'a> Evaluator<'a> {
             corners,
             solves,
             memo: Mutex::new(memo),
+            nominal_net: OnceLock::new(),
+            sens_nets: OnceLock::new(),
         }
     }
 
     /// The corner solves made so far, for a later evaluator of the same design.
     pub fn into_memo(self) -> CornerMemo {
         self.memo.into_inner().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// The nominal design's netlist (`compile(&Mismatch::default(), NOMINAL)`), compiled
+    /// on first use.
+    fn nominal_net(&self) -> Result<&Netlist, SolveFailure> {
+        self.nominal_net
+            .get_or_init(|| self.compile(&Mismatch::default(), NOMINAL))
+            .as_ref()
+            .map_err(Clone::clone)
     }
 
     fn memo(&self) -> std::sync::MutexGuard<'_, CornerMemo> {
@@ -529,10 +547,10 @@ impl<'a> Evaluator<'a> {
     /// per mismatch input plus one). `None` when a solve fails.
     pub fn probe_bound(&self) -> Option<f64> {
         let c = corners::probe_corner(self.req);
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let net = self.nominal_net().ok()?;
         let nets = self.sensitivity_nets().ok()?;
-        let (s0, start) = self.solve_net_start(&net, &c, true).ok()?;
-        let d = self.sensitivities(&nets, &c, &s0, &start).ok()?;
+        let (s0, start) = self.solve_net_start(net, &c, true).ok()?;
+        let d = self.sensitivities(nets, &c, &s0, &start).ok()?;
         Some(s0.error.abs() + self.req.confidence_sigma * budget::random_sigma(&d))
     }
 
@@ -541,13 +559,13 @@ impl<'a> Evaluator<'a> {
     /// are bit for bit the ones the accuracy check takes its maxima over). `None` when a
     /// solve fails.
     pub fn corner_errors(&self, corners: &[OperatingCorner]) -> Option<Vec<(f64, f64)>> {
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
+        let net = self.nominal_net().ok()?;
         let nets = self.sensitivity_nets().ok()?;
         corners
             .iter()
             .map(|c| {
-                let (s0, start) = self.solve_net_start(&net, c, true).ok()?;
-                let d = self.sensitivities(&nets, c, &s0, &start).ok()?;
+                let (s0, start) = self.solve_net_start(net, c, true).ok()?;
+                let d = self.sensitivities(nets, c, &s0, &start).ok()?;
                 Some((s0.error, budget::random_sigma(&d)))
             })
             .collect()
@@ -588,9 +606,7 @@ impl<'a> Evaluator<'a> {
         from: (f64, f64),
     ) -> Result<(f64, (f64, f64)), CheckName> {
         let failed = |f: SolveFailure| failure_check(&f, "nominal design").name;
-        let net = self
-            .compile(&Mismatch::default(), NOMINAL)
-            .map_err(failed)?;
+        let net = self.nominal_net().map_err(failed)?;
         let nets = self.sensitivity_nets().map_err(failed)?;
         let k = self.req.confidence_sigma;
         let (mut sys, mut rnd) = from;
@@ -616,7 +632,7 @@ impl<'a> Evaluator<'a> {
             };
             let mut nominal = Vec::with_capacity(end - i);
             for c in &corners[i..end] {
-                let (s0, start) = self.nominal_at(&net, c).map_err(failed)?;
+                let (s0, start) = self.nominal_at(net, c).map_err(failed)?;
                 let one = std::slice::from_ref(&s0);
                 let broken = !ratings::vceo(self.design, one).pass
                     || !ratings::ic_max(self.design, one).pass
@@ -635,7 +651,7 @@ impl<'a> Evaluator<'a> {
                 let (d, complete) = match self.memo_sens(c) {
                     Some(d) => (d, true),
                     None => self
-                        .sensitivities_until(&nets, c, s0, start, stop)
+                        .sensitivities_until(nets, c, s0, start, stop)
                         .map_err(|(_, f)| failed(f))?,
                 };
                 if complete {
@@ -702,11 +718,11 @@ impl<'a> Evaluator<'a> {
         // Each build's solve at a corner starts where the nominal design's converged
         // there (a build is the nominal circuit moved by a few sigma); a corner whose
         // nominal solve fails starts every build from scratch, as before.
-        let starts: Vec<Option<Start>> = match self.compile(&Mismatch::default(), NOMINAL) {
+        let starts: Vec<Option<Start>> = match self.nominal_net() {
             Ok(net) => self
                 .corners
                 .iter()
-                .map(|c| self.solve_net_start(&net, c, true).ok().map(|(_, st)| st))
+                .map(|c| self.solve_net_start(net, c, true).ok().map(|(_, st)| st))
                 .collect(),
             Err(_) => vec![None; self.corners.len()],
         };
@@ -820,9 +836,17 @@ impl<'a> Evaluator<'a> {
         outputs::output_scales(d.spec.topology, d.spec.shape, d.pair)
     }
 
-    /// One compiled netlist per mismatch input that exists, moved by +1 sigma.
-    fn sensitivity_nets(&self) -> Result<Vec<(usize, Netlist)>, SolveFailure> {
-        let mut nets = Vec::new();
+    /// One compiled netlist per mismatch input that exists, moved by +1 sigma (compiled
+    /// on first use).
+    fn sensitivity_nets(&self) -> Result<&[(usize, Netlist)], SolveFailure> {
+        self.sens_nets
+            .get_or_init(|| self.compile_sensitivity_nets())
+            .as_deref()
+            .map_err(Clone::clone)
+    }
+
+    fn compile_sensitivity_nets(&self) -> Result<Vec<(usize, Netlist)>, SolveFailure> {
+        let mut nets = Vec::with_capacity(budget::RANDOM_INPUTS);
         for (i, &sigma) in self.sigmas().iter().enumerate() {
             if sigma == 0.0 {
                 continue;
@@ -869,9 +893,11 @@ impl<'a> Evaluator<'a> {
             self.solves.fetch_add(1, Ordering::Relaxed);
             // A +1 sigma build is the nominal circuit but for one small deviation: its
             // solve starts where the nominal one converged.
-            let sol = net.solve_near(&op, &opts, start).map_err(|f| (*i, f))?;
+            let (i_out, i_in) = net
+                .solve_near_output(&op, &opts, start)
+                .map_err(|f| (*i, f))?;
             // Output 1's devices (or a common part) moved: output 1's error.
-            s[*i] = self.error_of(sol.outputs()[0], sol.i_in_a) - nominal.output_errors[0];
+            s[*i] = self.error_of(i_out, i_in) - nominal.output_errors[0];
             if stop(budget::random_sigma(&s)) {
                 return Ok((s, false));
             }
@@ -925,7 +951,7 @@ impl<'a> Evaluator<'a> {
             }
         }
         let nets = self
-            .compile(&Mismatch::default(), NOMINAL)
+            .nominal_net()
             .and_then(|n| self.sensitivity_nets().map(|s| (n, s)));
         let (net, sens_nets) = match nets {
             Ok(x) => x,
@@ -945,10 +971,10 @@ impl<'a> Evaluator<'a> {
         for &i in &order {
             let c = self.corners[i];
             let nominal = if want_noise {
-                self.solve_net_noise(&net, &c)
+                self.solve_net_noise(net, &c)
                     .map(|(s, nz, st)| (s, Some(nz), st))
             } else {
-                self.nominal_at(&net, &c).map(|(s, st)| (s, None, st))
+                self.nominal_at(net, &c).map(|(s, st)| (s, None, st))
             };
             let (state, start) = match nominal {
                 Ok((s, nz, st)) => {
@@ -967,7 +993,7 @@ impl<'a> Evaluator<'a> {
             };
             let d = match self
                 .memo_sens(&c)
-                .map_or_else(|| self.sensitivities(&sens_nets, &c, &state, &start), Ok)
+                .map_or_else(|| self.sensitivities(sens_nets, &c, &state, &start), Ok)
             {
                 Ok(d) => d,
                 Err((input, f)) => {
@@ -1258,7 +1284,7 @@ impl<'a> Evaluator<'a> {
         if req.min_output_resistance_ohm.is_some() || depth == Depth::Full {
             for (i, s) in states.iter().enumerate() {
                 let Some(s) = s else { continue };
-                match self.output_resistance(&net, &s.corner) {
+                match self.output_resistance(net, &s.corner) {
                     Ok(r) => r_outs[i] = r,
                     Err(f) => push_failure(
                         &mut checks,
@@ -1327,7 +1353,7 @@ impl<'a> Evaluator<'a> {
         }
 
         // The output's temperature coefficient, for every design.
-        match self.tempco(&net, &solved) {
+        match self.tempco(net, &solved) {
             Ok((avg, worst)) => {
                 figures.tempco_per_k = avg;
                 figures.tempco_worst_per_k = worst;
@@ -1551,8 +1577,8 @@ impl<'a> Evaluator<'a> {
     /// input (`tempco_slopes_of`; the steepest is the figure the tempco check judges),
     /// from the same solves as `evaluate`'s, bit for bit. `None` when one fails.
     pub fn tempco_slopes(&self) -> Option<Vec<f64>> {
-        let net = self.compile(&Mismatch::default(), NOMINAL).ok()?;
-        let points = self.tempco_points(&net, &[]).ok()?;
+        let net = self.nominal_net().ok()?;
+        let points = self.tempco_points(net, &[]).ok()?;
         Some(tempco_slopes_of(&points))
     }
 

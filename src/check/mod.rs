@@ -31,7 +31,7 @@ pub use corners::{
 };
 pub use design::{
     helper_count, helpers_fit_in_spares, helpers_fit_in_spares_for, place, place_form, resolve,
-    DesignError, DesignSpec, Package, RefPick, ResolvedDesign,
+    resolved_sibling, DesignError, DesignSpec, Package, RefPick, ResolvedDesign,
 };
 pub use evaluate::{
     compliance_rule, tempco_of, CornerMemo, CornerRow, Depth, Evaluation, Evaluator, Figures,

@@ -9,7 +9,7 @@ use super::{
 use crate::device::{Bjt, BjtAtT, Region};
 use crate::model::fanout::{self, Form, MAX_FORM_NODES, MAX_FORM_TRANSISTORS};
 use crate::model::{Branch, EstimateInputs, Role, Topology, TransistorClass, MAX_OUTPUTS};
-use crate::solve::{self, lu_factor, lu_solve, NewtonOptions, Vector, MAX_DIM};
+use crate::solve::{self, lu_factor, lu_solve, Matrix, NewtonOptions, Vector, MAX_DIM};
 
 /// Absolute KCL floor as a fraction of the input current (see `solve_full`).
 /// 1e-12 of I_in: a thousandth of the relative tolerance applied to the input current.
@@ -598,15 +598,22 @@ impl Netlist {
                 known[r.slot] = true;
             }
             for _ in 0..MAX_TRANSISTORS {
+                // A sweep that learns nothing leaves the next one nothing to learn.
+                let mut learned = false;
                 for i in 0..self.n_tr {
                     let t = &self.tr[i];
                     if known[t.e] && !known[t.b] {
                         v[t.b] = v[t.e] + vbe_at[i];
                         known[t.b] = true;
+                        learned = true;
                     } else if known[t.b] && !known[t.e] {
                         v[t.e] = v[t.b] - vbe_at[i];
                         known[t.e] = true;
+                        learned = true;
                     }
+                }
+                if !learned {
+                    break;
                 }
             }
             for i in 0..self.n_tr {
@@ -762,7 +769,11 @@ impl Netlist {
         op: &OperatingPoint,
         opts: &SolveOptions,
     ) -> Result<Solution, SolveFailure> {
-        self.solve_full(op, opts).map(|(sol, _, _)| sol)
+        self.check_point(op)?;
+        let mut sys = CircuitSystem::new(self, *op);
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (x, iterations) = self.solve_system(op, opts, &mut sys, &mut jac)?;
+        Ok(sys.solution(&x, iterations))
     }
 
     /// Solves at `op` starting from `start`, the solution of a nearby circuit (the same
@@ -779,27 +790,58 @@ impl Netlist {
         opts: &SolveOptions,
         start: &super::Start,
     ) -> Result<Solution, SolveFailure> {
-        if start.self_heating == opts.self_heating && self.check_point(op).is_ok() {
-            let mut newton = NewtonOptions::default();
-            newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
-            // From a nearby solution Newton converges in a few steps or not at all (a
-            // build past the electrothermal fold): give up early and solve from scratch.
-            newton.max_iterations = NEAR_MAX_ITERATIONS;
-            let mut sys = CircuitSystem::new(self, *op);
-            sys.thermal = opts.self_heating;
-            let mut x = start.x;
-            let c = solve::solve(&sys, &mut x, &newton);
-            if c.is_converged() {
-                let nn = self.n_nodes;
-                let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-                let cool =
-                    !opts.self_heating || (t_max <= MAX_JUNCTION_K && sys.thermally_stable(&x));
-                if cool {
-                    return Ok(sys.solution(&x, c.iterations()));
-                }
-            }
+        match self.near(op, opts, start, |sys, x, its| sys.solution(x, its)) {
+            Some(sol) => Ok(sol),
+            None => self.solve(op, opts),
         }
-        self.solve(op, opts)
+    }
+
+    /// `solve_near` for a caller that needs output 1's current and the input current
+    /// alone (an error-budget build): the same solve, the same two numbers, without the
+    /// report of every node and transistor.
+    pub fn solve_near_output(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+    ) -> Result<(f64, f64), SolveFailure> {
+        match self.near(op, opts, start, |sys, x, _| sys.first_output_and_input(x)) {
+            Some(r) => Ok(r),
+            None => self.solve(op, opts).map(|s| (s.outputs()[0], s.i_in_a)),
+        }
+    }
+
+    /// The Newton run of `solve_near` from `start`: `done` applied to the converged,
+    /// accepted point, or `None` where `solve_near` falls back to `solve`.
+    fn near<R>(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        start: &super::Start,
+        done: impl FnOnce(&CircuitSystem, &Vector, u32) -> R,
+    ) -> Option<R> {
+        if start.self_heating != opts.self_heating || self.check_point(op).is_err() {
+            return None;
+        }
+        let mut newton = NewtonOptions::default();
+        newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
+        // From a nearby solution Newton converges in a few steps or not at all (a
+        // build past the electrothermal fold): give up early and solve from scratch.
+        newton.max_iterations = NEAR_MAX_ITERATIONS;
+        let mut sys = CircuitSystem::new(self, *op);
+        sys.thermal = opts.self_heating;
+        let mut x = start.x;
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (c, fresh) = solve::solve_in(&sys, &mut x, &newton, &mut jac);
+        if !c.is_converged() {
+            return None;
+        }
+        let nn = self.n_nodes;
+        let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
+        let cool = !opts.self_heating
+            || (t_max <= MAX_JUNCTION_K
+                && sys.thermally_stable_with(&x, fresh.then_some(&mut jac)));
+        cool.then(|| done(&sys, &x, c.iterations()))
     }
 
     /// The solution, the system it was solved with and the unknown vector.
@@ -809,34 +851,49 @@ impl Netlist {
         opts: &SolveOptions,
     ) -> Result<(Solution, CircuitSystem<'n>, Vector), SolveFailure> {
         self.check_point(op)?;
+        let mut sys = CircuitSystem::new(self, *op);
+        let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+        let (x, iterations) = self.solve_system(op, opts, &mut sys, &mut jac)?;
+        Ok((sys.solution(&x, iterations), sys, x))
+    }
+
+    /// The solve of a checked point in `sys` (`CircuitSystem::new(self, *op)`; left as
+    /// solved, thermal or not), with `jac` as the Newton runs' Jacobian storage: the
+    /// unknown vector and the iterations spent.
+    fn solve_system(
+        &self,
+        op: &OperatingPoint,
+        opts: &SolveOptions,
+        sys: &mut CircuitSystem,
+        jac: &mut Matrix,
+    ) -> Result<(Vector, u32), SolveFailure> {
         let mut newton = NewtonOptions::default();
         // KCL is judged relative to the currents at each node; the absolute floor only
         // covers nodes where every current is tiny, so it scales with the input current
         // (1 pA on its own would be the whole current of a picoamp mirror).
         newton.tolerance.abs = newton.tolerance.abs.min(KCL_FLOOR_OF_INPUT * op.i_in_a);
-        let mut sys = CircuitSystem::new(self, *op);
         if self.r_ref.is_some() {
             // The start point needs a current: (V_rail - V_in) / R_ref with V_in from the
             // closed-form input voltage, iterated a few times.
-            sys.op.i_in_a = self.programmed_current_estimate(&sys);
+            sys.op.i_in_a = self.programmed_current_estimate(sys);
         }
-        let mut x = self.start_point(&sys);
+        let mut x = self.start_point(sys);
         let g_start = 100.0 * op.i_in_a / sys.at[0].vt;
-        let out = solve::solve_with_continuation(&sys, &mut x, &newton, g_start);
+        let out = solve::solve_with_continuation_in(&*sys, &mut x, &newton, g_start, jac);
         let mut iterations = out.iterations;
         if !out.convergence.is_converged() {
-            match self.solve_by_stepping(&mut sys, &newton) {
+            match self.solve_by_stepping(sys, &newton) {
                 Some((xs, its)) => {
                     x = xs;
                     iterations += its;
                 }
-                None => return Err(self.unsolved(&sys, out.convergence)),
+                None => return Err(self.unsolved(sys, out.convergence)),
             }
         }
         if opts.self_heating {
-            iterations += self.solve_thermal(&mut sys, &mut x, op, &newton)?;
+            iterations += self.solve_thermal(sys, &mut x, op, &newton, jac)?;
         }
-        Ok((sys.solution(&x, iterations), sys, x))
+        Ok((x, iterations))
     }
 
     /// Extends a converged isothermal solution to the electrothermal fixed point.
@@ -846,6 +903,7 @@ impl Netlist {
         x: &mut Vector,
         op: &OperatingPoint,
         newton: &NewtonOptions,
+        jac: &mut Matrix,
     ) -> Result<u32, SolveFailure> {
         let nn = self.n_nodes;
         let iso = *x;
@@ -872,7 +930,7 @@ impl Netlist {
             for i in 0..self.n_tr {
                 sys.at[i] = self.tr[i].bjt.at(t_start[i]);
             }
-            let c = solve::solve(&*sys, x, newton);
+            let c = solve::solve_in(&*sys, x, newton, jac).0;
             predictor_iterations = c.iterations();
             if c.is_converged() {
                 let t_second = self.heated(op.t_amb_k, &sys.powers(x));
@@ -887,10 +945,11 @@ impl Netlist {
         sys.thermal = true;
         x[nn..nn + self.n_tr].copy_from_slice(&t_start[..self.n_tr]);
         let coupled_start = *x;
-        let first = solve::solve(&*sys, x, newton);
+        let (first, mut fresh) = solve::solve_in(&*sys, x, newton, jac);
         let mut iterations = predictor_iterations + first.iterations();
         let mut converged = first.is_converged();
         if !converged {
+            fresh = false;
             // Before the costly fallbacks: the bounding iteration proves most runaways
             // and brings the rest next to their fixed point (the least one, which the
             // circuit reaches warming up from the ambient; damped Newton and gmin
@@ -904,10 +963,13 @@ impl Netlist {
                 ThermalBound::Runaway(t) => return Err(runaway(t)),
                 ThermalBound::Near(xb) => {
                     *x = xb;
-                    let c = solve::solve(&*sys, x, newton);
+                    let (c, at_x) = solve::solve_in(&*sys, x, newton, jac);
                     iterations += c.iterations();
                     let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-                    if c.is_converged() && t_max <= MAX_JUNCTION_K && sys.thermally_stable(x) {
+                    if c.is_converged()
+                        && t_max <= MAX_JUNCTION_K
+                        && sys.thermally_stable_with(x, at_x.then_some(&mut *jac))
+                    {
                         return Ok(iterations);
                     }
                 }
@@ -951,7 +1013,7 @@ impl Netlist {
             sys.theta_scale = 1.0;
         }
         let t_max = (0..self.n_tr).map(|i| x[nn + i]).fold(op.t_amb_k, f64::max);
-        if t_max > MAX_JUNCTION_K || !sys.thermally_stable(x) {
+        if t_max > MAX_JUNCTION_K || !sys.thermally_stable_with(x, fresh.then_some(jac)) {
             return Err(runaway(t_max));
         }
         Ok(iterations)
@@ -1160,6 +1222,26 @@ impl CircuitSystem<'_> {
                 self_heating: self.thermal,
             },
         }
+    }
+
+    /// Output 1's current and the input current at a converged `x`, exactly as
+    /// `solution` gives them (`Solution::outputs()[0]`, `Solution::i_in_a`).
+    pub(super) fn first_output_and_input(&self, x: &Vector) -> (f64, f64) {
+        let net = self.net;
+        let v = self.slot_voltages(x);
+        let mut out = 0.0;
+        for i in 0..net.n_tr {
+            let t = &net.tr[i];
+            if t.c == OUT_SLOT && t.output.max(1) == 1 {
+                let (vbe, vbc, vce) = (v[t.b] - v[t.e], v[t.b] - v[t.c], v[t.c] - v[t.e]);
+                out += self.device(i, x).eval_with_vce(vbe, vbc, vce).ic;
+            }
+        }
+        let i_in = match &net.r_ref {
+            Some(l) => (v[l.a] - v[l.b]) * self.ref_g,
+            None => self.op.i_in_a,
+        };
+        (out, i_in)
     }
 
     /// `1 / (dI_out/dV_out)` by implicit differentiation: the residual's entry past the last

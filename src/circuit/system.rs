@@ -101,13 +101,16 @@ impl<'n> CircuitSystem<'n> {
         }
     }
 
+    /// Voltages by slot. The whole of `x` is copied, temperatures and unused entries
+    /// included: no slot reaches past the unknown nodes, and a fixed-size copy is a few
+    /// vector moves where a copy of `n_nodes` entries is a call to `memcpy`.
     #[inline]
     pub fn slot_voltages(&self, x: &Vector) -> [f64; MAX_DIM + FIRST_NODE] {
         let mut v = [0.0; MAX_DIM + FIRST_NODE];
         v[S_SLOT] = self.op.supply_v;
         v[OUT_SLOT] = self.op.v_out_v;
         v[P_SLOT] = self.op.rail_v.unwrap_or(0.0);
-        v[FIRST_NODE..FIRST_NODE + self.net.n_nodes].copy_from_slice(&x[..self.net.n_nodes]);
+        v[FIRST_NODE..].copy_from_slice(x);
         v
     }
 
@@ -153,16 +156,28 @@ impl<'n> CircuitSystem<'n> {
     /// found in one elimination of the Jacobian in place. A fixed point past the fold (or
     /// none at all) is thermal runaway.
     pub fn thermally_stable(&self, x: &Vector) -> bool {
+        self.thermally_stable_with(x, None)
+    }
+
+    /// `thermally_stable`, given the Jacobian at `x` where the caller has it (the one
+    /// Newton stopped on, `solve::solve_in`), which the test then overwrites.
+    pub fn thermally_stable_with(&self, x: &Vector, jac_at_x: Option<&mut Matrix>) -> bool {
         if !self.thermal {
             return true;
         }
         let n = self.dim();
-        let mut f = [0.0; MAX_DIM];
-        let mut s = [0.0; MAX_DIM];
-        let mut j = [[0.0; MAX_DIM]; MAX_DIM];
-        self.jacobian(x, &mut f, &mut s, &mut j);
-        schur_determinant_in_place(&mut j, self.net.n_nodes, n)
-            .is_some_and(|d| d.is_finite() && d > 0.0)
+        let mut own;
+        let j = match jac_at_x {
+            Some(j) => j,
+            None => {
+                let mut f = [0.0; MAX_DIM];
+                let mut s = [0.0; MAX_DIM];
+                own = [[0.0; MAX_DIM]; MAX_DIM];
+                self.jacobian(x, &mut f, &mut s, &mut own);
+                &mut own
+            }
+        };
+        schur_determinant_in_place(j, self.net.n_nodes, n).is_some_and(|d| d.is_finite() && d > 0.0)
     }
 
     fn eval(&self, x: &Vector, f: &mut Vector, scale: &mut Vector, mut jac: Option<&mut Matrix>) {
@@ -170,11 +185,13 @@ impl<'n> CircuitSystem<'n> {
         let nn = net.n_nodes;
         let n = self.dim();
         let v = self.slot_voltages(x);
-        f[..=n].fill(0.0);
-        scale[..=n].fill(0.0);
+        // Whole rows: a fixed-length fill is a few vector stores, one of `n + 1` entries
+        // a call to `memset` (entries past `n` are never read).
+        f.fill(0.0);
+        scale.fill(0.0);
         if let Some(j) = jac.as_deref_mut() {
             for row in j.iter_mut().take(n + 1) {
-                row[..=n].fill(0.0);
+                row.fill(0.0);
             }
         }
         if let Some(l) = &net.r_ref {

@@ -66,8 +66,9 @@ use super::space::Group;
 use std::sync::Mutex;
 
 use crate::check::{
-    input_corner, probe_corner, resolve, CheckName, CornerMemo, Depth, DesignError, DesignSpec,
-    Evaluation, Evaluator, MonteCarlo, OperatingCorner, RefSizes, ResolvedDesign, VCEO_DERATING,
+    input_corner, probe_corner, resolve, resolved_sibling, CheckName, CornerMemo, Depth,
+    DesignError, DesignSpec, Evaluation, Evaluator, MonteCarlo, OperatingCorner, RefSizes,
+    ResolvedDesign, VCEO_DERATING,
 };
 use crate::model::{Catalog, Requirement};
 
@@ -846,18 +847,22 @@ pub(super) fn screen_group(
     };
     // Every member of a group costs the same (resistor price does not depend on value).
     let cost = first.cost;
-    if req.max_cost.is_some_and(|max| cost > max) {
-        return reject(&g.specs, 0..n, CheckName::Cost, catalog);
-    }
+    let named = |s: &DesignSpec| resolved_sibling(catalog, &g.specs[0], &first, s);
     let survivors = |range: std::ops::Range<usize>| -> Vec<(DesignSpec, Outcome)> {
         g.specs[range]
             .iter()
-            .map(|s| {
-                let spec = resolve(catalog, s).map_or_else(|_| s.clone(), |d| d.spec);
-                (spec, Outcome::Survivor(cost))
-            })
+            .map(|s| (named(s), Outcome::Survivor(cost)))
             .collect()
     };
+    let reject = |range: std::ops::Range<usize>, check: CheckName| -> Vec<(DesignSpec, Outcome)> {
+        g.specs[range]
+            .iter()
+            .map(|s| (named(s), Outcome::Rejected(check)))
+            .collect()
+    };
+    if req.max_cost.is_some_and(|max| cost > max) {
+        return reject(0..n, CheckName::Cost);
+    }
     if n == 1 {
         return survivors(0..1);
     }
@@ -880,14 +885,9 @@ pub(super) fn screen_group(
             e.vbe_offset_bound().is_some_and(|b| b > req.accuracy)
         })
     });
-    let mut out = reject(&g.specs, 0..acc_start, CheckName::Accuracy, catalog);
+    let mut out = reject(0..acc_start, CheckName::Accuracy);
     if tempco_fails_throughout(req, catalog, g, acc_start..input_end, solves) {
-        out.extend(reject(
-            &g.specs,
-            acc_start..input_end,
-            CheckName::Tempco,
-            catalog,
-        ));
+        out.extend(reject(acc_start..input_end, CheckName::Tempco));
     } else if rating_screen && rating_screen_worthwhile(req, &first) {
         let at = input_corner(req);
         out.extend(g.specs[acc_start..input_end].iter().map(|s| {
@@ -902,18 +902,8 @@ pub(super) fn screen_group(
     } else {
         out.extend(survivors(acc_start..input_end));
     }
-    out.extend(reject(
-        &g.specs,
-        input_end..comp_end,
-        CheckName::InputVoltage,
-        catalog,
-    ));
-    out.extend(reject(
-        &g.specs,
-        comp_end..n,
-        CheckName::Compliance,
-        catalog,
-    ));
+    out.extend(reject(input_end..comp_end, CheckName::InputVoltage));
+    out.extend(reject(comp_end..n, CheckName::Compliance));
     out
 }
 
@@ -971,21 +961,6 @@ fn tempco_fails_throughout(
             .zip(&last)
             .any(|(a, b)| (*a > max && *b > max) || (*a < -max && *b < -max))
     })
-}
-
-fn reject(
-    specs: &[DesignSpec],
-    range: std::ops::Range<usize>,
-    check: CheckName,
-    catalog: &Catalog,
-) -> Vec<(DesignSpec, Outcome)> {
-    specs[range]
-        .iter()
-        .map(|s| {
-            let spec = resolve(catalog, s).map_or_else(|_| s.clone(), |d| d.spec);
-            (spec, Outcome::Rejected(check))
-        })
-        .collect()
 }
 
 /// Resolve a candidate, first sizing its programming resistor from the solved circuit

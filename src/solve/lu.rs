@@ -38,6 +38,14 @@ pub struct Pivots {
     pub sign: f64,
 }
 
+/// Swaps the leading `n` entries of rows `a < b` (the rest of a row is never read, and a
+/// whole-row swap moves `MAX_DIM` entries through `memcpy` for the handful in use).
+#[inline]
+fn swap_rows(m: &mut Matrix, a: usize, b: usize, n: usize) {
+    let (top, bottom) = m.split_at_mut(b);
+    top[a][..n].swap_with_slice(&mut bottom[0][..n]);
+}
+
 /// Factorises the leading `n x n` block of `a` in place (L below the diagonal, U on and
 /// above it); `None` when a pivot is exactly zero or not finite (singular matrix). The hot
 /// loop uses this form: no copy of the matrix.
@@ -61,7 +69,7 @@ pub fn lu_factor_in_place(m: &mut Matrix, n: usize) -> Option<Pivots> {
             return None;
         }
         if piv != k {
-            m.swap(piv, k);
+            swap_rows(m, k, piv, n);
             perm.swap(piv, k);
             sign = -sign;
         }
@@ -115,7 +123,7 @@ pub fn schur_determinant_in_place(m: &mut Matrix, k: usize, n: usize) -> Option<
             }
         }
         if piv != c {
-            m.swap(piv, c);
+            swap_rows(m, c, piv, n);
             if c >= k {
                 det = -det;
             }

@@ -17,6 +17,7 @@ pub use lu::{
     Matrix, Pivots, Vector, MAX_DIM,
 };
 pub use newton::{
-    newton_step, solve, solve_damped, solve_fallbacks, solve_with_continuation, Convergence,
-    NewtonOptions, NonlinearSystem, Outcome, StepReport, Tolerance,
+    newton_step, solve, solve_damped, solve_fallbacks, solve_in, solve_with_continuation,
+    solve_with_continuation_in, Convergence, NewtonOptions, NonlinearSystem, Outcome, StepReport,
+    Tolerance,
 };

@@ -179,22 +179,31 @@ pub fn solve<S: NonlinearSystem + ?Sized>(
     opts: &NewtonOptions,
 ) -> Convergence {
     let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+    solve_in(sys, x, opts, &mut jac).0
+}
+
+/// `solve` in the caller's Jacobian storage (its contents on entry do not matter: a
+/// matrix of `MAX_DIM^2` entries is worth zeroing once per circuit solve, not once per
+/// Newton run). The flag is true when the run converged and `jac` holds the
+/// (unfactorised) Jacobian at the returned `x`: the driver stops on a point whose
+/// Jacobian it has just evaluated, so a caller needing it there (a stability test) has it
+/// without evaluating it again.
+pub fn solve_in<S: NonlinearSystem + ?Sized>(
+    sys: &S,
+    x: &mut Vector,
+    opts: &NewtonOptions,
+    jac: &mut Matrix,
+) -> (Convergence, bool) {
     let mut last = f64::INFINITY;
     // The last loosely converged point, kept while polishing steps are tried.
     let mut loose: Option<(Vector, u32)> = None;
     let mut polishes = 0;
     for it in 0..=opts.max_iterations {
         let before = *x;
-        let r = step_inner(
-            sys,
-            x,
-            &opts.tolerance,
-            &mut jac,
-            polishes < MAX_POLISH_STEPS,
-        );
+        let r = step_inner(sys, x, &opts.tolerance, jac, polishes < MAX_POLISH_STEPS);
         match (r, loose) {
             (StepReport::Converged { .. }, _) => {
-                return Convergence::Converged { iterations: it };
+                return (Convergence::Converged { iterations: it }, true);
             }
             (StepReport::Polished, _) => {
                 loose = Some((before, it));
@@ -203,19 +212,25 @@ pub fn solve<S: NonlinearSystem + ?Sized>(
             (_, Some((x_loose, it_loose))) => {
                 // The polishing step did not land on a converged point: keep the checked one.
                 *x = x_loose;
-                return Convergence::Converged {
+                let c = Convergence::Converged {
                     iterations: it_loose,
                 };
+                return (c, false);
             }
             (StepReport::Stepped { residual }, None) => last = residual,
-            (StepReport::Singular, None) => return Convergence::Singular { iterations: it },
-            (StepReport::NotFinite, None) => return Convergence::NotFinite { iterations: it },
+            (StepReport::Singular, None) => {
+                return (Convergence::Singular { iterations: it }, false)
+            }
+            (StepReport::NotFinite, None) => {
+                return (Convergence::NotFinite { iterations: it }, false)
+            }
         }
     }
-    Convergence::MaxIterations {
+    let c = Convergence::MaxIterations {
         iterations: opts.max_iterations,
         residual: last,
-    }
+    };
+    (c, false)
 }
 
 /// Weighted residual norm: each equation in units of its own tolerance.
@@ -349,8 +364,21 @@ pub fn solve_with_continuation<S: NonlinearSystem + ?Sized>(
     opts: &NewtonOptions,
     g_start: f64,
 ) -> Outcome {
+    let mut jac = [[0.0; MAX_DIM]; MAX_DIM];
+    solve_with_continuation_in(sys, x, opts, g_start, &mut jac)
+}
+
+/// `solve_with_continuation` whose plain Newton runs in the caller's Jacobian storage
+/// (see `solve_in`).
+pub fn solve_with_continuation_in<S: NonlinearSystem + ?Sized>(
+    sys: &S,
+    x: &mut Vector,
+    opts: &NewtonOptions,
+    g_start: f64,
+    jac: &mut Matrix,
+) -> Outcome {
     let x0 = *x;
-    let first = solve(sys, x, opts);
+    let first = solve_in(sys, x, opts, jac).0;
     if first.is_converged() {
         return Outcome {
             convergence: first,
