@@ -450,6 +450,11 @@ impl Bar {
     pub(crate) fn finish(&self) {
         self.bar.finish_and_clear();
     }
+
+    #[cfg(test)]
+    fn position(&self) -> u64 {
+        self.bar.position()
+    }
 }
 
 impl Progress for Bar {
@@ -459,6 +464,13 @@ impl Progress for Bar {
 
     fn advance(&self, n: u64) {
         self.bar.inc(n);
+        // Callers may count a candidate twice (the board re-judges some to name their
+        // failure) and advance by the whole total to finish: the bar stops at its length.
+        if let Some(len) = self.bar.length() {
+            if self.bar.position() > len {
+                self.bar.set_position(len);
+            }
+        }
         if self.terminal && self.started.elapsed() > Duration::from_secs(1) {
             if let Ok(mut shown) = self.shown.lock() {
                 if !*shown {
@@ -467,5 +479,22 @@ impl Progress for Bar {
                 }
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod bar_tests {
+    use super::*;
+
+    #[test]
+    fn the_bar_never_passes_its_total() {
+        let b = Bar::new();
+        b.start(100);
+        b.advance(60);
+        assert_eq!(b.position(), 60);
+        b.advance(60);
+        assert_eq!(b.position(), 100);
+        b.advance(1000);
+        assert_eq!(b.position(), 100);
     }
 }
