@@ -73,13 +73,10 @@
 //!    failing verification costs a few solves, so on the shipped board this takes 20
 //!    rounds where one design at a time took 56.
 //!
-//! Verifications in steps 1 and 4 need pass or fail only, so they run at
-//! `Depth::Feasibility`: a design that has already failed a check is not given the
-//! re-solved Monte Carlo yield (a thousand builds), which made a design that fails
-//! `max_noise` cost as much as a feasible one. The verdict is the screen's; only the
-//! check a failure is counted under may differ, and that count is shown only for a
-//! channel without a feasible design, whose candidates are then judged again at the
-//! ranking's depth so its reason reads as before.
+//! Verifications in steps 1 and 4 run at the ranking's screen depth: a design that has
+//! already failed a check is not given the re-solved Monte Carlo yield (a thousand
+//! builds), so a design that fails `max_noise` costs a few solves, not as much as a
+//! feasible one.
 //!
 //! The board is then built from every verified feasible design only, so its optimum equals
 //! the full feed's (`tests/bom/fast_feed.rs` checks it on the shipped board and on random
@@ -110,7 +107,7 @@ use std::sync::atomic::AtomicU64;
 
 use super::problem::{BoardProblem, ChannelOptions, DesignUsage, ResistorUse};
 use crate::check::{
-    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, Depth, DesignSpec,
+    choose_r_ref, helper_count, helpers_fit_in_spares_for, resolve, CheckName, DesignSpec,
     Evaluation, MonteCarlo,
 };
 use crate::model::{BoardDesign, Catalog, Filters, Polarity, Requirement, ALL_TOPOLOGIES};
@@ -255,9 +252,6 @@ struct Cand {
     polarity: Polarity,
     /// `None` until verified; then the evaluation, or the check it failed.
     verdict: Option<Result<Evaluation, CheckName>>,
-    /// Whether a failed verdict names the check a screen would (`Depth::Feasibility`
-    /// may name another).
-    named: bool,
 }
 
 /// One channel's screen and verifications.
@@ -306,7 +300,6 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
         items,
         spec,
         verdict: None,
-        named: false,
     })
 }
 
@@ -317,7 +310,6 @@ fn verify_some(
     catalog: &Catalog,
     cands: &mut [Cand],
     idx: &[usize],
-    depth: Depth,
     mc: MonteCarlo,
     solves: &AtomicU64,
     progress: &dyn Progress,
@@ -331,11 +323,10 @@ fn verify_some(
         return;
     }
     let specs: Vec<&DesignSpec> = todo.iter().map(|&i| &cands[i].spec).collect();
-    let out = verify_each(req, catalog, &specs, depth, mc, solves);
+    let out = verify_each(req, catalog, &specs, mc, solves);
     progress.advance(todo.len() as u64);
     for (i, v) in todo.into_iter().zip(out) {
         cands[i].verdict = Some(v);
-        cands[i].named = depth != Depth::Feasibility;
     }
 }
 
@@ -387,16 +378,7 @@ fn fast_feed(
                 .iter()
                 .position(|&j| cands[j].share != share)
                 .map_or(order.len(), |p| i + p);
-            verify_some(
-                req,
-                catalog,
-                cands,
-                &order[i..end],
-                Depth::Feasibility,
-                mc,
-                &solves,
-                progress,
-            );
+            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 least[c] = Some(share);
                 break;
@@ -415,16 +397,7 @@ fn fast_feed(
                 .iter()
                 .position(|&j| costs[j] != level)
                 .map_or(order.len(), |p| i + p);
-            verify_some(
-                req,
-                catalog,
-                cands,
-                &order[i..end],
-                Depth::Feasibility,
-                mc,
-                &solves,
-                progress,
-            );
+            verify_some(req, catalog, cands, &order[i..end], mc, &solves, progress);
             if order[i..end].iter().any(|&j| is_feasible(&cands[j])) {
                 break;
             }
@@ -514,33 +487,6 @@ fn fast_feed(
             &mut screened,
             &kept,
             &bounds,
-            mc,
-            &solves,
-            progress,
-        );
-    }
-    // A channel without a feasible design is reported by the checks its candidates
-    // fail: those judged for pass or fail only are judged again as the ranking would.
-    for (req, (_, cands)) in reqs.iter().zip(screened.iter_mut()) {
-        let offered = |c: &Cand| match &c.verdict {
-            Some(Ok(ev)) => design_usage(&c.spec, ev, catalog).is_some(),
-            _ => false,
-        };
-        if cands.iter().any(offered) {
-            continue;
-        }
-        let unnamed: Vec<usize> = (0..cands.len())
-            .filter(|&i| cands[i].verdict.is_some() && !cands[i].named)
-            .collect();
-        for &i in &unnamed {
-            cands[i].verdict = None;
-        }
-        verify_some(
-            req,
-            catalog,
-            cands,
-            &unnamed,
-            Depth::Screen,
             mc,
             &solves,
             progress,
@@ -987,16 +933,7 @@ fn lazy_verify(
             next.sort_by(|&a, &b| bounds[c][a].total_cmp(&bounds[c][b]).then(a.cmp(&b)));
             next.truncate(NEXT_OFFERED);
             near.extend(next);
-            verify_some(
-                &reqs[c],
-                catalog,
-                cands,
-                &near,
-                Depth::Feasibility,
-                mc,
-                solves,
-                progress,
-            );
+            verify_some(&reqs[c], catalog, cands, &near, mc, solves, progress);
         }
     }
 }

@@ -6,11 +6,11 @@
 //! requirement (a valid lower bound: the total error is at least any one corner's
 //! `|e| + k*sigma`), `Verdict` judges every check, `Full` adds the compliance voltage by
 //! bisection, output resistance at every corner, the error budget and the hottest corner.
-//! `Feasibility` is `Screen` for a caller that needs pass or fail only (the board's lazy
-//! verification): a design that has already failed a check (compliance, input voltage,
-//! accuracy, noise) is not given the re-solved Monte Carlo yield, which costs a thousand
-//! builds. Its verdict is the same; the check it is counted under may differ (a failed
-//! yield would have been named before noise).
+//! A screen needs pass or fail and the first check that fails, so a design that has
+//! already failed a check (compliance, input voltage, accuracy, noise) is not given the
+//! re-solved Monte Carlo yield, which costs a thousand builds: it is rejected under the
+//! check it failed (a design failing both `max_noise` and `min_yield` is counted under
+//! noise). `Verdict` and `Full` judge every check.
 
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Mutex, OnceLock};
@@ -65,8 +65,6 @@ impl Default for MonteCarlo {
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
 pub enum Depth {
-    /// `Screen` without the costly checks once one has failed (module docs).
-    Feasibility,
     Screen,
     Verdict,
     Full,
@@ -75,7 +73,7 @@ pub enum Depth {
 impl Depth {
     /// Whether the evaluation stops at the first failure it proves.
     fn stops_early(self) -> bool {
-        matches!(self, Depth::Feasibility | Depth::Screen)
+        self == Depth::Screen
     }
 }
 
@@ -1207,7 +1205,7 @@ impl<'a> Evaluator<'a> {
                 Check::not_available(CheckName::Noise, limit.density_a_per_rthz, NEEDS_ALL)
             }
         });
-        if depth == Depth::Feasibility
+        if depth.stops_early()
             && (checks.iter().any(|c| !c.pass) || noise_check.as_ref().is_some_and(|c| !c.pass))
         {
             checks.extend(noise_check);

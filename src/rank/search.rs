@@ -219,15 +219,13 @@ pub fn screen_only(
     (rejected, survivors)
 }
 
-/// Verify each design as the search does (`Depth::Screen`: verdict depth, early stop at
-/// the first corner that breaks accuracy), or at `Depth::Feasibility` where only pass or
-/// fail counts, in parallel: the evaluation when feasible, else the check it fails. A
-/// design the catalog cannot resolve fails `no-solution`, as in the search.
+/// Verify each design as the search does (`Depth::Screen`: early stop at the first
+/// check that fails), in parallel: the evaluation when feasible, else the check it
+/// fails. A design the catalog cannot resolve fails `no-solution`, as in the search.
 pub fn verify_each(
     req: &Requirement,
     catalog: &Catalog,
     specs: &[&DesignSpec],
-    depth: Depth,
     mc: MonteCarlo,
     solves: &AtomicU64,
 ) -> Vec<Result<Evaluation, CheckName>> {
@@ -236,7 +234,7 @@ pub fn verify_each(
         .map(|spec| {
             let o = resolve(catalog, spec)
                 .ok()
-                .map(|d| outcome(Evaluator::new(req, &d, solves).evaluate(depth, mc)));
+                .map(|d| outcome(Evaluator::new(req, &d, solves).evaluate(Depth::Screen, mc)));
             match o {
                 Some(Outcome::Feasible(ev)) => Ok(*ev),
                 Some(Outcome::Rejected(c)) => Err(c),
