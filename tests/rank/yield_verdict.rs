@@ -4,8 +4,10 @@
 
 use std::sync::atomic::AtomicU64;
 
-use mirrorpick::check::{resolve, CheckName, Depth, Evaluator, MonteCarlo, YIELD_SCREEN_BAND};
-use mirrorpick::model::{Range, Series, Thermal, Topology};
+use mirrorpick::check::{
+    first_failure, resolve, CheckName, Depth, Evaluator, MonteCarlo, YIELD_SCREEN_BAND,
+};
+use mirrorpick::model::{NoiseBand, NoiseLimit, Range, Series, Thermal, Topology};
 use mirrorpick::rank::{check_design, enumerate};
 
 use super::*;
@@ -39,6 +41,45 @@ fn yield_check_uses_the_re_solved_yield_near_the_limit() {
     assert_eq!(y.value, solved);
     assert_eq!(y.pass, solved >= 0.5 * (lin + solved));
     assert!(y.detail.contains("re-solved"), "{}", y.detail);
+}
+
+#[test]
+fn a_screen_gives_no_re_solved_yield_to_a_design_that_already_failed() {
+    // The design of the test above, within a wider accuracy limit, with `min_yield` at
+    // its own first-order yield (so the yield would be re-solved) and a noise limit it cannot meet: the screen rejects
+    // it under noise without re-solving a build; the verdict depth re-solves them all
+    // and fails it too, so the screen's skip changes no verdict.
+    let cat = catalog(
+        vec![npn("pair", 2, 200.0, None, 3e-3)],
+        vec![resistor("r1", Series::E96, 0.01)],
+    );
+    let mut req = requirement(0.5);
+    let s = spec(Topology::Simple, "pair", 0.0, None);
+    let mc = MonteCarlo {
+        seed: 11,
+        samples: 1000,
+    };
+    let lin = check_design(&req, &cat, &s, mc, false)
+        .unwrap()
+        .candidate
+        .yield_fraction;
+    req.min_yield = Some(lin);
+    req.max_noise = Some(NoiseLimit {
+        density_a_per_rthz: 1e-18,
+        band: NoiseBand::White,
+    });
+    let d = resolve(&cat, &s).unwrap();
+    let (screened, judged) = (AtomicU64::new(0), AtomicU64::new(0));
+    let screen = Evaluator::new(&req, &d, &screened).evaluate(Depth::Screen, mc);
+    let verdict = Evaluator::new(&req, &d, &judged).evaluate(Depth::Verdict, mc);
+    assert_eq!(first_failure(&screen.checks), Some(CheckName::Noise));
+    assert!(screen.checks.iter().all(|c| c.name != CheckName::Yield));
+    assert!(first_failure(&verdict.checks).is_some());
+    let (screened, judged) = (screened.into_inner(), judged.into_inner());
+    assert!(
+        judged >= screened + u64::from(mc.samples),
+        "screen {screened} solves, verdict {judged}"
+    );
 }
 
 #[test]
