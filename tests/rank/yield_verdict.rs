@@ -12,6 +12,20 @@ use mirrorpick::rank::{check_design, enumerate};
 
 use super::*;
 
+/// A made-up demo class with a wide V_BE offset (3 mV sigma), a simple mirror of it
+/// without emitter resistors, and a thousand builds.
+fn wide_offset_pair() -> (Catalog, DesignSpec, MonteCarlo) {
+    let cat = catalog(
+        vec![npn("pair", 2, 200.0, None, 3e-3)],
+        vec![resistor("r1", Series::E96, 0.01)],
+    );
+    let mc = MonteCarlo {
+        seed: 11,
+        samples: 1000,
+    };
+    (cat, spec(Topology::Simple, "pair", 0.0, None), mc)
+}
+
 #[test]
 fn yield_check_uses_the_re_solved_yield_near_the_limit() {
     // A made-up demo class with a wide V_BE offset (3 mV sigma) and no emitter
@@ -19,16 +33,8 @@ fn yield_check_uses_the_re_solved_yield_near_the_limit() {
     // which propagates the +1 sigma secant linearly, and the re-solved one differ by a few
     // points at a limit a few sigma wide. A limit between them must follow the
     // re-solved one.
-    let cat = catalog(
-        vec![npn("pair", 2, 200.0, None, 3e-3)],
-        vec![resistor("r1", Series::E96, 0.01)],
-    );
+    let (cat, s, mc) = wide_offset_pair();
     let mut req = requirement(0.15);
-    let s = spec(Topology::Simple, "pair", 0.0, None);
-    let mc = MonteCarlo {
-        seed: 11,
-        samples: 1000,
-    };
     let free = check_design(&req, &cat, &s, mc, false).unwrap();
     let (lin, solved) = (free.candidate.yield_fraction, free.candidate.yield_solved);
     assert_ne!(
@@ -46,19 +52,11 @@ fn yield_check_uses_the_re_solved_yield_near_the_limit() {
 #[test]
 fn a_screen_gives_no_re_solved_yield_to_a_design_that_already_failed() {
     // The design of the test above, within a wider accuracy limit, with `min_yield` at
-    // its own first-order yield (so the yield would be re-solved) and a noise limit it cannot meet: the screen rejects
-    // it under noise without re-solving a build; the verdict depth re-solves them all
+    // its own first-order yield (so the yield would be re-solved) and a noise limit it
+    // cannot meet: the screen rejects it under noise without re-solving a build; the verdict depth re-solves them all
     // and fails it too, so the screen's skip changes no verdict.
-    let cat = catalog(
-        vec![npn("pair", 2, 200.0, None, 3e-3)],
-        vec![resistor("r1", Series::E96, 0.01)],
-    );
+    let (cat, s, mc) = wide_offset_pair();
     let mut req = requirement(0.5);
-    let s = spec(Topology::Simple, "pair", 0.0, None);
-    let mc = MonteCarlo {
-        seed: 11,
-        samples: 1000,
-    };
     let lin = check_design(&req, &cat, &s, mc, false)
         .unwrap()
         .candidate
