@@ -304,7 +304,6 @@ fn cand(spec: DesignSpec, catalog: &Catalog) -> Option<Cand> {
 }
 
 /// Verify the candidates `idx` of one channel (those not yet verified), in parallel.
-#[allow(clippy::too_many_arguments)]
 fn verify_some(
     req: &Requirement,
     catalog: &Catalog,
@@ -960,7 +959,6 @@ fn reduce_optimistic(
     values: usize,
     live: &[Vec<(usize, (usize, f64))>],
 ) -> Vec<Vec<bool>> {
-    use std::collections::HashMap;
     // The one channel that still uses each value, or `SHARED`.
     let mut owner = vec![NO_USER; values];
     for (c, l) in live.iter().enumerate() {
@@ -979,7 +977,9 @@ fn reduce_optimistic(
     // with the largest margin (ties: the first).
     let mut merged: Vec<Vec<(usize, f64)>> = Vec::new();
     for (c, l) in live.iter().enumerate() {
-        let mut at: HashMap<MergeKey, usize, Fx> = HashMap::default();
+        // Integer keys, not adversarial: the Fx hash (rustc-hash) costs a fraction of
+        // the default one here, run every round over tens of thousands of groups.
+        let mut at: rustc_hash::FxHashMap<MergeKey, usize> = Default::default();
         let mut out: Vec<(usize, f64)> = Vec::new();
         for &(k, (_, m)) in l {
             let (t, rs) = &shape[c][k];
@@ -1081,43 +1081,6 @@ fn reduce_optimistic(
             offer
         })
         .collect()
-}
-
-/// A small, fast hasher for the integer keys of [`reduce_optimistic`] (the multiply-rotate
-/// scheme of the Firefox hasher): the default one is built to resist adversarial keys,
-/// which these are not, and costs several times more.
-#[derive(Default, Clone, Copy)]
-struct Fx;
-
-impl std::hash::BuildHasher for Fx {
-    type Hasher = FxHasher;
-    fn build_hasher(&self) -> FxHasher {
-        FxHasher(0)
-    }
-}
-
-struct FxHasher(u64);
-
-impl std::hash::Hasher for FxHasher {
-    fn write(&mut self, bytes: &[u8]) {
-        for chunk in bytes.chunks(8) {
-            let mut b = [0u8; 8];
-            b[..chunk.len()].copy_from_slice(chunk);
-            self.write_u64(u64::from_le_bytes(b));
-        }
-    }
-    fn write_u32(&mut self, i: u32) {
-        self.write_u64(u64::from(i));
-    }
-    fn write_usize(&mut self, i: usize) {
-        self.write_u64(i as u64);
-    }
-    fn write_u64(&mut self, i: u64) {
-        self.0 = (self.0.rotate_left(5) ^ i).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-    }
-    fn finish(&self) -> u64 {
-        self.0
-    }
 }
 
 /// Margin given to a design not yet verified, so equal usages keep a verified design.

@@ -1,7 +1,7 @@
 //! Verify one candidate: solve it at every corner with self-heating, derive the figures
 //! and judge every check. The only file of `check` that calls the circuit solver.
 //!
-//! Four depths share one code path so a screened verdict and a full one can never
+//! Three depths share one code path so a screened verdict and a full one can never
 //! disagree: `Screen` stops at the first corner whose error already breaks the accuracy
 //! requirement (a valid lower bound: the total error is at least any one corner's
 //! `|e| + k*sigma`), `Verdict` judges every check, `Full` adds the compliance voltage by
@@ -68,13 +68,6 @@ pub enum Depth {
     Screen,
     Verdict,
     Full,
-}
-
-impl Depth {
-    /// Whether the evaluation stops at the first failure it proves.
-    fn stops_early(self) -> bool {
-        self == Depth::Screen
-    }
 }
 
 /// The figures a report shows for a candidate (SI units, errors as fractions).
@@ -983,7 +976,7 @@ impl<'a> Evaluator<'a> {
                     // A screen stops here; a verification goes on so every check that
                     // did not need this corner is still judged.
                     push_failure(&mut checks, failure_check(&f, "nominal design"));
-                    if depth.stops_early() {
+                    if depth == Depth::Screen {
                         return incomplete(cost, checks);
                     }
                     continue;
@@ -997,14 +990,14 @@ impl<'a> Evaluator<'a> {
                 Err((input, f)) => {
                     push_failure(&mut checks, failure_check(&f, budget_build(input)));
                     states[i] = Some(state);
-                    if depth.stops_early() {
+                    if depth == Depth::Screen {
                         return incomplete(cost, checks);
                     }
                     continue;
                 }
             };
             let bound = state.error.abs() + k * budget::random_sigma(&d);
-            if depth.stops_early() {
+            if depth == Depth::Screen {
                 // Each rating is judged on its worst corner, so one corner over a rating
                 // already fails it (and stops a screen before the costly corners).
                 let one = std::slice::from_ref(&state);
@@ -1022,7 +1015,7 @@ impl<'a> Evaluator<'a> {
             }
             states[i] = Some(state);
             sens[i] = Some(d);
-            if depth.stops_early() && bound > req.accuracy {
+            if depth == Depth::Screen && bound > req.accuracy {
                 checks.push(Check::at_most(
                     CheckName::Accuracy,
                     bound,
@@ -1205,7 +1198,7 @@ impl<'a> Evaluator<'a> {
                 Check::not_available(CheckName::Noise, limit.density_a_per_rthz, NEEDS_ALL)
             }
         });
-        if depth.stops_early()
+        if depth == Depth::Screen
             && (checks.iter().any(|c| !c.pass) || noise_check.as_ref().is_some_and(|c| !c.pass))
         {
             checks.extend(noise_check);

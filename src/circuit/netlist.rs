@@ -1197,12 +1197,11 @@ impl CircuitSystem<'_> {
                 output: t.output,
             };
         }
-        let (i_in, r_ref_power) = match &net.r_ref {
-            Some(l) => {
-                let i = (v[l.a] - v[l.b]) * self.ref_g;
-                (i, i * i / self.ref_g)
-            }
-            None => (self.op.i_in_a, 0.0),
+        let i_in = self.input_current(&v);
+        let r_ref_power = if net.r_ref.is_some() {
+            i_in * i_in / self.ref_g
+        } else {
+            0.0
         };
         Solution {
             i_out_a: outputs[0],
@@ -1237,11 +1236,16 @@ impl CircuitSystem<'_> {
                 out += self.device(i, x).eval_with_vce(vbe, vbc, vce).ic;
             }
         }
-        let i_in = match &net.r_ref {
+        (out, self.input_current(&v))
+    }
+
+    /// The input current from the slot voltages `v`: through R_ref where the mirror is
+    /// programmed, else the forced one.
+    fn input_current(&self, v: &[f64]) -> f64 {
+        match &self.net.r_ref {
             Some(l) => (v[l.a] - v[l.b]) * self.ref_g,
             None => self.op.i_in_a,
-        };
-        (out, i_in)
+        }
     }
 
     /// `1 / (dI_out/dV_out)` by implicit differentiation: the residual's entry past the last
